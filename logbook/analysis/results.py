@@ -1,0 +1,134 @@
+"""What the trend engine hands to the views, the plan and the exports (pure)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from datetime import date
+from enum import Enum
+
+from logbook.model import Kind, Limit
+
+
+class Outcome(str, Enum):
+    """How a (pump, reading kind) forecast came out; every case is explicit."""
+
+    PAST_LIMIT = "past_limit"  # latest normalized value is already beyond the limit
+    CROSSING = "crossing"  # a crossing is forecast: p10/p50/p90 are set
+    NO_CROSSING = "no_crossing"  # no trend toward the limit within the horizon
+    TOO_FEW = "too_few"  # not enough readings in the current segment
+    NO_LIMIT = "no_limit"  # the model has no limit for this kind
+    NO_DATA = "no_data"  # no reading of this kind at all
+
+
+OUTCOME_WORDS = {
+    Outcome.PAST_LIMIT: "past limit",
+    Outcome.CROSSING: "crossing forecast",
+    Outcome.NO_CROSSING: "no crossing in horizon",
+    Outcome.TOO_FEW: "too few readings",
+    Outcome.NO_LIMIT: "no limit set",
+    Outcome.NO_DATA: "no readings",
+}
+
+# Flags the engine may raise on a forecast.
+FLAG_OUTLIER = "outlier_dropped"  # a reading was down-weighted as a wild value
+FLAG_STEP = "step_detected"  # a sudden step (breakage?) rather than wear
+FLAG_POOLED = "pooled"  # the wear rate borrowed strength from the model's fleet
+FLAG_JUMP = "last_reading_jumped"  # the newest reading is far from the trend
+
+
+@dataclass(frozen=True)
+class FitDetail:
+    """Enough of the fit to draw it: points, which were used, the path and its band.
+
+    ``path`` is "linear" (y = a + b x) or "exponential" (y = exp(a + b x)) on the
+    trended value (for servo pressure the engine may fit the drop; ``band`` always
+    returns values on the reading's own scale).
+    """
+
+    x_hours: tuple[float, ...]  # operating hours since segment start, per reading
+    y_value: tuple[float, ...]  # normalized values
+    used: tuple[bool, ...]  # False where a reading was dropped as an outlier
+    path: str
+    params: tuple[float, ...]  # (a, b)
+    cov: tuple[tuple[float, float], tuple[float, float]]  # covariance of (a, b)
+    sigma: float  # residual standard deviation on the fitted scale
+    dof: int
+
+    def band(self, x: "list[float] | tuple[float, ...]", coverage: float = 0.8):
+        """(lower, middle, upper) prediction band on the reading's scale at hours ``x``."""
+        import numpy as np
+        from scipy import stats
+
+        xs = np.asarray(x, dtype=float)
+        a, b = self.params
+        mid = a + b * xs
+        var_mean = self.cov[0][0] + 2 * xs * self.cov[0][1] + xs * xs * self.cov[1][1]
+        se = np.sqrt(np.maximum(var_mean + self.sigma**2, 0.0))
+        t = stats.t.ppf(0.5 + coverage / 2, max(self.dof, 1))
+        lo, hi = mid - t * se, mid + t * se
+        if self.path == "exponential":
+            return np.exp(lo), np.exp(mid), np.exp(hi)
+        return lo, mid, hi
+
+
+@dataclass(frozen=True)
+class KindForecast:
+    """Forecast for one pump and one reading kind."""
+
+    serial: str
+    kind: Kind
+    limit: Limit | None
+    outcome: Outcome
+    latest_value: float | None  # normalized (reference conditions); drift as magnitude
+    latest_raw: float | None  # as measured, canonical units
+    latest_on: date | None
+    n_readings: int  # readings in the current segment
+    segment_start: date | None
+    hours_in_segment: float | None  # operating hours since segment start, today (estimated)
+    path: str  # "linear" | "exponential" | "none"
+    p10_hours: float | None  # remaining operating hours to the limit (from today)
+    p50_hours: float | None
+    p90_hours: float | None
+    p10_date: date | None
+    p50_date: date | None
+    p90_date: date | None
+    flags: frozenset[str] = frozenset()
+    fit: FitDetail | None = None
+    rate_per_1000h: float | None = None  # wear rate near today, units per 1000 h (sign as reading)
+
+    @property
+    def percent_of_limit(self) -> float | None:
+        if self.limit is None or self.latest_value is None or self.limit.value == 0:
+            return None
+        return 100.0 * self.latest_value / self.limit.value
+
+
+@dataclass(frozen=True)
+class PumpForecast:
+    """One pump in service: where it is and its forecasts, worst first."""
+
+    serial: str
+    model: str
+    machine: str | None
+    position: str | None
+    site: str | None
+    hours_since_overhaul: float | None
+    hours_per_day: float | None  # utilisation of the machine it sits in
+    kinds: tuple[KindForecast, ...]  # one per reading kind
+    worst: KindForecast | None = None  # the kind closest to its limit
+    status: str = ""  # words, from logbook.analysis.status
+    last_reading_on: date | None = None
+
+
+@dataclass(frozen=True)
+class FleetForecast:
+    today: date
+    pumps: tuple[PumpForecast, ...]
+    source: str = ""
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+    def pump(self, serial: str) -> PumpForecast | None:
+        for p in self.pumps:
+            if p.serial == serial:
+                return p
+        return None

@@ -1,0 +1,250 @@
+"""Domain records shared by every layer (stdlib only).
+
+All numbers are in canonical units: bar, L/min, degrees C, hours, cSt, rpm,
+cm^3/rev. Conversion to and from user units happens in ``logbook.units`` at the
+edges (CLI, import, TUI, exports), never here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from datetime import date, datetime
+from enum import Enum
+
+
+class Kind(str, Enum):
+    """The three wear readings the logbook trends."""
+
+    CASE_DRAIN = "case_drain"  # L/min, rises with wear
+    SERVO_PRESSURE = "servo_pressure"  # bar, falls with wear
+    NEUTRAL_DRIFT = "neutral_drift"  # bar (A-B difference at neutral), magnitude rises
+
+    @property
+    def label(self) -> str:
+        return KIND_LABELS[self]
+
+    @property
+    def unit(self) -> str:
+        return KIND_UNITS[self]
+
+
+KIND_LABELS = {
+    Kind.CASE_DRAIN: "case drain",
+    Kind.SERVO_PRESSURE: "servo pressure",
+    Kind.NEUTRAL_DRIFT: "neutral drift",
+}
+KIND_UNITS = {Kind.CASE_DRAIN: "L/min", Kind.SERVO_PRESSURE: "bar", Kind.NEUTRAL_DRIFT: "bar"}
+ALL_KINDS = (Kind.CASE_DRAIN, Kind.SERVO_PRESSURE, Kind.NEUTRAL_DRIFT)
+
+
+class EventKind(str, Enum):
+    """Things that happen to a pump or a machine between readings."""
+
+    OVERHAUL = "overhaul"  # pump rebuilt: new wear segment for every kind
+    EXCHANGE = "exchange"  # pump swapped for a rebuilt unit under the same serial: new segment
+    NEUTRAL_RESET = "neutral_reset"  # neutral re-adjusted: new segment for neutral drift only
+    CONTROL_REPAIR = "control_repair"  # control valve / servo repaired: new segment for servo pressure and drift
+    OIL_CHANGE = "oil_change"
+    MOVE = "move"  # pump moved to another machine or position
+    METER_REPLACED = "meter_replaced"  # machine hour meter replaced
+
+
+#: Which reading kinds restart their trend at an event.
+SEGMENT_RESETS: dict[EventKind, tuple[Kind, ...]] = {
+    EventKind.OVERHAUL: ALL_KINDS,
+    EventKind.EXCHANGE: ALL_KINDS,
+    EventKind.NEUTRAL_RESET: (Kind.NEUTRAL_DRIFT,),
+    EventKind.CONTROL_REPAIR: (Kind.SERVO_PRESSURE, Kind.NEUTRAL_DRIFT),
+}
+
+
+@dataclass(frozen=True)
+class Limit:
+    """A wear limit: ``direction`` is "above" (rising readings) or "below" (falling)."""
+
+    kind: Kind
+    value: float
+    direction: str  # "above" | "below"
+
+
+@dataclass(frozen=True)
+class PumpModel:
+    code: str
+    description: str
+    displacement_cc: float  # cm^3/rev, maximum
+    rated_pressure_bar: float
+    max_speed_rpm: float
+    ref_temp_c: float  # reference oil temperature for normalization
+    ref_pressure_bar: float  # reference test pressure for normalization
+    oil_grade: int  # ISO VG of the reference oil
+    oil_vi: float  # viscosity index of the reference oil
+    test_speed_rpm: float  # speed to test at
+    test_temp_min_c: float  # oil temperature window to test in
+    test_temp_max_c: float
+    reading_interval_hours: float | None  # a reading is due after this many operating hours
+    reading_interval_days: int | None  # ... or after this many calendar days
+    limits: tuple[Limit, ...] = ()
+
+    def limit(self, kind: Kind) -> Limit | None:
+        for lim in self.limits:
+            if lim.kind == kind:
+                return lim
+        return None
+
+
+@dataclass(frozen=True)
+class Machine:
+    unit: str  # the operator's unit number, e.g. "EX-07"
+    site: str
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Pump:
+    serial: str
+    model: str  # PumpModel.code
+    note: str = ""
+
+
+@dataclass(frozen=True)
+class Fitment:
+    """Pump ``serial`` sat in ``machine``/``position`` from ``fitted_on`` until ``removed_on``."""
+
+    id: int | None
+    serial: str
+    machine: str
+    position: str
+    fitted_on: date
+    removed_on: date | None
+    machine_hours_at_fit: float  # machine hour-meter reading when fitted
+    pump_hours_at_fit: float  # pump's own operating hours when fitted (0 for new)
+    machine_hours_at_removal: float | None = None
+
+
+@dataclass(frozen=True)
+class Reading:
+    id: int | None
+    serial: str
+    taken_on: date
+    machine_hours: float  # hour meter of the machine the pump sat in
+    case_drain_lpm: float | None = None
+    servo_pressure_bar: float | None = None
+    neutral_drift_bar: float | None = None  # signed A-B
+    charge_pressure_bar: float | None = None
+    oil_temp_c: float | None = None
+    test_pressure_bar: float | None = None
+    test_speed_rpm: float | None = None
+    oil_grade: int | None = None  # ISO VG; None = the model's reference oil
+    oil_vi: float | None = None
+    iso4406: str | None = None  # e.g. "18/16/13"
+    technician: str = ""
+    note: str = ""
+    entered_by: str = ""
+    entered_at: datetime | None = None
+    superseded_by: int | None = None  # id of the correcting reading, if corrected
+
+    def value(self, kind: Kind) -> float | None:
+        if kind is Kind.CASE_DRAIN:
+            return self.case_drain_lpm
+        if kind is Kind.SERVO_PRESSURE:
+            return self.servo_pressure_bar
+        return self.neutral_drift_bar
+
+
+@dataclass(frozen=True)
+class Event:
+    id: int | None
+    kind: EventKind
+    happened_on: date
+    serial: str | None = None  # pump events
+    machine: str | None = None  # machine the event happened on
+    hours: float | None = None  # machine hour meter at the event (old meter for meter_replaced)
+    to_machine: str | None = None  # move: target machine
+    to_position: str | None = None  # move: target position
+    to_hours: float | None = None  # move: target machine's meter; meter_replaced: new meter start
+    technician: str = ""
+    note: str = ""
+    entered_by: str = ""
+    entered_at: datetime | None = None
+
+
+@dataclass(frozen=True)
+class PumpHistory:
+    """Everything the analysis needs about one pump, in date order."""
+
+    pump: Pump
+    model: PumpModel
+    fitments: tuple[Fitment, ...]
+    readings: tuple[Reading, ...]  # current (not superseded) readings only
+    events: tuple[Event, ...]  # pump events and the meter replacements of its machines
+
+
+@dataclass(frozen=True)
+class Fleet:
+    """A whole-database snapshot handed from the store to the analysis."""
+
+    models: dict[str, PumpModel]
+    machines: dict[str, Machine]
+    pumps: dict[str, Pump]
+    fitments: tuple[Fitment, ...]
+    readings: tuple[Reading, ...]
+    events: tuple[Event, ...]
+    source: str = ""  # database path, for provenance lines
+    data_version: int = 0
+
+    def history(self, serial: str) -> PumpHistory:
+        pump = self.pumps[serial]
+        fits = tuple(sorted((f for f in self.fitments if f.serial == serial), key=lambda f: f.fitted_on))
+        machines = {f.machine for f in fits}
+        evs = tuple(
+            sorted(
+                (
+                    e
+                    for e in self.events
+                    if e.serial == serial or (e.kind is EventKind.METER_REPLACED and e.machine in machines)
+                ),
+                key=lambda e: (e.happened_on, e.id or 0),
+            )
+        )
+        reads = tuple(
+            sorted(
+                (r for r in self.readings if r.serial == serial and r.superseded_by is None),
+                key=lambda r: (r.taken_on, r.machine_hours),
+            )
+        )
+        return PumpHistory(pump=pump, model=self.models[pump.model], fitments=fits, readings=reads, events=evs)
+
+
+@dataclass
+class Problem:
+    """One thing wrong with an input: names the field, the value and what is allowed."""
+
+    field: str
+    value: object
+    allowed: str
+    unit: str = ""
+    line: int | None = None  # CSV line number, when from a file
+
+    def __str__(self) -> str:
+        where = f"line {self.line}: " if self.line is not None else ""
+        unit = f" {self.unit}" if self.unit else ""
+        return f"{where}{self.field} = {self.value!r}{unit}: {self.allowed}"
+
+
+class InputRejected(Exception):
+    """Raised with every problem found; nothing has been written."""
+
+    def __init__(self, problems: list[Problem]):
+        self.problems = list(problems)
+        super().__init__("; ".join(str(p) for p in self.problems))
+
+
+@dataclass(frozen=True)
+class ImportReport:
+    table: str
+    added: int = 0
+    already_present: int = 0
+    blank: int = 0
+    problems: list[Problem] = field(default_factory=list)
+    flagged: list[str] = field(default_factory=list)  # accepted, but worth a second look
+    dry_run: bool = False
