@@ -142,6 +142,7 @@ class Reading:
     entered_by: str = ""
     entered_at: datetime | None = None
     superseded_by: int | None = None  # id of the correcting reading, if corrected
+    machine: str | None = None  # machine the pump sat in when read (set by the store)
 
     def value(self, kind: Kind) -> float | None:
         if kind is Kind.CASE_DRAIN:

@@ -1,0 +1,242 @@
+"""Field domains and input checks (pure: no SQL, no UI).
+
+Every check returns ``Problem`` objects that name the field, the value as given,
+its unit and what is allowed. The store runs these before it writes anything.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from datetime import date
+
+from logbook import units
+from logbook.model import EventKind, Problem, PumpModel, Reading
+from logbook.units import Quantity
+
+#: ISO 3448 viscosity grades (mid-point kinematic viscosity at 40 C in cSt).
+ISO_VG_GRADES = (2, 3, 5, 7, 10, 15, 22, 32, 46, 68, 100, 150, 220, 320, 460, 680, 1000, 1500)
+
+EARLIEST_DATE = date(1970, 1, 1)
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """A numeric field: canonical range and the quantity its unit belongs to."""
+
+    name: str
+    quantity: Quantity
+    minimum: float
+    maximum: float
+    integer: bool = False
+    help: str = ""
+
+    def describe_range(self, unit: str | None = None) -> str:
+        unit = unit or self.quantity.canonical
+        lo = units.from_canonical(self.minimum, unit)
+        hi = units.from_canonical(self.maximum, unit)
+        u = f" {unit}" if unit else ""
+        return f"a number from {lo:g} to {hi:g}{u}"
+
+
+# Plausible domains of every numeric field (canonical units). Wide enough for any
+# mobile or industrial piston pump, narrow enough to catch a slipped decimal point
+# or a value typed into the wrong box (common practice, no published source).
+READING_FIELDS: dict[str, FieldSpec] = {
+    "machine_hours": FieldSpec("machine_hours", units.HOURS, 0, 500_000, help="machine hour meter"),
+    "case_drain": FieldSpec("case_drain", units.FLOW, 0, 400, help="case drain flow"),
+    "servo_pressure": FieldSpec("servo_pressure", units.PRESSURE, 0, 120, help="servo (control) pressure"),
+    "neutral_drift": FieldSpec("neutral_drift", units.PRESSURE, -150, 150, help="A-B pressure at neutral, signed"),
+    "charge_pressure": FieldSpec("charge_pressure", units.PRESSURE, 0, 120, help="charge pressure"),
+    "oil_temp": FieldSpec("oil_temp", units.TEMPERATURE, -30, 120, help="oil temperature during the test"),
+    "test_pressure": FieldSpec("test_pressure", units.PRESSURE, 5, 700, help="system pressure during the case drain test"),
+    "test_speed": FieldSpec("test_speed", units.SPEED, 100, 6000, help="pump speed during the test"),
+    "oil_vi": FieldSpec("oil_vi", units.NONE, 0, 400, help="viscosity index"),
+}
+
+MODEL_FIELDS: dict[str, FieldSpec] = {
+    "displacement": FieldSpec("displacement", units.DISPLACEMENT, 1, 3000),
+    "rated_pressure": FieldSpec("rated_pressure", units.PRESSURE, 20, 700),
+    "max_speed": FieldSpec("max_speed", units.SPEED, 100, 6000),
+    "ref_temp": FieldSpec("ref_temp", units.TEMPERATURE, 0, 110),
+    "ref_pressure": FieldSpec("ref_pressure", units.PRESSURE, 5, 700),
+    "oil_vi": FieldSpec("oil_vi", units.NONE, 0, 400),
+    "test_speed": FieldSpec("test_speed", units.SPEED, 100, 6000),
+    "test_temp_min": FieldSpec("test_temp_min", units.TEMPERATURE, -30, 120),
+    "test_temp_max": FieldSpec("test_temp_max", units.TEMPERATURE, -30, 120),
+    "reading_interval_hours": FieldSpec("reading_interval_hours", units.HOURS, 1, 100_000),
+    "reading_interval_days": FieldSpec("reading_interval_days", units.DAYS, 1, 3650, integer=True),
+    "case_drain_limit": FieldSpec("case_drain_limit", units.FLOW, 0.01, 400),
+    "servo_pressure_limit": FieldSpec("servo_pressure_limit", units.PRESSURE, 0.1, 120),
+    "neutral_drift_limit": FieldSpec("neutral_drift_limit", units.PRESSURE, 0.01, 150),
+}
+
+HOURS_FIELDS: dict[str, FieldSpec] = {
+    "hours": FieldSpec("hours", units.HOURS, 0, 500_000),
+    "to_hours": FieldSpec("to_hours", units.HOURS, 0, 500_000),
+    "machine_hours_at_fit": FieldSpec("machine_hours_at_fit", units.HOURS, 0, 500_000),
+    "pump_hours_at_fit": FieldSpec("pump_hours_at_fit", units.HOURS, 0, 500_000),
+}
+
+_NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")
+_ISO4406_RE = re.compile(r"^(\d{1,2}|-|\*)/(\d{1,2})/(\d{1,2})$")
+
+
+def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = None) -> tuple[float | None, Problem | None]:
+    """Parse and range-check a number given in ``unit``; returns (canonical value, problem)."""
+    if text is None or (isinstance(text, str) and text.strip() == ""):
+        return None, None
+    unit_id = unit if unit is not None else spec.quantity.canonical
+    shown_unit = unit_id
+    try:
+        value = float(text.strip() if isinstance(text, str) else text)
+    except (TypeError, ValueError):
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}", shown_unit)
+    if not math.isfinite(value):
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}", shown_unit)
+    if spec.integer and value != int(value):
+        return None, Problem(spec.name, text, "must be a whole number", shown_unit)
+    canonical = units.to_canonical(value, unit_id)
+    tolerance = 1e-9 * max(1.0, abs(spec.maximum))
+    if canonical < spec.minimum - tolerance or canonical > spec.maximum + tolerance:
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}", shown_unit)
+    return canonical, None
+
+
+def parse_date(field_name: str, text: str | date | None, today: date, required: bool = True) -> tuple[date | None, Problem | None]:
+    """An ISO 8601 date (YYYY-MM-DD), not in the future and not before 1970."""
+    if isinstance(text, date):
+        value = text
+    elif text is None or str(text).strip() == "":
+        if required:
+            return None, Problem(field_name, text or "", "is required: a date as YYYY-MM-DD")
+        return None, None
+    else:
+        try:
+            value = date.fromisoformat(str(text).strip())
+        except ValueError:
+            return None, Problem(field_name, text, "must be a date as YYYY-MM-DD (ISO 8601)")
+    if value > today:
+        return None, Problem(field_name, str(text), f"is in the future: dates up to today ({today.isoformat()}) are allowed")
+    if value < EARLIEST_DATE:
+        return None, Problem(field_name, str(text), f"must be on or after {EARLIEST_DATE.isoformat()}")
+    return value, None
+
+
+def parse_name(field_name: str, text: str | None, required: bool = True) -> tuple[str | None, Problem | None]:
+    """Identifiers (serials, unit numbers, model codes, sites, positions)."""
+    value = (text or "").strip()
+    if value == "":
+        if required:
+            return None, Problem(field_name, text or "", "is required")
+        return None, None
+    if not _NAME_RE.match(value):
+        return None, Problem(
+            field_name, text, "must be 1-40 characters: letters, digits, space and . _ / # - (starting with a letter or digit)"
+        )
+    return value, None
+
+
+def parse_oil_grade(text: str | int | None) -> tuple[int | None, Problem | None]:
+    if text is None or str(text).strip() == "":
+        return None, None
+    raw = str(text).strip().upper().removeprefix("ISO").strip().removeprefix("VG").strip()
+    try:
+        grade = int(raw)
+    except ValueError:
+        grade = -1
+    if grade not in ISO_VG_GRADES:
+        return None, Problem("oil_grade", text, "must be an ISO VG grade: " + ", ".join(str(g) for g in ISO_VG_GRADES))
+    return grade, None
+
+
+def parse_iso4406(text: str | None) -> tuple[str | None, Problem | None]:
+    """ISO 4406 code: three scale numbers (>=4, >=6, >=14 um(c)) like 18/16/13, each
+    0-28 and not increasing (a count at a larger size cannot exceed one at a smaller);
+    the first may be '-' or '*' when not counted."""
+    if text is None or text.strip() == "":
+        return None, None
+    value = text.strip()
+    allowed = "must be three ISO 4406 scale numbers 0-28 like 18/16/13, not increasing left to right"
+    m = _ISO4406_RE.match(value)
+    if not m:
+        return None, Problem("iso4406", text, allowed)
+    nums = [int(g) for g in m.groups() if g not in ("-", "*")]
+    if any(n > 28 for n in nums) or any(a < b for a, b in zip(nums, nums[1:])):
+        return None, Problem("iso4406", text, allowed)
+    return value, None
+
+
+def parse_event_kind(text: str | None) -> tuple[EventKind | None, Problem | None]:
+    value = (text or "").strip().lower().replace(" ", "_").replace("-", "_")
+    try:
+        return EventKind(value), None
+    except ValueError:
+        return None, Problem("kind", text, "must be one of: " + ", ".join(k.value for k in EventKind))
+
+
+def check_reading_against_model(reading: Reading, model: PumpModel) -> list[Problem]:
+    """Checks a reading needs its pump model for: physics and the test conditions."""
+    problems: list[Problem] = []
+    if reading.case_drain_lpm is None and reading.servo_pressure_bar is None and reading.neutral_drift_bar is None:
+        problems.append(
+            Problem("case_drain/servo_pressure/neutral_drift", "", "at least one of the three readings is required")
+        )
+    if reading.case_drain_lpm is not None:
+        for name, value in (
+            ("oil_temp", reading.oil_temp_c),
+            ("test_pressure", reading.test_pressure_bar),
+            ("test_speed", reading.test_speed_rpm),
+        ):
+            if value is None:
+                problems.append(Problem(name, "", "is required with a case drain reading (it is normalized to reference conditions)"))
+        speed = reading.test_speed_rpm if reading.test_speed_rpm is not None else model.test_speed_rpm
+        q_th = units.theoretical_flow_lpm(model.displacement_cc, speed)
+        if reading.case_drain_lpm > q_th:
+            problems.append(
+                Problem(
+                    "case_drain",
+                    round(reading.case_drain_lpm, 4),
+                    f"is above the pump's theoretical flow at {speed:g} rpm ({q_th:.1f} L/min for "
+                    f"{model.displacement_cc:g} cm3/rev); allowed up to {q_th:.1f}",
+                    "L/min",
+                )
+            )
+    if reading.test_speed_rpm is not None and reading.test_speed_rpm > model.max_speed_rpm * 1.15:
+        problems.append(
+            Problem("test_speed", reading.test_speed_rpm, f"is above the model's maximum speed {model.max_speed_rpm:g} rpm (+15 %)", "rpm")
+        )
+    if reading.test_pressure_bar is not None and reading.test_pressure_bar > model.rated_pressure_bar * 1.25:
+        problems.append(
+            Problem(
+                "test_pressure",
+                reading.test_pressure_bar,
+                f"is above the model's rated pressure {model.rated_pressure_bar:g} bar (+25 %)",
+                "bar",
+            )
+        )
+    return problems
+
+
+def check_hour_meter(
+    field_name: str, when: date, hours: float, earlier: tuple[date, float] | None, later: tuple[date, float] | None
+) -> Problem | None:
+    """The hour meter may not run backwards between the nearest earlier and later
+    records of the same machine (since the last meter replacement)."""
+    if earlier is not None and hours < earlier[1] - 1e-9:
+        return Problem(
+            field_name,
+            hours,
+            f"runs backwards: the machine read {earlier[1]:g} h on {earlier[0].isoformat()}; allowed {earlier[1]:g} h or more "
+            "(record a meter_replaced event if the hour meter was changed)",
+            "h",
+        )
+    if later is not None and hours > later[1] + 1e-9:
+        return Problem(
+            field_name,
+            hours,
+            f"is more than the {later[1]:g} h the machine read later, on {later[0].isoformat()}; allowed up to {later[1]:g} h",
+            "h",
+        )
+    return None
