@@ -9,6 +9,7 @@ new meter; records before it to the old one.
 
 from __future__ import annotations
 
+import bisect
 from datetime import date
 from typing import Iterable
 
@@ -47,3 +48,66 @@ def fitment_on(fitments: Iterable[Fitment], on: date) -> Fitment | None:
             if best is None or f.fitted_on >= best.fitted_on:
                 best = f
     return best
+
+
+class MeterTimeline:
+    """Hour-meter records of one machine, split into eras at meter replacements,
+    to tell whether a new record would make the meter run backwards."""
+
+    def __init__(self, replacement_dates: Iterable[date] = ()):
+        self.replacements = sorted(replacement_dates)
+        self._points: list[tuple[date, float]] = []
+        self._index: dict[int, tuple[list[date], list[float], list[float], list[float]]] | None = None
+
+    def era(self, on: date) -> int:
+        return sum(1 for d in self.replacements if d <= on)
+
+    def add(self, on: date, hours: float) -> None:
+        self._points.append((on, hours))
+        self._index = None
+
+    def add_replacement(self, on: date) -> None:
+        self.replacements = sorted([*self.replacements, on])
+        self._index = None
+
+    def _build(self) -> None:
+        by_era: dict[int, list[tuple[date, float]]] = {}
+        for point in self._points:
+            by_era.setdefault(self.era(point[0]), []).append(point)
+        index = {}
+        for era, points in by_era.items():
+            points.sort()
+            dates = [p[0] for p in points]
+            hours = [p[1] for p in points]
+            prefix_max, running = [], float("-inf")
+            for h in hours:
+                running = max(running, h)
+                prefix_max.append(running)
+            suffix_min, running = [0.0] * len(hours), float("inf")
+            for i in range(len(hours) - 1, -1, -1):
+                running = min(running, hours[i])
+                suffix_min[i] = running
+            index[era] = (dates, hours, prefix_max, suffix_min)
+        self._index = index
+
+    def neighbours(self, on: date) -> tuple[tuple[date, float] | None, tuple[date, float] | None]:
+        """(latest-dated record before ``on`` with the highest hours, record after ``on``
+        with the lowest hours) within the same meter era."""
+        if self._index is None:
+            self._build()
+        entry = self._index.get(self.era(on))
+        if not entry:
+            return None, None
+        dates, hours, prefix_max, suffix_min = entry
+        lo = bisect.bisect_left(dates, on)
+        hi = bisect.bisect_right(dates, on)
+        earlier = None
+        if lo > 0:
+            best = prefix_max[lo - 1]
+            earlier = (dates[hours.index(best, 0, lo)], best)
+        later = None
+        if hi < len(dates):
+            best = suffix_min[hi]
+            j = hours.index(best, hi)
+            later = (dates[j], best)
+        return earlier, later

@@ -249,3 +249,4 @@ class ImportReport:
     problems: list[Problem] = field(default_factory=list)
     flagged: list[str] = field(default_factory=list)  # accepted, but worth a second look
     dry_run: bool = False
+    ids: list[int] = field(default_factory=list)  # ids of the rows written (readings, events)

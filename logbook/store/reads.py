@@ -1,0 +1,193 @@
+"""Reading the database into domain records."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+
+from logbook.model import (
+    ALL_KINDS,
+    Event,
+    EventKind,
+    Fitment,
+    Fleet,
+    Kind,
+    Limit,
+    Machine,
+    Pump,
+    PumpHistory,
+    PumpModel,
+    Reading,
+)
+
+
+def _d(text: str | None) -> date | None:
+    return date.fromisoformat(text) if text else None
+
+
+def _dt(text: str | None) -> datetime | None:
+    return datetime.fromisoformat(text) if text else None
+
+
+def reading_from_row(row: dict) -> Reading:
+    return Reading(
+        id=row["id"],
+        serial=row["serial"],
+        taken_on=date.fromisoformat(row["taken_on"]),
+        machine_hours=row["machine_hours"],
+        case_drain_lpm=row["case_drain_lpm"],
+        servo_pressure_bar=row["servo_pressure_bar"],
+        neutral_drift_bar=row["neutral_drift_bar"],
+        charge_pressure_bar=row["charge_pressure_bar"],
+        oil_temp_c=row["oil_temp_c"],
+        test_pressure_bar=row["test_pressure_bar"],
+        test_speed_rpm=row["test_speed_rpm"],
+        oil_grade=row["oil_grade"],
+        oil_vi=row["oil_vi"],
+        iso4406=row["iso4406"],
+        technician=row["technician"],
+        note=row["note"],
+        entered_by=row["entered_by"],
+        entered_at=_dt(row["entered_at"]),
+        superseded_by=row["superseded_by"],
+        machine=row["machine"],
+    )
+
+
+def event_from_row(row: dict) -> Event:
+    return Event(
+        id=row["id"],
+        kind=EventKind(row["kind"]),
+        happened_on=date.fromisoformat(row["happened_on"]),
+        serial=row["serial"],
+        machine=row["machine"],
+        hours=row["hours"],
+        to_machine=row["to_machine"],
+        to_position=row["to_position"],
+        to_hours=row["to_hours"],
+        technician=row["technician"],
+        note=row["note"],
+        entered_by=row["entered_by"],
+        entered_at=_dt(row["entered_at"]),
+    )
+
+
+def fitment_from_row(row: dict) -> Fitment:
+    return Fitment(
+        id=row["id"],
+        serial=row["serial"],
+        machine=row["machine"],
+        position=row["position"],
+        fitted_on=date.fromisoformat(row["fitted_on"]),
+        removed_on=_d(row["removed_on"]),
+        machine_hours_at_fit=row["machine_hours_at_fit"],
+        pump_hours_at_fit=row["pump_hours_at_fit"],
+        machine_hours_at_removal=row["machine_hours_at_removal"],
+    )
+
+
+class ReadMixin:
+    """Queries returning dataclasses; no caller sees a row or SQL."""
+
+    def models(self) -> dict[str, PumpModel]:
+        limits: dict[str, list[Limit]] = {}
+        for row in self.db.query("SELECT model, kind, value, direction FROM limits ORDER BY model, kind"):
+            limits.setdefault(row["model"], []).append(Limit(Kind(row["kind"]), row["value"], row["direction"]))
+        order = {k: i for i, k in enumerate(ALL_KINDS)}
+        result = {}
+        for row in self.db.query("SELECT * FROM models ORDER BY code"):
+            lims = tuple(sorted(limits.get(row["code"], []), key=lambda lim: order[lim.kind]))
+            result[row["code"]] = PumpModel(
+                code=row["code"],
+                description=row["description"],
+                displacement_cc=row["displacement_cc"],
+                rated_pressure_bar=row["rated_pressure_bar"],
+                max_speed_rpm=row["max_speed_rpm"],
+                ref_temp_c=row["ref_temp_c"],
+                ref_pressure_bar=row["ref_pressure_bar"],
+                oil_grade=row["oil_grade"],
+                oil_vi=row["oil_vi"],
+                test_speed_rpm=row["test_speed_rpm"],
+                test_temp_min_c=row["test_temp_min_c"],
+                test_temp_max_c=row["test_temp_max_c"],
+                reading_interval_hours=row["reading_interval_hours"],
+                reading_interval_days=row["reading_interval_days"],
+                limits=lims,
+            )
+        return result
+
+    def machines(self) -> dict[str, Machine]:
+        return {
+            r["unit"]: Machine(r["unit"], r["site"], r["description"])
+            for r in self.db.query("SELECT * FROM machines ORDER BY unit")
+        }
+
+    def pumps(self) -> dict[str, Pump]:
+        return {r["serial"]: Pump(r["serial"], r["model"], r["note"]) for r in self.db.query("SELECT * FROM pumps ORDER BY serial")}
+
+    def fitments(self, serial: str | None = None, machine: str | None = None) -> list[Fitment]:
+        sql, params = "SELECT * FROM fitments", []
+        where = []
+        if serial is not None:
+            where.append("serial = ?")
+            params.append(serial)
+        if machine is not None:
+            where.append("machine = ?")
+            params.append(machine)
+        if where:
+            sql += " WHERE " + " AND ".join(where)
+        return [fitment_from_row(r) for r in self.db.query(sql + " ORDER BY fitted_on, id", params)]
+
+    def readings(self, serial: str | None = None, *, include_superseded: bool = False) -> list[Reading]:
+        sql, params = "SELECT * FROM readings", []
+        where = []
+        if serial is not None:
+            where.append("serial = ?")
+            params.append(serial)
+        if not include_superseded:
+            where.append("superseded_by IS NULL")
+        if where:
+            sql += " WHERE " + " AND ".join(where)
+        return [reading_from_row(r) for r in self.db.query(sql + " ORDER BY taken_on, machine_hours, id", params)]
+
+    def reading(self, reading_id: int) -> Reading | None:
+        rows = list(self.db.query("SELECT * FROM readings WHERE id = ?", [reading_id]))
+        return reading_from_row(rows[0]) if rows else None
+
+    def events(self, serial: str | None = None) -> list[Event]:
+        if serial is None:
+            rows = self.db.query("SELECT * FROM events ORDER BY happened_on, id")
+        else:
+            rows = self.db.query("SELECT * FROM events WHERE serial = ? ORDER BY happened_on, id", [serial])
+        return [event_from_row(r) for r in rows]
+
+    def fleet(self) -> Fleet:
+        """A consistent snapshot of everything, read in one transaction."""
+        self.conn.execute("BEGIN")
+        try:
+            fleet = Fleet(
+                models=self.models(),
+                machines=self.machines(),
+                pumps=self.pumps(),
+                fitments=tuple(self.fitments()),
+                readings=tuple(self.readings()),
+                events=tuple(self.events()),
+                source=self.path,
+                data_version=self.change_count(),
+            )
+        finally:
+            self.conn.execute("COMMIT")
+        return fleet
+
+    def history(self, serial: str) -> PumpHistory:
+        return self.fleet().history(serial)
+
+    def counts(self) -> dict[str, int]:
+        return {
+            table: self.db.table(table).count
+            for table in ("models", "machines", "pumps", "fitments", "readings", "events")
+        }
+
+    def audit_trail(self, serial: str | None = None) -> list[dict]:
+        if serial is None:
+            return list(self.db.query("SELECT * FROM audit ORDER BY id"))
+        return list(self.db.query("SELECT * FROM audit WHERE serial = ? ORDER BY id", [serial]))

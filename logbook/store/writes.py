@@ -1,0 +1,286 @@
+"""Validated writes. Every call checks all its records first, then writes them all
+in one transaction, or writes nothing and raises/reports every problem."""
+
+from __future__ import annotations
+
+import dataclasses
+from datetime import date
+from typing import Sequence
+
+from logbook import meter
+from logbook.model import (
+    Event,
+    EventKind,
+    Fitment,
+    ImportReport,
+    InputRejected,
+    Kind,
+    Limit,
+    Machine,
+    Problem,
+    Pump,
+    PumpModel,
+    Reading,
+)
+from logbook.store.reads import fitment_from_row
+from logbook.validate import check_hour_meter, check_reading_against_model
+
+MODEL_COLUMNS = (
+    "code description displacement_cc rated_pressure_bar max_speed_rpm ref_temp_c ref_pressure_bar oil_grade oil_vi "
+    "test_speed_rpm test_temp_min_c test_temp_max_c reading_interval_hours reading_interval_days"
+).split()
+READING_COLUMNS = (
+    "serial taken_on machine machine_hours case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar "
+    "oil_temp_c test_pressure_bar test_speed_rpm oil_grade oil_vi iso4406 technician note entered_by entered_at import_id"
+).split()
+EVENT_COLUMNS = (
+    "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id"
+).split()
+
+
+def _line(lines: Sequence[int] | None, i: int) -> int | None:
+    return lines[i] if lines is not None else None
+
+
+def _with_line(problems: list[Problem], line: int | None) -> list[Problem]:
+    for p in problems:
+        p.line = line
+    return problems
+
+
+def _same_model(a: PumpModel, b: PumpModel) -> bool:
+    return dataclasses.astuple(a) == dataclasses.astuple(b)
+
+
+class WriteMixin:
+    """Adds, corrections and edits; the only place rows are written."""
+
+    # -- small context readers ----------------------------------------------------
+    def _timeline(self, machine: str) -> meter.MeterTimeline:
+        """Every hour-meter record of a machine (current readings, events, fitments)."""
+        reps = [
+            date.fromisoformat(r[0])
+            for r in self.conn.execute(
+                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ?", (machine,)
+            )
+        ]
+        tl = meter.MeterTimeline(reps)
+        for on, hours in self.conn.execute(
+            "SELECT taken_on, machine_hours FROM readings WHERE machine = ? AND superseded_by IS NULL", (machine,)
+        ):
+            tl.add(date.fromisoformat(on), hours)
+        for on, hours in self.conn.execute(
+            "SELECT happened_on, hours FROM events WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced'",
+            (machine,),
+        ):
+            tl.add(date.fromisoformat(on), hours)
+        for on, hours in self.conn.execute(
+            "SELECT happened_on, to_hours FROM events WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move'",
+            (machine,),
+        ):
+            tl.add(date.fromisoformat(on), hours)
+        for on, hours in self.conn.execute(
+            "SELECT fitted_on, machine_hours_at_fit FROM fitments WHERE machine = ?", (machine,)
+        ):
+            tl.add(date.fromisoformat(on), hours)
+        return tl
+
+    def _fitments_of(self, serial: str) -> list[Fitment]:
+        return [
+            fitment_from_row(dict(zip([c[0] for c in cur.description], row)))
+            for cur in [self.conn.execute("SELECT * FROM fitments WHERE serial = ? ORDER BY fitted_on, id", (serial,))]
+            for row in cur.fetchall()
+        ]
+
+    def _report(self, table: str, dry_run: bool, added: int, present: int, problems: list[Problem], flagged=None) -> ImportReport:
+        return ImportReport(table, added=added, already_present=present, problems=problems, flagged=list(flagged or []), dry_run=dry_run)
+
+    # -- models and limits -------------------------------------------------------
+    def add_models(self, models: Sequence[PumpModel], *, lines: Sequence[int] | None = None, dry_run: bool = False) -> ImportReport:
+        existing = self.models()
+        problems, new, present, seen = [], [], 0, set()
+        for i, m in enumerate(models):
+            if m.code in seen:
+                problems.append(Problem("model", m.code, "appears twice in this file", line=_line(lines, i)))
+                continue
+            seen.add(m.code)
+            old = existing.get(m.code)
+            if old is not None:
+                if _same_model(old, m):
+                    present += 1
+                else:
+                    problems.append(
+                        Problem("model", m.code, "already exists with other values; change it with `logbook model set` "
+                                "so the change is audited", line=_line(lines, i))
+                    )
+                continue
+            problems += _with_line(self._check_model(m), _line(lines, i))
+            new.append(m)
+        if problems or dry_run:
+            return self._report("models", dry_run, 0 if problems else len(new), present, problems)
+        with self.transaction():
+            for m in new:
+                self._insert_model(m)
+        return self._report("models", dry_run, len(new), present, problems)
+
+    @staticmethod
+    def _check_model(m: PumpModel) -> list[Problem]:
+        problems = []
+        if m.test_temp_min_c > m.test_temp_max_c:
+            problems.append(Problem("test_temp_min", m.test_temp_min_c, f"must not exceed test_temp_max ({m.test_temp_max_c:g} C)", "C"))
+        if m.test_speed_rpm > m.max_speed_rpm * 1.15:
+            problems.append(Problem("test_speed", m.test_speed_rpm, f"must not exceed max_speed {m.max_speed_rpm:g} rpm (+15 %)", "rpm"))
+        for lim in m.limits:
+            want = "below" if lim.kind is Kind.SERVO_PRESSURE else "above"
+            if lim.direction != want:
+                problems.append(Problem(f"{lim.kind.value}_limit", lim.direction, f"direction must be '{want}'"))
+        return problems
+
+    def _insert_model(self, m: PumpModel) -> None:
+        row = {c: getattr(m, c) for c in MODEL_COLUMNS}
+        self.conn.execute(
+            f"INSERT INTO models ({', '.join(MODEL_COLUMNS)}) VALUES ({', '.join('?' * len(MODEL_COLUMNS))})",
+            [row[c] for c in MODEL_COLUMNS],
+        )
+        for lim in m.limits:
+            self.conn.execute(
+                "INSERT INTO limits (model, kind, value, direction) VALUES (?,?,?,?)",
+                (m.code, lim.kind.value, lim.value, lim.direction),
+            )
+        self._audit("insert", "models", m.code, None, None, dataclasses.asdict(m))
+
+    def update_model(self, code: str, **changes) -> PumpModel:
+        """Change a model's reference conditions, interval or limits (``limits`` as a
+        tuple of Limit). Audited with before and after."""
+        old = self.models().get(code)
+        if old is None:
+            raise InputRejected([Problem("model", code, "is not a known pump model")])
+        unknown = set(changes) - set(MODEL_COLUMNS) - {"limits"} - {"description"}
+        if unknown or "code" in changes:
+            raise InputRejected([Problem("field", sorted(unknown | ({"code"} & set(changes))), "cannot be changed here")])
+        new = dataclasses.replace(old, **changes)
+        problems = self._check_model(new)
+        if problems:
+            raise InputRejected(problems)
+        with self.transaction():
+            sets = [c for c in MODEL_COLUMNS if c != "code"]
+            self.conn.execute(
+                f"UPDATE models SET {', '.join(f'{c} = ?' for c in sets)} WHERE code = ?",
+                [getattr(new, c) for c in sets] + [code],
+            )
+            self.conn.execute("DELETE FROM limits WHERE model = ?", (code,))
+            for lim in new.limits:
+                self.conn.execute(
+                    "INSERT INTO limits (model, kind, value, direction) VALUES (?,?,?,?)",
+                    (code, lim.kind.value, lim.value, lim.direction),
+                )
+            self._audit("update", "models", code, None, dataclasses.asdict(old), dataclasses.asdict(new))
+        return new
+
+    def set_limit(self, code: str, kind: Kind, value: float | None) -> PumpModel:
+        """Set (or with None remove) one limit of a model."""
+        old = self.models().get(code)
+        if old is None:
+            raise InputRejected([Problem("model", code, "is not a known pump model")])
+        if value is not None and not value > 0:
+            raise InputRejected([Problem(f"{kind.value}_limit", value, "must be a positive number", kind.unit)])
+        limits = [lim for lim in old.limits if lim.kind is not kind]
+        if value is not None:
+            limits.append(Limit(kind, float(value), "below" if kind is Kind.SERVO_PRESSURE else "above"))
+        return self.update_model(code, limits=tuple(limits))
+
+    # -- machines ----------------------------------------------------------------
+    def add_machines(self, machines: Sequence[Machine], *, lines=None, dry_run: bool = False) -> ImportReport:
+        existing = self.machines()
+        problems, new, present, seen = [], [], 0, set()
+        for i, m in enumerate(machines):
+            if m.unit in seen:
+                problems.append(Problem("unit", m.unit, "appears twice in this file", line=_line(lines, i)))
+                continue
+            seen.add(m.unit)
+            if m.unit in existing:
+                if existing[m.unit] == m:
+                    present += 1
+                else:
+                    problems.append(Problem("unit", m.unit, "already exists with another site or description", line=_line(lines, i)))
+                continue
+            new.append(m)
+        if problems or dry_run:
+            return self._report("machines", dry_run, 0 if problems else len(new), present, problems)
+        with self.transaction():
+            for m in new:
+                self.conn.execute("INSERT INTO machines (unit, site, description) VALUES (?,?,?)", (m.unit, m.site, m.description))
+                self._audit("insert", "machines", m.unit, None, None, dataclasses.asdict(m))
+        return self._report("machines", dry_run, len(new), present, problems)
+
+    # -- pumps and their first fitment ------------------------------------------------
+    def add_pumps(
+        self, pumps: Sequence[tuple[Pump, Fitment | None]], *, lines=None, dry_run: bool = False, today: date | None = None
+    ) -> ImportReport:
+        models, machines, existing = self.models(), self.machines(), self.pumps()
+        problems, new, present, seen = [], [], 0, set()
+        for i, (p, fit) in enumerate(pumps):
+            line = _line(lines, i)
+            if p.serial in seen:
+                problems.append(Problem("serial", p.serial, "appears twice in this file", line=line))
+                continue
+            seen.add(p.serial)
+            if p.serial in existing:
+                old_fits = self._fitments_of(p.serial)
+                first = old_fits[0] if old_fits else None
+                same_fit = (fit is None and first is None) or (
+                    fit is not None and first is not None
+                    and (first.machine, first.position, first.fitted_on, first.machine_hours_at_fit, first.pump_hours_at_fit)
+                    == (fit.machine, fit.position, fit.fitted_on, fit.machine_hours_at_fit, fit.pump_hours_at_fit)
+                )
+                if existing[p.serial] == p and same_fit:
+                    present += 1
+                else:
+                    problems.append(Problem("serial", p.serial, "already exists with other values", line=line))
+                continue
+            if p.model not in models:
+                problems.append(Problem("model", p.model, "is not a known pump model: " + ", ".join(models) or "none yet", line=line))
+            if fit is not None:
+                if fit.machine not in machines:
+                    problems.append(Problem("machine", fit.machine, "is not a known machine unit", line=line))
+                else:
+                    taken = self.conn.execute(
+                        "SELECT serial FROM fitments WHERE machine = ? AND position = ? AND removed_on IS NULL",
+                        (fit.machine, fit.position),
+                    ).fetchone()
+                    if taken:
+                        problems.append(
+                            Problem("position", fit.position, f"on {fit.machine} is already held by pump {taken[0]}", line=line)
+                        )
+                    else:
+                        earlier, later = self._timeline(fit.machine).neighbours(fit.fitted_on)
+                        problem = check_hour_meter("machine_hours_at_fit", fit.fitted_on, fit.machine_hours_at_fit, earlier, later)
+                        if problem:
+                            problems.append(_with_line([problem], line)[0])
+            new.append((p, fit))
+        batch_positions = [(f.machine, f.position) for _, f in new if f is not None]
+        dupes = {bp for bp in batch_positions if batch_positions.count(bp) > 1}
+        for machine, position in sorted(dupes):
+            problems.append(Problem("position", position, f"on {machine} is given to more than one pump in this file"))
+        if problems or dry_run:
+            return self._report("pumps", dry_run, 0 if problems else len(new), present, problems)
+        with self.transaction():
+            for p, fit in new:
+                self.conn.execute("INSERT INTO pumps (serial, model, note) VALUES (?,?,?)", (p.serial, p.model, p.note))
+                self._audit("insert", "pumps", p.serial, p.serial, None, dataclasses.asdict(p))
+                if fit is not None:
+                    self._insert_fitment(fit)
+        return self._report("pumps", dry_run, len(new), present, problems)
+
+    def _insert_fitment(self, fit: Fitment) -> int:
+        cur = self.conn.execute(
+            "INSERT INTO fitments (serial, machine, position, fitted_on, removed_on, machine_hours_at_fit, pump_hours_at_fit, "
+            "machine_hours_at_removal) VALUES (?,?,?,?,?,?,?,?)",
+            (
+                fit.serial, fit.machine, fit.position, fit.fitted_on.isoformat(),
+                fit.removed_on.isoformat() if fit.removed_on else None,
+                fit.machine_hours_at_fit, fit.pump_hours_at_fit, fit.machine_hours_at_removal,
+            ),
+        )
+        self._audit("insert", "fitments", cur.lastrowid, fit.serial, None, dataclasses.asdict(fit))
+        return int(cur.lastrowid)
