@@ -1,0 +1,122 @@
+"""Command line: parse arguments, open the store, dispatch to a command module.
+
+Each command lives in ``logbook/commands/<name>.py`` with ``register(subparsers)``
+(adding a parser whose default ``func`` is its ``run(args, ctx) -> int``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import sys
+from dataclasses import dataclass, field
+from datetime import date
+from pathlib import Path
+
+from rich.console import Console
+
+from logbook.model import InputRejected
+from logbook.units import UnitPrefs
+
+COMMAND_MODULES = (
+    "init",
+    "demo",
+    "pumps",
+    "show",
+    "record",
+    "event",
+    "importing",
+    "model",
+    "forecast",
+    "round",
+    "history",
+    "backup",
+    "check",
+)
+
+
+def default_db_path() -> Path:
+    """``$LOGBOOK_DB``, else logbook.db in the user's data directory."""
+    env = os.environ.get("LOGBOOK_DB")
+    if env:
+        return Path(env)
+    from platformdirs import user_data_dir
+
+    return Path(user_data_dir("logbook", appauthor=False)) / "logbook.db"
+
+
+@dataclass
+class Context:
+    """What every command gets: where the database is, who is acting, today, output."""
+
+    db_path: Path
+    user: str | None
+    today: date
+    units: UnitPrefs
+    console: Console = field(default_factory=lambda: Console(highlight=False))
+    err: Console = field(default_factory=lambda: Console(stderr=True, highlight=False))
+
+    def open_store(self, *, create: bool = False):
+        from logbook.store import Store
+
+        return Store(self.db_path, create=create, user=self.user)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="logbook",
+        description="Maintenance logbook for servo-controlled axial piston pumps: readings, wear trends, overhaul plans. "
+        "Run without a command to open the fleet view.",
+    )
+    parser.add_argument("--db", type=Path, default=None, help="database file (default: $LOGBOOK_DB or the user data directory)")
+    parser.add_argument("--as", dest="user", default=None, metavar="NAME", help="record changes under this name (default: your login)")
+    parser.add_argument("--units", choices=("metric", "us"), default=os.environ.get("LOGBOOK_UNITS", "metric"),
+                        help="units to show: metric (bar, L/min, C) or us (psi, gpm, F); default metric or $LOGBOOK_UNITS")
+    parser.add_argument("--today", type=date.fromisoformat, default=None, help=argparse.SUPPRESS)
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name in COMMAND_MODULES:
+        try:
+            module = importlib.import_module(f"logbook.commands.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"logbook.commands.{name}":
+                continue  # not written yet
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    ctx = Context(
+        db_path=args.db if args.db is not None else default_db_path(),
+        user=args.user,
+        today=args.today or date.today(),
+        units=UnitPrefs.us() if args.units == "us" else UnitPrefs(),
+    )
+    from logbook.store import StoreError
+
+    try:
+        if args.command is None:
+            from logbook.commands import open_ui
+
+            return open_ui.run(args, ctx)
+        return int(args.func(args, ctx) or 0)
+    except InputRejected as exc:
+        ctx.err.print("[bold]Not recorded[/bold] - nothing was written:")
+        for problem in exc.problems:
+            ctx.err.print(f"  - {problem}", markup=False)
+        return 2
+    except StoreError as exc:
+        ctx.err.print(f"logbook: {exc}", markup=False)
+        return 1
+    except KeyboardInterrupt:
+        ctx.err.print("interrupted; nothing half-written (each change is one transaction)")
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

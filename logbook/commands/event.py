@@ -1,0 +1,57 @@
+"""logbook event KIND SERIAL ...: record an overhaul, move, neutral re-set, ..."""
+
+from __future__ import annotations
+
+from logbook import validate
+from logbook.model import Event, EventKind, InputRejected
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "event",
+        help="record an event: " + ", ".join(k.value for k in EventKind),
+        description="overhaul/exchange restart every trend of the pump; neutral_reset restarts neutral drift; "
+        "control_repair restarts servo pressure and neutral drift; move needs --to-machine, --to-position, --to-hours; "
+        "meter_replaced takes --machine instead of a serial, --hours (old meter's last) and --to-hours (new meter's first).",
+    )
+    p.add_argument("kind", help=", ".join(k.value for k in EventKind))
+    p.add_argument("serial", nargs="?", default=None, help="pump serial (not for meter_replaced)")
+    p.add_argument("--date", required=True, help="YYYY-MM-DD")
+    p.add_argument("--hours", default=None, help="machine hour meter at the event")
+    p.add_argument("--machine", default=None, help="machine unit (meter_replaced)")
+    p.add_argument("--to-machine", default=None)
+    p.add_argument("--to-position", default=None)
+    p.add_argument("--to-hours", default=None)
+    p.add_argument("--technician", default="")
+    p.add_argument("--note", default="")
+    p.set_defaults(func=run)
+
+
+def run(args, ctx) -> int:
+    problems = []
+
+    def take(result):
+        value, problem = result
+        if problem:
+            problems.append(problem)
+        return value
+
+    kind = take(validate.parse_event_kind(args.kind))
+    happened_on = take(validate.parse_date("date", args.date, ctx.today))
+    hours = take(validate.parse_number(validate.HOURS_FIELDS["hours"], args.hours))
+    to_hours = take(validate.parse_number(validate.HOURS_FIELDS["to_hours"], args.to_hours))
+    serial = take(validate.parse_name("serial", args.serial, required=False))
+    machine = take(validate.parse_name("machine", args.machine, required=False))
+    to_machine = take(validate.parse_name("to_machine", args.to_machine, required=False))
+    to_position = take(validate.parse_name("to_position", args.to_position, required=False))
+    if problems:
+        raise InputRejected(problems)
+    event = Event(
+        id=None, kind=kind, happened_on=happened_on, serial=serial, machine=machine, hours=hours,
+        to_machine=to_machine, to_position=to_position, to_hours=to_hours, technician=args.technician, note=args.note,
+    )
+    with ctx.open_store() as store:
+        saved = store.add_event(event, today=ctx.today)
+    where = f" on {saved.machine}" if saved.machine else ""
+    ctx.console.print(f"recorded {saved.kind.value} {saved.serial or ''}{where} on {saved.happened_on} (event {saved.id})", markup=False)
+    return 0

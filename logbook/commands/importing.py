@@ -1,0 +1,33 @@
+"""logbook import TABLE FILE.csv: onboard a fleet from spreadsheets."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from logbook.imports import TABLES, import_bytes
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "import",
+        help="import models, machines, pumps, events or readings from a CSV file (all rows or none)",
+        description="Columns are documented in the README. A unit may follow a column name in brackets, "
+        "e.g. 'case_drain [gpm]'. Re-importing the same rows adds nothing.",
+    )
+    p.add_argument("table", choices=TABLES)
+    p.add_argument("file", type=Path)
+    p.add_argument("--dry-run", action="store_true", help="check the file and report, write nothing")
+    p.set_defaults(func=run)
+
+
+def run(args, ctx) -> int:
+    from logbook.commands import print_report
+
+    try:
+        data = args.file.read_bytes()
+    except OSError as exc:
+        ctx.err.print(f"logbook import: cannot read {args.file}: {exc.strerror}", markup=False)
+        return 2
+    with ctx.open_store() as store:
+        report = import_bytes(store, args.table, data, name=args.file.name, today=ctx.today, dry_run=args.dry_run)
+    return print_report(ctx, report, str(args.file))

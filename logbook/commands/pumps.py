@@ -1,0 +1,61 @@
+"""logbook pumps: the fleet list, most urgent first."""
+
+from __future__ import annotations
+
+from rich.table import Table
+
+from logbook import fmt
+
+
+def register(sub) -> None:
+    p = sub.add_parser("pumps", help="list pumps in service with their forecast, most urgent first")
+    p.add_argument("--site", default=None)
+    p.add_argument("--model", default=None)
+    p.add_argument("--status", default=None, help="only pumps whose status contains this text")
+    p.add_argument("--limit", type=int, default=None, help="show at most N pumps")
+    p.set_defaults(func=run)
+
+
+def urgency_key(p):
+    """Past limit first, then the earliest P10 date, then the earliest P50 date."""
+    from datetime import date
+
+    from logbook.analysis.results import Outcome
+
+    w = p.worst
+    if w is None:
+        return (2, date.max, date.max, p.serial)
+    past = 0 if w.outcome is Outcome.PAST_LIMIT else 1
+    return (past, w.p10_date or date.max, w.p50_date or date.max, p.serial)
+
+
+def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None) -> Table:
+    table = Table(box=None, header_style="bold", pad_edge=False)
+    for col in ("serial", "machine/pos", "model", "h since ovh", "nearest limit", "P10", "P50", "status"):
+        table.add_column(col, no_wrap=True)
+    rows = [p for p in forecast.pumps if (site is None or p.site == site) and (model is None or p.model == model)
+            and (status is None or status.lower() in p.status.lower())]
+    rows.sort(key=urgency_key)
+    for p in rows[:limit]:
+        w = p.worst
+        table.add_row(
+            p.serial,
+            f"{p.machine or 'shelf'}/{p.position or '-'}",
+            p.model,
+            fmt.hours(p.hours_since_overhaul),
+            f"{w.kind.label} {w.percent_of_limit:.0f}%" if w is not None and w.percent_of_limit is not None else "-",
+            fmt.day(w.p10_date) if w else "-",
+            fmt.day(w.p50_date) if w else "-",
+            p.status,
+        )
+    return table
+
+
+def run(args, ctx) -> int:
+    from logbook.analysis.fleet import forecast_fleet
+
+    with ctx.open_store() as store:
+        fleet = store.fleet()
+    forecast = forecast_fleet(fleet, today=ctx.today)
+    ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status, limit=args.limit))
+    return 0

@@ -1,0 +1,134 @@
+"""logbook record SERIAL ...: add one reading from the command line, units explicit."""
+
+from __future__ import annotations
+
+import re
+
+from logbook import fmt, units, validate
+from logbook.cautions import CAUTIONS
+from logbook.model import InputRejected, Kind, Problem, Reading
+
+_VALUE_RE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s].*)?$")
+
+# option -> (field spec name, quantity default unit attribute of UnitPrefs)
+NUMERIC_OPTIONS = {
+    "machine_hours": "machine_hours",
+    "case_drain": "case_drain",
+    "servo_pressure": "servo_pressure",
+    "neutral_drift": "neutral_drift",
+    "charge_pressure": "charge_pressure",
+    "oil_temp": "oil_temp",
+    "test_pressure": "test_pressure",
+    "test_speed": "test_speed",
+    "oil_vi": "oil_vi",
+}
+
+
+def default_unit(spec: validate.FieldSpec, prefs: units.UnitPrefs) -> str:
+    q = spec.quantity
+    if q is units.PRESSURE:
+        return prefs.pressure
+    if q is units.FLOW:
+        return prefs.flow
+    if q is units.TEMPERATURE:
+        return prefs.temperature
+    return q.canonical
+
+
+def parse_with_unit(name: str, text: str | None, prefs: units.UnitPrefs) -> tuple[float | None, Problem | None]:
+    """'4.2', '4.2gpm', '61 psi' -> canonical value; a bare number is in the user's units."""
+    if text is None:
+        return None, None
+    spec = validate.READING_FIELDS[name]
+    m = _VALUE_RE.match(text)
+    if not m:
+        return None, Problem(name, text, f"must be {spec.describe_range(default_unit(spec, prefs))}, optionally with a unit "
+                             f"({units.allowed_units(spec.quantity) or 'none'})")
+    number, unit_text = m.group(1), m.group(2)
+    unit = units.resolve_unit(spec.quantity, unit_text) if unit_text else default_unit(spec, prefs)
+    if unit is None:
+        return None, Problem(name, text, f"unit {unit_text!r} is not allowed; allowed: {units.allowed_units(spec.quantity) or 'no unit'}")
+    return validate.parse_number(spec, number, unit)
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "record",
+        help="record one reading for a pump (values may carry units: 4.2gpm, 380psi, 120F)",
+        description="Record one reading. Bare numbers are in the --units system (metric: bar, L/min, C). "
+        "A case drain needs oil temperature, test pressure and test speed to be normalized.",
+    )
+    p.add_argument("serial")
+    p.add_argument("--date", required=True, help="YYYY-MM-DD, not in the future")
+    p.add_argument("--hours", dest="machine_hours", required=True, help="machine hour meter")
+    for opt in ("case_drain", "servo_pressure", "neutral_drift", "charge_pressure", "oil_temp", "test_pressure", "test_speed", "oil_vi"):
+        p.add_argument("--" + opt.replace("_", "-"), dest=opt, default=None, help=validate.READING_FIELDS[opt].help)
+    p.add_argument("--oil-grade", default=None, help="ISO VG grade of the oil (default: the model's reference oil)")
+    p.add_argument("--iso4406", default=None, help="cleanliness code, e.g. 18/16/13")
+    p.add_argument("--technician", default="", help="who took the reading")
+    p.add_argument("--note", default="")
+    p.add_argument("--dry-run", action="store_true", help="check only, write nothing")
+    p.set_defaults(func=run)
+
+
+def build_reading(args, ctx) -> Reading:
+    problems, values = [], {}
+    for name in NUMERIC_OPTIONS:
+        value, problem = parse_with_unit(name, getattr(args, name), ctx.units)
+        if problem:
+            problems.append(problem)
+        values[name] = value
+    taken_on, problem = validate.parse_date("date", args.date, ctx.today)
+    if problem:
+        problems.append(problem)
+    grade, problem = validate.parse_oil_grade(args.oil_grade)
+    if problem:
+        problems.append(problem)
+    code, problem = validate.parse_iso4406(args.iso4406)
+    if problem:
+        problems.append(problem)
+    serial, problem = validate.parse_name("serial", args.serial)
+    if problem:
+        problems.append(problem)
+    if problems:
+        raise InputRejected(problems)
+    return Reading(
+        id=None, serial=serial, taken_on=taken_on, machine_hours=values["machine_hours"],
+        case_drain_lpm=values["case_drain"], servo_pressure_bar=values["servo_pressure"],
+        neutral_drift_bar=values["neutral_drift"], charge_pressure_bar=values["charge_pressure"],
+        oil_temp_c=values["oil_temp"], test_pressure_bar=values["test_pressure"], test_speed_rpm=values["test_speed"],
+        oil_grade=grade, oil_vi=values["oil_vi"], iso4406=code, technician=args.technician, note=args.note,
+    )
+
+
+def run(args, ctx) -> int:
+    for line in CAUTIONS:
+        ctx.err.print(f"[dim]caution:[/dim] {line}")
+    reading = build_reading(args, ctx)
+    with ctx.open_store() as store:
+        if args.dry_run:
+            report = store.add_readings([reading], today=ctx.today, dry_run=True)
+            if report.problems:
+                raise InputRejected(report.problems)
+            ctx.console.print("reading is valid; nothing written (--dry-run)")
+            return 0
+        previous = store.readings(reading.serial)
+        saved = store.add_reading(reading, today=ctx.today)
+        ctx.console.print(f"recorded reading {saved.id} for {saved.serial} on {saved.taken_on} ({saved.machine})", markup=False)
+        from logbook.analysis.fleet import forecast_pump
+
+        history = store.history(saved.serial)
+    forecast = forecast_pump(history, today=ctx.today)
+    before = {k: next((r.value(k) for r in reversed(previous) if r.value(k) is not None), None) for k in Kind}
+    for kf in forecast.kinds:
+        raw = saved.value(kf.kind)
+        if raw is None:
+            continue
+        limit = f"limit {fmt.value(kf.kind, kf.limit.value, ctx.units)}" if kf.limit else "no limit set"
+        ctx.console.print(
+            f"  {kf.kind.label}: {fmt.value(kf.kind, raw, ctx.units)} (previous {fmt.value(kf.kind, before[kf.kind], ctx.units)}); "
+            f"normalized {fmt.value(kf.kind, kf.latest_value, ctx.units)}, {limit}; P50 {fmt.day(kf.p50_date)}",
+            markup=False,
+        )
+    ctx.console.print(f"  status: {forecast.status}", markup=False)
+    return 0
