@@ -1,0 +1,85 @@
+"""Machine utilisation (operating hours per calendar day) and hours turned into dates.
+
+Utilisation is the Theil-Sen slope (median of pairwise slopes; Sen, JASA 1968) of
+continuous machine hours against date over the last ``window_days``, so that a long
+gap, a meter typo or a quiet month does not swing it; with too little recent history
+the whole history is used.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Iterable
+from datetime import date, timedelta
+
+import numpy as np
+from scipy import stats
+
+from logbook.analysis.hours import continuous_hours, fitment_on
+from logbook.model import Event, EventKind, Fitment, Reading
+
+MAX_HOURS_PER_DAY = 24.0
+
+
+def machine_hour_points(
+    fitments: Iterable[Fitment], readings: Iterable[Reading], events: Iterable[Event]
+) -> dict[str, list[tuple[date, float]]]:
+    """(date, continuous machine hours) per machine from fitments, readings and events."""
+    fitments, events = tuple(fitments), tuple(events)
+    by_serial: dict[str, list[Fitment]] = defaultdict(list)
+    for f in fitments:
+        by_serial[f.serial].append(f)
+    raw: dict[str, list[tuple[date, float]]] = defaultdict(list)
+    for f in fitments:
+        raw[f.machine].append((f.fitted_on, f.machine_hours_at_fit))
+        if f.removed_on is not None and f.machine_hours_at_removal is not None:
+            raw[f.machine].append((f.removed_on, f.machine_hours_at_removal))
+    for r in readings:
+        fit = fitment_on(by_serial.get(r.serial, ()), r.taken_on)
+        if fit is not None:
+            raw[fit.machine].append((r.taken_on, r.machine_hours))
+    for e in events:
+        if e.machine is not None and e.hours is not None:
+            raw[e.machine].append((e.happened_on, e.hours))
+        if e.kind is EventKind.METER_REPLACED and e.machine is not None and e.to_hours is not None:
+            raw[e.machine].append((e.happened_on, e.to_hours))
+        elif e.kind is EventKind.MOVE and e.to_machine is not None and e.to_hours is not None:
+            raw[e.to_machine].append((e.happened_on, e.to_hours))
+    machine_events: dict[str, list[Event]] = defaultdict(list)
+    for e in events:
+        if e.kind is EventKind.METER_REPLACED and e.machine is not None:
+            machine_events[e.machine].append(e)
+    return {
+        m: sorted((d, continuous_hours(m, h, d, machine_events.get(m, ()))) for d, h in pts)
+        for m, pts in raw.items()
+    }
+
+
+def hours_per_day(
+    points: Iterable[tuple[date, float]], today: date, window_days: int = 365, min_span_days: int = 28
+) -> float | None:
+    """Robust utilisation, hours/day (0-24), from (date, continuous hours) points; None if under 2 days apart."""
+    pts = sorted(p for p in points if p[0] <= today)
+    if len(pts) < 2:
+        return None
+    days = np.array([d.toordinal() for d, _ in pts], dtype=float)
+    hrs = np.array([h for _, h in pts], dtype=float)
+    recent = days >= today.toordinal() - window_days
+    for mask in (recent, np.ones_like(recent)):
+        d, h = days[mask], hrs[mask]
+        if d.size >= 2 and d.max() - d.min() >= min_span_days and np.unique(d).size >= 2:
+            slope = stats.theilslopes(h, d)[0]
+            return float(np.clip(slope, 0.0, MAX_HOURS_PER_DAY))
+    if days.max() > days.min():
+        return float(np.clip((hrs[-1] - hrs[0]) / (days.max() - days.min()), 0.0, MAX_HOURS_PER_DAY))
+    return None
+
+
+def date_after_hours(today: date, remaining_hours: float | None, per_day: float | None) -> date | None:
+    """The calendar day on which ``remaining_hours`` will have run at ``per_day`` hours a day."""
+    if remaining_hours is None or per_day is None or per_day <= 0 or not np.isfinite(remaining_hours):
+        return None
+    days = remaining_hours / per_day
+    if days > 366 * 200:
+        return None
+    return today + timedelta(days=int(np.ceil(days - 1e-9)))

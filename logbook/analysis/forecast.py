@@ -1,0 +1,129 @@
+"""When does each fitted wear path reach its limit: P10/P50/P90 operating hours, for a whole batch.
+
+The crossing is where the fitted mean path meets the limit. Its quantiles come from
+inverting the pointwise confidence band of the mean path (Fieller's method, as used
+for calibration: Draper and Smith, Applied Regression Analysis, 3rd ed., sec. 3.2):
+P_q is the first hour at which the one-sided level-q band touches the limit, with
+Student t quantiles on the fit's degrees of freedom. The limit applies to the pump's
+wear state, so the reading-to-reading noise is left out by default; ``with_noise``
+widens the band to a prediction band (one future reading beyond the limit).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from logbook.analysis.batch import TrendBatch
+from logbook.analysis.fit import EXPONENTIAL, BatchFit
+
+# outcome codes (map to results.Outcome in fleet.py)
+O_NO_DATA, O_NO_LIMIT, O_PAST_LIMIT, O_TOO_FEW, O_CROSSING, O_NO_CROSSING = range(6)
+DEFAULT_QUANTILES = (0.1, 0.5, 0.9)
+
+
+@dataclass
+class BatchForecast:
+    """Remaining operating hours from ``x_now`` to the limit per row and quantile (inf = never / beyond horizon)."""
+
+    remaining: np.ndarray  # (S, Q)
+    outcome: np.ndarray  # (S,) O_* codes
+    latest: np.ndarray  # (S,) newest used reading on the readings' scale
+    rate_per_hour: np.ndarray  # (S,) slope of the fitted path at x_now, reading units per hour
+
+
+def _t_quantiles(q: float, dof: np.ndarray) -> np.ndarray:
+    d = np.clip(np.nan_to_num(dof, nan=1.0), 1, 1e6)
+    uniq, inv = np.unique(d, return_inverse=True)
+    return stats.t.ppf(q, uniq)[inv]
+
+
+def crossing_hours(
+    a, b, c00, c01, c11, sigma2, limit_t, sign, x_now, z
+) -> np.ndarray:  # fmt: skip
+    """First x >= x_now where sign*(a + b x - L) = z * se(x); x_now if already there, inf if never.
+
+    se(x)^2 = c00 + 2 c01 x + c11 x^2 + sigma2 (sigma2 = 0 for the band of the mean).
+    """
+    d = a - limit_t
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        z2 = z * z
+        qa = b * b - z2 * c11
+        qb = 2.0 * (b * d - z2 * c01)
+        qc = d * d - z2 * (c00 + sigma2)
+        disc = qb * qb - 4 * qa * qc
+        sq = np.sqrt(np.maximum(disc, 0.0))
+        qq = -0.5 * (qb + np.where(qb >= 0, sq, -sq))
+        r1 = np.where(qa != 0, qq / qa, -qc / qb)
+        r2 = np.where(qq != 0, qc / qq, np.inf)
+        real = disc >= 0
+
+        def g(x):
+            return sign * (a + b * x - limit_t)
+
+        def se(x):
+            return np.sqrt(np.maximum(c00 + 2 * c01 * x + c11 * x * x + sigma2, 0.0))
+
+        tol = 1e-9 * (np.abs(d) + np.abs(b) * np.abs(x_now) + 1e-12)
+        best = np.full(np.shape(a), np.inf)
+        for r in (r1, r2):
+            gr = g(r)
+            right_side = np.where(z >= 0, gr >= -tol, gr <= tol)
+            ok = real & np.isfinite(r) & (r > x_now) & right_side
+            best = np.where(ok & (r < best), r, best)
+        already = g(x_now) >= z * se(x_now)
+        # z = 0 is the median: the mean path itself, solved exactly
+        root = np.where(b != 0, (limit_t - a) / b, np.inf)
+        median = np.where((sign * b > 0) & (root > x_now), root, np.inf)
+        best = np.where(z == 0, median, best)
+        return np.where(already, x_now, best)
+
+
+def forecast_batch(
+    batch: TrendBatch,
+    fit: BatchFit,
+    *,
+    horizon_hours: float = 20_000.0,
+    quantiles: tuple[float, ...] = DEFAULT_QUANTILES,
+    with_noise: bool = False,
+) -> BatchForecast:
+    """Crossing quantiles and outcome codes for every row of a fitted batch."""
+    s = batch.size
+    lim = batch.limit
+    sign = batch.direction.astype(float)
+    expo = fit.path == EXPONENTIAL
+    with np.errstate(invalid="ignore", divide="ignore"):
+        limit_t = np.where(expo, np.log(np.where(lim > 0, lim, np.nan)), lim)
+    sigma2 = fit.sigma**2 if with_noise else np.zeros(s)
+    x_now = np.maximum(batch.x_now, 0.0)
+    rem = np.full((s, len(quantiles)), np.inf)
+    go = fit.forecastable & np.isfinite(limit_t)
+    idx = np.flatnonzero(go)
+    if idx.size:
+        args = [arr[idx] for arr in (fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma2, limit_t, sign, x_now)]
+        for qi, q in enumerate(quantiles):
+            z = _t_quantiles(q, fit.dof[idx])
+            rem[idx, qi] = crossing_hours(*args, z) - x_now[idx]
+    rem[rem > horizon_hours] = np.inf
+
+    # newest used reading and the slope of the path today
+    used = fit.used
+    last_col = np.where(used.any(axis=1), used.shape[1] - 1 - np.argmax(used[:, ::-1], axis=1), 0)
+    latest = np.where(fit.n_used > 0, batch.y[np.arange(s), last_col], np.nan)
+    with np.errstate(invalid="ignore", over="ignore"):
+        rate = np.where(expo, fit.b * np.exp(fit.a + fit.b * x_now), fit.b)
+
+    has_data = np.isfinite(batch.y).any(axis=1)
+    past = sign * (latest - lim) >= 0
+    mid = rem[:, quantiles.index(0.5)] if 0.5 in quantiles else rem[:, len(quantiles) // 2]
+    outcome = np.where(
+        ~has_data, O_NO_DATA,
+        np.where(~np.isfinite(lim), O_NO_LIMIT,
+                 np.where(past, O_PAST_LIMIT,
+                          np.where(~go, O_TOO_FEW,
+                                   np.where(np.isfinite(mid), O_CROSSING, O_NO_CROSSING)))),
+    )  # fmt: skip
+    return BatchForecast(remaining=rem, outcome=outcome.astype(np.int8), latest=latest, rate_per_hour=rate)
+
