@@ -203,7 +203,8 @@ def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[i
             for name, col in columns.items():
                 if col.required and values.get(name) in (None, "") and not any(p.field == name for p in row_problems):
                     row_problems.append(Problem(name, "", "is required", line=line))
-            if table == "readings" and not row_problems and all(values.get(k) is None for k in MEASURED):
+            measured_problems = any(p.field in MEASURED for p in row_problems)
+            if table == "readings" and not measured_problems and all(values.get(k) is None for k in MEASURED):
                 blank += 1
                 continue
             if row_problems:
