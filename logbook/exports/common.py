@@ -1,0 +1,194 @@
+"""Rows and summary figures shared by the export formats (pure, deterministic)."""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from datetime import date
+
+from logbook.analysis.results import OUTCOME_WORDS, KindForecast, Outcome, PumpForecast
+from logbook.plan import PlanLine, month_label
+
+#: Plan table columns: (key, header). One row per pump in the plan or not fitting.
+PLAN_COLUMNS = (
+    ("plan", "plan"),
+    ("month", "month"),
+    ("target_month", "latest month"),
+    ("serial", "serial"),
+    ("model", "model"),
+    ("machine", "machine"),
+    ("site", "site"),
+    ("reading", "reading"),
+    ("unit", "unit"),
+    ("latest", "latest (normalized)"),
+    ("limit", "limit"),
+    ("direction", "direction"),
+    ("p10_date", "P10 date"),
+    ("p50_date", "P50 date"),
+    ("p90_date", "P90 date"),
+    ("p10_hours", "P10 hours left"),
+    ("p50_hours", "P50 hours left"),
+    ("p90_hours", "P90 hours left"),
+    ("chance_by_month_start", "chance crossed by month start"),
+    ("chance_by_month_end", "chance crossed by month end"),
+    ("months_early", "months early"),
+    ("also_due", "also due"),
+    ("action", "action"),
+    ("reason", "why"),
+    ("note", "note"),
+    ("status", "pump status"),
+    ("flags", "flags"),
+)
+
+#: Short table for md/html (the full set is in csv and json).
+PLAN_BRIEF = ("month", "serial", "model", "machine", "site", "reading", "latest", "limit", "p10_date", "p50_date",
+              "p10_hours", "chance_by_month_end", "note")
+
+
+def num(value: float | None, digits: int = 2) -> str:
+    if value is None or not math.isfinite(value):
+        return ""
+    return f"{value:.{digits}f}"
+
+
+def day(value: date | None) -> str:
+    return value.isoformat() if value is not None else ""
+
+
+def flag_words(flags) -> str:
+    return ", ".join(sorted(flags))
+
+
+def pumps_by_serial(report) -> dict[str, PumpForecast]:
+    return {p.serial: p for p in report.forecast.pumps}
+
+
+def kind_of(pump: PumpForecast | None, line: PlanLine) -> KindForecast | None:
+    if pump is None:
+        return None
+    for kf in pump.kinds:
+        if kf.kind is line.kind:
+            return kf
+    return None
+
+
+def plan_lines(report) -> list[PlanLine]:
+    """Planned lines (month order), then the ones that do not fit."""
+    return list(report.plan.lines) + list(report.plan.unplaced)
+
+
+def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
+    kf = kind_of(pump, line)
+    if line.month is None:
+        plan = "does not fit"
+    else:
+        plan = "shop" if line.shop else "on machine"
+    return {
+        "plan": plan,
+        "month": month_label(line.month) if line.month else "",
+        "target_month": month_label(line.target_month),
+        "serial": line.serial,
+        "model": line.model,
+        "machine": line.machine or "",
+        "site": line.site or "",
+        "reading": line.kind.label,
+        "unit": line.kind.unit,
+        "latest": num(line.latest_value),
+        "limit": num(line.limit_value),
+        "direction": kf.limit.direction if kf is not None and kf.limit is not None else "",
+        "p10_date": day(line.p10_date),
+        "p50_date": day(line.p50_date),
+        "p90_date": day(line.p90_date),
+        "p10_hours": num(line.p10_hours, 0),
+        "p50_hours": num(line.p50_hours, 0),
+        "p90_hours": num(line.p90_hours, 0),
+        "chance_by_month_start": num(line.chance_by_month_start, 3),
+        "chance_by_month_end": num(line.chance_by_month_end, 3),
+        "months_early": "" if line.months_early is None else str(line.months_early),
+        "also_due": ", ".join(k.label for k in line.also_due),
+        "action": line.action,
+        "reason": line.reason,
+        "note": line.note,
+        "status": pump.status if pump is not None else "",
+        "flags": flag_words(kf.flags) if kf is not None else "",
+    }
+
+
+def plan_rows(report) -> list[dict[str, str]]:
+    pumps = pumps_by_serial(report)
+    return [plan_row(line, pumps.get(line.serial)) for line in plan_lines(report)]
+
+
+def summary(report) -> list[tuple[str, str]]:
+    """Headline counts for the top of an export."""
+    plan = report.plan
+    s = plan.settings
+    pumps = report.forecast.pumps
+    worst = Counter(p.worst.outcome for p in pumps if p.worst is not None)
+    shop = sum(1 for line in plan.lines if line.shop)
+    cap = "no limit" if s.capacity_per_month is None else str(s.capacity_per_month)
+    rows = [
+        ("forecast date", report.forecast.today.isoformat()),
+        ("plan", f"{month_label(s.start_month)} for {s.horizon_months} month(s), to {s.end_day.isoformat()}"),
+        ("shop capacity per month", cap),
+        ("pumps in service", str(len(pumps))),
+        ("past a limit", str(worst.get(Outcome.PAST_LIMIT, 0))),
+        ("planned in the shop", str(shop)),
+        ("planned on the machine", str(len(plan.lines) - shop)),
+        ("do not fit", str(len(plan.unplaced))),
+    ]
+    if s.site_capacity:
+        rows.append(("site capacity per month", ", ".join(f"{k}={v}" for k, v in sorted(s.site_capacity.items()))))
+    if s.exchange_on_hand:
+        rows.append(("exchange pumps on hand", ", ".join(f"{k}={v}" for k, v in sorted(s.exchange_on_hand.items()))))
+        rows.append(("exchange turnaround", f"{s.turnaround_months} month(s)"))
+    for month in s.months:
+        rows.append((f"shop jobs {month_label(month)}", str(plan.shop_load.get(month, 0))))
+    return rows
+
+
+def life_rows(report) -> list[dict[str, str]]:
+    out = []
+    for fig in report.life:
+        conf = f"{fig.confidence:.0%}"
+        b10 = f"{num(fig.b10_hours, 0)}" if fig.b10_hours is not None else ""
+        b10_b = f"{num(fig.b10_bounds[0], 0)} - {num(fig.b10_bounds[1], 0)}" if fig.b10_bounds else ""
+        med_b = f"{num(fig.median_bounds[0], 0)} - {num(fig.median_bounds[1], 0)}" if fig.median_bounds else ""
+        expected = ""
+        if fig.expected_overhauls is not None:
+            expected = f"{fig.expected_overhauls:.1f} +/- {fig.expected_sd:.1f} of {fig.running}"
+        out.append(
+            {
+                "model": fig.model,
+                "intervals": str(fig.intervals),
+                "overhauls": str(fig.failures),
+                "running": str(fig.censored),
+                "shape": num(fig.fit.shape, 3) if fig.fit else "",
+                "scale_hours": num(fig.fit.scale_hours, 0) if fig.fit else "",
+                "b10_hours": b10,
+                f"b10_{conf}_bounds": b10_b,
+                "median_hours": num(fig.median_hours, 0),
+                f"median_{conf}_bounds": med_b,
+                "expected_overhauls_in_horizon": expected,
+                "note": fig.reason,
+            }
+        )
+    return out
+
+
+PUMP_HEADERS = ("serial", "model", "machine", "site", "status", "reading", "latest", "limit", "outcome",
+                "P10 date", "P50 date", "flags")
+
+
+def pump_rows(report) -> list[list[str]]:
+    """One row per pump in service: its reading nearest the limit."""
+    body = []
+    for pf in report.forecast.pumps:
+        w = pf.worst
+        body.append([
+            pf.serial, pf.model, pf.machine or "", pf.site or "", pf.status,
+            w.kind.label if w else "", num(w.latest_value) if w else "",
+            num(w.limit.value) if w and w.limit else "", OUTCOME_WORDS[w.outcome] if w else "",
+            day(w.p10_date) if w else "", day(w.p50_date) if w else "", flag_words(w.flags) if w else "",
+        ])
+    return body

@@ -1,0 +1,125 @@
+"""HTML export: one self-contained page (inline CSS and SVG, no scripts, nothing fetched)."""
+
+from __future__ import annotations
+
+from html import escape
+
+from logbook.cautions import CAUTIONS_TITLE
+from logbook.exports import PROBABILITY_NOTE
+from logbook.exports.charts import kind_chart_svg
+from logbook.exports.common import (
+    PLAN_BRIEF,
+    PLAN_COLUMNS,
+    PUMP_HEADERS,
+    kind_of,
+    life_rows,
+    plan_row,
+    pump_rows,
+    pumps_by_serial,
+    summary,
+)
+
+_HEADERS = dict(PLAN_COLUMNS)
+
+_CSS = """
+body { font: 14px/1.4 system-ui, sans-serif; margin: 1.5em auto; max-width: 1200px; color: #1a1a1a; padding: 0 1em; }
+h1 { font-size: 1.5em; } h2 { font-size: 1.2em; margin-top: 1.6em; border-bottom: 1px solid #ccc; }
+table { border-collapse: collapse; margin: .5em 0; font-size: 12px; }
+th, td { border: 1px solid #d0d0d0; padding: 2px 6px; text-align: left; vertical-align: top; }
+th { background: #f0f0f0; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; }
+.cautions { border: 2px solid #b35900; background: #fff6eb; padding: .3em 1em; }
+.provenance li { margin: 0; }
+figure { margin: 1em 0; break-inside: avoid; } figcaption { font-size: 12px; color: #444; }
+svg { max-width: 100%; height: auto; }
+@media print { body { max-width: none; } }
+"""
+
+_NUMERIC = {"latest", "limit", "p10_hours", "p50_hours", "p90_hours", "chance_by_month_start", "chance_by_month_end",
+            "months_early"}
+
+
+def _table(headers: list[str], rows: list[list[str]], numeric: set[int] = frozenset()) -> list[str]:
+    out = ["<table>", "<thead><tr>" + "".join(f"<th>{escape(h)}</th>" for h in headers) + "</tr></thead>", "<tbody>"]
+    for row in rows:
+        cells = "".join(
+            f'<td class="num">{escape(c)}</td>' if i in numeric else f"<td>{escape(c)}</td>" for i, c in enumerate(row)
+        )
+        out.append(f"<tr>{cells}</tr>")
+    out += ["</tbody>", "</table>"]
+    return out
+
+
+def _plan_table(lines, pumps, keys) -> list[str]:
+    rows = [plan_row(line, pumps.get(line.serial)) for line in lines]
+    numeric = {i for i, k in enumerate(keys) if k in _NUMERIC}
+    return _table([_HEADERS[k] for k in keys], [[r[k] for k in keys] for r in rows], numeric)
+
+
+def _charts(report, pumps) -> list[str]:
+    out = []
+    for index, line in enumerate(report.plan.lines, start=1):
+        kf = kind_of(pumps.get(line.serial), line)
+        title = f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}"
+        svg = kind_chart_svg(kf, title, salt=f"logbook-{index}-{line.serial}", id_prefix=f"c{index}") if kf else None
+        month = line.month.isoformat()[:7] if line.month else ""
+        out.append(f'<figure id="chart-{index}">')
+        out.append(svg if svg is not None else f"<p>{escape(title)}: no fitted trend to draw.</p>")
+        out.append(f"<figcaption>{escape(month)} - {escape(line.reason)}</figcaption>")
+        out.append("</figure>")
+    return out
+
+
+def render_html(report) -> str:
+    p = report.provenance
+    pumps = pumps_by_serial(report)
+    made = p.made_on.isoformat()
+    out = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; style-src 'unsafe-inline'\">",
+        f"<title>Overhaul forecast {escape(made)}</title>",
+        f"<style>{_CSS}</style>",
+        "</head>",
+        "<body>",
+        f"<h1>Overhaul forecast, made {escape(made)}</h1>",
+        '<ul class="provenance">',
+        f"<li>Database: <code>{escape(p.database)}</code></li>",
+        f"<li>Made on: {escape(made)}</li>",
+        f"<li>Program: {escape(p.program)}</li>",
+    ]
+    out += [f"<li>Limits used, {escape(model)}: {escape(words)}</li>" for model, words in p.limit_lines()]
+    out += [f"<li>{escape(n)}</li>" for n in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
+    out += ["</ul>", '<section class="cautions">', f"<h2>{escape(CAUTIONS_TITLE)}</h2>", "<ul>"]
+    out += [f"<li>{escape(text)}</li>" for text in p.cautions]
+    out += ["</ul>", "</section>", "<section>", "<h2>Summary</h2>"]
+    out += _table(["figure", "value"], [list(r) for r in summary(report)])
+    out += ["</section>", '<section id="plan">', "<h2>Plan</h2>"]
+    if report.plan.lines:
+        out += _plan_table(report.plan.lines, pumps, PLAN_BRIEF + ("reason",))
+    else:
+        out.append("<p>Nothing is due in the plan's months.</p>")
+    out += ["</section>", '<section id="does-not-fit">', "<h2>Does not fit</h2>"]
+    if report.plan.unplaced:
+        keys = ("target_month", "serial", "model", "site", "reading", "p10_date", "note", "reason")
+        out += _plan_table(report.plan.unplaced, pumps, keys)
+    else:
+        out.append("<p>Every pump that is due fits in the plan.</p>")
+    out += ["</section>", '<section id="life">', "<h2>Fleet life per pump model</h2>"]
+    rows = life_rows(report)
+    if rows:
+        out += _table(list(rows[0].keys()), [list(r.values()) for r in rows])
+        out.append(f"<p>{escape(report.life[0].method)}.</p>")
+    else:
+        out.append("<p>No overhaul history to fit.</p>")
+    out.append("</section>")
+    if report.charts and report.plan.lines:
+        out += ['<section id="charts">', "<h2>Trends of the planned pumps</h2>"]
+        out += _charts(report, pumps)
+        out.append("</section>")
+    out += ['<section id="pumps">', "<h2>All pumps (reading nearest its limit)</h2>"]
+    out += _table(list(PUMP_HEADERS), pump_rows(report), {6, 7})
+    out += ["</section>", "</body>", "</html>"]
+    return "\n".join(out) + "\n"

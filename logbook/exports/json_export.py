@@ -1,0 +1,142 @@
+"""JSON export: provenance, plan settings and lines, fleet life, and one record per pump and reading.
+
+Keys keep a fixed order; floats are rounded (values 4 decimals, hours 1) and
+non-finite numbers become null, so the same report always gives the same text.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+from logbook.analysis.results import KindForecast, PumpForecast
+from logbook.exports import PROBABILITY_NOTE
+from logbook.exports.common import plan_lines
+from logbook.plan import PlanLine, month_label
+
+
+def _f(value: float | None, digits: int = 4) -> float | None:
+    if value is None or not math.isfinite(value):
+        return None
+    return round(float(value), digits)
+
+
+def _d(value) -> str | None:
+    return value.isoformat() if value is not None else None
+
+
+def _line(line: PlanLine) -> dict:
+    return {
+        "serial": line.serial,
+        "model": line.model,
+        "machine": line.machine,
+        "site": line.site,
+        "month": month_label(line.month) if line.month else None,
+        "latest_month": month_label(line.target_month),
+        "work": ("shop" if line.shop else "on machine") if line.month else "does not fit",
+        "kind": line.kind.value,
+        "outcome": line.outcome.value,
+        "latest_value": _f(line.latest_value),
+        "limit": _f(line.limit_value),
+        "p10_hours": _f(line.p10_hours, 1),
+        "p50_hours": _f(line.p50_hours, 1),
+        "p90_hours": _f(line.p90_hours, 1),
+        "p10_date": _d(line.p10_date),
+        "p50_date": _d(line.p50_date),
+        "p90_date": _d(line.p90_date),
+        "chance_by_month_start": _f(line.chance_by_month_start),
+        "chance_by_month_end": _f(line.chance_by_month_end),
+        "months_early": line.months_early,
+        "also_due": [k.value for k in line.also_due],
+        "action": line.action,
+        "reason": line.reason,
+        "note": line.note,
+    }
+
+
+def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
+    return {
+        "serial": pf.serial,
+        "model": pf.model,
+        "machine": pf.machine,
+        "position": pf.position,
+        "site": pf.site,
+        "kind": kf.kind.value,
+        "unit": kf.kind.unit,
+        "limit": _f(kf.limit.value) if kf.limit else None,
+        "limit_direction": kf.limit.direction if kf.limit else None,
+        "latest_value": _f(kf.latest_value),
+        "latest_raw": _f(kf.latest_raw),
+        "latest_on": _d(kf.latest_on),
+        "percent_of_limit": _f(kf.percent_of_limit, 1),
+        "n_readings": kf.n_readings,
+        "segment_start": _d(kf.segment_start),
+        "hours_in_segment": _f(kf.hours_in_segment, 1),
+        "path": kf.path,
+        "outcome": kf.outcome.value,
+        "p10_hours": _f(kf.p10_hours, 1),
+        "p50_hours": _f(kf.p50_hours, 1),
+        "p90_hours": _f(kf.p90_hours, 1),
+        "p10_date": _d(kf.p10_date),
+        "p50_date": _d(kf.p50_date),
+        "p90_date": _d(kf.p90_date),
+        "rate_per_1000h": _f(kf.rate_per_1000h),
+        "status": pf.status,
+        "flags": sorted(kf.flags),
+        "planned_month": month_label(planned.month) if planned and planned.month else None,
+        "plan": (("shop" if planned.shop else "on machine") if planned.month else "does not fit") if planned else None,
+        "drives_plan": bool(planned and planned.kind is kf.kind),
+    }
+
+
+def _life(fig) -> dict:
+    return {
+        "model": fig.model,
+        "intervals": fig.intervals,
+        "overhauls": fig.failures,
+        "running": fig.censored,
+        "shape": _f(fig.fit.shape) if fig.fit else None,
+        "scale_hours": _f(fig.fit.scale_hours, 1) if fig.fit else None,
+        "loglik": _f(fig.fit.loglik) if fig.fit else None,
+        "confidence": fig.confidence,
+        "b10_hours": _f(fig.b10_hours, 1),
+        "b10_bounds_hours": [_f(v, 1) for v in fig.b10_bounds] if fig.b10_bounds else None,
+        "median_hours": _f(fig.median_hours, 1),
+        "median_bounds_hours": [_f(v, 1) for v in fig.median_bounds] if fig.median_bounds else None,
+        "running_in_horizon": fig.running,
+        "horizon_hours": _f(fig.horizon_hours, 1),
+        "expected_overhauls": _f(fig.expected_overhauls, 3),
+        "expected_sd": _f(fig.expected_sd, 3),
+        "note": fig.reason,
+        "method": fig.method,
+    }
+
+
+def report_dict(report) -> dict:
+    plan = report.plan
+    s = plan.settings
+    by_serial = {line.serial: line for line in plan_lines(report)}
+    return {
+        "provenance": report.provenance.as_dict(),
+        "forecast_date": report.forecast.today.isoformat(),
+        "notes": list(report.forecast.notes) + list(report.notes),
+        "plan": {
+            "start_month": month_label(s.start_month),
+            "horizon_months": s.horizon_months,
+            "capacity_per_month": s.capacity_per_month,
+            "site_capacity": dict(sorted(s.site_capacity.items())),
+            "exchange_on_hand": dict(sorted(s.exchange_on_hand.items())),
+            "turnaround_months": s.turnaround_months,
+            "on_machine_kinds": [k.value for k in s.on_machine_kinds],
+            "probability_model": PROBABILITY_NOTE,
+            "shop_load": {month_label(m): n for m, n in sorted(plan.shop_load.items())},
+            "lines": [_line(line) for line in plan.lines],
+            "does_not_fit": [_line(line) for line in plan.unplaced],
+        },
+        "life": [_life(fig) for fig in report.life],
+        "forecasts": [_kind(pf, kf, by_serial.get(pf.serial)) for pf in report.forecast.pumps for kf in pf.kinds],
+    }
+
+
+def render_json(report) -> str:
+    return json.dumps(report_dict(report), indent=1, ensure_ascii=False, allow_nan=False) + "\n"

@@ -1,0 +1,72 @@
+"""Markdown export: provenance, cautions, summary, plan, what does not fit, fleet life, all pumps."""
+
+from __future__ import annotations
+
+import re
+
+from logbook.cautions import CAUTIONS_TITLE
+from logbook.exports import PROBABILITY_NOTE
+from logbook.exports.common import (
+    PLAN_BRIEF,
+    PLAN_COLUMNS,
+    PUMP_HEADERS,
+    life_rows,
+    plan_row,
+    pump_rows,
+    pumps_by_serial,
+    summary,
+)
+
+_SPECIAL = re.compile(r"([\\`*_\[\]<>|#])")
+_HEADERS = dict(PLAN_COLUMNS)
+
+
+def esc(text: str) -> str:
+    """Text safe inside a Markdown table cell: no line breaks, markup characters escaped."""
+    return _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+
+
+def table(headers: list[str], rows: list[list[str]]) -> list[str]:
+    out = ["| " + " | ".join(esc(h) for h in headers) + " |", "|" + "---|" * len(headers)]
+    out += ["| " + " | ".join(esc(c) for c in row) + " |" for row in rows]
+    return out
+
+
+def render_md(report) -> str:
+    p = report.provenance
+    pumps = pumps_by_serial(report)
+    lines = [f"# Overhaul forecast, made {p.made_on.isoformat()}", ""]
+    lines += [f"- Database: {esc(p.database)}", f"- Made on: {p.made_on.isoformat()}",
+              f"- Program: {esc(p.program)}"]
+    lines += [f"- Limits used, {esc(model)}: {esc(words)}" for model, words in p.limit_lines()]
+    lines += [f"- {esc(note)}" for note in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
+    lines += ["", f"## {CAUTIONS_TITLE}", ""] + [f"- {esc(text)}" for text in p.cautions]
+    lines += ["", "## Summary", ""] + table(["figure", "value"], [list(row) for row in summary(report)])
+
+    lines += ["", "## Plan", ""]
+    if report.plan.lines:
+        lines += table([_HEADERS[k] for k in PLAN_BRIEF + ("reason",)],
+                       [[row[k] for k in PLAN_BRIEF + ("reason",)] for row in
+                        (plan_row(line, pumps.get(line.serial)) for line in report.plan.lines)])
+    else:
+        lines.append("Nothing is due in the plan's months.")
+    lines += ["", "## Does not fit", ""]
+    if report.plan.unplaced:
+        keys = ("target_month", "serial", "model", "site", "reading", "p10_date", "note", "reason")
+        lines += table([_HEADERS[k] for k in keys],
+                       [[row[k] for k in keys] for row in
+                        (plan_row(line, pumps.get(line.serial)) for line in report.plan.unplaced)])
+    else:
+        lines.append("Every pump that is due fits in the plan.")
+
+    lines += ["", "## Fleet life per pump model", ""]
+    rows = life_rows(report)
+    if rows:
+        lines += table(list(rows[0].keys()), [list(r.values()) for r in rows])
+        lines += ["", esc(report.life[0].method)]
+    else:
+        lines.append("No overhaul history to fit.")
+
+    lines += ["", "## All pumps (reading nearest its limit)", ""]
+    lines += table(list(PUMP_HEADERS), pump_rows(report))
+    return "\n".join(lines) + "\n"
