@@ -170,7 +170,7 @@ def load(store, today: date, seed: int = 7, workdir: Path | None = None) -> dict
 
     def run(folder: Path) -> dict:
         paths = write_csvs(folder, today, seed)
-        return {table: import_csv(store, table, paths[table], user="demo") for table in IMPORT_ORDER}
+        return {table: import_csv(store, table, paths[table], today=today, user="demo") for table in IMPORT_ORDER}
 
     if workdir is not None:
         return run(Path(workdir))

@@ -50,7 +50,8 @@ def measure(rng: random.Random, plan: PumpPlan, visit: Visit, life: MachineLife,
     note = ""
     test_speed = model.test_speed_rpm
     if rng.random() < 0.12:
-        test_speed = rng.choice([s for s in (1800.0, 2000.0, model.max_speed_rpm) if s != model.test_speed_rpm])
+        others = (1800.0, 2000.0, model.max_speed_rpm)
+        test_speed = rng.choice([s for s in others if s != model.test_speed_rpm and s <= model.max_speed_rpm])
         note = "tested at high idle" if test_speed == model.max_speed_rpm else "engine held below test speed"
     if oil_temp < model.test_temp_min_c and not note:
         note = "oil not fully warm"

@@ -116,8 +116,8 @@ def calibrate(plan: PumpPlan, wear: Wear, visits: list[Visit], rng: random.Rando
     if story == "linear":
         linear(0.45 * limit, n - 1, 0.85 * limit)
     elif story == "exponential":
-        wear.cd_start_h, wear.cd_q0 = h[0], 0.33 * limit
-        wear.cd_k = math.log(0.88 / 0.33) / (h[-1] - h[0])
+        wear.cd_start_h, wear.cd_q0 = h[0], 0.25 * limit
+        wear.cd_k = math.log(0.9 / 0.25) / (h[-1] - h[0])
     elif story == "step":
         linear(0.33 * limit, n - 1, 0.45 * limit)
         j = round(0.6 * n)
