@@ -114,7 +114,7 @@ def calibrate(plan: PumpPlan, wear: Wear, visits: list[Visit], rng: random.Rando
     if story in HEALTHY_CASE_DRAIN:
         linear(rng.uniform(0.25, 0.35) * limit, n - 1, rng.uniform(0.45, 0.6) * limit)
     if story == "linear":
-        linear(0.45 * limit, n - 1, 0.85 * limit)
+        linear(0.4 * limit, n - 1, 0.88 * limit)
     elif story == "exponential":
         wear.cd_start_h, wear.cd_q0 = h[0], 0.25 * limit
         wear.cd_k = math.log(0.9 / 0.25) / (h[-1] - h[0])
