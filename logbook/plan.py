@@ -380,12 +380,12 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings) -> Plan:
         if serial not in months:
             continue
         month, target = months[serial], _target(kf, settings)
-        if not in_the_shop:
-            note = "on the machine"
-        elif month != target:
-            note = f"pulled forward {months_between(month, target)} month(s)"
-        else:
-            note = ""
+        notes = ["on the machine"] if not in_the_shop else []
+        if month != target:
+            notes.append(f"pulled forward {months_between(month, target)} month(s)")
+        if kf.p10_date is not None and kf.p10_date < settings.start_month:
+            notes.append(f"P10 date {kf.p10_date.isoformat()} is before the plan starts")
+        note = "; ".join(notes)
         placed.append(_line(pf, kf, due, today, month, target, in_the_shop, note))
     order = {c[1]: i for i, c in enumerate(candidates)}
     placed.sort(key=lambda line: (line.month, order[line.serial]))

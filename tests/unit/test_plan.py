@@ -228,3 +228,11 @@ def test_plan_invariants(p10s, capacity, spares, turnaround):
             )
         ]
         assert free == []
+
+
+def test_p10_before_the_plan_start_is_said_in_the_note():
+    # The P10 date lies in March but the plan starts in April: placed first, and said so.
+    plan = make_plan(fleet([due_pump("E", p10_days=5)]), PlanSettings(START))
+    line = plan.line_for("E")
+    assert line.month == START and "before the plan starts" in line.note
+    assert line.chance_by_month_start > 0.1  # already past its P10 when the month begins

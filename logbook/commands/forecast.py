@@ -1,0 +1,192 @@
+"""logbook forecast: the monthly overhaul plan and fleet forecast as csv, md, html or json.
+
+Non-interactive: reads the database, writes one file (or stdout) and exits 0; bad
+arguments exit 2 and a missing or unreadable database exits 1, each with a message
+on stderr. A progress display appears only when stderr is a terminal.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import sys
+import tempfile
+from pathlib import Path
+
+from logbook.model import InputRejected, Problem
+
+SUFFIX_FORMATS = {".csv": "csv", ".md": "md", ".html": "html", ".htm": "html", ".json": "json"}
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "forecast",
+        help="the monthly overhaul plan: which pumps to take out in which month, and why",
+        description="Forecasts every pump, levels the pumps that are due against shop capacity and exchange "
+        "pumps, and writes the plan with the fleet forecast and fleet life figures. Safe to run from cron.",
+    )
+    p.add_argument("--month", default=None, metavar="YYYY-MM", help="first month of the plan (default: this month)")
+    p.add_argument("--horizon", type=int, default=6, metavar="N", help="months to plan (default 6)")
+    p.add_argument("--capacity", type=int, default=None, metavar="N", help="shop jobs per month, all sites (default: no limit)")
+    p.add_argument("--site-capacity", action="append", default=[], metavar="SITE=N", help="shop jobs per month at one site (repeatable)")
+    p.add_argument("--exchange", action="append", default=[], metavar="MODEL=N", help="exchange pumps on hand for a model (repeatable)")
+    p.add_argument("--turnaround", type=int, default=1, metavar="N", help="months before a removed pump is back as a spare (default 1)")
+    p.add_argument("--format", choices=("csv", "md", "html", "json"), default=None,
+                   help="output format (default: from the --out suffix, else md)")
+    p.add_argument("--out", default="-", metavar="FILE", help="file to write, or - for stdout (default -)")
+    p.add_argument("--no-charts", action="store_true", help="html: leave out the trend charts")
+    p.set_defaults(func=run)
+
+
+def _pairs(values: list[str], option: str, known: set[str] | None, what: str) -> tuple[dict[str, int], list[Problem]]:
+    """Parse repeated NAME=N options; problems name the option, the value and what is allowed."""
+    out: dict[str, int] = {}
+    problems = []
+    for text in values:
+        name, sep, number = text.partition("=")
+        name = name.strip()
+        if not sep or not name or not number.strip().isdigit():
+            problems.append(Problem(option, text, f"NAME=N with N a whole number of 0 or more, e.g. {option} X=2"))
+        elif known is not None and name not in known:
+            allowed = ", ".join(sorted(known)) or "none recorded"
+            problems.append(Problem(option, text, f"{what} must be one of: {allowed}"))
+        else:
+            out[name] = int(number)
+    return out, problems
+
+
+def _format(args) -> str:
+    if args.format:
+        return args.format
+    if args.out != "-":
+        return SUFFIX_FORMATS.get(Path(args.out).suffix.lower(), "md")
+    return "md"
+
+
+def _check_args(args) -> list[Problem]:
+    problems = []
+    if args.capacity is not None and args.capacity < 0:
+        problems.append(Problem("--capacity", args.capacity, "zero or more shop jobs per month"))
+    if not 1 <= args.horizon <= 60:
+        problems.append(Problem("--horizon", args.horizon, "1 to 60 months"))
+    if not 0 <= args.turnaround <= 24:
+        problems.append(Problem("--turnaround", args.turnaround, "0 to 24 months"))
+    if args.out != "-":
+        parent = Path(args.out).expanduser().resolve().parent
+        if not parent.is_dir():
+            problems.append(Problem("--out", args.out, "a file in an existing folder, or - for stdout"))
+    return problems
+
+
+def _write(data: bytes, out: str) -> None:
+    """Write to stdout, or to a file atomically (a half-written plan is never left behind)."""
+    if out == "-":
+        sys.stdout.buffer.write(data)
+        sys.stdout.buffer.flush()
+        return
+    target = Path(out).expanduser()
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.resolve().parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+        os.chmod(tmp, 0o644)
+        os.replace(tmp, target)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+
+
+class _Steps:
+    """A rich progress line on a terminal; silent otherwise (pipes, cron)."""
+
+    def __init__(self, console, total: int):
+        self.progress = None
+        if console.is_terminal:
+            from rich.progress import BarColumn, Progress, TextColumn
+
+            self.progress = Progress(TextColumn("{task.description}"), BarColumn(), console=console, transient=True)
+            self.task = self.progress.add_task("starting", total=total)
+
+    def __enter__(self):
+        if self.progress is not None:
+            self.progress.start()
+        return self
+
+    def step(self, what: str) -> None:
+        if self.progress is not None:
+            self.progress.update(self.task, description=what, advance=1)
+
+    def __exit__(self, *exc) -> None:
+        if self.progress is not None:
+            self.progress.stop()
+
+
+def run(args, ctx) -> int:
+    from logbook.plan import PlanSettings, add_months, month_start, parse_month
+
+    fmt = _format(args)
+    problems = _check_args(args)
+    start = month_start(ctx.today)
+    if args.month is not None:
+        try:
+            start = parse_month(args.month, "--month")
+        except InputRejected as exc:
+            problems += exc.problems
+    if problems:
+        return _bad(ctx, problems)
+
+    with _Steps(ctx.err, total=6) as steps:
+        steps.step("reading the database")
+        with ctx.open_store() as store:
+            fleet = store.fleet()
+        sites = {m.site for m in fleet.machines.values()}
+        site_capacity, bad_sites = _pairs(args.site_capacity, "--site-capacity", sites, "the site")
+        exchange, bad_models = _pairs(args.exchange, "--exchange", set(fleet.models), "the model")
+        if bad_sites or bad_models:
+            return _bad(ctx, bad_sites + bad_models)
+        try:
+            settings = PlanSettings(
+                start_month=start,
+                horizon_months=args.horizon,
+                capacity_per_month=args.capacity,
+                site_capacity=site_capacity,
+                exchange_on_hand=exchange,
+                turnaround_months=args.turnaround,
+            )
+        except InputRejected as exc:
+            return _bad(ctx, exc.problems)
+
+        from logbook.analysis.fleet import forecast_fleet
+        from logbook.analysis.life import fleet_life
+        from logbook.exports import Provenance, Report, render
+        from logbook.plan import make_plan
+
+        steps.step(f"forecasting {len(fleet.pumps)} pumps")
+        forecast = forecast_fleet(fleet, ctx.today)
+        steps.step("fitting fleet life")
+        horizon_days = (add_months(start, args.horizon) - ctx.today).days
+        life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
+        steps.step("planning")
+        plan = make_plan(forecast, settings)
+        steps.step(f"writing {fmt}")
+        provenance = Provenance.from_models(str(fleet.source or ctx.db_path), ctx.today, fleet.models)
+        data = render(Report(forecast, plan, life, provenance, charts=not args.no_charts), fmt)
+        steps.step("saving")
+        try:
+            _write(data, args.out)
+        except OSError as exc:
+            ctx.err.print(f"logbook forecast: cannot write {args.out}: {exc.strerror or exc}", markup=False, soft_wrap=True)
+            return 1
+    if args.out != "-" and ctx.err.is_terminal:
+        ctx.err.print(
+            f"wrote {args.out}: {len(plan.lines)} planned, {len(plan.unplaced)} do not fit", markup=False, soft_wrap=True
+        )
+    return 0
+
+
+def _bad(ctx, problems: list[Problem]) -> int:
+    ctx.err.print("logbook forecast: nothing written - check the arguments:", markup=False, soft_wrap=True)
+    for problem in problems:
+        ctx.err.print(f"  - {problem}", markup=False, soft_wrap=True)
+    return 2
