@@ -54,7 +54,7 @@ class Context:
     user: str | None
     today: date
     units: UnitPrefs
-    console: Console = field(default_factory=lambda: Console(highlight=False))
+    console: Console = field(default_factory=lambda: Console(highlight=False, width=None if sys.stdout.isatty() else 160))
     err: Console = field(default_factory=lambda: Console(stderr=True, highlight=False))
 
     def open_store(self, *, create: bool = False):
@@ -69,11 +69,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Maintenance logbook for servo-controlled axial piston pumps: readings, wear trends, overhaul plans. "
         "Run without a command to open the fleet view.",
     )
-    parser.add_argument("--db", type=Path, default=None, help="database file (default: $LOGBOOK_DB or the user data directory)")
-    parser.add_argument("--as", dest="user", default=None, metavar="NAME", help="record changes under this name (default: your login)")
-    parser.add_argument("--units", choices=("metric", "us"), default=os.environ.get("LOGBOOK_UNITS", "metric"),
-                        help="units to show: metric (bar, L/min, C) or us (psi, gpm, F); default metric or $LOGBOOK_UNITS")
-    parser.add_argument("--today", type=date.fromisoformat, default=None, help=argparse.SUPPRESS)
+    _add_global_options(parser, suppress=False)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in COMMAND_MODULES:
         try:
@@ -83,7 +79,23 @@ def build_parser() -> argparse.ArgumentParser:
                 continue  # not written yet
             raise
         module.register(sub)
+    # Global options are accepted after the command too: `logbook demo --db X`.
+    for command_parser in sub.choices.values():
+        _add_global_options(command_parser, suppress=True)
     return parser
+
+
+def _add_global_options(parser: argparse.ArgumentParser, *, suppress: bool) -> None:
+    def default(value):
+        return argparse.SUPPRESS if suppress else value
+
+    parser.add_argument("--db", type=Path, default=default(None),
+                        help="database file (default: $LOGBOOK_DB or the user data directory)")
+    parser.add_argument("--as", dest="user", default=default(None), metavar="NAME",
+                        help="record changes under this name (default: your login)")
+    parser.add_argument("--units", choices=("metric", "us"), default=default(os.environ.get("LOGBOOK_UNITS", "metric")),
+                        help="units to show and to read bare numbers in: metric (bar, L/min, C) or us (psi, gpm, F)")
+    parser.add_argument("--today", type=date.fromisoformat, default=default(None), help=argparse.SUPPRESS)
 
 
 def main(argv: list[str] | None = None) -> int:

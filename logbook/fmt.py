@@ -46,3 +46,15 @@ def day(d: date | None) -> str:
 
 def month(d: date | None) -> str:
     return d.strftime("%Y-%m") if d else "-"
+
+
+def nearest_limit(kf, prefs: UnitPrefs) -> str:
+    """How close a reading kind is to its limit, in words a planner reads at a glance:
+    rising kinds as a percentage of the limit, falling ones as value against limit."""
+    if kf is None or kf.latest_value is None:
+        return "-"
+    if kf.limit is None:
+        return f"{kf.kind.label} (no limit)"
+    if kf.limit.direction == "below":
+        return f"{kf.kind.label} {value(kf.kind, kf.latest_value, prefs, with_unit=False)}/{value(kf.kind, kf.limit.value, prefs)}"
+    return f"{kf.kind.label} {100.0 * kf.latest_value / kf.limit.value:.0f}%"

@@ -43,7 +43,7 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
             f"{p.machine or 'shelf'}/{p.position or '-'}",
             p.model,
             fmt.hours(p.hours_since_overhaul),
-            f"{w.kind.label} {w.percent_of_limit:.0f}%" if w is not None and w.percent_of_limit is not None else "-",
+            fmt.nearest_limit(w, ctx.units),
             fmt.day(w.p10_date) if w else "-",
             fmt.day(w.p50_date) if w else "-",
             p.status,
