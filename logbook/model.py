@@ -143,6 +143,7 @@ class Reading:
     entered_at: datetime | None = None
     superseded_by: int | None = None  # id of the correcting reading, if corrected
     machine: str | None = None  # machine the pump sat in when read (set by the store)
+    removed_reason: str | None = None  # set when the reading was removed (kept, never deleted)
 
     def value(self, kind: Kind) -> float | None:
         if kind is Kind.CASE_DRAIN:
@@ -167,6 +168,7 @@ class Event:
     note: str = ""
     entered_by: str = ""
     entered_at: datetime | None = None
+    removed_reason: str | None = None  # set when the event was removed (kept, never deleted)
 
 
 @dataclass(frozen=True)

@@ -4,19 +4,34 @@
     store = Store(":memory:")            # for tests
     fleet = store.fleet()                # a consistent snapshot for the analysis
     store.add_reading(reading, today=date.today())   # validated, one transaction
+    store.correct_reading(7, servo_pressure_bar=24.0, reason="typo", today=...)  # keeps the original
+    store.remove_reading(7, reason="wrong pump"); store.remove_event(3, reason="...")
+    store.pump_trail("S-100")            # who changed what, when, before -> after
+    store.backup("copy.db"); store.check()   # online backup; integrity and domain checks
 """
 
 from __future__ import annotations
 
 from logbook.store.core import DatabaseBusy, DatabaseMissing, DatabaseTooNew, StoreCore, StoreError
+from logbook.store.corrections import CORRECTABLE, CorrectionsMixin
+from logbook.store.maintenance import BackupResult, Finding, MaintenanceMixin
 from logbook.store.reads import ReadMixin
 from logbook.store.records import RecordsMixin
+from logbook.store.trail import TrailEntry, TrailMixin
 from logbook.store.writes import WriteMixin
 
 
-class Store(RecordsMixin, WriteMixin, ReadMixin, StoreCore):
+class Store(CorrectionsMixin, MaintenanceMixin, TrailMixin, RecordsMixin, WriteMixin, ReadMixin, StoreCore):
     """A logbook database. Reads return domain records; writes validate first and
-    then commit all-or-nothing, recording who and when in the audit table."""
+    then commit all-or-nothing, recording who and when in the audit table.
+
+    Shared use: any number of processes may open one file. Writes take SQLite's write
+    lock with bounded retry (``DatabaseBusy`` when it stays held); reads run in WAL
+    snapshots and never wait for a writer. ``change_count()`` rises with every commit
+    from any process: poll it to notice another user's changes."""
 
 
-__all__ = ["Store", "StoreError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy"]
+__all__ = [
+    "Store", "StoreError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy",
+    "TrailEntry", "Finding", "BackupResult", "CORRECTABLE",
+]

@@ -10,11 +10,14 @@ import sqlite3
 import time
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Callable, Iterator
+from typing import Callable, Iterator, TypeVar
 
 import sqlite_utils
 
 from logbook.store.schema import MIGRATIONS, SCHEMA_VERSION
+
+T = TypeVar("T")
+R = TypeVar("R")
 
 
 class StoreError(Exception):
@@ -73,8 +76,11 @@ class StoreCore:
                     )
                 file.parent.mkdir(parents=True, exist_ok=True)
                 # Readable and writable by owner and group only.
-                fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o660)
-                os.close(fd)
+                try:
+                    fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o660)
+                    os.close(fd)
+                except FileExistsError:
+                    pass  # another process created it a moment ago; its migration is serialized below
             elif not os.access(self.path, os.R_OK):
                 raise StoreError(f"cannot read the logbook database at {self.path}: permission denied")
         try:
@@ -145,18 +151,36 @@ class StoreCore:
                 delay = min(delay * 2, 1.0)
         try:
             yield self.conn
-        except BaseException:
-            self.conn.execute("ROLLBACK")
-            raise
-        else:
             self.conn.execute("COMMIT")
+        except BaseException:
+            if self.conn.in_transaction:
+                self.conn.execute("ROLLBACK")
+            raise
+
+    def _check_then_write(self, check: Callable[[], T], write: Callable[[T], R], *, dry_run: bool = False) -> tuple[T, R | None]:
+        """Validate without holding the write lock, then write under it. ``check`` returns
+        something with ``.problems``; when another connection committed in between, the
+        check runs again inside the write transaction, so a write never rests on stale reads."""
+        version = self.data_version()
+        checked = check()
+        if checked.problems or dry_run:
+            return checked, None
+        with self.transaction():
+            if self.data_version() != version:
+                checked = check()
+                if checked.problems:
+                    return checked, None
+            return checked, write(checked)
 
     def data_version(self) -> int:
-        """Changes whenever another connection commits (PRAGMA data_version)."""
+        """Changes whenever another connection (any process) commits: PRAGMA data_version.
+        Unchanged by this connection's own commits."""
         return int(self.conn.execute("PRAGMA data_version").fetchone()[0])
 
     def change_count(self) -> int:
-        """A cheap fingerprint of the content: rises with every write by anyone."""
+        """A cheap fingerprint of the content that rises with every committed write by
+        anyone, in any process (each write adds audit rows, never removes them). The
+        fleet view polls it every few seconds and reloads when it moves."""
         row = self.conn.execute(
             "SELECT (SELECT count(*) FROM audit), (SELECT coalesce(max(id), 0) FROM audit)"
         ).fetchone()
@@ -166,9 +190,14 @@ class StoreCore:
     def _now_text(self) -> str:
         return self.clock().isoformat()
 
-    def _audit(self, action: str, table: str, key: object, serial: str | None, before: dict | None, after: dict | None) -> None:
+    def _audit(
+        self, action: str, table: str, key: object, serial: str | None, before: dict | None, after: dict | None,
+        reason: str | None = None,
+    ) -> None:
+        """One audit row: who (the store's user), when, what, before and after, why."""
         self.conn.execute(
-            "INSERT INTO audit (at, who, action, table_name, row_key, serial, before_json, after_json) VALUES (?,?,?,?,?,?,?,?)",
+            "INSERT INTO audit (at, who, action, table_name, row_key, serial, before_json, after_json, reason) "
+            "VALUES (?,?,?,?,?,?,?,?,?)",
             (
                 self._now_text(),
                 self.user,
@@ -178,5 +207,6 @@ class StoreCore:
                 serial,
                 json.dumps(before, sort_keys=True, default=str) if before is not None else None,
                 json.dumps(after, sort_keys=True, default=str) if after is not None else None,
+                reason,
             ),
         )

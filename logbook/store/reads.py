@@ -50,6 +50,7 @@ def reading_from_row(row: dict) -> Reading:
         entered_at=_dt(row["entered_at"]),
         superseded_by=row["superseded_by"],
         machine=row["machine"],
+        removed_reason=row.get("removed_reason"),
     )
 
 
@@ -68,6 +69,7 @@ def event_from_row(row: dict) -> Event:
         note=row["note"],
         entered_by=row["entered_by"],
         entered_at=_dt(row["entered_at"]),
+        removed_reason=row.get("removed_reason"),
     )
 
 
@@ -138,13 +140,14 @@ class ReadMixin:
         return [fitment_from_row(r) for r in self.db.query(sql + " ORDER BY fitted_on, id", params)]
 
     def readings(self, serial: str | None = None, *, include_superseded: bool = False) -> list[Reading]:
+        """Current readings (oldest first); ``include_superseded`` adds corrected and removed ones."""
         sql, params = "SELECT * FROM readings", []
         where = []
         if serial is not None:
             where.append("serial = ?")
             params.append(serial)
         if not include_superseded:
-            where.append("superseded_by IS NULL")
+            where.append("superseded_by IS NULL AND removed_reason IS NULL")
         if where:
             sql += " WHERE " + " AND ".join(where)
         return [reading_from_row(r) for r in self.db.query(sql + " ORDER BY taken_on, machine_hours, id", params)]
@@ -153,12 +156,20 @@ class ReadMixin:
         rows = list(self.db.query("SELECT * FROM readings WHERE id = ?", [reading_id]))
         return reading_from_row(rows[0]) if rows else None
 
-    def events(self, serial: str | None = None) -> list[Event]:
-        if serial is None:
-            rows = self.db.query("SELECT * FROM events ORDER BY happened_on, id")
-        else:
-            rows = self.db.query("SELECT * FROM events WHERE serial = ? ORDER BY happened_on, id", [serial])
-        return [event_from_row(r) for r in rows]
+    def events(self, serial: str | None = None, *, include_removed: bool = False) -> list[Event]:
+        """Events in date order; removed ones only with ``include_removed``."""
+        where, params = [], []
+        if serial is not None:
+            where.append("serial = ?")
+            params.append(serial)
+        if not include_removed:
+            where.append("removed_reason IS NULL")
+        sql = "SELECT * FROM events" + (" WHERE " + " AND ".join(where) if where else "")
+        return [event_from_row(r) for r in self.db.query(sql + " ORDER BY happened_on, id", params)]
+
+    def event(self, event_id: int) -> Event | None:
+        rows = list(self.db.query("SELECT * FROM events WHERE id = ?", [event_id]))
+        return event_from_row(rows[0]) if rows else None
 
     def fleet(self) -> Fleet:
         """A consistent snapshot of everything, read in one transaction."""

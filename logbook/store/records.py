@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import json
 from collections import defaultdict
 from datetime import date
 from typing import Sequence
@@ -17,7 +18,7 @@ from logbook.model import (
     Problem,
     Reading,
 )
-from logbook.store.writes import EVENT_COLUMNS, READING_COLUMNS, _line, _with_line
+from logbook.store.writes import EVENT_COLUMNS, READING_COLUMNS, Checked, _line, _with_line
 from logbook.validate import check_hour_meter, check_reading_against_model
 
 _VALUE_FIELDS = (
@@ -26,8 +27,14 @@ _VALUE_FIELDS = (
 ).split()
 
 
-def _same_values(a: Reading, b: Reading) -> bool:
-    return all(getattr(a, f) == getattr(b, f) for f in _VALUE_FIELDS)
+_INSERT_READING = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
+_INSERT_EVENT = f"INSERT INTO events ({', '.join(EVENT_COLUMNS)}) VALUES ({', '.join('?' * len(EVENT_COLUMNS))})"
+
+
+def _values(r: Reading) -> tuple:
+    """The measured values of a reading, in _VALUE_FIELDS order (to spot a re-import)."""
+    return (r.case_drain_lpm, r.servo_pressure_bar, r.neutral_drift_bar, r.charge_pressure_bar, r.oil_temp_c,
+            r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.iso4406)
 
 
 class RecordsMixin:
@@ -57,28 +64,54 @@ class RecordsMixin:
         source: tuple[str, str] | None = None,
     ) -> ImportReport:
         """Check every reading, then write all in one transaction (or none).
-        ``source`` is (file name, sha256) for an import."""
+        ``source`` is (file name, sha256) for an import: one audit row for the file,
+        each row carrying the import's id; otherwise one audit row per reading."""
+        ids: list[int] = []
+
+        def write(checked: Checked) -> None:
+            ids.extend(self._write_readings(checked.items, source))
+
+        checked, _ = self._check_then_write(lambda: self._check_readings(readings, today, lines), write, dry_run=dry_run)
+        added = 0 if checked.problems else len(checked.items)
+        return ImportReport("readings", added=added, already_present=checked.present, problems=checked.problems,
+                            dry_run=dry_run, ids=ids)
+
+    def _current_reading_values(self, serials: set[str], without: Sequence[int] = ()) -> dict[tuple, tuple]:
+        """(serial, date text, machine_hours) -> (id, values) of the current readings of ``serials``."""
+        skip = set(without)
+        cols = ", ".join(_VALUE_FIELDS)
+        found = {}
+        for row in self.conn.execute(
+            f"SELECT id, serial, taken_on, machine_hours, {cols} FROM readings WHERE superseded_by IS NULL "
+            "AND removed_reason IS NULL AND serial IN (SELECT value FROM json_each(?))",
+            (json.dumps(sorted(serials)),),
+        ):
+            if row[0] not in skip:
+                found[(row[1], row[2], row[3])] = (row[0], tuple(row[4:]))
+        return found
+
+    def _check_readings(
+        self, readings: Sequence[Reading], today: date, lines: Sequence[int] | None, without: Sequence[int] = ()
+    ) -> Checked:
+        """Every problem of a batch of readings, and the accepted ones as (index, reading, machine).
+        ``without``: reading ids left out of the comparison (the one being corrected)."""
         pumps, models = self.pumps(), self.models()
         fits = self._all_fitments()
-        existing: dict[tuple, Reading] = {}
-        serials = {r.serial for r in readings}
-        for r in self.readings():
-            if r.serial in serials:
-                existing[(r.serial, r.taken_on, r.machine_hours)] = r
+        existing = self._current_reading_values({r.serial for r in readings}, without)
         problems: list[Problem] = []
-        accepted: list[tuple[int, Reading]] = []
+        accepted: list[tuple[int, Reading, str]] = []
         present = 0
         seen: set[tuple] = set()
+        check_model = check_reading_against_model
         for i, r in enumerate(readings):
-            line = _line(lines, i)
-            row_problems: list[Problem] = []
             pump = pumps.get(r.serial)
             if pump is None:
-                problems.append(Problem("serial", r.serial, "is not a known pump serial", line=line))
+                problems.append(Problem("serial", r.serial, "is not a known pump serial", line=_line(lines, i)))
                 continue
+            row_problems: list[Problem] = []
             if r.taken_on > today:
                 row_problems.append(Problem("date", r.taken_on.isoformat(), f"is in the future: dates up to {today.isoformat()} are allowed"))
-            fit = meter.fitment_on(fits.get(r.serial, []), r.taken_on)
+            fit = meter.fitment_on(fits.get(r.serial, ()), r.taken_on)
             if fit is None:
                 periods = ", ".join(
                     f"{f.machine} {f.fitted_on}..{f.removed_on or 'now'}" for f in fits.get(r.serial, [])
@@ -88,63 +121,64 @@ class RecordsMixin:
                 )
             elif r.machine is not None and r.machine != fit.machine:
                 row_problems.append(Problem("machine", r.machine, f"pump {r.serial} sat in {fit.machine} on {r.taken_on}"))
-            row_problems += check_reading_against_model(r, models[pump.model])
+            row_problems += check_model(r, models[pump.model])
             key = (r.serial, r.taken_on, r.machine_hours)
             if not row_problems:
+                found = existing.get((r.serial, r.taken_on.isoformat(), r.machine_hours))
                 if key in seen:
                     row_problems.append(Problem("serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}", "appears twice in this file"))
-                elif key in existing:
-                    if _same_values(existing[key], r):
+                elif found is not None:
+                    if found[1] == _values(r):
                         present += 1
                         continue
                     row_problems.append(
                         Problem(
                             "serial/date/machine_hours",
                             f"{r.serial} {r.taken_on} {r.machine_hours:g}",
-                            f"a reading with other values is already recorded (id {existing[key].id}); "
+                            f"a reading with other values is already recorded (id {found[0]}); "
                             "correct it with `logbook correct` so the original is kept",
                         )
                     )
             seen.add(key)
             if row_problems:
-                problems += _with_line(row_problems, line)
+                problems += _with_line(row_problems, _line(lines, i))
                 continue
-            accepted.append((i, dataclasses.replace(r, machine=fit.machine)))
+            accepted.append((i, r, fit.machine))
         # Hour meters: check the accepted rows against each other and the database.
         timelines: dict[str, meter.MeterTimeline] = {}
-        for _, r in accepted:
-            if r.machine not in timelines:
-                timelines[r.machine] = self._timeline(r.machine)
-        for _, r in accepted:
-            timelines[r.machine].add(r.taken_on, r.machine_hours)
-        for i, r in accepted:
-            earlier, later = timelines[r.machine].neighbours(r.taken_on)
-            problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
-            if problem:
+        for _, r, machine in accepted:
+            if machine not in timelines:
+                timelines[machine] = self._timeline(machine, without_readings=without)
+            timelines[machine].add(r.taken_on, r.machine_hours)
+        for i, r, machine in accepted:
+            earlier, later = timelines[machine].neighbours(r.taken_on)
+            if (earlier is not None and r.machine_hours < earlier[1] - 1e-9) or (later is not None and r.machine_hours > later[1] + 1e-9):
+                problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
                 problems.append(_with_line([problem], _line(lines, i))[0])
-        if problems or dry_run:
-            return ImportReport("readings", added=0 if problems else len(accepted), already_present=present, problems=problems, dry_run=dry_run)
-        now, ids = self._now_text(), []
-        with self.transaction():
-            import_id = self._record_import("readings", source, len(accepted), now) if source else None
-            rows = [
-                (
-                    r.serial, r.taken_on.isoformat(), r.machine, r.machine_hours, r.case_drain_lpm, r.servo_pressure_bar,
-                    r.neutral_drift_bar, r.charge_pressure_bar, r.oil_temp_c, r.test_pressure_bar, r.test_speed_rpm,
-                    r.oil_grade, r.oil_vi, r.iso4406, r.technician, r.note, self.user, now, import_id,
-                )
-                for _, r in accepted
-            ]
-            sql = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
-            if source is None:
-                for row, (_, r) in zip(rows, accepted):
-                    cur = self.conn.execute(sql, row)
-                    ids.append(cur.lastrowid)
-                    after = dict(zip(READING_COLUMNS, row))
-                    self._audit("insert", "readings", cur.lastrowid, r.serial, None, after)
-            else:
-                self.conn.executemany(sql, rows)
-        return ImportReport("readings", added=len(accepted), already_present=present, problems=[], dry_run=False, ids=ids)
+        return Checked(problems, accepted, present)
+
+    def _write_readings(self, accepted: Sequence[tuple[int, Reading, str]], source: tuple[str, str] | None) -> list[int]:
+        """Insert checked readings (inside the caller's transaction); returns their ids."""
+        now = self._now_text()
+        import_id = self._record_import("readings", source, len(accepted), now) if source else None
+        user = self.user
+        rows = [
+            (
+                r.serial, r.taken_on.isoformat(), machine, r.machine_hours, r.case_drain_lpm, r.servo_pressure_bar,
+                r.neutral_drift_bar, r.charge_pressure_bar, r.oil_temp_c, r.test_pressure_bar, r.test_speed_rpm,
+                r.oil_grade, r.oil_vi, r.iso4406, r.technician, r.note, user, now, import_id,
+            )
+            for _, r, machine in accepted
+        ]
+        if source is not None:
+            self.conn.executemany(_INSERT_READING, rows)
+            return []
+        ids = []
+        for row, (_, r, _machine) in zip(rows, accepted):
+            cur = self.conn.execute(_INSERT_READING, row)
+            ids.append(cur.lastrowid)
+            self._audit("insert", "readings", cur.lastrowid, r.serial, None, dict(zip(READING_COLUMNS, row)))
+        return ids
 
     def _record_import(self, kind: str, source: tuple[str, str], count: int, now: str) -> int:
         cur = self.conn.execute(
@@ -177,13 +211,25 @@ class RecordsMixin:
     ) -> ImportReport:
         """Check events in date order (moves change where a pump sits for the
         events after them), then write all in one transaction (or none)."""
+        ids: list[int] = []
+
+        def write(checked: Checked) -> None:
+            ids.extend(self._write_events(checked.items, source))
+
+        checked, _ = self._check_then_write(lambda: self._check_events(events, today, lines), write, dry_run=dry_run)
+        added = 0 if checked.problems else len(checked.items)
+        return ImportReport("events", added=added, already_present=checked.present, problems=checked.problems,
+                            dry_run=dry_run, ids=ids)
+
+    def _check_events(self, events: Sequence[Event], today: date, lines: Sequence[int] | None) -> Checked:
+        """Every problem of a batch of events; the plan as (index, event, fitment before, closed, opened)."""
         pumps, machines = self.pumps(), self.machines()
         fits = self._all_fitments()
         reps = self._replacements()
         existing = {(e.kind, e.happened_on, e.serial, e.machine, e.hours) for e in self.events()}
         order = sorted(range(len(events)), key=lambda i: (events[i].happened_on, i))
         problems: list[Problem] = []
-        plan: list[tuple[int, Event, Fitment | None, Fitment | None]] = []  # event, closed fitment, new fitment
+        plan: list[tuple[int, Event, Fitment | None, Fitment | None, Fitment | None]] = []
         present = 0
         timelines: dict[str, meter.MeterTimeline] = {}
 
@@ -195,6 +241,7 @@ class RecordsMixin:
         for i in order:
             e, line = events[i], _line(lines, i)
             errs: list[Problem] = []
+            current = None
             if e.happened_on > today:
                 errs.append(Problem("date", e.happened_on.isoformat(), f"is in the future: dates up to {today.isoformat()} are allowed"))
             closed = opened = None
@@ -250,30 +297,30 @@ class RecordsMixin:
             if e.kind is EventKind.METER_REPLACED:
                 reps[e.machine].append(e)
                 timeline(e.machine).add_replacement(e.happened_on)
-            plan.append((i, e, closed, opened))
-        if problems or dry_run:
-            return ImportReport("events", added=0 if problems else len(plan), already_present=present, problems=problems, dry_run=dry_run)
+            plan.append((i, e, current if closed is not None else None, closed, opened))
+        return Checked(problems, plan, present)
+
+    def _write_events(self, plan, source: tuple[str, str] | None) -> list[int]:
+        """Insert checked events and the fitment changes of moves (inside the caller's transaction)."""
         now, ids = self._now_text(), []
-        with self.transaction():
-            import_id = self._record_import("events", source, len(plan), now) if source else None
-            sql = f"INSERT INTO events ({', '.join(EVENT_COLUMNS)}) VALUES ({', '.join('?' * len(EVENT_COLUMNS))})"
-            for _, e, closed, opened in plan:
-                row = (
-                    e.kind.value, e.happened_on.isoformat(), e.serial, e.machine, e.hours, e.to_machine, e.to_position,
-                    e.to_hours, e.technician, e.note, self.user, now, import_id,
+        import_id = self._record_import("events", source, len(plan), now) if source else None
+        for _, e, before, closed, opened in plan:
+            row = (
+                e.kind.value, e.happened_on.isoformat(), e.serial, e.machine, e.hours, e.to_machine, e.to_position,
+                e.to_hours, e.technician, e.note, self.user, now, import_id,
+            )
+            cur = self.conn.execute(_INSERT_EVENT, row)
+            ids.append(cur.lastrowid)
+            self._audit("insert", "events", cur.lastrowid, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
+            if closed is not None and closed.id is not None and closed.id > 0:
+                self.conn.execute(
+                    "UPDATE fitments SET removed_on = ?, machine_hours_at_removal = ? WHERE id = ?",
+                    (closed.removed_on.isoformat(), closed.machine_hours_at_removal, closed.id),
                 )
-                cur = self.conn.execute(sql, row)
-                ids.append(cur.lastrowid)
-                self._audit("insert", "events", cur.lastrowid, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
-                if closed is not None and closed.id is not None and closed.id > 0:
-                    self.conn.execute(
-                        "UPDATE fitments SET removed_on = ?, machine_hours_at_removal = ? WHERE id = ?",
-                        (closed.removed_on.isoformat(), closed.machine_hours_at_removal, closed.id),
-                    )
-                    self._audit("update", "fitments", closed.id, e.serial, None, dataclasses.asdict(closed))
-                if opened is not None:
-                    self._insert_fitment(opened)
-        return ImportReport("events", added=len(plan), already_present=present, problems=[], ids=ids)
+                self._audit("update", "fitments", closed.id, e.serial, dataclasses.asdict(before), dataclasses.asdict(closed))
+            if opened is not None:
+                self._insert_fitment(opened)
+        return ids
 
     def _check_move(self, e: Event, machines, fits, current: Fitment | None, timeline) -> list[Problem]:
         errs = []

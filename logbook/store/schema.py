@@ -122,6 +122,19 @@ MIGRATIONS: list[str] = [
     );
     CREATE INDEX audit_serial ON audit(serial, at);
     """,
+    # 2: corrections and removals. A removed row stays, marked with its reason; the
+    # natural-key index then covers only current rows (neither corrected nor removed).
+    """
+    ALTER TABLE readings ADD COLUMN removed_reason TEXT;
+    ALTER TABLE events ADD COLUMN removed_reason TEXT;
+    ALTER TABLE audit ADD COLUMN reason TEXT;
+    DROP INDEX readings_natural;
+    CREATE UNIQUE INDEX readings_current ON readings(serial, taken_on, machine_hours)
+        WHERE superseded_by IS NULL AND removed_reason IS NULL;
+    CREATE INDEX readings_import ON readings(import_id) WHERE import_id IS NOT NULL;
+    CREATE INDEX events_import ON events(import_id) WHERE import_id IS NOT NULL;
+    CREATE INDEX audit_table_key ON audit(table_name, row_key);
+    """,
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)

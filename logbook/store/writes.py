@@ -52,30 +52,47 @@ def _same_model(a: PumpModel, b: PumpModel) -> bool:
     return dataclasses.astuple(a) == dataclasses.astuple(b)
 
 
+@dataclasses.dataclass
+class Checked:
+    """The outcome of checking a batch: what to write, what was already there, what is wrong."""
+
+    problems: list[Problem]
+    items: list
+    present: int = 0
+
+
 class WriteMixin:
     """Adds, corrections and edits; the only place rows are written."""
 
     # -- small context readers ----------------------------------------------------
-    def _timeline(self, machine: str) -> meter.MeterTimeline:
-        """Every hour-meter record of a machine (current readings, events, fitments)."""
+    def _timeline(self, machine: str, *, without_readings: Sequence[int] = ()) -> meter.MeterTimeline:
+        """Every hour-meter record of a machine (current readings, events, fitments),
+        leaving out the readings ``without_readings`` (one being corrected)."""
         reps = [
             date.fromisoformat(r[0])
             for r in self.conn.execute(
-                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ?", (machine,)
+                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
+                (machine,),
             )
         ]
         tl = meter.MeterTimeline(reps)
-        for on, hours in self.conn.execute(
-            "SELECT taken_on, machine_hours FROM readings WHERE machine = ? AND superseded_by IS NULL", (machine,)
+        skip = set(without_readings)
+        for rid, on, hours in self.conn.execute(
+            "SELECT id, taken_on, machine_hours FROM readings WHERE machine = ? AND superseded_by IS NULL "
+            "AND removed_reason IS NULL",
+            (machine,),
         ):
-            tl.add(date.fromisoformat(on), hours)
+            if rid not in skip:
+                tl.add(date.fromisoformat(on), hours)
         for on, hours in self.conn.execute(
-            "SELECT happened_on, hours FROM events WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced'",
+            "SELECT happened_on, hours FROM events WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced' "
+            "AND removed_reason IS NULL",
             (machine,),
         ):
             tl.add(date.fromisoformat(on), hours)
         for on, hours in self.conn.execute(
-            "SELECT happened_on, to_hours FROM events WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move'",
+            "SELECT happened_on, to_hours FROM events WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move' "
+            "AND removed_reason IS NULL",
             (machine,),
         ):
             tl.add(date.fromisoformat(on), hours)
@@ -97,6 +114,15 @@ class WriteMixin:
 
     # -- models and limits -------------------------------------------------------
     def add_models(self, models: Sequence[PumpModel], *, lines: Sequence[int] | None = None, dry_run: bool = False) -> ImportReport:
+        def write(checked: Checked) -> None:
+            for m in checked.items:
+                self._insert_model(m)
+
+        checked, _ = self._check_then_write(lambda: self._check_models(models, lines), write, dry_run=dry_run)
+        added = 0 if checked.problems else len(checked.items)
+        return self._report("models", dry_run, added, checked.present, checked.problems)
+
+    def _check_models(self, models: Sequence[PumpModel], lines: Sequence[int] | None) -> Checked:
         existing = self.models()
         problems, new, present, seen = [], [], 0, set()
         for i, m in enumerate(models):
@@ -116,12 +142,7 @@ class WriteMixin:
                 continue
             problems += _with_line(self._check_model(m), _line(lines, i))
             new.append(m)
-        if problems or dry_run:
-            return self._report("models", dry_run, 0 if problems else len(new), present, problems)
-        with self.transaction():
-            for m in new:
-                self._insert_model(m)
-        return self._report("models", dry_run, len(new), present, problems)
+        return Checked(problems, new, present)
 
     @staticmethod
     def _check_model(m: PumpModel) -> list[Problem]:
@@ -151,46 +172,69 @@ class WriteMixin:
 
     def update_model(self, code: str, **changes) -> PumpModel:
         """Change a model's reference conditions, interval or limits (``limits`` as a
-        tuple of Limit). Audited with before and after."""
-        old = self.models().get(code)
-        if old is None:
-            raise InputRejected([Problem("model", code, "is not a known pump model")])
+        tuple of Limit). Audited with before and after; read and written in one transaction."""
         unknown = set(changes) - set(MODEL_COLUMNS) - {"limits"} - {"description"}
         if unknown or "code" in changes:
             raise InputRejected([Problem("field", sorted(unknown | ({"code"} & set(changes))), "cannot be changed here")])
-        new = dataclasses.replace(old, **changes)
-        problems = self._check_model(new)
-        if problems:
-            raise InputRejected(problems)
         with self.transaction():
-            sets = [c for c in MODEL_COLUMNS if c != "code"]
-            self.conn.execute(
-                f"UPDATE models SET {', '.join(f'{c} = ?' for c in sets)} WHERE code = ?",
-                [getattr(new, c) for c in sets] + [code],
-            )
-            self.conn.execute("DELETE FROM limits WHERE model = ?", (code,))
-            for lim in new.limits:
-                self.conn.execute(
-                    "INSERT INTO limits (model, kind, value, direction) VALUES (?,?,?,?)",
-                    (code, lim.kind.value, lim.value, lim.direction),
-                )
-            self._audit("update", "models", code, None, dataclasses.asdict(old), dataclasses.asdict(new))
+            old = self.models().get(code)
+            if old is None:
+                raise InputRejected([Problem("model", code, "is not a known pump model")])
+            new = dataclasses.replace(old, **changes)
+            problems = self._check_model(new)
+            if problems:
+                raise InputRejected(problems)
+            self._write_model_update(old, new)
         return new
 
+    def _write_model_update(self, old: PumpModel, new: PumpModel) -> None:
+        """Rewrite a model row and its limits; audit the model and the limits apart."""
+        sets = [c for c in MODEL_COLUMNS if c != "code"]
+        self.conn.execute(
+            f"UPDATE models SET {', '.join(f'{c} = ?' for c in sets)} WHERE code = ?",
+            [getattr(new, c) for c in sets] + [old.code],
+        )
+        self.conn.execute("DELETE FROM limits WHERE model = ?", (old.code,))
+        for lim in new.limits:
+            self.conn.execute(
+                "INSERT INTO limits (model, kind, value, direction) VALUES (?,?,?,?)",
+                (old.code, lim.kind.value, lim.value, lim.direction),
+            )
+        if dataclasses.replace(old, limits=()) != dataclasses.replace(new, limits=()):
+            self._audit("update", "models", old.code, None, dataclasses.asdict(old), dataclasses.asdict(new))
+        if old.limits != new.limits:
+            def as_dict(m: PumpModel) -> dict:
+                return {lim.kind.value: {"value": lim.value, "direction": lim.direction} for lim in m.limits}
+
+            self._audit("update", "limits", old.code, None, as_dict(old), as_dict(new))
+
     def set_limit(self, code: str, kind: Kind, value: float | None) -> PumpModel:
-        """Set (or with None remove) one limit of a model."""
-        old = self.models().get(code)
-        if old is None:
-            raise InputRejected([Problem("model", code, "is not a known pump model")])
+        """Set (or with None remove) one limit of a model; the other limits are re-read
+        inside the write transaction so a concurrent change to them is not lost."""
         if value is not None and not value > 0:
             raise InputRejected([Problem(f"{kind.value}_limit", value, "must be a positive number", kind.unit)])
-        limits = [lim for lim in old.limits if lim.kind is not kind]
-        if value is not None:
-            limits.append(Limit(kind, float(value), "below" if kind is Kind.SERVO_PRESSURE else "above"))
-        return self.update_model(code, limits=tuple(limits))
+        with self.transaction():
+            old = self.models().get(code)
+            if old is None:
+                raise InputRejected([Problem("model", code, "is not a known pump model")])
+            limits = [lim for lim in old.limits if lim.kind is not kind]
+            if value is not None:
+                limits.append(Limit(kind, float(value), "below" if kind is Kind.SERVO_PRESSURE else "above"))
+            new = dataclasses.replace(old, limits=tuple(limits))
+            self._write_model_update(old, new)
+        return new
 
     # -- machines ----------------------------------------------------------------
     def add_machines(self, machines: Sequence[Machine], *, lines=None, dry_run: bool = False) -> ImportReport:
+        def write(checked: Checked) -> None:
+            for m in checked.items:
+                self.conn.execute("INSERT INTO machines (unit, site, description) VALUES (?,?,?)", (m.unit, m.site, m.description))
+                self._audit("insert", "machines", m.unit, None, None, dataclasses.asdict(m))
+
+        checked, _ = self._check_then_write(lambda: self._check_machines(machines, lines), write, dry_run=dry_run)
+        return self._report("machines", dry_run, 0 if checked.problems else len(checked.items), checked.present, checked.problems)
+
+    def _check_machines(self, machines: Sequence[Machine], lines) -> Checked:
         existing = self.machines()
         problems, new, present, seen = [], [], 0, set()
         for i, m in enumerate(machines):
@@ -205,18 +249,23 @@ class WriteMixin:
                     problems.append(Problem("unit", m.unit, "already exists with another site or description", line=_line(lines, i)))
                 continue
             new.append(m)
-        if problems or dry_run:
-            return self._report("machines", dry_run, 0 if problems else len(new), present, problems)
-        with self.transaction():
-            for m in new:
-                self.conn.execute("INSERT INTO machines (unit, site, description) VALUES (?,?,?)", (m.unit, m.site, m.description))
-                self._audit("insert", "machines", m.unit, None, None, dataclasses.asdict(m))
-        return self._report("machines", dry_run, len(new), present, problems)
+        return Checked(problems, new, present)
 
     # -- pumps and their first fitment ------------------------------------------------
     def add_pumps(
         self, pumps: Sequence[tuple[Pump, Fitment | None]], *, lines=None, dry_run: bool = False, today: date | None = None
     ) -> ImportReport:
+        def write(checked: Checked) -> None:
+            for p, fit in checked.items:
+                self.conn.execute("INSERT INTO pumps (serial, model, note) VALUES (?,?,?)", (p.serial, p.model, p.note))
+                self._audit("insert", "pumps", p.serial, p.serial, None, dataclasses.asdict(p))
+                if fit is not None:
+                    self._insert_fitment(fit)
+
+        checked, _ = self._check_then_write(lambda: self._check_pumps(pumps, lines), write, dry_run=dry_run)
+        return self._report("pumps", dry_run, 0 if checked.problems else len(checked.items), checked.present, checked.problems)
+
+    def _check_pumps(self, pumps: Sequence[tuple[Pump, Fitment | None]], lines) -> Checked:
         models, machines, existing = self.models(), self.machines(), self.pumps()
         problems, new, present, seen = [], [], 0, set()
         for i, (p, fit) in enumerate(pumps):
@@ -239,7 +288,7 @@ class WriteMixin:
                     problems.append(Problem("serial", p.serial, "already exists with other values", line=line))
                 continue
             if p.model not in models:
-                problems.append(Problem("model", p.model, "is not a known pump model: " + ", ".join(models) or "none yet", line=line))
+                problems.append(Problem("model", p.model, "is not a known pump model: " + (", ".join(models) or "none yet"), line=line))
             if fit is not None:
                 if fit.machine not in machines:
                     problems.append(Problem("machine", fit.machine, "is not a known machine unit", line=line))
@@ -262,15 +311,7 @@ class WriteMixin:
         dupes = {bp for bp in batch_positions if batch_positions.count(bp) > 1}
         for machine, position in sorted(dupes):
             problems.append(Problem("position", position, f"on {machine} is given to more than one pump in this file"))
-        if problems or dry_run:
-            return self._report("pumps", dry_run, 0 if problems else len(new), present, problems)
-        with self.transaction():
-            for p, fit in new:
-                self.conn.execute("INSERT INTO pumps (serial, model, note) VALUES (?,?,?)", (p.serial, p.model, p.note))
-                self._audit("insert", "pumps", p.serial, p.serial, None, dataclasses.asdict(p))
-                if fit is not None:
-                    self._insert_fitment(fit)
-        return self._report("pumps", dry_run, len(new), present, problems)
+        return Checked(problems, new, present)
 
     def _insert_fitment(self, fit: Fitment) -> int:
         cur = self.conn.execute(
