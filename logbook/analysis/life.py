@@ -16,15 +16,16 @@ Fewer than ``MIN_FAILURES`` failures give no fit, with the reason in words.
 from __future__ import annotations
 
 import math
+from collections import defaultdict
 from dataclasses import dataclass
-from datetime import date
 
 import numpy as np
 from scipy import optimize, stats
 
+from logbook.analysis.hours import pump_hours
 from logbook.analysis.results import FleetForecast
-from logbook.meter import fitment_on, pump_hours, replacements_of
-from logbook.model import EventKind, Fleet
+from logbook.analysis.segments import event_pump_hours, reading_pump_hours
+from logbook.model import EventKind, Fleet, PumpHistory
 
 MIN_FAILURES = 2
 FEW_FAILURES = 5  # below this the bounds are wide: say so
@@ -234,26 +235,46 @@ class Intervals:
     skipped: tuple[str, ...] = ()  # what could not be used, in words
 
 
-def _pump_hours_on(history, on: date, meter_hours: float | None, machine: str | None) -> float | None:
-    """Pump operating hours on a day from a machine meter reading, or at the removal before it."""
-    fits = [f for f in history.fitments if machine is None or f.machine == machine] or list(history.fitments)
-    fit = fitment_on(fits, on)
-    if fit is not None and meter_hours is not None:
-        return pump_hours(meter_hours, on, fit, replacements_of(fit.machine, history.events))
-    removed = [f for f in history.fitments if f.removed_on is not None and f.removed_on <= on]
-    removed = [f for f in removed if f.machine_hours_at_removal is not None]
-    if removed:
-        last = max(removed, key=lambda f: f.removed_on)
-        reps = replacements_of(last.machine, history.events)
-        return pump_hours(last.machine_hours_at_removal, last.removed_on, last, reps)
-    return None
+def _histories(fleet: Fleet) -> list[PumpHistory]:
+    """Every pump that has been fitted, with its records (indexes built once, not per pump)."""
+    fits, reads, own, meters = defaultdict(list), defaultdict(list), defaultdict(list), defaultdict(list)
+    for f in fleet.fitments:
+        fits[f.serial].append(f)
+    for r in fleet.readings:
+        if r.superseded_by is None:
+            reads[r.serial].append(r)
+    for e in fleet.events:
+        if e.kind is EventKind.METER_REPLACED and e.machine is not None:
+            meters[e.machine].append(e)
+        elif e.serial is not None:
+            own[e.serial].append(e)
+    out = []
+    for serial in sorted(fits):
+        if serial not in fleet.pumps:
+            continue
+        pump = fleet.pumps[serial]
+        fitted = tuple(sorted(fits[serial], key=lambda f: (f.fitted_on, f.id or 0)))
+        machines = {f.machine for f in fitted}
+        events = own[serial] + [e for m in sorted(machines) for e in meters[m]]
+        out.append(
+            PumpHistory(
+                pump=pump,
+                model=fleet.models[pump.model],
+                fitments=fitted,
+                readings=tuple(sorted(reads[serial], key=lambda r: (r.taken_on, r.machine_hours))),
+                events=tuple(sorted(events, key=lambda e: (e.happened_on, e.id or 0))),
+            )
+        )
+    return out
 
 
-def _latest_pump_hours(history) -> float | None:
-    seen = [
-        _pump_hours_on(history, r.taken_on, r.machine_hours, None) for r in history.readings
-    ] + [_pump_hours_on(history, f.removed_on, f.machine_hours_at_removal, f.machine) for f in history.fitments if f.removed_on]
-    seen = [h for h in seen if h is not None]
+def _latest_pump_hours(history: PumpHistory, hours_of: dict[int, float]) -> float | None:
+    seen = list(hours_of.values()) + [f.pump_hours_at_fit for f in history.fitments]
+    for f in history.fitments:
+        if f.removed_on is not None and f.machine_hours_at_removal is not None:
+            h = pump_hours(f.machine_hours_at_removal, f.removed_on, [f], history.events)
+            if h is not None:
+                seen.append(h)
     return max(seen) if seen else None
 
 
@@ -264,38 +285,41 @@ def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dic
     recorded: ``pump_hours_at_fit`` of its first fitment is taken as that age and
     enters as left truncation). The open interval since the last overhaul is censored
     at ``ages_now[serial]`` (hours since the last overhaul, e.g. the engine's estimate
-    for today) when given, else at the latest recorded pump hours.
+    for today) when given, else at the latest recorded pump hours. Pump hours at an
+    event come from the trend engine's own rule (``segments.event_pump_hours``).
     """
     ages_now = ages_now or {}
     found: dict[str, dict[str, list]] = {}
-    for serial in sorted(fleet.pumps):
-        history = fleet.history(serial)
-        if not history.fitments:
-            continue
+    for history in _histories(fleet):
+        serial = history.pump.serial
+        hours_of = {i: reading_pump_hours(r, history) for i, r in enumerate(history.readings)}
         bucket = found.setdefault(history.model.code, {"s": [], "t": [], "d": [], "e": [], "skip": []})
+
+        def add(hours: float, observed: bool, entry_hours: float) -> None:
+            for key, value in (("s", serial), ("t", hours), ("d", observed), ("e", entry_hours)):
+                bucket[key].append(value)
+
         start: float | None = 0.0
         entry = float(history.fitments[0].pump_hours_at_fit)
         ends = [e for e in history.events if e.serial == serial and e.kind in (EventKind.OVERHAUL, EventKind.EXCHANGE)]
         for event in ends:
-            at = _pump_hours_on(history, event.happened_on, event.hours, event.machine)
+            at = event_pump_hours(event, history, hours_of)
             if at is None:
-                bucket["skip"].append(f"{serial}: {event.kind.value} on {event.happened_on} has no hour-meter reading")
+                bucket["skip"].append(f"{serial}: {event.kind.value} on {event.happened_on}: pump hours unknown")
                 start = None  # the next interval's start is unknown
                 continue
             if start is not None and at - start > entry:
-                bucket["s"].append(serial), bucket["t"].append(at - start), bucket["d"].append(True)
-                bucket["e"].append(entry)
+                add(at - start, True, entry)
             elif start is not None:
                 bucket["skip"].append(f"{serial}: {event.kind.value} on {event.happened_on} is not after the last")
             start, entry = at, 0.0
         if serial in ages_now:
             age = ages_now[serial]
         else:
-            latest = _latest_pump_hours(history)
+            latest = _latest_pump_hours(history, hours_of)
             age = latest - start if latest is not None and start is not None else None
         if age is not None and age > entry:
-            bucket["s"].append(serial), bucket["t"].append(age), bucket["d"].append(False)
-            bucket["e"].append(entry)
+            add(age, False, entry)
     return {
         model: Intervals(model, tuple(b["s"]), tuple(b["t"]), tuple(b["d"]), tuple(b["e"]), tuple(b["skip"]))
         for model, b in sorted(found.items())
