@@ -62,6 +62,28 @@ class BatchFit:
     step_at: np.ndarray  # (S,) column of the first reading after a step, -1 for none
     prior_weight: np.ndarray  # weight of the fleet prior on the slope (0 = own data only)
     forecastable: np.ndarray  # (S,) bool: enough to forecast (own readings or a pooled prior)
+    lin: "PathParams"  # both paths, for the model-averaged forecast
+    exp: "PathParams"
+    w_exp: np.ndarray  # (S,) Akaike weight of the exponential path (0 where it is not available)
+
+
+@dataclass
+class PathParams:
+    """One path's (a, b), their covariance, residual variance and dof per row."""
+
+    a: np.ndarray
+    b: np.ndarray
+    c00: np.ndarray
+    c01: np.ndarray
+    c11: np.ndarray
+    sigma2: np.ndarray
+    dof: np.ndarray
+    prior_weight: np.ndarray
+    ok: np.ndarray  # usable for a forecast
+
+    @classmethod
+    def choose(cls, mask: np.ndarray, yes: "PathParams", no: "PathParams") -> "PathParams":
+        return cls(**{k: np.where(mask, getattr(yes, k), getattr(no, k)) for k in cls.__dataclass_fields__})
 
 
 @lru_cache(maxsize=64)
@@ -125,6 +147,11 @@ def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions
     return found, j + 1
 
 
+def _sub(st: LineStats, rows: np.ndarray) -> LineStats:
+    """The ``rows`` of a LineStats."""
+    return LineStats(*(None if v is None else v[rows] for v in (st.n, st.xbar, st.ybar, st.sxx, st.a, st.b, st.rss, st.dx, st.r)))
+
+
 def _confirm_log(rows, ly, x0, w, scan, *args):
     """Rerun a scan on the log scale for candidate ``rows`` (all y > 0); returns (found, column)."""
     st = ols_rows(x0[rows], ly[rows], w[rows])
@@ -150,8 +177,15 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
 
     # 1. step change: keep only the readings after it
     found, col = _step_scan(lin, w, crit_f, opt)
+    cand = np.flatnonzero(found)
+    if cand.size:  # not a step if it rests on one reading: drop the most extreme one and look again
+        _, worst = _outlier_scan(_sub(lin, cand), w[cand], crit_t2, 0)
+        w_less = w[cand].copy()
+        w_less[np.arange(cand.size), worst] = 0.0
+        f_rob, c_rob = _step_scan(ols_rows(x0[cand], y0[cand], w_less), w_less, crit_f, opt)
+        found[cand] = f_rob & (np.abs(c_rob - col[cand]) <= 1)
     cand = np.flatnonzero(found & all_pos)
-    if cand.size:
+    if cand.size:  # nor if the exponential path explains it
         f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt)
         found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
     rows = np.flatnonzero(found)
@@ -179,67 +213,61 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
         flags[check[col == last_col[check]]] |= B_JUMP
         lin.put(check, ols_rows(x0[check], y0[check], w[check]))
 
-    # 3. linear vs exponential by AICc on the readings' scale
+    # 3. linear and exponential paths, weighed by AICc on the readings' scale
     n = lin.n
     all_pos = (pos * w).sum(axis=1) == n
     lg = ols_rows(x0, ly, w, keep=False)
     k = 3.0
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         pen = 2 * k + 2 * k * (k + 1) / (n - k - 1)
         aicc_lin = n * np.log(2 * np.pi * np.maximum(lin.rss, 1e-300) / n) + n + pen
         aicc_exp = n * np.log(2 * np.pi * np.maximum(lg.rss, 1e-300) / n) + n + pen + 2 * n * lg.ybar
-    use_exp = all_pos & (n >= 5) & np.isfinite(lg.b) & (aicc_exp + opt.aicc_margin < aicc_lin)
-    path = np.where(n >= 2, np.where(use_exp, EXPONENTIAL, LINEAR), NONE)
+        both = all_pos & (n >= 5) & np.isfinite(lg.b) & np.isfinite(aicc_exp) & np.isfinite(aicc_lin)
+        delta = np.where(both, aicc_exp + opt.aicc_margin - aicc_lin, np.inf)
+        w_exp = 1.0 / (1.0 + np.exp(np.clip(delta, -700, 700) / 2.0))  # Akaike weight of the exponential path
+    path = np.where(n >= 2, np.where(w_exp > 0.5, EXPONENTIAL, LINEAR), NONE).astype(np.int8)
 
-    # 4. parameters of the chosen path, shrunk toward the model's fleet
-    pick = lambda attr: np.where(use_exp, getattr(lg, attr), getattr(lin, attr))  # noqa: E731
-    a, b, xbar, sxx, rss = pick("a"), pick("b"), pick("xbar"), pick("sxx"), pick("rss")
-    dof = np.maximum(n - 2, 0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        sigma2 = np.where(dof > 0, rss / np.maximum(dof, 1), np.nan)
-        slope_var = sigma2 / sxx
-    weight = np.zeros(s)
-    has_prior = np.zeros(s, dtype=bool)
-    if opt.pool and (batch.group >= 0).any():
-        a, b, sigma2, dof, slope_var, weight, has_prior = _pool(
-            batch.group, opt, n, dof, sxx, xbar, rss, sigma2, slope_var, a, b, lin, lg, all_pos, use_exp
-        )
-        flags[weight > opt.pool_flag_weight] |= B_POOLED
-    with np.errstate(invalid="ignore"):
-        level_var = sigma2 / np.maximum(n, 1)
-        c11 = slope_var
-        c01 = -xbar * slope_var
-        c00 = level_var + xbar * xbar * slope_var
-    forecastable = (path != NONE) & np.isfinite(b) & np.isfinite(c11) & (
-        (n >= opt.min_points) | has_prior
-    )
+    # 4. parameters of each path, slope shrunk toward the model's fleet
+    pooling = opt.pool and bool((batch.group >= 0).any())
+    p_lin = _path_params(lin, batch.group, n >= opt.min_points, opt, pooling)
+    p_exp = _path_params(lg, batch.group, (n >= opt.min_points) & all_pos, opt, pooling)
+    p_exp.ok &= all_pos
+    w_exp = np.where(p_exp.ok, w_exp, 0.0)
+    chosen = PathParams.choose(path == EXPONENTIAL, p_exp, p_lin)
+    flags[chosen.prior_weight > opt.pool_flag_weight] |= B_POOLED
     return BatchFit(
-        path=path.astype(np.int8), a=a, b=b, c00=c00, c01=c01, c11=c11, sigma=np.sqrt(sigma2),
-        dof=dof.astype(float), used=w > 0, n_used=n.astype(np.int64), flags=flags, step_at=step_at,
-        prior_weight=weight, forecastable=forecastable,
+        path=path, a=chosen.a, b=chosen.b, c00=chosen.c00, c01=chosen.c01, c11=chosen.c11,
+        sigma=np.sqrt(chosen.sigma2), dof=chosen.dof, used=w > 0, n_used=n.astype(np.int64), flags=flags,
+        step_at=step_at, prior_weight=chosen.prior_weight, forecastable=chosen.ok & (path != NONE),
+        lin=p_lin, exp=p_exp, w_exp=w_exp,
     )  # fmt: skip
 
 
-def _pool(group, opt, n, dof, sxx, xbar, rss, sigma2, slope_var, a, b, lin, lg, all_pos, use_exp):
-    """Empirical-Bayes slopes per path; rows with under 2 dof borrow the group's residual variance."""
-    eligible = n >= opt.min_points
-    priors = {}
-    for name, st, ok in (("lin", lin, np.ones_like(all_pos)), ("exp", lg, all_pos)):
-        with np.errstate(invalid="ignore", divide="ignore"):
-            d = np.maximum(st.n - 2, 0)
-            v = np.where(d > 0, st.rss / np.maximum(d, 1), np.nan) / st.sxx
-        gp = group_prior(
-            st.b, v, group, eligible & ok, st.rss, d, min_series=opt.pool_min_series, tau_floor_rel=opt.tau_floor_rel
-        )
-        priors[name] = gp.for_rows(group)
-    mu, pvar, s2g, dofg = (np.where(use_exp, pe, pl) for pl, pe in zip(priors["lin"], priors["exp"]))
-    thin = (dof < 2) & np.isfinite(s2g) & (dofg > 0) & (n >= 2)
-    sigma2 = np.where(thin, s2g, sigma2)
-    dof = np.where(thin, dofg, dof)
+def _path_params(st: LineStats, group: np.ndarray, eligible: np.ndarray, opt: FitOptions, pooling: bool):
+    """(a, b) and covariance of one path per row; rows with under 2 dof borrow the group's residual variance."""
+    n = st.n
+    dof = np.maximum(n - 2, 0).astype(float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        slope_var = np.where(thin, sigma2 / sxx, slope_var)
-    post, post_var, weight = shrink_slope(b, slope_var, mu, pvar)
-    has_prior = np.isfinite(mu) & (n >= 2) & np.isfinite(post)
-    ybar = a + b * xbar
-    a = ybar - post * xbar
-    return a, post, sigma2, dof, post_var, weight, has_prior
+        sigma2 = np.where(dof > 0, st.rss / np.maximum(dof, 1), np.nan)
+        slope_var = sigma2 / st.sxx
+    a, b = st.a, st.b
+    weight = np.zeros(n.shape)
+    has_prior = np.zeros(n.shape, dtype=bool)
+    if pooling:
+        gp = group_prior(
+            b, slope_var, group, eligible, st.rss, dof, min_series=opt.pool_min_series, tau_floor_rel=opt.tau_floor_rel
+        )
+        mu, pvar, s2g, dofg = gp.for_rows(group)
+        thin = (dof < 2) & np.isfinite(s2g) & (dofg > 0) & (n >= 2)
+        sigma2 = np.where(thin, s2g, sigma2)
+        dof = np.where(thin, dofg, dof)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            slope_var = np.where(thin, sigma2 / st.sxx, slope_var)
+        b, slope_var, weight = shrink_slope(b, slope_var, mu, pvar)
+        has_prior = np.isfinite(mu) & (n >= 2) & np.isfinite(b)
+        a = st.ybar - b * st.xbar
+    with np.errstate(invalid="ignore"):
+        c00 = sigma2 / np.maximum(n, 1) + st.xbar * st.xbar * slope_var
+        c01 = -st.xbar * slope_var
+    ok = np.isfinite(b) & np.isfinite(slope_var) & np.isfinite(c00) & ((n >= opt.min_points) | has_prior)
+    return PathParams(a=a, b=b, c00=c00, c01=c01, c11=slope_var, sigma2=sigma2, dof=dof, prior_weight=weight, ok=ok)
