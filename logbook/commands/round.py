@@ -1,0 +1,93 @@
+"""logbook round: which pumps need a reading, and the round sheet to take them with."""
+
+from __future__ import annotations
+
+from datetime import timedelta
+from pathlib import Path
+
+from rich.table import Table
+
+FORMATS = ("text", "md", "html", "csv")
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "round",
+        help="pumps due for a reading (terminal list) or a round sheet for one site (md, html, csv)",
+        description="Lists the pumps whose next reading falls due within DAYS days: by the model's reading "
+        "interval, or earlier where the forecast is wide and near its limit, or as soon as possible where the "
+        "last reading jumped (docs/rounds.md). The csv sheet has the readings-import columns: fill it in and "
+        "bring it back with `logbook import readings FILE`.",
+    )
+    p.add_argument("--site", default=None, help="the site to walk (required for md, html and csv)")
+    p.add_argument("--within", type=int, default=7, metavar="DAYS",
+                   help="include pumps due within DAYS days from today (default 7; 0 = due today or overdue)")
+    p.add_argument("--all", dest="everyone", action="store_true", help="include every fitted pump, due or not")
+    p.add_argument("--format", choices=FORMATS, default="text", help="text (terminal list, default), md, html or csv")
+    p.add_argument("--out", type=Path, default=None, metavar="FILE", help="write the sheet to FILE instead of the terminal")
+    p.set_defaults(func=run)
+
+
+def _check(args, sites: set[str]) -> str | None:
+    if args.within < 0 or args.within > 3650:
+        return f"--within = {args.within}: allowed 0 to 3650 days"
+    if args.site is not None and args.site not in sites:
+        return f"--site = {args.site!r}: not a known site; known: {', '.join(sorted(sites)) or 'none'}"
+    if args.format != "text" and args.site is None:
+        return f"--site is required with --format {args.format}: a round sheet is for one site; known: {', '.join(sorted(sites))}"
+    if args.out is not None and args.format == "text":
+        return "--out needs --format md, html or csv"
+    return None
+
+
+def due_table(tests, today) -> Table:
+    """The terminal list: one row per pump, in walking order."""
+    table = Table(box=None, header_style="bold", pad_edge=False)
+    for col in ("site", "machine/pos", "serial", "model", "last reading", "since", "next test", "why"):
+        table.add_column(col, no_wrap=col != "why")
+    for t in tests:
+        since = "-"
+        if t.days_since_reading is not None:
+            since = f"{t.days_since_reading} d"
+            if t.hours_since_reading is not None:
+                since += f", {t.hours_since_reading:,.0f} h"
+        table.add_row(t.site, f"{t.machine}/{t.position}", t.serial, t.model,
+                      t.last_reading_on.isoformat() if t.last_reading_on else "never",
+                      since, t.words(today), t.reason)
+    return table
+
+
+def run(args, ctx) -> int:
+    from logbook.analysis.fleet import forecast_fleet
+    from logbook.rounds import plan_round
+
+    with ctx.open_store() as store:
+        fleet = store.fleet()
+    problem = _check(args, {m.site for m in fleet.machines.values()})
+    if problem:
+        ctx.err.print(f"logbook round: {problem}", markup=False)
+        return 2
+    forecast = forecast_fleet(fleet, today=ctx.today)
+    tests = plan_round(fleet, forecast, ctx.today, site=args.site, within_days=args.within, everyone=args.everyone)
+    if args.format == "text":
+        if not tests:
+            where = f" at {args.site}" if args.site else ""
+            ctx.console.print(f"No pump{where} is due for a reading within {args.within} days.", markup=False)
+            return 0
+        ctx.console.print(due_table(tests, ctx.today))
+        return 0
+    from logbook.exports.round_sheet import build_sheet, render
+
+    sheet = build_sheet(fleet, forecast, tests, site=args.site, made_on=ctx.today,
+                        test_by=ctx.today + timedelta(days=args.within), units=ctx.units)
+    data = render(sheet, args.format)
+    if args.out is None:
+        ctx.console.file.write(data.decode("utf-8"))
+        return 0
+    try:
+        args.out.write_bytes(data)
+    except OSError as exc:
+        ctx.err.print(f"logbook round: cannot write {args.out}: {exc.strerror}", markup=False)
+        return 2
+    ctx.console.print(f"{args.out}: round sheet for {args.site}, {len(tests)} pump(s)", markup=False)
+    return 0
