@@ -29,5 +29,13 @@ def run(args, ctx) -> int:
         ctx.err.print(f"logbook import: cannot read {args.file}: {exc.strerror}", markup=False)
         return 2
     with ctx.open_store() as store:
+        check = args.table == "readings" and not args.dry_run
+        before = store.fleet() if check else None
         report = import_bytes(store, args.table, data, name=args.file.name, today=ctx.today, dry_run=args.dry_run)
+        if check and report.added and not report.problems:
+            from dataclasses import replace
+
+            from logbook.rounds import import_second_look
+
+            report = replace(report, flagged=[*report.flagged, *import_second_look(before, store.fleet(), ctx.today)])
     return print_report(ctx, report, str(args.file))
