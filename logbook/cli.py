@@ -33,6 +33,8 @@ COMMAND_MODULES = (
     "history",
     "backup",
     "check",
+    "correct",
+    "remove",
 )
 
 

@@ -12,7 +12,7 @@ from logbook.model import ALL_KINDS
 def register(sub) -> None:
     p = sub.add_parser("show", help="show one pump: where it sat, events, readings and forecast")
     p.add_argument("serial")
-    p.add_argument("--all-readings", action="store_true", help="include corrected (superseded) readings")
+    p.add_argument("--all-readings", action="store_true", help="include corrected (superseded) and removed readings")
     p.set_defaults(func=run)
 
 
@@ -50,7 +50,7 @@ def run(args, ctx) -> int:
         t.add_column(col)
     for r in all_readings:
         t.add_row(
-            str(r.id) + (" (corrected)" if r.superseded_by else ""), fmt.day(r.taken_on), r.machine or "", fmt.hours(r.machine_hours),
+            str(r.id) + (" (corrected)" if r.superseded_by else " (removed)" if r.removed_reason else ""), fmt.day(r.taken_on), r.machine or "", fmt.hours(r.machine_hours),
             fmt.value(ALL_KINDS[0], r.case_drain_lpm, u), fmt.value(ALL_KINDS[1], r.servo_pressure_bar, u),
             fmt.value(ALL_KINDS[2], r.neutral_drift_bar, u), fmt.temperature(r.oil_temp_c, u), fmt.pressure(r.test_pressure_bar, u),
             r.technician or r.entered_by,

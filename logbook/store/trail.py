@@ -43,12 +43,13 @@ class TrailMixin:
         for table, date_col in (("readings", "taken_on"), ("events", "happened_on")):
             for imp in self.conn.execute(
                 f"SELECT i.id, i.file_name, i.file_sha256, i.entered_by, i.entered_at, count(*), min(t.id), max(t.id), "
-                f"min(t.{date_col}), max(t.{date_col}) FROM {table} t JOIN imports i ON i.id = t.import_id "
-                "WHERE t.serial = ? GROUP BY i.id ORDER BY i.id",
+                f"min(t.{date_col}), max(t.{date_col}), (SELECT max(a.id) FROM audit a WHERE a.action = 'import' "
+                "AND a.table_name = i.kind AND a.row_key = CAST(i.id AS TEXT)) "
+                f"FROM {table} t JOIN imports i ON i.id = t.import_id WHERE t.serial = ? GROUP BY i.id ORDER BY i.id",
                 (serial,),
             ):
-                iid, name, sha, who, at, n, lo, hi, first, last = imp
+                iid, name, sha, who, at, n, lo, hi, first, last, audit_id = imp
                 after = {"file": name, "sha256": sha, f"{table} of this pump": n, "ids": f"{lo}..{hi}", "dates": f"{first}..{last}"}
-                entries.append((at, 0, TrailEntry(datetime.fromisoformat(at), who, "import", table, f"import {iid}", None, after)))
+                entries.append((at, audit_id or 0, TrailEntry(datetime.fromisoformat(at), who, "import", table, f"import {iid}", None, after)))
         entries.sort(key=lambda item: (item[0], item[1]))
         return [entry for _, _, entry in entries]

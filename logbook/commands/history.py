@@ -1,0 +1,75 @@
+"""logbook history SERIAL: the audit trail of one pump (who, when, what, before -> after)."""
+
+from __future__ import annotations
+
+from rich.table import Table
+
+_NOISE = {"id", "entered_at", "entered_by", "import_id"}
+_KEY_FIELDS = {
+    "readings": ("taken_on", "machine_hours", "case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar"),
+    "events": ("kind", "happened_on", "machine", "hours", "to_machine", "to_position", "to_hours"),
+    "fitments": ("machine", "position", "fitted_on", "removed_on"),
+    "pumps": ("serial", "model"),
+    "models": ("code", "limits"),
+}
+
+
+def register(sub) -> None:
+    p = sub.add_parser("history", help="show who recorded, corrected, removed or imported what for one pump, and when")
+    p.add_argument("serial")
+    p.add_argument("--last", type=int, default=None, metavar="N", help="only the N most recent entries")
+    p.set_defaults(func=run)
+
+
+def _value(v) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        return f"{v:g}"
+    if isinstance(v, dict) and "value" in v:
+        return f"{v.get('kind', '')} {_value(v['value'])} ({v.get('direction', '')})".strip()
+    if isinstance(v, list):
+        return ", ".join(_value(x) for x in v) or "none"
+    return str(v)
+
+
+def describe(entry) -> tuple[str, str]:
+    """(what, change) in words for one trail entry."""
+    what = f"{entry.action} {entry.table.rstrip('s')} {entry.key}"
+    before, after = entry.before or {}, entry.after or {}
+    if entry.action == "import":
+        n = next((v for k, v in after.items() if k.endswith("of this pump")), "?")
+        return (f"import of {after.get('file')}",
+                f"{n} {entry.table} (ids {after.get('ids')}, {after.get('dates')}), sha256 {str(after.get('sha256'))[:12]}...")
+    if entry.action == "insert":
+        keys = _KEY_FIELDS.get(entry.table, tuple(k for k in after if k not in _NOISE))
+        return what, ", ".join(f"{k} {_value(after.get(k))}" for k in keys if after.get(k) is not None)
+    if entry.action == "correct":
+        what = f"correct reading {entry.key} -> {after.get('id')}"
+    if entry.action == "remove" and entry.table in ("readings", "events"):
+        keys = _KEY_FIELDS[entry.table]
+        return what, "removed: " + ", ".join(f"{k} {_value(before.get(k))}" for k in keys if before.get(k) is not None)
+    changed = [k for k in sorted(set(before) | set(after)) if k not in _NOISE and before.get(k) != after.get(k)]
+    if entry.action == "remove" and not after:
+        return what, "deleted: " + ", ".join(f"{k} {_value(v)}" for k, v in before.items() if k not in _NOISE and v is not None)
+    return what, "; ".join(f"{k} {_value(before.get(k))} -> {_value(after.get(k))}" for k in changed) or "(no field changed)"
+
+
+def run(args, ctx) -> int:
+    with ctx.open_store() as store:
+        if args.serial not in store.pumps():
+            ctx.err.print(f"logbook history: serial {args.serial!r} is not a known pump", markup=False)
+            return 2
+        trail = store.pump_trail(args.serial)
+    if args.last is not None:
+        trail = trail[-max(args.last, 0):] if args.last > 0 else []
+    table = Table(title=f"history of {args.serial}", box=None, title_justify="left", header_style="bold")
+    for col in ("when (UTC)", "who", "what", "before -> after", "reason"):
+        table.add_column(col, overflow="fold")
+    for entry in trail:
+        what, change = describe(entry)
+        table.add_row(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or "")
+    ctx.console.print(table)
+    if not trail:
+        ctx.console.print("(no recorded changes)")
+    return 0
