@@ -38,6 +38,7 @@ class FitOptions:
     min_step_side: int = 2  # readings needed on each side of a step
     min_points: int = 3  # readings for a forecast of a pump's own
     aicc_margin: float = 0.0  # the exponential path must beat linear by this much
+    exponential: bool = True  # consider the exponential path at all
     pool: bool = True
     pool_min_series: int = 3
     pool_flag_weight: float = 0.2  # prior weight above which FLAG_POOLED is raised
@@ -222,7 +223,7 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
         pen = 2 * k + 2 * k * (k + 1) / (n - k - 1)
         aicc_lin = n * np.log(2 * np.pi * np.maximum(lin.rss, 1e-300) / n) + n + pen
         aicc_exp = n * np.log(2 * np.pi * np.maximum(lg.rss, 1e-300) / n) + n + pen + 2 * n * lg.ybar
-        both = all_pos & (n >= 5) & np.isfinite(lg.b) & np.isfinite(aicc_exp) & np.isfinite(aicc_lin)
+        both = all_pos & (n >= 5) & opt.exponential & np.isfinite(lg.b) & np.isfinite(aicc_exp) & np.isfinite(aicc_lin)
         delta = np.where(both, aicc_exp + opt.aicc_margin - aicc_lin, np.inf)
         w_exp = 1.0 / (1.0 + np.exp(np.clip(delta, -700, 700) / 2.0))  # Akaike weight of the exponential path
     path = np.where(n >= 2, np.where(w_exp > 0.5, EXPONENTIAL, LINEAR), NONE).astype(np.int8)

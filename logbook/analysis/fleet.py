@@ -196,23 +196,28 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
 
 
 def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:
-    if fit.path[i] == 0 or not np.isfinite(fit.b[i]):
+    return fit_detail(fit, i, s.x_hours, s.y_value)
+
+
+def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
+    """The chosen path of one batch row as a FitDetail (for charts); None without a fitted line."""
+    if fit.path[row] == 0 or not np.isfinite(fit.b[row]):
         return None
-    n = len(s.x_hours)
-    used_sorted = fit.used[i, :n]
-    order = np.argsort(np.asarray(s.x_hours), kind="stable")  # batch columns are in x order
+    n = len(x_hours)
+    order = np.argsort(np.asarray(x_hours, dtype=float), kind="stable")  # batch columns are in x order
     used = np.zeros(n, dtype=bool)
-    used[order] = used_sorted
-    sigma = float(fit.sigma[i]) if np.isfinite(fit.sigma[i]) else 0.0
+    used[order] = fit.used[row, :n]
+    sigma = float(fit.sigma[row]) if np.isfinite(fit.sigma[row]) else 0.0
+    c00, c01, c11 = float(fit.c00[row]), float(fit.c01[row]), float(fit.c11[row])
     return FitDetail(
-        x_hours=tuple(float(v) for v in s.x_hours),
-        y_value=tuple(float(v) for v in s.y_value),
+        x_hours=tuple(float(v) for v in x_hours),
+        y_value=tuple(float(v) for v in y_value),
         used=tuple(bool(u) for u in used),
-        path=PATH_NAMES[int(fit.path[i])],
-        params=(float(fit.a[i]), float(fit.b[i])),
-        cov=((float(fit.c00[i]), float(fit.c01[i])), (float(fit.c01[i]), float(fit.c11[i]))),
+        path=PATH_NAMES[int(fit.path[row])],
+        params=(float(fit.a[row]), float(fit.b[row])),
+        cov=((c00, c01), (c01, c11)),
         sigma=sigma,
-        dof=int(min(fit.dof[i], 10**6)),
+        dof=int(min(fit.dof[row], 10**6)),
     )
 
 
@@ -288,4 +293,4 @@ def forecast_pump(
     return pf
 
 
-__all__ = ["DEFAULT_HORIZON_HOURS", "forecast_fleet", "forecast_histories", "forecast_pump"]
+__all__ = ["DEFAULT_HORIZON_HOURS", "fit_detail", "forecast_fleet", "forecast_histories", "forecast_pump"]

@@ -1,0 +1,178 @@
+"""The batch fit against NIST StRD and statsmodels, and its outlier, step and path choices."""
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+
+from logbook.analysis.batch import FALLING, RISING, TrendBatch, ols_line
+from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_STEP, EXPONENTIAL, LINEAR, FitOptions, fit_batch
+from logbook.analysis.fleet import fit_detail
+from logbook.analysis.forecast import forecast_batch, t_cdf_fast
+
+# NIST StRD Linear Least Squares "Norris" (itl.nist.gov/div898/strd/lls/data/Norris.shtml), (y, x)
+NORRIS = """0.1,0.2  338.8,337.4  118.1,118.2  888.0,884.6  9.2,10.1  228.1,226.5
+668.5,666.3  998.5,996.3  449.1,448.6  778.9,777.0  559.2,558.2  0.3,0.4
+0.1,0.6  778.1,775.5  668.8,666.9  339.3,338.0  448.9,447.5  10.8,11.6
+557.7,556.0  228.3,228.1  998.0,995.8  888.8,887.6  119.6,120.2  0.3,0.3
+0.6,0.3  557.6,556.8  339.3,339.1  888.0,887.2  998.5,999.0  778.9,779.0
+10.2,11.1  117.6,118.3  228.9,229.2  668.4,669.1  449.2,448.9  0.2,0.5"""
+NORRIS_Y, NORRIS_X = np.array([[float(v) for v in p.split(",")] for p in NORRIS.split()]).T
+NO_POOL = FitOptions(pool=False)
+LINEAR_ONLY = FitOptions(pool=False, exponential=False)  # to compare with one statsmodels OLS line
+
+
+def one(x, y, limit=np.nan, direction=RISING, x_now=None):
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    return TrendBatch(x[None], y[None], [limit], [direction], [-1], [x.max() if x_now is None else x_now])
+
+
+def test_ols_core_matches_nist_norris_certified_values():
+    # NIST StRD Norris certified values, to at least 9 significant digits.
+    got = ols_line(NORRIS_X, NORRIS_Y)
+    assert got["intercept"] == pytest.approx(-0.262323073774029, rel=1e-9)
+    assert got["slope"] == pytest.approx(1.00211681802045, rel=1e-9)
+    assert got["se_intercept"] == pytest.approx(0.232818234301152, rel=1e-9)
+    assert got["se_slope"] == pytest.approx(0.429796848199937e-03, rel=1e-9)
+    assert got["sigma"] == pytest.approx(0.884796396144373, rel=1e-9)
+    assert got["r2"] == pytest.approx(0.999993745883712, rel=1e-9)
+    assert got["rss"] == pytest.approx(26.6173985294224, rel=1e-9)
+
+
+def test_batch_fit_on_norris_keeps_the_certified_digits():
+    # NIST StRD Norris through the whole batch path (chosen path must be linear; its
+    # parameter standard deviations are the certified ones).
+    fit = fit_batch(one(NORRIS_X, NORRIS_Y), NO_POOL)
+    assert fit.path[0] == LINEAR
+    assert fit.a[0] == pytest.approx(-0.262323073774029, rel=1e-9)
+    assert fit.b[0] == pytest.approx(1.00211681802045, rel=1e-9)
+    assert np.sqrt(fit.c00[0]) == pytest.approx(0.232818234301152, rel=1e-9)
+    assert np.sqrt(fit.c11[0]) == pytest.approx(0.429796848199937e-03, rel=1e-9)
+
+
+def _clean_series(seed=5, n=12):
+    rng = np.random.default_rng(seed)
+    x = np.sort(rng.uniform(0, 4000, n))
+    return x, 1.8 + 4e-4 * x + rng.normal(0, 0.08, n)
+
+
+def test_prediction_band_matches_statsmodels():
+    # statsmodels OLS get_prediction(...).summary_frame(alpha) obs_ci_lower/upper
+    x, y = _clean_series()
+    fit = fit_batch(one(x, y), NO_POOL)
+    assert fit.path[0] == LINEAR
+    detail = fit_detail(fit, 0, x, y)
+    x_new = np.array([0.0, 1500.0, 5000.0, 9000.0])
+    res = sm.OLS(y, sm.add_constant(x)).fit()
+    frame = res.get_prediction(sm.add_constant(x_new)).summary_frame(alpha=0.2)
+    lo, mid, hi = detail.band(x_new, coverage=0.8)
+    assert lo == pytest.approx(frame["obs_ci_lower"].to_numpy(), rel=1e-9)
+    assert mid == pytest.approx(frame["mean"].to_numpy(), rel=1e-9)
+    assert hi == pytest.approx(frame["obs_ci_upper"].to_numpy(), rel=1e-9)
+
+
+@pytest.mark.parametrize("with_noise, column", [(False, "mean_ci"), (True, "obs_ci")])
+def test_crossing_quantiles_invert_the_statsmodels_band(with_noise, column):
+    # P10 is where the upper one-sided 90 % band (two-sided alpha = 0.2 in statsmodels) meets
+    # the limit; P90 where the lower one does; P50 where the fitted mean does.
+    x, y = _clean_series()
+    limit = 5.0
+    b = one(x, y, limit=limit)
+    fit = fit_batch(b, LINEAR_ONLY)
+    fc = forecast_batch(b, fit, with_noise=with_noise)
+    at = x.max() + fc.remaining[0]
+    res = sm.OLS(y, sm.add_constant(x)).fit()
+    frame = res.get_prediction(sm.add_constant(at)).summary_frame(alpha=0.2)
+    assert frame[f"{column}_upper"].iloc[0] == pytest.approx(limit, rel=1e-9)
+    assert frame["mean"].iloc[1] == pytest.approx(limit, rel=1e-9)
+    assert frame[f"{column}_lower"].iloc[2] == pytest.approx(limit, rel=1e-9)
+
+
+def test_falling_kind_crosses_a_lower_limit():
+    rng = np.random.default_rng(8)
+    x = np.sort(rng.uniform(0, 4000, 12))
+    y = 28.0 - 2e-3 * x + rng.normal(0, 0.3, 12)
+    b = one(x, y, limit=18.0, direction=FALLING)
+    fit = fit_batch(b, LINEAR_ONLY)
+    fc = forecast_batch(b, fit)
+    res = sm.OLS(y, sm.add_constant(x)).fit()
+    # the fitted mean reaches 18 bar at P50 (statsmodels' mean prediction)
+    at = x.max() + fc.remaining[0, 1]
+    assert res.predict(np.array([[1.0, at]]))[0] == pytest.approx(18.0, rel=1e-9)
+    assert fc.remaining[0, 0] < fc.remaining[0, 1] < fc.remaining[0, 2]
+
+
+def test_aicc_weights_use_the_jacobian_on_the_readings_scale():
+    # Likelihoods from statsmodels OLS (.llf) on y and on log y; the log fit's likelihood on
+    # the readings' scale subtracts sum(log y) (change of variables). AICc with k = 3
+    # (Hurvich and Tsai, Biometrika 1989).
+    rng = np.random.default_rng(21)
+    x = np.sort(rng.uniform(0, 5000, 15))
+    y = 1.5 * np.exp(3e-4 * x) * np.exp(rng.normal(0, 0.04, 15))
+    fit = fit_batch(one(x, y), NO_POOL)
+    n, k = len(x), 3
+
+    def aicc(llf):
+        return -2 * llf + 2 * k + 2 * k * (k + 1) / (n - k - 1)
+
+    llf_lin = sm.OLS(y, sm.add_constant(x)).fit().llf
+    llf_exp = sm.OLS(np.log(y), sm.add_constant(x)).fit().llf - np.log(y).sum()
+    expected = 1 / (1 + np.exp((aicc(llf_exp) - aicc(llf_lin)) / 2))
+    assert fit.w_exp[0] == pytest.approx(expected, rel=1e-9)
+    assert fit.path[0] == EXPONENTIAL and expected > 0.5
+
+
+def test_one_wild_reading_is_dropped_and_marked():
+    x, y = _clean_series(n=14)
+    y_bad = y.copy()
+    y_bad[6] *= 1.8
+    fit = fit_batch(one(x, y_bad), NO_POOL)
+    assert fit.flags[0] & B_OUTLIER and not fit.flags[0] & B_JUMP
+    assert list(np.flatnonzero(~fit.used[0, :14])) == [6]
+    # the line is then the least-squares line of the 13 good readings (statsmodels)
+    keep = np.arange(14) != 6
+    ref = sm.OLS(y_bad[keep], sm.add_constant(x[keep])).fit().params
+    assert (fit.a[0], fit.b[0]) == pytest.approx(tuple(ref), rel=1e-9)
+
+
+def test_a_wild_newest_reading_is_a_jump():
+    x, y = _clean_series(n=14)
+    y[-1] *= 1.8
+    fit = fit_batch(one(x, y), NO_POOL)
+    assert fit.flags[0] & B_JUMP and fit.flags[0] & B_OUTLIER and not fit.flags[0] & B_STEP
+
+
+def test_step_change_is_flagged_and_only_later_readings_are_fitted():
+    x, y = _clean_series(n=14)
+    y[8:] += 1.0  # a sudden 1 L/min rise (12 noise sd) after the eighth reading
+    fit = fit_batch(one(x, y), NO_POOL)
+    assert fit.flags[0] & B_STEP and fit.step_at[0] == 8
+    assert not fit.used[0, :8].any() and fit.used[0, 8:14].all()
+
+
+def _false_alarm_rates(kind, s=2000, n=12, seed=3):
+    rng = np.random.default_rng(seed)
+    x = np.sort(rng.uniform(0, 5000, (s, n)), axis=1)
+    if kind == "linear":
+        y = 1.5 + rng.uniform(1e-4, 6e-4, (s, 1)) * x + rng.normal(0, 0.08, (s, n))
+    else:
+        y = 1.5 * np.exp(rng.uniform(1e-4, 3e-4, (s, 1)) * x) * np.exp(rng.normal(0, 0.04, (s, n)))
+    fit = fit_batch(TrendBatch(x, y, np.full(s, np.nan), np.ones(s), -np.ones(s, int), x[:, -1]), NO_POOL)
+    return ((fit.flags & B_STEP) > 0).mean(), ((fit.flags & B_OUTLIER) > 0).mean(), (fit.path == EXPONENTIAL).mean()
+
+
+@pytest.mark.parametrize("kind", ["linear", "exponential"])
+def test_clean_wear_rarely_raises_steps_or_outliers(kind):
+    # the tests run at family-wise levels 0.001 (step) and 0.01 (outlier); allow some slack
+    step, outlier, _ = _false_alarm_rates(kind)
+    print(f"{kind}: false step rate {step:.4f}, false outlier rate {outlier:.4f}")
+    assert step <= 0.01
+    assert outlier <= 0.03
+
+
+def test_student_t_approximation_used_in_the_mixture():
+    # Normal approximation to Student's t (Wallace 1959) vs scipy.special.stdtr: error < 1e-3 for v >= 3.
+    from scipy import special
+
+    t = np.linspace(-8, 8, 3201)
+    for v in (3, 5, 10, 40, 1000):
+        assert np.abs(t_cdf_fast(t, np.full_like(t, v)) - special.stdtr(v, t)).max() < 1e-3
