@@ -35,6 +35,8 @@ def register(sub) -> None:
                    help="output format (default: from the --out suffix, else md)")
     p.add_argument("--out", default="-", metavar="FILE", help="file to write, or - for stdout (default -)")
     p.add_argument("--no-charts", action="store_true", help="html: leave out the trend charts")
+    p.add_argument("--max-charts", type=int, default=200, metavar="N",
+                   help="html: chart at most the first N planned pumps (default 200)")
     p.set_defaults(func=run)
 
 
@@ -69,6 +71,8 @@ def _check_args(args) -> list[Problem]:
         problems.append(Problem("--capacity", args.capacity, "zero or more shop jobs per month"))
     if not 1 <= args.horizon <= 60:
         problems.append(Problem("--horizon", args.horizon, "1 to 60 months"))
+    if args.max_charts < 0:
+        problems.append(Problem("--max-charts", args.max_charts, "zero or more charts"))
     if not 0 <= args.turnaround <= 24:
         problems.append(Problem("--turnaround", args.turnaround, "0 to 24 months"))
     if args.out != "-":
@@ -171,7 +175,8 @@ def run(args, ctx) -> int:
         plan = make_plan(forecast, settings)
         steps.step(f"writing {fmt}")
         provenance = Provenance.from_models(str(fleet.source or ctx.db_path), ctx.today, fleet.models)
-        data = render(Report(forecast, plan, life, provenance, charts=not args.no_charts), fmt)
+        report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts)
+        data = render(report, fmt)
         steps.step("saving")
         try:
             _write(data, args.out)

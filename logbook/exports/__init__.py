@@ -74,7 +74,8 @@ class Report:
     plan: Plan
     life: tuple[LifeFigures, ...]
     provenance: Provenance
-    charts: bool = True  # html only: one chart per planned pump
+    charts: bool = True  # html only: one chart per planned pump ...
+    max_charts: int = 200  # ... for the first this many planned pumps (plan order); the page says so
     notes: tuple[str, ...] = field(default_factory=tuple)
 
 

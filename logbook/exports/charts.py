@@ -34,6 +34,7 @@ def kind_chart_svg(kf: KindForecast, title: str, salt: str, id_prefix: str = "c"
     its counted ids (axes_1, line2d_3, ...) so several charts can share one HTML page.
     """
     import matplotlib
+    from matplotlib.ticker import MaxNLocator
 
     fit = kf.fit
     if fit is None or not fit.x_hours:
@@ -67,7 +68,9 @@ def kind_chart_svg(kf: KindForecast, title: str, salt: str, id_prefix: str = "c"
         ax.set_title(title, loc="left")
         ax.set_xlabel("operating hours since the segment started")
         ax.set_ylabel(f"{kf.kind.label} [{kf.kind.unit}]")
-        ax.legend(loc="best", fontsize=6, frameon=False)
+        ax.legend(loc="upper left", fontsize=6, frameon=False)
+        ax.xaxis.set_major_locator(MaxNLocator(5))
+        ax.yaxis.set_major_locator(MaxNLocator(4))
         out = io.StringIO()
         fig.savefig(out, format="svg", metadata={"Date": None, "Creator": None})
     svg = _PREAMBLE.sub("", out.getvalue(), count=1)

@@ -58,7 +58,10 @@ def _plan_table(lines, pumps, keys) -> list[str]:
 
 def _charts(report, pumps) -> list[str]:
     out = []
-    for index, line in enumerate(report.plan.lines, start=1):
+    lines = report.plan.lines
+    if len(lines) > report.max_charts:
+        out.append(f"<p>Charts of the first {report.max_charts} of {len(lines)} planned pumps, in plan order.</p>")
+    for index, line in enumerate(lines[: report.max_charts], start=1):
         kf = kind_of(pumps.get(line.serial), line)
         title = f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}"
         svg = kind_chart_svg(kf, title, salt=f"logbook-{index}-{line.serial}", id_prefix=f"c{index}") if kf else None
@@ -115,7 +118,7 @@ def render_html(report) -> str:
     else:
         out.append("<p>No overhaul history to fit.</p>")
     out.append("</section>")
-    if report.charts and report.plan.lines:
+    if report.charts and report.plan.lines and report.max_charts > 0:
         out += ['<section id="charts">', "<h2>Trends of the planned pumps</h2>"]
         out += _charts(report, pumps)
         out.append("</section>")

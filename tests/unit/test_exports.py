@@ -232,3 +232,11 @@ def test_html_without_charts_and_unknown_format():
     assert b"<svg" not in plain
     with pytest.raises(ValueError, match="allowed are csv, md, html, json"):
         render(build_report(), "xlsx")
+
+
+def test_html_chart_cap_says_how_many_are_shown():
+    base = build_report()
+    capped = Report(base.forecast, base.plan, base.life, base.provenance, max_charts=1)
+    page = render(capped, "html").decode("utf-8")
+    assert page.count("<svg") == 1
+    assert f"Charts of the first 1 of {len(base.plan.lines)} planned pumps" in page
