@@ -236,3 +236,15 @@ def test_p10_before_the_plan_start_is_said_in_the_note():
     line = plan.line_for("E")
     assert line.month == START and "before the plan starts" in line.note
     assert line.chance_by_month_start > 0.1  # already past its P10 when the month begins
+
+
+def test_crossing_probability_without_p90_uses_the_lower_spread():
+    # The engine leaves P90 blank beyond its horizon: the P10-P50 spread is used on both sides,
+    # i.e. scipy.stats.lognorm with s = ln(d50/d10)/z0.9.
+    kf = kind_forecast("A", p10_days=40, spread=1.5)
+    kf = type(kf)(**{**kf.__dict__, "p90_date": None, "p90_hours": None})
+    d50 = (kf.p50_date - TODAY).days
+    s = __import__("math").log(d50 / 40) / stats.norm.ppf(0.9)
+    for days in (30, 90, 150):
+        expected = stats.lognorm.cdf(days, s, scale=d50)
+        assert crossing_probability(kf, TODAY, TODAY + timedelta(days=days)) == pytest.approx(expected, abs=1e-9)
