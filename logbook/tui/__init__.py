@@ -1,0 +1,7 @@
+"""The terminal interface: ``logbook`` with no command opens it (see app.py).
+
+Screens present what the store holds and what the analysis computed; they compute
+nothing themselves. Store access goes through ``gate.StoreGate`` (one lock), heavy
+work (reading the fleet, forecasting, validating against the database) runs in
+thread workers that hand results back as messages (``messages.py``).
+"""

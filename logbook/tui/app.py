@@ -1,0 +1,151 @@
+"""The logbook's terminal interface.
+
+Run it with ``logbook`` (or ``logbook --db FILE``); tests build it with
+``make_app(store, today=..., units=...)`` and drive it with ``App.run_test``.
+The app reads a fleet snapshot and its forecast in a thread worker, keeps the
+latest pair in ``fleet``/``forecast`` and bumps ``data_generation`` so that open
+screens redraw. A poll of ``store.change_count()`` notices other users' writes.
+"""
+
+from __future__ import annotations
+
+from datetime import date
+
+from textual import work
+from textual.app import App
+from textual.binding import Binding
+from textual.reactive import reactive
+from textual.worker import get_current_worker
+
+from logbook.model import Fleet
+from logbook.tui.gate import StoreGate, trouble_text
+from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble
+from logbook.units import UnitPrefs
+
+DARK_THEMES = {"textual-dark": "textual-light", "ansi-dark": "ansi-light"}
+LIGHT_THEMES = {v: k for k, v in DARK_THEMES.items()}
+
+
+class LogbookApp(App):
+    """Fleet view first; pump, entry, model, plan and help screens on top of it."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "logbook"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS = [
+        Binding("f1", "help", "Help", key_display="F1", id="app.help"),
+        Binding("question_mark", "help", "Help", show=False, id="app.help_question"),
+        Binding("f5", "reload", "Reload", show=False, key_display="F5", id="app.reload"),
+        Binding("t", "toggle_theme", "Theme", id="app.theme"),
+        Binding("q", "quit", "Quit", id="app.quit"),
+    ]
+
+    #: Bumped each time a new fleet snapshot and forecast arrive.
+    data_generation: reactive[int] = reactive(0)
+
+    def __init__(self, store, *, today: date, units: UnitPrefs | None = None, poll_seconds: float = 3.0,
+                 light: bool = False, blink: bool = True, export_dir=None) -> None:
+        super().__init__()
+        self.gate = StoreGate(store)
+        self.store = store
+        self.today = today
+        self.units = units or UnitPrefs()
+        self.poll_seconds = poll_seconds
+        self.fleet: Fleet | None = None
+        self.forecast = None  # FleetForecast once loaded
+        self.seen_changes: int | None = None
+        self.trouble: str = ""
+        self.user = getattr(store, "user", "")
+        self._start_light = light
+        self.export_dir = export_dir  # where the plan export goes (default: the working directory)
+        self.blink = blink  # text cursor blinking (off in tests and snapshots)
+
+    # -- start -----------------------------------------------------------------------
+    def on_mount(self) -> None:
+        sixteen = self.console.color_system in (None, "standard")
+        dark, light = ("ansi-dark", "ansi-light") if sixteen else ("textual-dark", "textual-light")
+        self.theme = light if self._start_light else dark
+        from logbook.tui.screens.fleet import FleetScreen
+
+        self.push_screen(FleetScreen())
+        self.load_data("start")
+        if self.poll_seconds > 0:
+            self.set_interval(self.poll_seconds, self.poll_changes)
+
+    # -- data ------------------------------------------------------------------------
+    @work(thread=True, exclusive=True, group="load")
+    def load_data(self, reason: str = "") -> None:
+        """Read a consistent snapshot (under the store lock) and forecast it (outside)."""
+        worker = get_current_worker()
+        try:
+            with self.gate.open() as store:
+                fleet = store.fleet()
+                count = store.change_count()
+            from logbook.analysis.fleet import forecast_fleet
+
+            forecast = forecast_fleet(fleet, today=self.today)
+        except Exception as exc:  # shown to the person, never a traceback
+            if not worker.is_cancelled:
+                self.post_message(DataTrouble(trouble_text(exc)))
+            return
+        if not worker.is_cancelled:
+            self.post_message(DataLoaded(fleet, forecast, count, reason))
+
+    def on_data_loaded(self, message: DataLoaded) -> None:
+        self.fleet, self.forecast = message.fleet, message.forecast
+        self.seen_changes = message.change_count
+        self.trouble = ""
+        self.data_generation += 1
+        if message.reason == "others":
+            self.notify("The logbook was changed by someone else; the views are up to date again.", timeout=4)
+
+    def on_data_trouble(self, message: DataTrouble) -> None:
+        self.trouble = message.text
+        self.data_generation += 1  # screens show the trouble line
+        self.notify(message.text, title="Cannot read the logbook", severity="error", timeout=8)
+
+    def reload(self, reason: str = "") -> None:
+        self.load_data(reason)
+
+    @work(thread=True, exclusive=True, group="poll")
+    def poll_changes(self) -> None:
+        """Compare the store's change count with the loaded one; never waits for the lock."""
+        held = self.gate.try_open()
+        if held is None:
+            return
+        try:
+            with held as store:
+                count = store.change_count()
+        except Exception as exc:
+            self.post_message(DataTrouble(trouble_text(exc)))
+            return
+        if self.seen_changes is not None and count != self.seen_changes:
+            self.post_message(ChangesSeen(count))
+
+    def on_changes_seen(self, message: ChangesSeen) -> None:
+        running = [w for w in self.workers if w.group == "load" and w.is_running]
+        if not running and message.change_count != self.seen_changes:
+            self.seen_changes = message.change_count
+            self.load_data("others")
+
+    # -- lookups for screens ---------------------------------------------------------------
+    def pump_forecast(self, serial: str):
+        return self.forecast.pump(serial) if self.forecast is not None else None
+
+    # -- actions -----------------------------------------------------------------------
+    def action_help(self) -> None:
+        from logbook.tui.screens.help import HelpScreen
+
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen(self.screen))
+
+    def action_reload(self) -> None:
+        self.load_data("asked")
+
+    def action_toggle_theme(self) -> None:
+        self.theme = DARK_THEMES.get(self.theme) or LIGHT_THEMES.get(self.theme) or "textual-dark"
+
+
+def make_app(store, *, today: date, units: UnitPrefs | None = None, **options) -> LogbookApp:
+    """Build the interface over an open Store (tests pass a temp-file or in-memory one)."""
+    return LogbookApp(store, today=today, units=units, **options)

@@ -1,0 +1,176 @@
+"""What the entry forms ask for: fields, their parsers in the user's units, and the
+records built from them (pure: no Textual). Checks come from logbook.validate."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import date
+from typing import Callable
+
+from logbook import units, validate
+from logbook.model import Event, EventKind, Problem, PumpHistory, Reading
+from logbook.units import UnitPrefs
+
+Parser = Callable[[str], tuple[object, Problem | None]]
+
+
+@dataclass(frozen=True)
+class FieldDef:
+    name: str  # also the name the store uses in its problems
+    label: str
+    parse: Parser
+    unit: str = ""
+    placeholder: str = ""
+
+
+def _number(spec_name: str, unit: str, *, required: str = "", specs=validate.READING_FIELDS) -> Parser:
+    spec = specs[spec_name]
+
+    def parse(text: str):
+        value, problem = validate.parse_number(spec, text, unit)
+        if problem is None and value is None and required:
+            return None, Problem(spec_name, text, required, unit)
+        return value, problem
+
+    return parse
+
+
+def _date(name: str, today: date) -> Parser:
+    return lambda text: validate.parse_date(name, text, today)
+
+
+def _name(name: str, required: bool = False) -> Parser:
+    return lambda text: validate.parse_name(name, text, required=required)
+
+
+def _free(text: str):
+    return text.strip(), None
+
+
+def _oil_grade(text: str):
+    return validate.parse_oil_grade(text)
+
+
+def _iso4406(text: str):
+    return validate.parse_iso4406(text)
+
+
+def reading_fields(prefs: UnitPrefs, today: date) -> tuple[FieldDef, ...]:
+    p, f, t = prefs.pressure, prefs.flow, prefs.temperature
+    return (
+        FieldDef("date", "Date", _date("date", today), "", "YYYY-MM-DD"),
+        FieldDef("machine_hours", "Hour meter", _number("machine_hours", "h", required="is required: the machine's hour meter now"), "h"),
+        FieldDef("case_drain", "Case drain", _number("case_drain", f), f),
+        FieldDef("servo_pressure", "Servo pressure", _number("servo_pressure", p), p),
+        FieldDef("neutral_drift", "Neutral drift", _number("neutral_drift", p), p, "A-B, signed"),
+        FieldDef("oil_temp", "Oil temperature", _number("oil_temp", t), t),
+        FieldDef("test_pressure", "Test pressure", _number("test_pressure", p), p),
+        FieldDef("test_speed", "Test speed", _number("test_speed", "rpm"), "rpm"),
+        FieldDef("oil_grade", "Oil ISO VG", _oil_grade, "", "e.g. 46"),
+        FieldDef("oil_vi", "Oil VI", _number("oil_vi", ""), ""),
+        FieldDef("charge_pressure", "Charge pressure", _number("charge_pressure", p), p, "optional"),
+        FieldDef("iso4406", "ISO 4406", _iso4406, "", "e.g. 18/16/13"),
+        FieldDef("technician", "Technician", _name("technician"), ""),
+        FieldDef("note", "Note", _free, ""),
+    )
+
+
+def _shown(canonical: float | None, unit: str) -> str:
+    if canonical is None:
+        return ""
+    value = units.from_canonical(canonical, unit) if unit else canonical
+    return f"{value:.4g}" if abs(value) < 10_000 else f"{value:.0f}"
+
+
+def reading_prefill(history: PumpHistory, prefs: UnitPrefs, today: date) -> dict[str, str]:
+    """Start values: today, the last test conditions of this pump, else the model's."""
+    m = history.model
+    last = history.readings[-1] if history.readings else None
+    pressure = last.test_pressure_bar if last and last.test_pressure_bar else m.ref_pressure_bar
+    speed = last.test_speed_rpm if last and last.test_speed_rpm else m.test_speed_rpm
+    return {
+        "date": today.isoformat(),
+        "test_pressure": _shown(pressure, prefs.pressure),
+        "test_speed": _shown(speed, ""),
+        "oil_grade": str(last.oil_grade if last and last.oil_grade else m.oil_grade),
+        "oil_vi": _shown(last.oil_vi if last and last.oil_vi else m.oil_vi, ""),
+        "technician": last.technician if last else "",
+    }
+
+
+def build_reading(serial: str, values: dict[str, object]) -> Reading:
+    """A Reading from parsed (canonical) field values."""
+    return Reading(
+        id=None,
+        serial=serial,
+        taken_on=values["date"],
+        machine_hours=values["machine_hours"],
+        case_drain_lpm=values.get("case_drain"),
+        servo_pressure_bar=values.get("servo_pressure"),
+        neutral_drift_bar=values.get("neutral_drift"),
+        charge_pressure_bar=values.get("charge_pressure"),
+        oil_temp_c=values.get("oil_temp"),
+        test_pressure_bar=values.get("test_pressure"),
+        test_speed_rpm=values.get("test_speed"),
+        oil_grade=values.get("oil_grade"),
+        oil_vi=values.get("oil_vi"),
+        iso4406=values.get("iso4406"),
+        technician=values.get("technician") or "",
+        note=values.get("note") or "",
+    )
+
+
+# -- events ------------------------------------------------------------------------------
+
+EVENT_KIND_WORDS = {
+    EventKind.OVERHAUL: "Overhaul (pump rebuilt)",
+    EventKind.EXCHANGE: "Exchange (rebuilt unit, same serial)",
+    EventKind.NEUTRAL_RESET: "Neutral re-set",
+    EventKind.CONTROL_REPAIR: "Control repair",
+    EventKind.OIL_CHANGE: "Oil change",
+    EventKind.MOVE: "Move to another machine",
+    EventKind.METER_REPLACED: "Hour meter replaced",
+}
+
+#: Fields each event kind asks for besides date, technician and note.
+EVENT_FIELDS = {
+    EventKind.MOVE: ("hours", "to_machine", "to_position", "to_hours"),
+    EventKind.METER_REPLACED: ("hours", "to_hours"),
+}
+DEFAULT_EVENT_FIELDS = ("hours",)
+
+
+def event_fields(today: date, kind: EventKind) -> tuple[FieldDef, ...]:
+    hours_label = "Old meter last" if kind is EventKind.METER_REPLACED else "Hour meter"
+    to_hours_label = "New meter start" if kind is EventKind.METER_REPLACED else "Target meter"
+    return (
+        FieldDef("date", "Date", _date("date", today), "", "YYYY-MM-DD"),
+        FieldDef("hours", hours_label, _number("hours", "h", specs=validate.HOURS_FIELDS), "h"),
+        FieldDef("to_machine", "To machine", _name("to_machine"), ""),
+        FieldDef("to_position", "To position", _name("to_position"), ""),
+        FieldDef("to_hours", to_hours_label, _number("to_hours", "h", specs=validate.HOURS_FIELDS), "h"),
+        FieldDef("technician", "Technician", _name("technician"), ""),
+        FieldDef("note", "Note", _free, ""),
+    )
+
+
+def build_event(kind: EventKind, serial: str, machine: str | None, values: dict[str, object]) -> Event:
+    wanted = set(EVENT_FIELDS.get(kind, DEFAULT_EVENT_FIELDS))
+    return Event(
+        id=None,
+        kind=kind,
+        happened_on=values["date"],
+        serial=None if kind is EventKind.METER_REPLACED else serial,
+        machine=machine,
+        hours=values.get("hours") if "hours" in wanted else None,
+        to_machine=values.get("to_machine") if "to_machine" in wanted else None,
+        to_position=values.get("to_position") if "to_position" in wanted else None,
+        to_hours=values.get("to_hours") if "to_hours" in wanted else None,
+        technician=values.get("technician") or "",
+        note=values.get("note") or "",
+    )
+
+
+def field_of(problem: Problem, names) -> str | None:
+    """The form field a store problem is about, when the form has that field."""
+    return problem.field if problem.field in names else None

@@ -1,0 +1,61 @@
+"""Messages that carry worker results back to the interface thread."""
+
+from __future__ import annotations
+
+from textual.message import Message
+
+from logbook.model import Fleet, Problem
+
+
+class DataLoaded(Message):
+    """A fresh fleet snapshot and its forecast (``forecast`` is a FleetForecast)."""
+
+    def __init__(self, fleet: Fleet, forecast, change_count: int, reason: str = "") -> None:
+        super().__init__()
+        self.fleet = fleet
+        self.forecast = forecast
+        self.change_count = change_count
+        self.reason = reason
+
+
+class DataTrouble(Message):
+    """Reading the logbook failed; ``text`` says why in words."""
+
+    def __init__(self, text: str) -> None:
+        super().__init__()
+        self.text = text
+
+
+class ChangesSeen(Message):
+    """The change poll found writes the interface has not loaded yet."""
+
+    def __init__(self, change_count: int) -> None:
+        super().__init__()
+        self.change_count = change_count
+
+
+class Checked(Message):
+    """A dry run of a form's record against the store: the problems it found."""
+
+    def __init__(self, token: int, problems: list[Problem], text: str = "") -> None:
+        super().__init__()
+        self.token = token
+        self.problems = problems
+        self.text = text  # store trouble (locked, ...) rather than problems with the input
+
+
+class Saved(Message):
+    """A record was written; ``record`` is what the store returned."""
+
+    def __init__(self, record) -> None:
+        super().__init__()
+        self.record = record
+
+
+class Rejected(Message):
+    """A write was refused; nothing was written."""
+
+    def __init__(self, problems: list[Problem], text: str = "") -> None:
+        super().__init__()
+        self.problems = problems
+        self.text = text

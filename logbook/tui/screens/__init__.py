@@ -1,0 +1,1 @@
+"""One screen per module: fleet, pump, reading and event entry, models, plan, help."""

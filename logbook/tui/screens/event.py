@@ -1,0 +1,103 @@
+"""Event entry: overhaul, exchange, neutral re-set, control repair, oil change, move,
+hour-meter replacement; checked by the store as you type, like a reading."""
+
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.containers import Container, Horizontal, VerticalScroll
+from textual.widgets import Footer, Label, Select, Static
+
+from logbook import fmt
+from logbook.model import Event, EventKind, Problem, SEGMENT_RESETS
+from logbook.tui import forms, present
+from logbook.tui.screens.entry import EntryScreen
+
+
+class EventScreen(EntryScreen):
+    """Record one event for pump ``serial`` (a meter replacement is for its machine)."""
+
+    HELP_TITLE = "Event entry"
+
+    def __init__(self, serial: str, kind: EventKind = EventKind.OVERHAUL) -> None:
+        super().__init__()
+        self.serial = serial
+        self.kind = kind
+        self.machine: str | None = None
+
+    def compose(self) -> ComposeResult:
+        yield Static(f"New event · pump {self.serial}", id="title")
+        with VerticalScroll(classes="form", id="form"):
+            yield Static("", id="pump-line", classes="form-hint")
+            with Horizontal(classes="field-row", id="kind-row"):
+                yield Label("Event", classes="field-label")
+                yield Select([(words, k.value) for k, words in forms.EVENT_KIND_WORDS.items()], value=self.kind.value,
+                             allow_blank=False, compact=True, id="kind")
+            yield Static("", id="kind-hint", classes="form-hint")
+            with Container(classes="fields"):
+                for d in forms.event_fields(self.app.today, self.kind):
+                    yield self.make_field(d, self._prefill().get(d.name, ""))
+            yield Static("Fill in the event; the logbook checks it as you type.", id="check")
+            yield Static("", id="result")
+        yield Footer(compact=True)
+
+    def _prefill(self) -> dict[str, str]:
+        return {"date": self.app.today.isoformat()}
+
+    def on_mount(self) -> None:
+        fleet = self.app.fleet
+        pf = self.app.pump_forecast(self.serial)
+        if pf is not None:
+            self.machine = pf.machine
+        elif fleet is not None and self.serial in fleet.pumps:
+            current = [f for f in fleet.history(self.serial).fitments if f.removed_on is None]
+            self.machine = current[-1].machine if current else None
+        where = present.where(pf) if pf else (self.machine or "not fitted")
+        self.query_one("#pump-line", Static).update(
+            f"Pump {self.serial} in {where}; hours are the hour meter of {self.machine or 'its machine'}."
+        )
+        self._apply_kind()
+        self.query_one("#kind", Select).focus()
+
+    def _apply_kind(self) -> None:
+        wanted = set(forms.EVENT_FIELDS.get(self.kind, forms.DEFAULT_EVENT_FIELDS)) | {"date", "technician", "note"}
+        labels = {d.name: d.label for d in forms.event_fields(self.app.today, self.kind)}
+        for name, field in self.fields.items():
+            field.set_class(name not in wanted, "-hidden")
+            field.query_one(".field-label", Label).update(labels[name])
+        resets = SEGMENT_RESETS.get(self.kind, ())
+        hint = ("Starts a new trend for: " + ", ".join(k.label for k in resets)) if resets else "Does not restart any trend."
+        if self.kind is EventKind.METER_REPLACED:
+            hint = f"For machine {self.machine or '?'}: the old meter's last reading and the new meter's first."
+        elif self.kind is EventKind.MOVE:
+            hint = "Moves the pump: hour meter of the machine it leaves, then the target machine, position and its meter."
+        self.query_one("#kind-hint", Static).update(hint)
+
+    @on(Select.Changed, "#kind")
+    def _kind_changed(self, event: Select.Changed) -> None:
+        self.kind = EventKind(event.value)
+        self._apply_kind()
+        if self._touched:
+            self.schedule_check()
+
+    # -- hooks ---------------------------------------------------------------------------------
+    def build_record(self, values) -> Event:
+        return forms.build_event(self.kind, self.serial, self.machine, values)
+
+    def dry_run(self, store, record: Event) -> list[Problem]:
+        return store.add_events([record], today=self.app.today, dry_run=True).problems
+
+    def write(self, store, record: Event) -> Event:
+        return store.add_event(record, today=self.app.today)
+
+    def saved(self, event: Event) -> None:
+        box = self.query_one("#result", Static)
+        box.border_title = f"Saved: {forms.EVENT_KIND_WORDS[event.kind].lower()}, {fmt.day(event.happened_on)}"
+        resets = SEGMENT_RESETS.get(event.kind, ())
+        text = f"Recorded event {event.id} for {event.serial or event.machine}."
+        if resets:
+            text += " New trends start for " + ", ".join(k.label for k in resets) + "; the forecast is being updated."
+        box.update(text + "\nEsc goes back.")
+        box.add_class("-shown")
+        self.query_one("#check", Static).update(f"✓ Saved event {event.id}.")
+        self.query_one("#check", Static).remove_class("-bad")

@@ -1,0 +1,233 @@
+"""Pump view: who the pump is, where it sat, what happened to it, its readings and,
+per reading kind, a chart of the engine's fitted trend with the projected dates."""
+
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
+
+from logbook import fmt
+from logbook.analysis.results import OUTCOME_WORDS
+from logbook.model import ALL_KINDS, Kind
+from logbook.tui import present
+from logbook.tui.widgets.chart import TrendChart
+
+TABS = ("trends", "readings", "events", "fitted")
+EVENT_WORDS = {
+    "overhaul": "overhaul", "exchange": "exchange", "neutral_reset": "neutral re-set", "control_repair": "control repair",
+    "oil_change": "oil change", "move": "move", "meter_replaced": "hour meter replaced",
+}
+
+
+class PumpScreen(Screen):
+    """One pump; ``following`` are the pumps after it in the fleet view (for 'next pump')."""
+
+    BINDINGS = [
+        Binding("escape", "back", "Back", id="pump.back"),
+        Binding("r", "record_reading", "Reading", id="pump.reading"),
+        Binding("e", "record_event", "Event", id="pump.event"),
+        Binding("k", "next_kind", "Kind", id="pump.kind"),
+        Binding("v", "next_tab", "View", id="pump.view"),
+        Binding("n", "next_pump", "Next pump", id="pump.next"),
+        Binding("1", "tab('trends')", "Trends", show=False, id="pump.tab1"),
+        Binding("2", "tab('readings')", "Readings", show=False, id="pump.tab2"),
+        Binding("3", "tab('events')", "Events", show=False, id="pump.tab3"),
+        Binding("4", "tab('fitted')", "Fitted in", show=False, id="pump.tab4"),
+    ]
+
+    def __init__(self, serial: str, following: list[str] | None = None) -> None:
+        super().__init__()
+        self.serial = serial
+        self.following = list(following or [])
+        self.kind: Kind | None = None  # chosen kind; None = the one closest to its limit
+
+    def compose(self) -> ComposeResult:
+        yield Static(f"Pump {self.serial}", id="title")
+        yield Static("", id="identity")
+        with TabbedContent(id="pump-tabs", initial="trends"):
+            with TabPane("Trends", id="trends"):
+                yield DataTable(id="kind-table", cursor_type="row", cell_padding=1)
+                yield Static("", id="kind-summary")
+                yield TrendChart(self.app.units, id="chart")
+            with TabPane("Readings", id="readings"):
+                yield Static("", id="readings-note", classes="form-hint")
+                yield DataTable(id="readings-table", cursor_type="row", zebra_stripes=True)
+            with TabPane("Events", id="events"):
+                yield DataTable(id="events-table", cursor_type="row", zebra_stripes=True)
+            with TabPane("Fitted in", id="fitted"):
+                yield DataTable(id="fitted-table", cursor_type="row", zebra_stripes=True)
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        self.watch(self.app, "data_generation", self._data_changed, init=True)
+        self.query_one("#kind-table", DataTable).focus()
+
+    # -- data --------------------------------------------------------------------------
+    def _data_changed(self, generation: int) -> None:
+        fleet, pf = self.app.fleet, self.app.pump_forecast(self.serial)
+        if fleet is None or self.serial not in fleet.pumps:
+            self.query_one("#identity", Static).update(self.app.trouble or "Reading the logbook…")
+            return
+        history = fleet.history(self.serial)
+        self._show_identity(history, pf)
+        self._show_kinds(pf)
+        self._show_readings(history)
+        self._show_events(history)
+        self._show_fitted(history, fleet)
+
+    def _show_identity(self, history, pf) -> None:
+        m, u = history.model, self.app.units
+        where = present.where(pf) if pf else "not in service"
+        site = f" ({pf.site})" if pf and pf.site else ""
+        self.query_one("#title", Static).update(f"Pump {self.serial} · {m.code} · {where}{site}")
+        status = pf.status if pf else "-"
+        since = fmt.hours(pf.hours_since_overhaul) if pf else "-"
+        per_day = f"{pf.hours_per_day:.1f} h/day" if pf and pf.hours_per_day else "utilisation unknown"
+        last = fmt.day(pf.last_reading_on) if pf else "-"
+        lines = [
+            f"{status} · {since} since overhaul · {per_day} · last read {last}",
+            f"{m.code} {m.displacement_cc:g} cm3/rev, rated {fmt.pressure(m.rated_pressure_bar, u)} · reference "
+            f"{fmt.temperature(m.ref_temp_c, u)}, {fmt.pressure(m.ref_pressure_bar, u)}, VG {m.oil_grade} VI {m.oil_vi:g}",
+        ]
+        self.query_one("#identity", Static).update("\n".join(lines))
+
+    def _kinds(self, pf):
+        return {kf.kind: kf for kf in pf.kinds} if pf else {}
+
+    def _show_kinds(self, pf) -> None:
+        table = self.query_one("#kind-table", DataTable)
+        u = self.app.units
+        if not table.columns:
+            for label in ("Reading", "Latest", "Limit", "%", "Path", "n", "P10", "P50", "P90"):
+                table.add_column(label, key=label)
+        table.clear()
+        kinds = self._kinds(pf)
+        for kind in ALL_KINDS:
+            kf = kinds.get(kind)
+            if kf is None:
+                table.add_row(kind.label, "-", "-", "", "", "", "", "", "", key=kind.value)
+                continue
+            share = f"{kf.percent_of_limit:.0f}" if kf.percent_of_limit is not None else ""
+            table.add_row(
+                kind.label, fmt.value(kind, kf.latest_value, u), fmt.value(kind, kf.limit.value, u) if kf.limit else "none",
+                share, kf.path if kf.path != "none" else "-", str(kf.n_readings),
+                fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), key=kind.value,
+            )
+        if self.kind is None:
+            self.kind = pf.worst.kind if pf and pf.worst else Kind.CASE_DRAIN
+        table.move_cursor(row=ALL_KINDS.index(self.kind), animate=False)
+        self._show_chart()
+
+    def _show_chart(self) -> None:
+        pf = self.app.pump_forecast(self.serial)
+        kf = self._kinds(pf).get(self.kind)
+        chart = self.query_one("#chart", TrendChart)
+        chart.show(kf)
+        summary = self.query_one("#kind-summary", Static)
+        if kf is None:
+            summary.update(f"{self.kind.label}: no forecast")
+            return
+        words = OUTCOME_WORDS[kf.outcome]
+        left = f"; {fmt.hours(kf.p50_hours)} left at P50" if kf.p50_hours is not None else ""
+        flags = present.flag_words(kf.flags)
+        trend = " ".join(present.trend(kf))
+        segment = f"since {fmt.day(kf.segment_start)}" if kf.segment_start else "no segment"
+        summary.update(
+            f"{kf.kind.label}: {words}{left} · trend {trend} · {kf.n_readings} reading(s) {segment}"
+            + (f" · flags: {flags}" if flags else "")
+        )
+
+    def _show_readings(self, history) -> None:
+        from logbook.analysis.normalize import normalized_value
+
+        table = self.query_one("#readings-table", DataTable)
+        u, m = self.app.units, history.model
+        if not table.columns:
+            for label in ("Date", "Machine", "Meter h", "Case drain", "at ref.", "Servo", "Drift", "Oil",
+                          "Test p", "Speed", "ISO 4406", "Technician", "Entered by"):
+                table.add_column(label, key=label)
+        table.clear()
+        for r in reversed(history.readings):
+            at_ref = normalized_value(r, Kind.CASE_DRAIN, m) if r.case_drain_lpm is not None else None
+            at_ref = None if at_ref is not None and at_ref != at_ref else at_ref  # NaN: conditions missing
+            table.add_row(
+                fmt.day(r.taken_on), r.machine or "", fmt.hours(r.machine_hours),
+                fmt.value(Kind.CASE_DRAIN, r.case_drain_lpm, u), fmt.value(Kind.CASE_DRAIN, at_ref, u),
+                fmt.value(Kind.SERVO_PRESSURE, r.servo_pressure_bar, u), fmt.value(Kind.NEUTRAL_DRIFT, r.neutral_drift_bar, u),
+                fmt.temperature(r.oil_temp_c, u), fmt.pressure(r.test_pressure_bar, u),
+                f"{r.test_speed_rpm:g}" if r.test_speed_rpm else "-", r.iso4406 or "-", r.technician or "-",
+                r.entered_by or "-",
+            )
+        self.query_one("#readings-note", Static).update(
+            f"{len(history.readings)} readings, newest first. 'at ref.' = case drain normalized to {fmt.temperature(m.ref_temp_c, u)}, "
+            f"{fmt.pressure(m.ref_pressure_bar, u)} and the reference oil; servo pressure and |drift| are trended as read."
+        )
+
+    def _show_events(self, history) -> None:
+        table = self.query_one("#events-table", DataTable)
+        if not table.columns:
+            for label in ("Date", "Event", "Machine", "Hours", "To", "Technician", "Note", "Entered by"):
+                table.add_column(label, key=label)
+        table.clear()
+        for e in reversed(history.events):
+            to = f"{e.to_machine} {e.to_position or ''}".strip() if e.to_machine else (fmt.hours(e.to_hours) if e.to_hours is not None else "")
+            table.add_row(fmt.day(e.happened_on), EVENT_WORDS.get(e.kind.value, e.kind.value), e.machine or "",
+                          fmt.hours(e.hours), to, e.technician or "-", e.note or "", e.entered_by or "-")
+        if not history.events:
+            table.add_row("-", "no events recorded", "", "", "", "", "", "")
+
+    def _show_fitted(self, history, fleet) -> None:
+        table = self.query_one("#fitted-table", DataTable)
+        if not table.columns:
+            for label in ("Machine", "Position", "Site", "From", "Until", "Meter at fit", "Pump h at fit"):
+                table.add_column(label, key=label)
+        table.clear()
+        for f in reversed(history.fitments):
+            machine = fleet.machines.get(f.machine)
+            table.add_row(f.machine, f.position, machine.site if machine else "-", fmt.day(f.fitted_on),
+                          fmt.day(f.removed_on) if f.removed_on else "now", fmt.hours(f.machine_hours_at_fit),
+                          fmt.hours(f.pump_hours_at_fit))
+
+    # -- events ----------------------------------------------------------------------------
+    @on(DataTable.RowHighlighted, "#kind-table")
+    def _kind_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        kind = Kind(event.row_key.value)
+        if kind is not self.kind:
+            self.kind = kind
+            self._show_chart()
+
+    # -- actions -----------------------------------------------------------------------------
+    def action_back(self) -> None:
+        self.app.pop_screen()
+
+    def action_next_kind(self) -> None:
+        self.kind = ALL_KINDS[(ALL_KINDS.index(self.kind) + 1) % len(ALL_KINDS)] if self.kind else ALL_KINDS[0]
+        self.query_one("#kind-table", DataTable).move_cursor(row=ALL_KINDS.index(self.kind), animate=False)
+        self._show_chart()
+
+    def action_next_tab(self) -> None:
+        tabs = self.query_one("#pump-tabs", TabbedContent)
+        tabs.active = TABS[(TABS.index(tabs.active) + 1) % len(TABS)]
+
+    def action_tab(self, name: str) -> None:
+        self.query_one("#pump-tabs", TabbedContent).active = name
+
+    def action_record_reading(self) -> None:
+        from logbook.tui.screens.reading import ReadingScreen
+
+        self.app.push_screen(ReadingScreen(self.serial, following=self.following))
+
+    def action_record_event(self) -> None:
+        from logbook.tui.screens.event import EventScreen
+
+        self.app.push_screen(EventScreen(self.serial))
+
+    def action_next_pump(self) -> None:
+        if not self.following:
+            self.notify("This is the last pump in the fleet view's order.")
+            return
+        nxt, rest = self.following[0], self.following[1:]
+        self.app.switch_screen(PumpScreen(nxt, following=rest))

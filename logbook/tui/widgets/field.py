@@ -1,0 +1,92 @@
+"""A labelled one-line input with its unit and the message of what is wrong with it."""
+
+from __future__ import annotations
+
+from typing import Callable
+
+from textual import on
+from textual.app import ComposeResult
+from textual.containers import Horizontal, Vertical
+from textual.widgets import Input, Label, Static
+
+from logbook.model import Problem
+
+Parser = Callable[[str], tuple[object, Problem | None]]
+
+
+def no_check(text: str) -> tuple[object, Problem | None]:
+    return text.strip(), None
+
+
+class FormField(Vertical):
+    """``parse`` turns the text into (value, problem); the problem is shown under the field.
+
+    Store problems found by a dry run are shown the same way (``show_problem``).
+    """
+
+    def __init__(self, name: str, label: str, parse: Parser = no_check, *, value: str = "", unit: str = "",
+                 placeholder: str = "", input_widget: Input | None = None) -> None:
+        super().__init__(id=f"field-{name}")
+        self.field_name = name
+        self.label_text = label
+        self.parse = parse
+        self.unit = unit
+        self._input = input_widget or Input(value=value, placeholder=placeholder, compact=True, id=f"in-{name}")
+        self._own_problem: Problem | None = None
+        self._store_problem: str = ""
+        self._programmatic: str | None = value  # a prefill's own change event is not the user's edit
+
+    def on_mount(self) -> None:
+        self._input.cursor_blink = getattr(self.app, "blink", True)
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(classes="field-row"):
+            yield Label(self.label_text, classes="field-label")
+            yield self._input
+            yield Static(self.unit, classes="field-unit")
+        yield Static("", classes="field-message")
+
+    @property
+    def input(self) -> Input:
+        return self._input
+
+    @property
+    def text(self) -> str:
+        return self._input.value
+
+    def set_text(self, text: str) -> None:
+        """Set the text from the program (a prefill): not checked until the user edits it."""
+        self._programmatic = text
+        self._own_problem = None
+        self._store_problem = ""
+        self._input.value = text
+        self._show()
+
+    def check(self) -> tuple[object, Problem | None]:
+        """Parse the text now and show or clear its message."""
+        value, problem = self.parse(self._input.value)
+        self._own_problem = problem
+        self._show()
+        return value, problem
+
+    def show_problem(self, text: str) -> None:
+        """A problem the store found with this field ('' clears it)."""
+        self._store_problem = text
+        self._show()
+
+    def _show(self) -> None:
+        message = str(self._own_problem) if self._own_problem else self._store_problem
+        self.query_one(".field-message", Static).update(message)
+        self.set_class(bool(message), "-bad")
+
+    @on(Input.Changed)
+    def _changed(self, event: Input.Changed) -> None:
+        if self._programmatic is not None and event.value == self._programmatic:
+            event.prevent_default()
+            self._programmatic = None
+            event.programmatic = True
+            return
+        self._programmatic = None
+        event.programmatic = False
+        self._store_problem = ""
+        self.check()

@@ -1,0 +1,18 @@
+"""DataTables whose Enter key is named in the Footer (the stock binding is hidden)."""
+
+from __future__ import annotations
+
+from textual.binding import Binding
+from textual.widgets import DataTable
+
+
+class OpenTable(DataTable):
+    """Enter opens the row under the cursor."""
+
+    BINDINGS = [Binding("enter", "select_cursor", "Open", id="table.open")]
+
+
+class EditTable(DataTable):
+    """Enter edits the row under the cursor."""
+
+    BINDINGS = [Binding("enter", "select_cursor", "Edit", id="table.edit")]
