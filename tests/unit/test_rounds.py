@@ -266,3 +266,15 @@ def test_new_readings_are_found_by_id():
     added = Reading(99, "P-1", date(2026, 3, 16), 200.0, servo_pressure_bar=25.0, machine="M-1")
     after = replace(before, readings=(*before.readings, added))
     assert rounds.new_readings(before, after) == [added]
+
+
+def test_rounds_is_pure():
+    """The rules import neither a user interface nor a database driver."""
+    import subprocess
+    import sys
+
+    code = ("import sys, logbook.rounds, logbook.analysis.fleet; "
+            "print(sorted(m for m in ('textual', 'sqlite3', 'sqlite_utils') if m in sys.modules))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "[]"
