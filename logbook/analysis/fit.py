@@ -17,7 +17,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import stats
 
-from logbook.analysis.batch import LineStats, TrendBatch, ols_rows
+from logbook.analysis.batch import LineStats, TrendBatch, _rowdot, ols_rows
 from logbook.analysis.pooling import group_prior, shrink_slope
 
 NONE, LINEAR, EXPONENTIAL = 0, 1, 2
@@ -43,6 +43,7 @@ class FitOptions:
     pool_min_series: int = 3
     pool_flag_weight: float = 0.2  # prior weight above which FLAG_POOLED is raised
     tau_floor_rel: float = 0.1
+    block_rows: int = 2048  # rows per block in the readings stage (cache-sized; results do not depend on it)
 
 
 @dataclass
@@ -57,7 +58,7 @@ class BatchFit:
     c11: np.ndarray
     sigma: np.ndarray  # residual sd
     dof: np.ndarray
-    used: np.ndarray  # (S, N) bool
+    weights: np.ndarray  # (S, N) 1.0 where a reading is used in the fit, 0.0 otherwise
     n_used: np.ndarray
     flags: np.ndarray  # (S,) bit flags
     step_at: np.ndarray  # (S,) column of the first reading after a step, -1 for none
@@ -66,6 +67,13 @@ class BatchFit:
     lin: "PathParams"  # both paths, for the model-averaged forecast
     exp: "PathParams"
     w_exp: np.ndarray  # (S,) Akaike weight of the exponential path (0 where it is not available)
+    n_valid: np.ndarray  # (S,) readings in the series, used or not
+    latest: np.ndarray  # (S,) newest used reading (NaN without one)
+
+    @property
+    def used(self) -> np.ndarray:
+        """(S, N) bool: readings used in the fit (False for dropped, stepped-over and padding)."""
+        return self.weights > 0
 
 
 @dataclass
@@ -99,52 +107,60 @@ def _crit_tables(width: int, alpha_out: float, alpha_step: float, side: int) -> 
     return t2, f
 
 
-def _outlier_scan(st: LineStats, w: np.ndarray, crit_t2: np.ndarray, min_n: int):
-    """Most extreme reading per row and whether it fails the Bonferroni outlier test."""
+def _outlier_scan(st: LineStats, crit_t2: np.ndarray, min_n: int):
+    """Most extreme reading per row (largest r^2 / (1 - h)) and whether it fails the Bonferroni test."""
     with np.errstate(invalid="ignore", divide="ignore"):
+        inv_sxx = np.where(st.sxx > 0, 1.0 / st.sxx, 0.0)[:, None]
         h = st.dx * st.dx
-        h /= np.where(st.sxx > 0, st.sxx, np.inf)[:, None]
+        h *= inv_sxx
         h += (1.0 / np.maximum(st.n, 1))[:, None]
-        np.subtract(1.0, h, out=h)
+        np.subtract(1.0, h, out=h)  # 1 - leverage (unused readings: r = 0, so u = 0)
         u = st.r * st.r
-        u /= np.maximum(h, 1e-12)
-        u *= w
+        u /= h
         j = u.argmax(axis=1)
         umax = u[np.arange(u.shape[0]), j]
         dof = st.n - 3
         t2 = umax * dof / np.maximum(st.rss - umax, 1e-300)
         n_int = st.n.astype(int)
-        found = (st.n >= min_n) & (t2 > crit_t2[n_int]) & (umax > 0)
+        found = (st.n >= min_n) & (t2 > crit_t2[n_int]) & (umax > 0) & np.isfinite(umax)
     return found, j
 
 
-def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions):
-    """Best single level shift per row (Frisch-Waugh on prefix sums) and whether it is a real step."""
-    s = w.shape[0]
+def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions, left_aligned: bool = False):
+    """Best single level shift per row (Frisch-Waugh on prefix sums) and whether it is a real step.
+
+    Splitting after column j: the reduction in RSS is (sum of residuals up to j)^2 / e_j, with
+    e_j = m - m^2/n - (sum of centred x up to j)^2 / Sxx and m the readings up to j.
+    """
+    s, width = w.shape
+    side = opt.min_step_side
     with np.errstate(invalid="ignore", divide="ignore"):
-        cw = np.cumsum(w, axis=1)
-        cr = np.cumsum(st.r, axis=1)
+        cw = np.arange(1.0, width + 1.0)[None, :] if left_aligned else np.cumsum(w, axis=1)
         cdx = np.cumsum(st.dx, axis=1)
-        n = st.n[:, None]
-        ede = cw - cw * cw / n
+        red = np.cumsum(st.r, axis=1)
+        inv_n = (1.0 / np.maximum(st.n, 1))[:, None]
+        ede = cw * cw * inv_n
+        np.subtract(cw, ede, out=ede)
         cdx *= cdx
-        cdx /= np.where(st.sxx > 0, st.sxx, np.inf)[:, None]
+        cdx *= np.where(st.sxx > 0, 1.0 / st.sxx, 0.0)[:, None]
         ede -= cdx
-        red = cr * cr
+        red *= red
         red /= ede
-        side = opt.min_step_side
-        ok = (cw >= side) & (cw <= n - side) & (w > 0) & (ede > 1e-9)
-        red[~ok] = 0.0
+        bad = cw > (st.n - side)[:, None]
+        if not left_aligned:
+            bad |= (cw < side) | (w == 0)
+        np.copyto(red, 0.0, where=bad)  # also clears 0/0 at the ends
+        red[:, : side - 1] = 0.0
         j = red.argmax(axis=1)
         rows = np.arange(s)
-        rmax = red[rows, j]
+        rmax, e_j = red[rows, j], ede[rows, j]
         dof1 = st.n - 3
         rss1 = np.maximum(st.rss - rmax, 1e-300)
         fstat = rmax * dof1 / rss1
-        size = -cr[rows, j] / ede[rows, j]
-        big = np.abs(size) > opt.step_min_sigma * np.sqrt(rss1 / np.maximum(dof1, 1))
+        size = np.sqrt(rmax / e_j)  # |level shift|
+        big = size > opt.step_min_sigma * np.sqrt(rss1 / np.maximum(dof1, 1))
         n_int = st.n.astype(int)
-        found = (st.n >= 2 * side + 2) & (fstat > crit_f[n_int]) & big & (rmax > 0)
+        found = (st.n >= 2 * side + 2) & (fstat > crit_f[n_int]) & big & (rmax > 0) & (e_j > 1e-9)
     return found, j + 1
 
 
@@ -156,31 +172,59 @@ def _sub(st: LineStats, rows: np.ndarray) -> LineStats:
 def _confirm_log(rows, ly, x0, w, scan, *args):
     """Rerun a scan on the log scale for candidate ``rows`` (all y > 0); returns (found, column)."""
     st = ols_rows(x0[rows], ly[rows], w[rows])
-    return scan(st, w[rows], *args)
+    return (scan(st, *args) if scan is _outlier_scan else scan(st, w[rows], *args))
 
 
-def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
-    """Fit every series of ``batch`` (see module docstring); pure array code, no per-series loop."""
-    opt = opt or FitOptions()
-    s, width = batch.x.shape
-    valid = np.isfinite(batch.x) & np.isfinite(batch.y)
+def _log_line(x0, ly, lin: LineStats) -> LineStats:
+    """Least-squares line of log y from raw moments (x0, ly zero where unused; x moments from ``lin``)."""
+    n = lin.n
+    with np.errstate(invalid="ignore", divide="ignore"):
+        nn = np.maximum(n, 1)
+        lbar = ly.sum(axis=1) / nn
+        sxy = _rowdot(x0, ly) - n * lin.xbar * lbar
+        syy = _rowdot(ly, ly) - n * lbar * lbar
+        b = np.where(lin.sxx > 0, sxy / lin.sxx, np.nan)
+        rss = np.maximum(syy - b * sxy, 0.0)
+    return LineStats(n, lin.xbar, lbar, lin.sxx, lbar - b * lin.xbar, b, rss)
+
+
+@dataclass
+class _RowFits:
+    """Per-row results of the readings stage (steps, wild readings, both lines)."""
+
+    lin: LineStats
+    lg: LineStats
+    weights: np.ndarray
+    flags: np.ndarray
+    step_at: np.ndarray
+    n_valid: np.ndarray
+    all_pos: np.ndarray
+    latest: np.ndarray
+
+
+def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
+    """Steps, wild readings and the two least-squares lines for a block of rows."""
+    s, width = x.shape
+    valid = ~np.isnan(y)
     w = valid.astype(float)
-    x0 = np.where(valid, batch.x, 0.0)
-    y0 = np.where(valid, batch.y, 0.0)
+    y0 = np.where(valid, y, 0.0)
+    x0 = np.where(valid, x, 0.0)
     pos = y0 > 0
-    ly = np.log(np.where(pos, y0, 1.0))
-    all_pos = pos.sum(axis=1) == w.sum(axis=1)
+    ly = np.log(y0, out=np.zeros_like(y0), where=pos)
+    n_valid = w.sum(axis=1)
+    all_pos = np.count_nonzero(pos, axis=1) == n_valid
     crit_t2, crit_f = _crit_tables(width, opt.alpha_outlier, opt.alpha_step, opt.min_step_side)
     flags = np.zeros(s, dtype=np.int64)
     step_at = np.full(s, -1, dtype=np.int64)
+    changed = np.zeros(s, dtype=bool)
 
     lin = ols_rows(x0, y0, w)
 
     # 1. step change: keep only the readings after it
-    found, col = _step_scan(lin, w, crit_f, opt)
+    found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True)
     cand = np.flatnonzero(found)
     if cand.size:  # not a step if it rests on one reading: drop the most extreme one and look again
-        _, worst = _outlier_scan(_sub(lin, cand), w[cand], crit_t2, 0)
+        _, worst = _outlier_scan(_sub(lin, cand), crit_t2, 0)
         w_less = w[cand].copy()
         w_less[np.arange(cand.size), worst] = 0.0
         f_rob, c_rob = _step_scan(ols_rows(x0[cand], y0[cand], w_less), w_less, crit_f, opt)
@@ -193,15 +237,16 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
     if rows.size:
         step_at[rows] = col[rows]
         flags[rows] |= B_STEP
+        changed[rows] = True
         w[rows] = w[rows] * (np.arange(width)[None, :] >= col[rows][:, None])
         lin.put(rows, ols_rows(x0[rows], y0[rows], w[rows]))
 
     # 2. wild readings: drop the worst one if it fails the test on both scales
     check = np.arange(s)
-    last_col = valid.sum(axis=1) - 1
+    last_col = n_valid.astype(np.int64) - 1
     for _ in range(opt.max_drops):
         sub = lin if check.size == s else ols_rows(x0[check], y0[check], w[check])
-        found, col = _outlier_scan(sub, w[check], crit_t2, opt.min_outlier_points)
+        found, col = _outlier_scan(sub, crit_t2, opt.min_outlier_points)
         cand = np.flatnonzero(found & all_pos[check])
         if cand.size:
             f_log, c_log = _confirm_log(check[cand], ly, x0, w, _outlier_scan, crit_t2, opt.min_outlier_points)
@@ -212,12 +257,35 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
         w[check, col] = 0.0
         flags[check] |= B_OUTLIER
         flags[check[col == last_col[check]]] |= B_JUMP
+        changed[check] = True
         lin.put(check, ols_rows(x0[check], y0[check], w[check]))
 
     # 3. linear and exponential paths, weighed by AICc on the readings' scale
+    rows = np.flatnonzero(changed)
+    if rows.size:  # zero what is no longer used, so that raw moments see only used readings
+        wr = w[rows]
+        x0[rows] *= wr
+        ly[rows] *= wr
+        all_pos[rows] = np.count_nonzero(pos[rows] & (wr > 0), axis=1) == lin.n[rows]
+    lg = _log_line(x0, ly, lin)
+    lin.dx = lin.r = None
+    return _RowFits(lin, lg, w, flags, step_at, n_valid, all_pos, _latest(y, w, last_col, changed))
+
+
+def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
+    """Fit every series of ``batch`` (see module docstring); array code, no loop over series.
+
+    Rows go through the readings stage in blocks of ``opt.block_rows`` (a loop over blocks of
+    hundreds of pumps, to keep the arrays in cache), then pooling and path weights run on all
+    rows at once. ``batch.x`` must be finite wherever ``batch.y`` is (``TrendBatch.pack`` sees to it).
+    """
+    opt = opt or FitOptions()
+    s = batch.size
+    step = max(int(opt.block_rows), 1)
+    parts = [_fit_rows(batch.x[i : i + step], batch.y[i : i + step], opt) for i in range(0, s, step)]
+    rf = parts[0] if len(parts) == 1 else _concat(parts)
+    lin, lg, w, flags, step_at, n_valid, all_pos = rf.lin, rf.lg, rf.weights, rf.flags, rf.step_at, rf.n_valid, rf.all_pos
     n = lin.n
-    all_pos = (pos * w).sum(axis=1) == n
-    lg = ols_rows(x0, ly, w, keep=False)
     k = 3.0
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         pen = 2 * k + 2 * k * (k + 1) / (n - k - 1)
@@ -238,10 +306,30 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
     flags[chosen.prior_weight > opt.pool_flag_weight] |= B_POOLED
     return BatchFit(
         path=path, a=chosen.a, b=chosen.b, c00=chosen.c00, c01=chosen.c01, c11=chosen.c11,
-        sigma=np.sqrt(chosen.sigma2), dof=chosen.dof, used=w > 0, n_used=n.astype(np.int64), flags=flags,
+        sigma=np.sqrt(chosen.sigma2), dof=chosen.dof, weights=w, n_used=n.astype(np.int64), flags=flags,
         step_at=step_at, prior_weight=chosen.prior_weight, forecastable=chosen.ok & (path != NONE),
-        lin=p_lin, exp=p_exp, w_exp=w_exp,
+        lin=p_lin, exp=p_exp, w_exp=w_exp, n_valid=n_valid, latest=rf.latest,
     )  # fmt: skip
+
+
+def _concat(parts: list[_RowFits]) -> _RowFits:
+    def cat_lines(name):
+        lines = [getattr(p, name) for p in parts]
+        return LineStats(*(np.concatenate([getattr(ln, f) for ln in lines]) for f in ("n", "xbar", "ybar", "sxx", "a", "b", "rss")))
+
+    arrays = {f: np.concatenate([getattr(p, f) for p in parts]) for f in ("weights", "flags", "step_at", "n_valid", "all_pos", "latest")}
+    return _RowFits(lin=cat_lines("lin"), lg=cat_lines("lg"), **arrays)
+
+
+def _latest(y: np.ndarray, w: np.ndarray, last_col: np.ndarray, changed: np.ndarray) -> np.ndarray:
+    """Newest used reading per row: the last column, or for rows with drops the last one still used."""
+    col = last_col.copy()
+    rows = np.flatnonzero(changed)
+    if rows.size:
+        wr = w[rows] > 0
+        col[rows] = np.where(wr.any(axis=1), w.shape[1] - 1 - np.argmax(wr[:, ::-1], axis=1), -1)
+    got = y[np.arange(y.shape[0]), np.maximum(col, 0)]
+    return np.where(col >= 0, got, np.nan)
 
 
 def _path_params(st: LineStats, group: np.ndarray, eligible: np.ndarray, opt: FitOptions, pooling: bool):

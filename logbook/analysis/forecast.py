@@ -81,15 +81,78 @@ def crossing_hours(
         return np.where(already, x_now, best)
 
 
-def _path_cdf(pp, rows, x, limit_t, sign, with_noise):
-    """P(mean path beyond the limit at hours x) for ``rows`` of one path (Student t)."""
-    a, b = pp.a[rows], pp.b[rows]
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        var = pp.c00[rows] + 2 * pp.c01[rows] * x + pp.c11[rows] * x * x
-        if with_noise:
-            var = var + pp.sigma2[rows]
-        t = sign[rows] * (a + b * x - limit_t[rows]) / np.sqrt(np.maximum(var, 1e-300))
-        return t_cdf_fast(t, pp.dof[rows])
+class _PathCdf:
+    """P(mean path beyond the limit at hours x) for a flat list of (row, quantile) items of one path."""
+
+    def __init__(self, pp, rows, limit_t, sign, with_noise):
+        self.a, self.b = pp.a[rows], pp.b[rows]
+        self.c00 = pp.c00[rows] + (pp.sigma2[rows] if with_noise else 0.0)
+        self.c01, self.c11 = pp.c01[rows], pp.c11[rows]
+        self.lim, self.sign = limit_t[rows], sign[rows]
+        self.dof = np.clip(pp.dof[rows], 1.0, 1e6)
+
+    def take(self, keep: np.ndarray) -> None:
+        for name in ("a", "b", "c00", "c01", "c11", "lim", "sign", "dof"):
+            setattr(self, name, getattr(self, name)[keep])
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            var = self.c00 + x * (2 * self.c01 + self.c11 * x)
+            t = self.sign * (self.a + self.b * x - self.lim) / np.sqrt(np.maximum(var, 1e-300))
+            return t_cdf_fast(t, self.dof)
+
+
+def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizon, with_noise, quantiles):
+    """Quantiles of the Akaike-weighted mixture of both paths' crossing distributions (Illinois method).
+
+    Each quantile lies between the two paths' own quantiles, which bracket the root.
+    """
+    nq = len(quantiles)
+    rows = np.repeat(mix, nq)  # flat (row, quantile) items
+    q = np.tile(np.asarray(quantiles, dtype=float), mix.size)
+    w_exp = fit.w_exp[rows]
+    lo = np.minimum(q_lin, q_exp).ravel()
+    cap = np.repeat(x_now[mix] + horizon * 1.001 + 1.0, nq)
+    hi = np.minimum(np.maximum(q_lin, q_exp).ravel(), cap)
+    f_lin = _PathCdf(fit.lin, rows, lim, sign, with_noise)
+    f_exp = _PathCdf(fit.exp, rows, log_lim, sign, with_noise)
+
+    def excess(x):
+        return (1 - w_exp) * f_lin(x) + w_exp * f_exp(x) - q
+
+    out = np.where(np.isfinite(lo), hi, np.inf)
+    f_lo, f_hi = excess(lo), excess(hi)
+    out = np.where(f_lo >= 0, lo, np.where(f_hi < 0, np.inf, out))
+    active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > 0.5))
+    lo, hi, f_lo, f_hi, q, w_exp = lo[active], hi[active], f_lo[active], f_hi[active], q[active], w_exp[active]
+    f_lin.take(active)
+    f_exp.take(active)
+    side = np.zeros(active.size, dtype=np.int8)
+    for _ in range(60):
+        if not active.size:
+            break
+        with np.errstate(invalid="ignore", divide="ignore"):
+            x = hi - f_hi * (hi - lo) / (f_hi - f_lo)
+        x = np.where(np.isfinite(x) & (x > lo) & (x < hi), x, 0.5 * (lo + hi))
+        fx = excess(x)
+        up = fx >= 0
+        f_lo = np.where(up & (side == 1), 0.5 * f_lo, f_lo)  # Illinois: halve the stale end
+        f_hi = np.where(~up & (side == -1), 0.5 * f_hi, f_hi)
+        hi, f_hi = np.where(up, x, hi), np.where(up, fx, f_hi)
+        lo, f_lo = np.where(up, lo, x), np.where(up, f_lo, fx)
+        side = np.where(up, 1, -1).astype(np.int8)
+        out[active] = hi
+        done = (hi - lo <= 0.5) | (np.abs(fx) < 1e-7)
+        if done.any():
+            out[active[done]] = x[done]
+            keep = ~done
+            active, lo, hi, f_lo, f_hi, side, q, w_exp = (
+                v[keep] for v in (active, lo, hi, f_lo, f_hi, side, q, w_exp)
+            )
+            f_lin.take(keep)
+            f_exp.take(keep)
+    out = np.where(out >= cap, np.inf, out)
+    return out.reshape(mix.size, nq)
 
 
 def t_cdf_fast(t, dof):
@@ -147,38 +210,21 @@ def forecast_batch(
     cross[exp_rows] = q_exp
     mix = np.flatnonzero(use_lin & use_exp)
     if mix.size:
-        pos_l = np.searchsorted(lin_rows, mix)
-        pos_e = np.searchsorted(exp_rows, mix)
-        wl, we = 1 - w_exp[mix], w_exp[mix]
-        cap = x_now[mix] + horizon_hours * 1.001 + 1.0
-        for qi, q in enumerate(quantiles):
-            a_, b_ = q_lin[pos_l, qi], q_exp[pos_e, qi]
-            lo, hi = np.minimum(a_, b_), np.minimum(np.maximum(a_, b_), cap)
-
-            def cdf(x):
-                return wl * _path_cdf(fit.lin, mix, x, lim, sign, with_noise) + we * _path_cdf(
-                    fit.exp, mix, x, log_lim, sign, with_noise
-                )
-
-            never = cdf(hi) < q
-            for _ in range(24):
-                mid = 0.5 * (lo + hi)
-                below = cdf(mid) < q
-                lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
-            cross[mix, qi] = np.where(never, np.inf, np.where(np.minimum(a_, b_) >= hi, np.minimum(a_, b_), hi))
+        pos_l, pos_e = np.searchsorted(lin_rows, mix), np.searchsorted(exp_rows, mix)
+        cross[mix] = _mixture_quantiles(
+            fit, mix, q_lin[pos_l], q_exp[pos_e], lim, log_lim, sign, x_now, horizon_hours, with_noise, quantiles
+        )
     rem = cross - x_now[:, None]
     rem[rem > horizon_hours] = np.inf
     go = use_lin | use_exp
     expo = fit.path == EXPONENTIAL
 
     # newest used reading and the slope of the path today
-    used = fit.used
-    last_col = np.where(used.any(axis=1), used.shape[1] - 1 - np.argmax(used[:, ::-1], axis=1), 0)
-    latest = np.where(fit.n_used > 0, batch.y[np.arange(s), last_col], np.nan)
+    latest = fit.latest
     with np.errstate(invalid="ignore", over="ignore"):
         rate = np.where(expo, fit.b * np.exp(fit.a + fit.b * x_now), fit.b)
 
-    has_data = np.isfinite(batch.y).any(axis=1)
+    has_data = fit.n_valid > 0
     past = sign * (latest - lim) >= 0
     mid = rem[:, quantiles.index(0.5)] if 0.5 in quantiles else rem[:, len(quantiles) // 2]
     outcome = np.where(
