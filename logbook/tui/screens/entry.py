@@ -131,6 +131,8 @@ class EntryScreen(Screen):
     def action_save(self) -> None:
         if self.saving:
             return
+        if self._timer is not None:
+            self._timer.stop()  # the save's own verdict must not be overwritten by a late check
         values, problems = self.parse_all()
         if problems:
             self.show_check([], f"not saved: {len(problems)} field(s) to fix")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections import Counter
+from pathlib import Path
 
 from textual import events, on
 from textual.app import ComposeResult
@@ -47,13 +48,14 @@ class FleetScreen(Screen):
             yield Select([], prompt="All sites", id="site", compact=True)
             yield Select([], prompt="All models", id="model", compact=True)
             yield Select([], prompt="All statuses", id="status", compact=True)
-            yield Input(placeholder="serial…", id="find", compact=True)
+            yield Input(placeholder="serial…", id="find", compact=True, select_on_focus=False)
         table = OpenTable(id="fleet-table", cursor_type="row", zebra_stripes=True, cell_padding=0)
         yield table
         yield Static("Reading the logbook and forecasting…", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
+        self.query_one("#find", Input).cursor_blink = getattr(self.app, "blink", True)
         self.watch(self.app, "data_generation", self._data_changed, init=True)
         self.query_one("#fleet-table", DataTable).focus()
 
@@ -129,7 +131,7 @@ class FleetScreen(Screen):
         return (column.label[: column.width - 1] + mark) if len(column.label) >= column.width else column.label + mark
 
     def _update_title(self, forecast) -> None:
-        source = forecast.source or "database"
+        source = Path(forecast.source).name if forecast.source else "database"
         self.query_one("#title", Static).update(
             f"Fleet on {forecast.today.isoformat()} · {len(forecast.pumps)} pumps · {source}"
         )

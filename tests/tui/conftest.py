@@ -1,0 +1,59 @@
+"""Fixtures for the interface tests: the demo fleet at a fixed today, built once per
+session and copied for each test (loading it takes a few seconds)."""
+
+from __future__ import annotations
+
+import os
+import shutil
+from datetime import date
+from pathlib import Path
+
+import pytest
+
+from logbook.store import Store
+from logbook.tui.app import make_app
+
+TODAY = date(2026, 12, 1)
+SIZES = {"small": (80, 24), "large": (120, 40)}
+
+os.environ.setdefault("TEXTUAL_ANIMATIONS", "none")
+
+
+@pytest.fixture(scope="session")
+def demo_db_master(tmp_path_factory) -> Path:
+    import demo_fleet
+
+    path = tmp_path_factory.mktemp("demo") / "demo.db"
+    with Store(path, create=True, user="demo") as store:
+        reports = demo_fleet.load(store, today=TODAY, seed=7)
+        problems = [str(p) for r in reports.values() for p in r.problems]
+        assert problems == []
+        store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+    return path
+
+
+@pytest.fixture
+def demo_db(demo_db_master, tmp_path) -> Path:
+    path = tmp_path / "demo.db"
+    shutil.copy(demo_db_master, path)
+    return path
+
+
+@pytest.fixture
+def demo_store(demo_db):
+    store = Store(demo_db, create=False, user="tester")
+    yield store
+    store.close()
+
+
+@pytest.fixture
+def demo_app(demo_store, tmp_path):
+    """The app over a copy of the demo fleet: no change poll, no cursor blink, exports to tmp."""
+    return make_app(demo_store, today=TODAY, poll_seconds=0, blink=False, export_dir=tmp_path)
+
+
+async def settle(app, pilot) -> None:
+    """Wait for every worker (fleet load, forecast, checks, saves) and the redraw after it."""
+    for _ in range(3):
+        await app.workers.wait_for_complete()
+        await pilot.pause()
