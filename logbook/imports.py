@@ -113,16 +113,32 @@ COLUMNS: dict[str, dict[str, Column]] = {
 MEASURED = ("case_drain", "servo_pressure", "neutral_drift")
 
 
+#: Largest file imported at once; bigger ones are refused before parsing (split them:
+#: each file is imported all-or-nothing).
+MAX_FILE_BYTES = 200 * 1024 * 1024
+_FORMULA_RE = re.compile(r"^\s*(=|[+\-@]\s*[A-Za-z(])")
+_CACHE_LIMIT = 50_000  # distinct cell texts remembered per column
+_INF = float("inf")
+
+
+def _formula(name: str, value: str) -> Problem:
+    return Problem(name, value, "is a spreadsheet formula, not a value: save the sheet as CSV with values")
+
+
 def parse_text(name: str, value: str) -> tuple[str, Problem | None]:
     if len(value) > MAX_TEXT:
         return "", Problem(name, value[:40] + "...", f"is longer than {MAX_TEXT} characters")
     if any(ord(ch) < 32 and ch not in "\t" for ch in value):
         return "", Problem(name, value, "contains control characters (line breaks are not allowed in one cell)")
+    if _FORMULA_RE.match(value):
+        return "", _formula(name, value)
     return value, None
 
 
 def parse_cell(name: str, col: Column, raw: str, unit: str | None, today: date):
     """One cell to its canonical value, or a Problem."""
+    if col.kind != "text" and _FORMULA_RE.match(raw) and not _is_number(raw):
+        return None, _formula(name, raw)
     if col.kind == "number":
         return validate.parse_number(col.spec, raw, unit)
     if col.kind == "date":
@@ -138,12 +154,78 @@ def parse_cell(name: str, col: Column, raw: str, unit: str | None, today: date):
     return parse_text(name, raw)
 
 
+def _is_number(raw: str) -> bool:
+    try:
+        float(raw)
+    except ValueError:
+        return False
+    return True
+
+
+def cell_parser(
+    name: str, col: Column, unit: str | None, today: date, sink: list[Problem]
+) -> Callable[[str], object]:
+    """``parse_cell`` for one column, compiled once per file: returns the value and
+    appends any problem to ``sink``. A fast path takes plain numbers in range and
+    repeated cells (memo); anything unusual goes through ``parse_cell``, so the
+    messages are the same."""
+    cache: dict[str, object] = {}
+
+    def slow(raw: str):
+        value, problem = parse_cell(name, col, raw, unit, today)
+        if problem is not None:
+            sink.append(problem)
+        elif len(cache) < _CACHE_LIMIT:
+            cache[raw] = value
+        return value
+
+    if col.kind == "number":
+        spec = col.spec
+        unit_id = unit if unit is not None else spec.quantity.canonical
+        tolerance = 1e-9 * max(1.0, abs(spec.maximum))
+        lo, hi = spec.minimum - tolerance, spec.maximum + tolerance
+        plain = unit_id == spec.quantity.canonical
+        integer = spec.integer
+        to_canonical = units.to_canonical
+
+        def parse_number(raw: str):
+            try:
+                return cache[raw]
+            except KeyError:
+                pass
+            try:
+                value = float(raw)
+            except ValueError:
+                return slow(raw)
+            if value != value or value == _INF or value == -_INF or integer:
+                return slow(raw)
+            canonical = value if plain else to_canonical(value, unit_id)
+            if lo <= canonical <= hi:
+                if len(cache) < _CACHE_LIMIT:
+                    cache[raw] = canonical
+                return canonical
+            return slow(raw)
+
+        return parse_number
+
+    def parse(raw: str):
+        try:
+            return cache[raw]
+        except KeyError:
+            return slow(raw)
+
+    return parse
+
+
 def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[int], list[Problem], int]:
     """Parse a CSV file of one table: (rows of canonical values, their line numbers,
     problems, blank rows). Blank readings rows (nothing measured) are skipped."""
     if table not in COLUMNS:
         raise ValueError(f"unknown table {table!r}: choose one of {', '.join(TABLES)}")
     columns = COLUMNS[table]
+    if len(data) > MAX_FILE_BYTES:
+        return [], [], [Problem("file", f"{len(data) / 1e6:.0f} MB", f"is larger than {MAX_FILE_BYTES // (1024 * 1024)} MiB: "
+                                "split it into smaller files (each is imported all-or-nothing)")], 0
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -184,34 +266,46 @@ def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[i
             problems.append(Problem("header", name, "required column is missing", line=1))
     if problems:
         return [], [], problems, 0
+    names = [name for name, _ in fields]
+    sink: list[Problem] = []
+    parsers = [cell_parser(name, columns[name], unit, today, sink) for name, unit in fields]
+    required = [name for name, col in columns.items() if col.required]
+    measured = table == "readings"
+    width = len(fields)
     rows, lines, blank = [], [], 0
     try:
         for record in reader:
             line = reader.line_num
-            if not any(cell.strip() for cell in record):
+            if len(record) != width:
+                if not "".join(record).strip():
+                    continue
+                problems.append(Problem("row", f"{len(record)} cells", f"must have {width} cells like the header", line=line))
                 continue
-            if len(record) != len(fields):
-                problems.append(Problem("row", f"{len(record)} cells", f"must have {len(fields)} cells like the header", line=line))
-                continue
-            values, row_problems = {}, []
-            for (name, unit), raw in zip(fields, record):
-                value, problem = parse_cell(name, columns[name], raw, unit, today)
-                if problem is not None:
+            values = dict(zip(names, [parse(raw) for parse, raw in zip(parsers, record)]))
+            row_problems = []
+            if sink:
+                if not "".join(record).strip():
+                    sink.clear()
+                    continue
+                for problem in sink:
                     problem.line = line
-                    row_problems.append(problem)
-                values[name] = value
-            for name, col in columns.items():
-                if col.required and values.get(name) in (None, "") and not any(p.field == name for p in row_problems):
+                row_problems = sink[:]
+                sink.clear()
+            for name in required:
+                if values[name] in (None, "") and not any(p.field == name for p in row_problems):
+                    if not "".join(record).strip():
+                        break  # a row of empty cells: skipped
                     row_problems.append(Problem(name, "", "is required", line=line))
-            measured_problems = any(p.field in MEASURED for p in row_problems)
-            if table == "readings" and not measured_problems and all(values.get(k) is None for k in MEASURED):
-                blank += 1
-                continue
-            if row_problems:
-                problems += row_problems
-                continue
-            rows.append(values)
-            lines.append(line)
+            else:
+                if measured and values.get("case_drain") is None and values.get("servo_pressure") is None \
+                        and values.get("neutral_drift") is None and not any(p.field in MEASURED for p in row_problems):
+                    blank += 1  # nothing measured: a round-sheet row left empty, even if its date or hours are
+                    continue
+                if row_problems:
+                    problems += row_problems
+                    continue
+                rows.append(values)
+                lines.append(line)
     except csv.Error as exc:
         problems.append(Problem("file", "", f"is not readable CSV ({exc})", line=reader.line_num))
     return rows, lines, problems, blank
@@ -262,13 +356,11 @@ def _pump(v: dict, line: int) -> tuple[tuple[Pump, Fitment | None], list[Problem
 
 
 def _reading(v: dict) -> Reading:
+    get = v.get
     return Reading(
-        id=None, serial=v["serial"], taken_on=v["date"], machine_hours=v["machine_hours"],
-        case_drain_lpm=v.get("case_drain"), servo_pressure_bar=v.get("servo_pressure"),
-        neutral_drift_bar=v.get("neutral_drift"), charge_pressure_bar=v.get("charge_pressure"),
-        oil_temp_c=v.get("oil_temp"), test_pressure_bar=v.get("test_pressure"), test_speed_rpm=v.get("test_speed"),
-        oil_grade=v.get("oil_grade"), oil_vi=v.get("oil_vi"), iso4406=v.get("iso4406"),
-        technician=v.get("technician") or "", note=v.get("note") or "", machine=v.get("machine"),
+        None, v["serial"], v["date"], v["machine_hours"], get("case_drain"), get("servo_pressure"), get("neutral_drift"),
+        get("charge_pressure"), get("oil_temp"), get("test_pressure"), get("test_speed"), get("oil_grade"), get("oil_vi"),
+        get("iso4406"), get("technician") or "", get("note") or "", machine=get("machine"),
     )
 
 

@@ -57,10 +57,11 @@ class MeterTimeline:
     def __init__(self, replacement_dates: Iterable[date] = ()):
         self.replacements = sorted(replacement_dates)
         self._points: list[tuple[date, float]] = []
-        self._index: dict[int, tuple[list[date], list[float], list[float], list[float]]] | None = None
+        self._index: dict[int, tuple[list[date], list[float], list[int], list[int]]] | None = None
 
     def era(self, on: date) -> int:
-        return sum(1 for d in self.replacements if d <= on)
+        """How many replacements happened on or before ``on`` (the list is kept sorted)."""
+        return bisect.bisect_right(self.replacements, on) if self.replacements else 0
 
     def add(self, on: date, hours: float) -> None:
         self._points.append((on, hours))
@@ -79,14 +80,17 @@ class MeterTimeline:
             points.sort()
             dates = [p[0] for p in points]
             hours = [p[1] for p in points]
-            prefix_max, running = [], float("-inf")
-            for h in hours:
-                running = max(running, h)
-                prefix_max.append(running)
-            suffix_min, running = [0.0] * len(hours), float("inf")
+            # Positions of the first highest record up to i, and of the first lowest from i on.
+            prefix_max, best = [], 0
+            for i, h in enumerate(hours):
+                if h > hours[best]:
+                    best = i
+                prefix_max.append(best)
+            suffix_min, best = [0] * len(hours), len(hours) - 1
             for i in range(len(hours) - 1, -1, -1):
-                running = min(running, hours[i])
-                suffix_min[i] = running
+                if hours[i] <= hours[best]:
+                    best = i
+                suffix_min[i] = best
             index[era] = (dates, hours, prefix_max, suffix_min)
         self._index = index
 
@@ -103,11 +107,10 @@ class MeterTimeline:
         hi = bisect.bisect_right(dates, on)
         earlier = None
         if lo > 0:
-            best = prefix_max[lo - 1]
-            earlier = (dates[hours.index(best, 0, lo)], best)
+            j = prefix_max[lo - 1]
+            earlier = (dates[j], hours[j])
         later = None
         if hi < len(dates):
-            best = suffix_min[hi]
-            j = hours.index(best, hi)
-            later = (dates[j], best)
+            j = suffix_min[hi]
+            later = (dates[j], hours[j])
         return earlier, later

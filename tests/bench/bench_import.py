@@ -1,0 +1,135 @@
+"""Benchmark of the readings import (a script, not a test): run with the project's python.
+
+100,000 readings (100 pumps x 1,000, invented) as one CSV file, timed in one run:
+(a) ``logbook.imports.import_bytes`` -- parse, check every cell and the hour meters,
+    write in one transaction -- into a fresh database;
+(b) the baseline: raw ``sqlite3`` ``executemany`` of the same rows, already parsed to
+    tuples, into a fresh database of the same schema (same indexes, WAL, one transaction).
+Target: the import's rate is at least half the raw rate (ratio >= 0.5). Prints both.
+
+    python tests/bench/bench_import.py [--rows 100000] [--profile]
+"""
+
+from __future__ import annotations
+
+import argparse
+import cProfile
+import io
+import pstats
+import sqlite3
+import tempfile
+import time
+from datetime import date, timedelta
+from pathlib import Path
+
+from logbook.imports import import_bytes
+from logbook.store import Store
+from logbook.store.writes import READING_COLUMNS
+
+TODAY = date(2026, 1, 1)
+START = date(2020, 1, 1)
+
+
+def fleet_csvs(pumps: int) -> dict[str, bytes]:
+    models = (
+        "model,displacement,rated_pressure,max_speed,test_speed,case_drain_limit,servo_pressure_limit\n"
+        "BX-100,100,400,2400,2000,12,18\n"
+    )
+    machines = "unit,site\n" + "".join(f"U-{i:03d},Bench Yard\n" for i in range(pumps))
+    pumps_csv = "serial,model,machine,position,fitted_on,machine_hours_at_fit\n" + "".join(
+        f"P-{i:03d},BX-100,U-{i:03d},main,2019-12-01,100\n" for i in range(pumps)
+    )
+    return {"models": models.encode(), "machines": machines.encode(), "pumps": pumps_csv.encode()}
+
+
+def readings_rows(pumps: int, per_pump: int) -> list[tuple]:
+    """(serial, date, machine, hours, case drain, servo, drift, oil temp, test pressure, test speed)."""
+    rows = []
+    for p in range(pumps):
+        for k in range(per_pump):
+            day = START + timedelta(days=k * 2)
+            rows.append((
+                f"P-{p:03d}", day.isoformat(), f"U-{p:03d}", 200.0 + 12.5 * k, round(2.0 + 0.001 * k + 0.01 * (p % 7), 3),
+                round(27.0 - 0.002 * k, 3), round(0.5 + 0.003 * k, 3), 50.0 + (k % 9), 380.0, 2000.0,
+            ))
+    return rows
+
+
+def readings_csv(rows: list[tuple]) -> bytes:
+    out = io.StringIO()
+    out.write("serial,date,machine,machine_hours,case_drain,servo_pressure,neutral_drift,oil_temp,test_pressure,test_speed\n")
+    for r in rows:
+        out.write(",".join(str(v) for v in r) + "\n")
+    return out.getvalue().encode()
+
+
+def fresh_store(folder: Path, name: str, pumps: int) -> Store:
+    store = Store(folder / name, user="bench")
+    for table, data in fleet_csvs(pumps).items():
+        report = import_bytes(store, table, data, name=f"{table}.csv", today=TODAY)
+        assert not report.problems, report.problems
+    return store
+
+
+def time_import(folder: Path, data: bytes, pumps: int, profile: bool) -> tuple[float, int]:
+    store = fresh_store(folder, "import.db", pumps)
+    profiler = cProfile.Profile() if profile else None
+    start = time.perf_counter()
+    if profiler:
+        profiler.enable()
+    report = import_bytes(store, "readings", data, name="readings.csv", today=TODAY)
+    if profiler:
+        profiler.disable()
+    elapsed = time.perf_counter() - start
+    assert not report.problems, report.problems[:5]
+    count = store.counts()["readings"]
+    store.close()
+    if profiler:
+        pstats.Stats(profiler).sort_stats("cumulative").print_stats(25)
+    return elapsed, count
+
+
+def time_raw(folder: Path, rows: list[tuple], pumps: int) -> tuple[float, int]:
+    fresh_store(folder, "raw.db", pumps).close()
+    now = "2026-01-01T00:00:00+00:00"
+    tuples = [
+        (s, d, m, h, cd, sp, nd, None, t, tp, ts, None, None, None, "", "", "bench", now, None)
+        for s, d, m, h, cd, sp, nd, t, tp, ts in rows
+    ]
+    conn = sqlite3.connect(folder / "raw.db", isolation_level=None)
+    conn.execute("PRAGMA journal_mode = WAL")
+    conn.execute("PRAGMA synchronous = NORMAL")
+    sql = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
+    start = time.perf_counter()
+    conn.execute("BEGIN IMMEDIATE")
+    conn.executemany(sql, tuples)
+    conn.execute("COMMIT")
+    elapsed = time.perf_counter() - start
+    count = conn.execute("SELECT count(*) FROM readings").fetchone()[0]
+    conn.close()
+    return elapsed, count
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rows", type=int, default=100_000)
+    parser.add_argument("--profile", action="store_true", help="print a cProfile of the import")
+    args = parser.parse_args()
+    pumps = 100
+    per_pump = max(1, args.rows // pumps)
+    rows = readings_rows(pumps, per_pump)
+    data = readings_csv(rows)
+    with tempfile.TemporaryDirectory() as tmp:
+        folder = Path(tmp)
+        raw_s, raw_n = time_raw(folder, rows, pumps)
+        imp_s, imp_n = time_import(folder, data, pumps, args.profile)
+    assert raw_n == imp_n == len(rows), (raw_n, imp_n, len(rows))
+    raw_rate, imp_rate = raw_n / raw_s, imp_n / imp_s
+    print(f"rows: {len(rows):,} ({len(data) / 1e6:.1f} MB of CSV)")
+    print(f"raw executemany: {raw_s:.3f} s  ({raw_rate:,.0f} rows/s)")
+    print(f"import_bytes:    {imp_s:.3f} s  ({imp_rate:,.0f} rows/s)")
+    print(f"ratio import/raw rate: {imp_rate / raw_rate:.2f} (target >= 0.50) -> {'met' if imp_rate >= 0.5 * raw_rate else 'MISSED'}")
+
+
+if __name__ == "__main__":
+    main()
