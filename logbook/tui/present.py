@@ -127,7 +127,7 @@ def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
 
     The narrow layout (80 columns) shows months for P50/P10, short kind names and an
     arrow for the trend; each step up adds detail while it still fits: full dates,
-    full status, longer machine/position, kind names, the site, trend words.
+    full status, longer machine/position, the site, kind names, trend words.
     """
     w = {"serial": max(6, min(serial_width, 12)), "where": 15, "model": 6, "hours": 6, "kind": 5,
          "p50": 7, "p10": 7, "trend": 1, "status": 15, "site": 0}
@@ -137,7 +137,7 @@ def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
         shown = [v for v in w.values() if v]
         return sum(shown) + len(shown) - 1
 
-    for step in ("dates", "status", "where", "kind", "site", "trend"):
+    for step in ("dates", "status", "where", "site", "kind", "trend"):
         before = dict(w)
         if step == "dates":
             w["p50"] = w["p10"] = 10
@@ -157,6 +157,9 @@ def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
         full_dates |= step == "dates"
         long_kind |= step == "kind"
         trend_words |= step == "trend"
+    for key, least in (("where", 9), ("status", 10), ("serial", 6)):  # narrower than 80 columns: squeeze
+        if total() > width:
+            w[key] = max(least, w[key] - (total() - width))
     if total() < width and w["where"] < 19:
         w["where"] = min(19, w["where"] + width - total())
     day = fmt.day if full_dates else _month
