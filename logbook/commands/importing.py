@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from logbook.imports import TABLES, import_bytes
+from logbook.imports import MAX_FILE_BYTES, TABLES, import_bytes
 
 
 def register(sub) -> None:
@@ -24,6 +24,11 @@ def run(args, ctx) -> int:
     from logbook.commands import print_report
 
     try:
+        size = args.file.stat().st_size
+        if size > MAX_FILE_BYTES:
+            ctx.err.print(f"logbook import: {args.file} is {size / 1e6:.0f} MB, larger than {MAX_FILE_BYTES // (1024 * 1024)} MiB; "
+                          "split it into smaller files (each is imported all-or-nothing). Nothing was written.", markup=False)
+            return 2
         data = args.file.read_bytes()
     except OSError as exc:
         ctx.err.print(f"logbook import: cannot read {args.file}: {exc.strerror}", markup=False)

@@ -63,7 +63,9 @@ class StoreCore:
         clock: Callable[[], datetime] = utc_now,
     ):
         self.path = str(path)
-        self.user = user or default_user()
+        if user is not None and (not user.strip() or len(user) > 64 or any(ord(ch) < 32 for ch in user)):
+            raise StoreError(f"--as {user[:40]!r}: a name must be 1-64 characters on one line")
+        self.user = user.strip() if user else default_user()
         self.clock = clock
         memory = self.path == ":memory:"
         if not memory:
