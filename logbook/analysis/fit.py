@@ -126,6 +126,31 @@ def _outlier_scan(st: LineStats, crit_t2: np.ndarray, min_n: int):
     return found, j
 
 
+def _outlier_screen(st: LineStats, x0, last_col, changed, crit_t2: np.ndarray, min_n: int) -> np.ndarray:
+    """Rows whose worst reading could fail the outlier test: bounds u <= max r^2 / (1 - max leverage).
+
+    Readings are in x order, so the largest leverage is at the first or last used reading;
+    rows whose segment was cut at a step take the extremes of their centred x instead.
+    """
+    rows = np.arange(st.n.size)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        first = x0[:, 0] - st.xbar
+        last = x0[rows, np.maximum(last_col, 0)] - st.xbar
+        dx2 = np.maximum(first * first, last * last)
+        cut = np.flatnonzero(changed)
+        if cut.size:
+            dx2[cut] = np.maximum(st.dx[cut].max(axis=1) ** 2, st.dx[cut].min(axis=1) ** 2)
+        h_max = 1.0 / np.maximum(st.n, 1) + dx2 / st.sxx
+        r2 = np.maximum(st.r.max(axis=1) ** 2, st.r.min(axis=1) ** 2)
+        u_bound = r2 / np.maximum(1.0 - h_max, 1e-12)
+        dof = st.n - 3
+        n_int = st.n.astype(int)
+        crit = crit_t2[n_int]
+        # t^2 = u dof / (rss - u) > crit  <=>  u > crit rss / (dof + crit)
+        maybe = (st.n >= min_n) & (u_bound * (dof + crit) > crit * st.rss * (1 - 1e-12))
+    return np.flatnonzero(maybe | ~np.isfinite(u_bound) & (st.n >= min_n))
+
+
 def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions, left_aligned: bool = False):
     """Best single level shift per row (Frisch-Waugh on prefix sums) and whether it is a real step.
 
@@ -209,10 +234,10 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
     w = valid.astype(float)
     y0 = np.where(valid, y, 0.0)
     x0 = np.where(valid, x, 0.0)
-    pos = y0 > 0
-    ly = np.log(y0, out=np.zeros_like(y0), where=pos)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ly = np.log(np.where(valid, y, 1.0))  # -inf / NaN where a reading is not positive
     n_valid = w.sum(axis=1)
-    all_pos = np.count_nonzero(pos, axis=1) == n_valid
+    all_pos = np.isfinite(ly.sum(axis=1))  # the exponential path needs every reading above 0
     crit_t2, crit_f = _crit_tables(width, opt.alpha_outlier, opt.alpha_step, opt.min_step_side)
     flags = np.zeros(s, dtype=np.int64)
     step_at = np.full(s, -1, dtype=np.int64)
@@ -222,17 +247,17 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
 
     # 1. step change: keep only the readings after it
     found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True)
+    cand = np.flatnonzero(found & all_pos)
+    if cand.size:  # not a step if the exponential path explains it
+        f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt)
+        found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
     cand = np.flatnonzero(found)
-    if cand.size:  # not a step if it rests on one reading: drop the most extreme one and look again
+    if cand.size:  # nor if it rests on one reading: drop the most extreme one and look again
         _, worst = _outlier_scan(_sub(lin, cand), crit_t2, 0)
         w_less = w[cand].copy()
         w_less[np.arange(cand.size), worst] = 0.0
         f_rob, c_rob = _step_scan(ols_rows(x0[cand], y0[cand], w_less), w_less, crit_f, opt)
         found[cand] = f_rob & (np.abs(c_rob - col[cand]) <= 1)
-    cand = np.flatnonzero(found & all_pos)
-    if cand.size:  # nor if the exponential path explains it
-        f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt)
-        found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
     rows = np.flatnonzero(found)
     if rows.size:
         step_at[rows] = col[rows]
@@ -242,10 +267,10 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
         lin.put(rows, ols_rows(x0[rows], y0[rows], w[rows]))
 
     # 2. wild readings: drop the worst one if it fails the test on both scales
-    check = np.arange(s)
     last_col = n_valid.astype(np.int64) - 1
+    check = _outlier_screen(lin, x0, last_col, changed, crit_t2, opt.min_outlier_points)
     for _ in range(opt.max_drops):
-        sub = lin if check.size == s else ols_rows(x0[check], y0[check], w[check])
+        sub = _sub(lin, check) if _ == 0 else ols_rows(x0[check], y0[check], w[check])
         found, col = _outlier_scan(sub, crit_t2, opt.min_outlier_points)
         cand = np.flatnonzero(found & all_pos[check])
         if cand.size:
@@ -266,8 +291,8 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
         wr = w[rows]
         x0[rows] *= wr
         ly[rows] *= wr
-        all_pos[rows] = np.count_nonzero(pos[rows] & (wr > 0), axis=1) == lin.n[rows]
     lg = _log_line(x0, ly, lin)
+    all_pos &= np.isfinite(lg.b)
     lin.dx = lin.r = None
     return _RowFits(lin, lg, w, flags, step_at, n_valid, all_pos, _latest(y, w, last_col, changed))
 

@@ -12,6 +12,7 @@ widens the band to a prediction band (one future reading beyond the limit).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special, stats
@@ -34,10 +35,22 @@ class BatchForecast:
     rate_per_hour: np.ndarray  # (S,) slope of the fitted path at x_now, reading units per hour
 
 
+_T_TABLE_MAX = 2000
+
+
+@lru_cache(maxsize=16)
+def _t_table(q: float) -> np.ndarray:
+    """Student t quantile q for 1..2000 degrees of freedom (index = dof), and the normal one at 0."""
+    table = stats.t.ppf(q, np.arange(_T_TABLE_MAX + 1, dtype=float))
+    table[0] = stats.norm.ppf(q)
+    return table
+
+
 def _t_quantiles(q: float, dof: np.ndarray) -> np.ndarray:
-    d = np.clip(np.nan_to_num(dof, nan=1.0), 1, 1e6)
-    uniq, inv = np.unique(d, return_inverse=True)
-    return stats.t.ppf(q, uniq)[inv]
+    """Student t quantiles by table (dof rounded down; above 2000 the normal quantile, within 1e-3)."""
+    d = np.nan_to_num(dof, nan=1.0)
+    idx = np.where(d > _T_TABLE_MAX, 0, np.clip(d, 1, _T_TABLE_MAX)).astype(np.int64)
+    return _t_table(float(q))[idx]
 
 
 def crossing_hours(
@@ -82,7 +95,7 @@ def crossing_hours(
 
 
 class _PathCdf:
-    """P(mean path beyond the limit at hours x) for a flat list of (row, quantile) items of one path."""
+    """P(mean path beyond the limit at hours x), and its density, for flat (row, quantile) items of one path."""
 
     def __init__(self, pp, rows, limit_t, sign, with_noise):
         self.a, self.b = pp.a[rows], pp.b[rows]
@@ -90,22 +103,45 @@ class _PathCdf:
         self.c01, self.c11 = pp.c01[rows], pp.c11[rows]
         self.lim, self.sign = limit_t[rows], sign[rows]
         self.dof = np.clip(pp.dof[rows], 1.0, 1e6)
+        self.k = (8 * self.dof + 1) / (8 * self.dof + 3)
+
+    _FIELDS = ("a", "b", "c00", "c01", "c11", "lim", "sign", "dof", "k")
 
     def take(self, keep: np.ndarray) -> None:
-        for name in ("a", "b", "c00", "c01", "c11", "lim", "sign", "dof"):
+        """Keep only the items ``keep`` (index or mask)."""
+        for name in self._FIELDS:
             setattr(self, name, getattr(self, name)[keep])
 
-    def __call__(self, x: np.ndarray) -> np.ndarray:
+    def subset(self, keep: np.ndarray) -> "_PathCdf":
+        new = object.__new__(_PathCdf)
+        for name in self._FIELDS:
+            setattr(new, name, getattr(self, name)[keep])
+        return new
+
+    def __call__(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(CDF, dCDF/dx) at hours x, through the normal approximation of ``t_cdf_fast``."""
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            var = self.c00 + x * (2 * self.c01 + self.c11 * x)
-            t = self.sign * (self.a + self.b * x - self.lim) / np.sqrt(np.maximum(var, 1e-300))
-            return t_cdf_fast(t, self.dof)
+            slope_var = self.c01 + self.c11 * x
+            var = np.maximum(self.c00 + x * (self.c01 + slope_var), 1e-300)
+            sd = np.sqrt(var)
+            gap = self.a + self.b * x - self.lim
+            t = self.sign * gap / sd
+            dt = self.sign * (self.b * var - gap * slope_var) / (var * sd)
+            u = t * t / self.dof
+            r = np.sqrt(self.dof * np.log1p(u))
+            z = np.copysign(self.k * r, t)
+            dz = np.where(r > 1e-12, self.k * np.abs(t) / ((1 + u) * r), self.k)
+            return special.ndtr(z), np.exp(-0.5 * z * z) * _INV_SQRT_2PI * dz * dt
 
 
-def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizon, with_noise, quantiles):
-    """Quantiles of the Akaike-weighted mixture of both paths' crossing distributions (Illinois method).
+_INV_SQRT_2PI = 1.0 / np.sqrt(2.0 * np.pi)
 
-    Each quantile lies between the two paths' own quantiles, which bracket the root.
+
+def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizon, with_noise, quantiles, tol_hours=0.5):
+    """Quantiles of the Akaike-weighted mixture of both paths' crossing distributions.
+
+    Each quantile lies between the two paths' own quantiles, which bracket the root;
+    Newton steps from their weighted mean, falling back to bisection inside the bracket.
     """
     nq = len(quantiles)
     rows = np.repeat(mix, nq)  # flat (row, quantile) items
@@ -118,37 +154,41 @@ def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizo
     f_exp = _PathCdf(fit.exp, rows, log_lim, sign, with_noise)
 
     def excess(x):
-        return (1 - w_exp) * f_lin(x) + w_exp * f_exp(x) - q
+        (fl, dl), (fe, de) = f_lin(x), f_exp(x)
+        return (1 - w_exp) * fl + w_exp * fe - q, (1 - w_exp) * dl + w_exp * de
 
     out = np.where(np.isfinite(lo), hi, np.inf)
-    f_lo, f_hi = excess(lo), excess(hi)
+    # the bracket ends need checking only where they are the ends of the search range
+    f_lo, f_hi = np.full(lo.size, -1.0), np.ones(lo.size)
+    for f_end, end, where in ((f_lo, lo, lo <= np.repeat(x_now[mix], nq)), (f_hi, hi, hi >= cap)):
+        idx = np.flatnonzero(where)
+        if idx.size:
+            part_lin, part_exp = f_lin.subset(idx)(end[idx])[0], f_exp.subset(idx)(end[idx])[0]
+            f_end[idx] = (1 - w_exp[idx]) * part_lin + w_exp[idx] * part_exp - q[idx]
     out = np.where(f_lo >= 0, lo, np.where(f_hi < 0, np.inf, out))
-    active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > 0.5))
-    lo, hi, f_lo, f_hi, q, w_exp = lo[active], hi[active], f_lo[active], f_hi[active], q[active], w_exp[active]
+    # accuracy of the t approximation: a CDF error of 1e-3 is worth ~1e-3 of the bracket
+    tol = np.maximum(tol_hours, 1e-3 * np.where(np.isfinite(hi - lo), hi - lo, 0.0))
+    active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > tol))
+    lo, hi, q, w_exp, tol = (v[active] for v in (lo, hi, q, w_exp, tol))
     f_lin.take(active)
     f_exp.take(active)
-    side = np.zeros(active.size, dtype=np.int8)
+    x = (1 - w_exp) * np.ravel(q_lin)[active] + w_exp * np.ravel(q_exp)[active]
+    x = np.where(np.isfinite(x) & (x > lo) & (x < hi), x, 0.5 * (lo + hi))
     for _ in range(60):
         if not active.size:
             break
-        with np.errstate(invalid="ignore", divide="ignore"):
-            x = hi - f_hi * (hi - lo) / (f_hi - f_lo)
-        x = np.where(np.isfinite(x) & (x > lo) & (x < hi), x, 0.5 * (lo + hi))
-        fx = excess(x)
-        up = fx >= 0
-        f_lo = np.where(up & (side == 1), 0.5 * f_lo, f_lo)  # Illinois: halve the stale end
-        f_hi = np.where(~up & (side == -1), 0.5 * f_hi, f_hi)
-        hi, f_hi = np.where(up, x, hi), np.where(up, fx, f_hi)
-        lo, f_lo = np.where(up, lo, x), np.where(up, f_lo, fx)
-        side = np.where(up, 1, -1).astype(np.int8)
-        out[active] = hi
-        done = (hi - lo <= 0.5) | (np.abs(fx) < 1e-7)
-        if done.any():
-            out[active[done]] = x[done]
+        e, slope = excess(x)
+        up = e >= 0
+        hi, lo = np.where(up, x, hi), np.where(up, lo, x)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            nxt = x - e / slope
+        nxt = np.where(np.isfinite(nxt) & (nxt > lo) & (nxt < hi), nxt, 0.5 * (lo + hi))
+        done = (np.abs(nxt - x) <= tol) | (hi - lo <= tol)
+        x = nxt
+        out[active] = x
+        if done.mean() > 0.3 or done.all():
             keep = ~done
-            active, lo, hi, f_lo, f_hi, side, q, w_exp = (
-                v[keep] for v in (active, lo, hi, f_lo, f_hi, side, q, w_exp)
-            )
+            active, lo, hi, q, w_exp, tol, x = (v[keep] for v in (active, lo, hi, q, w_exp, tol, x))
             f_lin.take(keep)
             f_exp.take(keep)
     out = np.where(out >= cap, np.inf, out)

@@ -176,3 +176,18 @@ def test_student_t_approximation_used_in_the_mixture():
     t = np.linspace(-8, 8, 3201)
     for v in (3, 5, 10, 40, 1000):
         assert np.abs(t_cdf_fast(t, np.full_like(t, v)) - special.stdtr(v, t)).max() < 1e-3
+
+
+def test_results_do_not_depend_on_the_block_size():
+    # the readings stage runs in blocks of rows for speed; blocks must not change any result
+    rng = np.random.default_rng(12)
+    s, n = 300, 15
+    x = np.sort(rng.uniform(0, 5000, (s, n)), axis=1)
+    y = 1.5 + rng.uniform(1e-4, 6e-4, (s, 1)) * x + rng.normal(0, 0.08, (s, n))
+    y[rng.random(s) < 0.2, 7] *= 1.8
+    y[:40, 9:] += 1.0
+    b = TrendBatch(x, y, np.full(s, 6.0), np.ones(s), np.zeros(s, int), x[:, -1])
+    whole, blocks = fit_batch(b, FitOptions(block_rows=10_000)), fit_batch(b, FitOptions(block_rows=7))
+    for name in ("a", "b", "c00", "c11", "sigma", "w_exp", "flags", "step_at", "latest"):
+        assert np.array_equal(getattr(whole, name), getattr(blocks, name), equal_nan=True), name
+    assert (whole.flags & B_STEP).sum() and (whole.flags & B_OUTLIER).sum()
