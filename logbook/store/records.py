@@ -76,11 +76,23 @@ class RecordsMixin:
         return ImportReport("readings", added=added, already_present=checked.present, problems=checked.problems,
                             dry_run=dry_run, ids=ids)
 
-    def _current_reading_values(self, serials: set[str], without: Sequence[int] = ()) -> dict[tuple, tuple]:
-        """(serial, date text, machine_hours) -> (id, values) of the current readings of ``serials``."""
+    def _current_reading_values(self, readings: Sequence[Reading], without: Sequence[int] = ()) -> dict[tuple, tuple]:
+        """(serial, date text, machine_hours) -> (id, values) of the current readings that
+        share a pump with ``readings`` (looked up key by key for a few readings)."""
         skip = set(without)
         cols = ", ".join(_VALUE_FIELDS)
         found = {}
+        if len(readings) <= 20:
+            for r in readings:
+                row = self.conn.execute(
+                    f"SELECT id, serial, taken_on, machine_hours, {cols} FROM readings WHERE serial = ? AND taken_on = ? "
+                    "AND machine_hours = ? AND superseded_by IS NULL AND removed_reason IS NULL",
+                    (r.serial, r.taken_on.isoformat(), r.machine_hours),
+                ).fetchone()
+                if row is not None and row[0] not in skip:
+                    found[(row[1], row[2], row[3])] = (row[0], tuple(row[4:]))
+            return found
+        serials = {r.serial for r in readings}
         for row in self.conn.execute(
             f"SELECT id, serial, taken_on, machine_hours, {cols} FROM readings WHERE superseded_by IS NULL "
             "AND removed_reason IS NULL AND serial IN (SELECT value FROM json_each(?))",
@@ -97,7 +109,7 @@ class RecordsMixin:
         ``without``: reading ids left out of the comparison (the one being corrected)."""
         pumps, models = self.pumps(), self.models()
         fits = self._all_fitments()
-        existing = self._current_reading_values({r.serial for r in readings}, without)
+        existing = self._current_reading_values(readings, without)
         problems: list[Problem] = []
         accepted: list[tuple[int, Reading, str]] = []
         present = 0
@@ -145,6 +157,13 @@ class RecordsMixin:
                 continue
             accepted.append((i, r, fit.machine))
         # Hour meters: check the accepted rows against each other and the database.
+        if len(accepted) == 1:
+            i, r, machine = accepted[0]
+            earlier, later = self._meter_neighbours(machine, r.taken_on, without_readings=without)
+            problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
+            if problem:
+                problems.append(_with_line([problem], _line(lines, i))[0])
+            return Checked(problems, accepted, present)
         timelines: dict[str, meter.MeterTimeline] = {}
         for _, r, machine in accepted:
             if machine not in timelines:

@@ -4,6 +4,7 @@ in one transaction, or writes nothing and raises/reports every problem."""
 from __future__ import annotations
 
 import dataclasses
+import json
 from datetime import date
 from typing import Sequence
 
@@ -36,6 +37,25 @@ READING_COLUMNS = (
 EVENT_COLUMNS = (
     "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id"
 ).split()
+
+
+# Every hour-meter record of one machine (the same sources as WriteMixin._timeline),
+# limited to one meter era; parameters: machine, json list of reading ids to leave out,
+# machine x3, era start, era end, then the day for the caller's WHERE.
+_METER_POINTS = """
+    SELECT * FROM (
+        SELECT taken_on AS on_day, machine_hours AS hours FROM readings
+         WHERE machine = ? AND superseded_by IS NULL AND removed_reason IS NULL
+           AND id NOT IN (SELECT value FROM json_each(?))
+        UNION ALL
+        SELECT happened_on, hours FROM events
+         WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced' AND removed_reason IS NULL
+        UNION ALL
+        SELECT happened_on, to_hours FROM events
+         WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move' AND removed_reason IS NULL
+        UNION ALL
+        SELECT fitted_on, machine_hours_at_fit FROM fitments WHERE machine = ?
+    ) WHERE on_day >= ? AND on_day < ? AND """
 
 
 def _line(lines: Sequence[int] | None, i: int) -> int | None:
@@ -101,6 +121,28 @@ class WriteMixin:
         ):
             tl.add(date.fromisoformat(on), hours)
         return tl
+
+    def _meter_neighbours(
+        self, machine: str, on: date, *, without_readings: Sequence[int] = ()
+    ) -> tuple[tuple[date, float] | None, tuple[date, float] | None]:
+        """``self._timeline(machine).neighbours(on)`` answered by SQL, for one new record:
+        no need to load the machine's whole history."""
+        reps = sorted(
+            r[0] for r in self.conn.execute(
+                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
+                (machine,),
+            )
+        )
+        day = on.isoformat()
+        start = max((d for d in reps if d <= day), default="0000-00-00")
+        end = min((d for d in reps if d > day), default="9999-99-99")
+        params = (machine, json.dumps(list(without_readings)), machine, machine, machine, start, end, day)
+        earlier = self.conn.execute(_METER_POINTS + "on_day < ? ORDER BY hours DESC, on_day LIMIT 1", params).fetchone()
+        later = self.conn.execute(_METER_POINTS + "on_day > ? ORDER BY hours ASC, on_day LIMIT 1", params).fetchone()
+        return (
+            (date.fromisoformat(earlier[0]), earlier[1]) if earlier else None,
+            (date.fromisoformat(later[0]), later[1]) if later else None,
+        )
 
     def _fitments_of(self, serial: str) -> list[Fitment]:
         return [
