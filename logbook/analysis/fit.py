@@ -68,7 +68,7 @@ class BatchFit:
     exp: "PathParams"
     w_exp: np.ndarray  # (S,) Akaike weight of the exponential path (0 where it is not available)
     n_valid: np.ndarray  # (S,) readings in the series, used or not
-    latest: np.ndarray  # (S,) newest used reading (NaN without one)
+    latest: np.ndarray  # (S,) newest reading, even if dropped as wild (NaN without one)
 
     @property
     def used(self) -> np.ndarray:
@@ -294,7 +294,7 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
     lg = _log_line(x0, ly, lin)
     all_pos &= np.isfinite(lg.b)
     lin.dx = lin.r = None
-    return _RowFits(lin, lg, w, flags, step_at, n_valid, all_pos, _latest(y, w, last_col, changed))
+    return _RowFits(lin, lg, w, flags, step_at, n_valid, all_pos, _latest(y, last_col))
 
 
 def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
@@ -346,15 +346,10 @@ def _concat(parts: list[_RowFits]) -> _RowFits:
     return _RowFits(lin=cat_lines("lin"), lg=cat_lines("lg"), **arrays)
 
 
-def _latest(y: np.ndarray, w: np.ndarray, last_col: np.ndarray, changed: np.ndarray) -> np.ndarray:
-    """Newest used reading per row: the last column, or for rows with drops the last one still used."""
-    col = last_col.copy()
-    rows = np.flatnonzero(changed)
-    if rows.size:
-        wr = w[rows] > 0
-        col[rows] = np.where(wr.any(axis=1), w.shape[1] - 1 - np.argmax(wr[:, ::-1], axis=1), -1)
-    got = y[np.arange(y.shape[0]), np.maximum(col, 0)]
-    return np.where(col >= 0, got, np.nan)
+def _latest(y: np.ndarray, last_col: np.ndarray) -> np.ndarray:
+    """Newest reading per row (readings are left-aligned in x order)."""
+    got = y[np.arange(y.shape[0]), np.maximum(last_col, 0)]
+    return np.where(last_col >= 0, got, np.nan)
 
 
 def _path_params(st: LineStats, group: np.ndarray, eligible: np.ndarray, opt: FitOptions, pooling: bool):

@@ -31,7 +31,7 @@ class BatchForecast:
 
     remaining: np.ndarray  # (S, Q)
     outcome: np.ndarray  # (S,) O_* codes
-    latest: np.ndarray  # (S,) newest used reading on the readings' scale
+    latest: np.ndarray  # (S,) newest reading (even one dropped as wild: past the limit is reported)
     rate_per_hour: np.ndarray  # (S,) slope of the fitted path at x_now, reading units per hour
 
 

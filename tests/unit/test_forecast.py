@@ -200,3 +200,38 @@ def test_status_thresholds_are_parameters():
     fleet = small_fleet([1.05e-3])
     near = forecast_fleet(fleet, TODAY, thresholds=StatusThresholds(due_days=3650))
     assert near.pumps[0].status == OVERHAUL_DUE
+
+
+def test_wild_newest_reading_past_the_limit_still_says_past_limit():
+    # conservative on purpose: a newest reading beyond the limit is reported even when it looks wild
+    rng = np.random.default_rng(5)
+    x = np.cumsum(rng.uniform(300, 600, 12))
+    y = 1.5 + 2e-4 * x + rng.normal(0, 0.05, 12)
+    y[-1] = 7.0
+    b = TrendBatch(x[None], y[None], [6.0], [RISING], [-1], [x[-1]])
+    fit = fit_batch(b, FitOptions(pool=False))
+    assert fit.flags[0] & 8  # B_JUMP: the newest reading was dropped from the fit
+    assert forecast_batch(b, fit).outcome[0] == O_PAST_LIMIT
+
+
+def test_model_averaged_quantiles_solve_the_mixture_exactly():
+    # Where both paths carry weight, F(P_q) = (1 - w) F_lin + w F_exp must equal q, with the
+    # exact Student t CDF (scipy.special.stdtr); the engine's fast t approximation is within 1e-3.
+    from scipy import special
+
+    batch, _ = synthetic_fleet(seed=99, pumps=600)
+    fit = fit_batch(batch)
+    fc = forecast_batch(batch, fit, horizon_hours=60_000)
+    mix = np.flatnonzero((fit.w_exp > 0.05) & (fit.w_exp < 0.95) & (fc.outcome == O_CROSSING))
+    assert mix.size > 20
+    x = batch.x_now[mix, None] + fc.remaining[mix]
+    keep = np.isfinite(x).all(axis=1) & (fc.remaining[mix] > 0).all(axis=1)
+
+    def cdf(pp, limit):
+        var = pp.c00[mix, None] + 2 * pp.c01[mix, None] * x + pp.c11[mix, None] * x * x
+        t = batch.direction[mix, None] * (pp.a[mix, None] + pp.b[mix, None] * x - limit[mix, None]) / np.sqrt(var)
+        return special.stdtr(pp.dof[mix, None], t)
+
+    w = fit.w_exp[mix, None]
+    total = (1 - w) * cdf(fit.lin, batch.limit) + w * cdf(fit.exp, np.log(batch.limit))
+    assert np.abs(total[keep] - np.array([0.1, 0.5, 0.9])).max() < 2e-3
