@@ -1,14 +1,17 @@
 """Robust wear-path fits for a whole batch of series at once.
 
-Per series: detect a step change (breakage) and keep only the readings after it;
-drop a single wild reading (externally studentized residual, Bonferroni test; Cook and
+Per series: detect a step change (breakage: a level shift of at least 4 residual sd,
+significant after Bonferroni over the split points, not resting on one reading and
+not explained by the exponential path) and keep only the readings after it; drop a
+single wild reading (externally studentized residual, Bonferroni test; Cook and
 Weisberg, Residuals and Influence in Regression, 1982); fit a linear and an
-exponential (log-linear) path and choose by AICc on the scale of the readings (the
-log fit's likelihood carries the Jacobian -sum(log y)); then shrink the slope toward
-the pump model's fleet (``pooling``). Steps and outliers are screened on the linear
-path for every row and confirmed on the log path only for the few candidate rows.
+exponential (log-linear) path and weigh them by AICc on the readings' own scale (the
+log fit's likelihood carries the Jacobian -sum(log y)); then shrink each path's slope
+toward the pump model's fleet (``pooling``). For a falling kind (servo pressure) the
+exponential path is a proportional decay, y = exp(a + b x) with b < 0. Steps and
+wild readings are screened on the linear path for every row and confirmed on the log
+path only for the few candidate rows.
 """
-
 from __future__ import annotations
 
 from dataclasses import dataclass

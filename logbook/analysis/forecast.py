@@ -1,8 +1,8 @@
 """When does each fitted wear path reach its limit: P10/P50/P90 operating hours, for a whole batch.
 
 The crossing is where the fitted mean path meets the limit. Its quantiles come from
-inverting the pointwise confidence band of the mean path (Fieller's method, as used
-for calibration: Draper and Smith, Applied Regression Analysis, 3rd ed., sec. 3.2):
+inverting the pointwise confidence band of the mean path (Fieller's method, as in
+inverse regression / calibration: Draper and Smith, Applied Regression Analysis):
 P_q is the first hour at which the one-sided level-q band touches the limit, with
 Student t quantiles on the fit's degrees of freedom. The limit applies to the pump's
 wear state, so the reading-to-reading noise is left out by default; ``with_noise``
@@ -230,8 +230,9 @@ def forecast_batch(
     """Crossing quantiles and outcome codes for every row of a fitted batch.
 
     Where both paths carry Akaike weight above ``min_weight``, the crossing distribution
-    is their weighted mixture (Burnham and Anderson, Model Selection and Multimodel
-    Inference, 2002, sec. 4.3), whose quantiles are found by bisection.
+    is their weighted mixture (model averaging: Burnham and Anderson, Model Selection and
+    Multimodel Inference, 2002, ch. 4), whose quantiles are solved by safeguarded Newton
+    steps. Remaining hours beyond ``horizon_hours`` come back as inf.
     """
     s = batch.size
     lim = batch.limit
