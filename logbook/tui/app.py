@@ -33,11 +33,12 @@ class LogbookApp(App):
     TITLE = "logbook"
     ENABLE_COMMAND_PALETTE = False
     BINDINGS = [
-        Binding("f1", "help", "Help", key_display="F1", id="app.help"),
-        Binding("question_mark", "help", "Help", show=False, id="app.help_question"),
-        Binding("f5", "reload", "Reload", show=False, key_display="F5", id="app.reload"),
-        Binding("t", "toggle_theme", "Theme", id="app.theme"),
-        Binding("q", "quit", "Quit", id="app.quit"),
+        Binding("f1", "help", "Help", key_display="F1", tooltip="this list of keys", id="app.help"),
+        Binding("question_mark", "help", "Help", show=False, tooltip="this list of keys", id="app.help_question"),
+        Binding("f5", "reload", "Reload", show=False, key_display="F5", tooltip="read the logbook and forecast again",
+                id="app.reload"),
+        Binding("t", "toggle_theme", "Theme", tooltip="switch between the light and the dark theme", id="app.theme"),
+        Binding("q", "quit", "Quit", tooltip="leave logbook (not on entry forms: Esc leaves those)", id="app.quit"),
     ]
 
     #: Bumped each time a new fleet snapshot and forecast arrive.
@@ -133,6 +134,14 @@ class LogbookApp(App):
         return self.forecast.pump(serial) if self.forecast is not None else None
 
     # -- actions -----------------------------------------------------------------------
+    def check_action(self, action: str, parameters) -> bool | None:
+        """No quitting from an entry form with one key: Esc leaves the form first."""
+        if action == "quit":
+            from logbook.tui.screens.entry import EntryScreen
+
+            return not isinstance(self.screen, EntryScreen)
+        return True
+
     def action_help(self) -> None:
         from logbook.tui.screens.help import HelpScreen
 

@@ -104,6 +104,11 @@ class Column:
     cell: Callable[[PumpForecast], str]
 
 
+def clip(text: str, width: int) -> str:
+    """Text cut to ``width`` cells with an ellipsis, so that columns never run together."""
+    return text if len(text) <= width else text[: max(width - 1, 0)] + "…"
+
+
 def _month(d: date | None) -> str:
     return fmt.month(d)
 
@@ -165,18 +170,21 @@ def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
     day = fmt.day if full_dates else _month
     cols = [
         Column("serial", "Serial", w["serial"], lambda p: p.serial),
-        Column("where", "Machine, position", w["where"], where),
+        Column("where", "Machine, position" if w["where"] >= 17 else "Machine", w["where"], where),
         Column("site", "Site", w["site"], lambda p: p.site or "-"),
         Column("model", "Model", w["model"], lambda p: p.model),
         Column("hours", "Hours" if w["kind"] < 14 else "Hours", w["hours"], _hours_cell),
-        Column("kind", "Closest to limit" if long_kind else "Near", w["kind"], lambda p: _closest(p, long_kind)),
+        Column("kind", "Closest to limit" if long_kind else "Worst", w["kind"], lambda p: _closest(p, long_kind)),
         Column("p50", "P50 date" if full_dates else "P50", w["p50"], _worst_date(lambda k: k.p50_date, day)),
         Column("p10", "P10 date" if full_dates else "P10", w["p10"], _worst_date(lambda k: k.p10_date, day)),
         Column("trend", "Trend" if trend_words else "T", w["trend"],
                (lambda p: " ".join(trend(p.worst))) if trend_words else (lambda p: trend(p.worst)[0])),
         Column("status", "Status", w["status"], lambda p: p.status or "-"),
     ]
-    return tuple(c for c in cols if c.width)
+    return tuple(
+        Column(c.key, clip(c.label, c.width), c.width, (lambda cell, w: lambda p: clip(cell(p), w))(c.cell, c.width))
+        for c in cols if c.width
+    )
 
 
 def _date_key(getter):

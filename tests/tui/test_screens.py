@@ -3,7 +3,10 @@ and trouble with the database: shown in words, never as a traceback."""
 
 from __future__ import annotations
 
+import io
 import sqlite3
+
+from rich.console import Console
 
 from textual.widgets import DataTable
 
@@ -17,6 +20,7 @@ from logbook.tui.screens.plan import PlanScreen
 from logbook.tui.screens.pump import PumpScreen
 from logbook.tui.screens.reading import ReadingScreen
 from logbook.tui.widgets.chart import TrendChart
+from logbook.tui.widgets.tables import OpenTable
 from tests.tui.conftest import TODAY, settle
 from tests.tui.test_entry import crossing_pump, meter_now, text
 
@@ -36,7 +40,7 @@ async def test_pump_view_shows_history_readings_and_a_chart_per_kind(demo_app, d
         chart = screen.query_one("#chart", TrendChart)
         assert chart.kf.kind is pf.worst.kind  # opens on the kind closest to its limit
         drawn = text(chart)
-        for words in ("● reading", "fitted path", "P10-P90 band", "─ limit", "┊ today"):
+        for words in ("● reading", "fitted path", "P10-P90 band", "─ limit", "┊ today", "◆ P50 crossing"):
             assert words in drawn
         assert "●" in drawn.split("\n")[0] + drawn  # points are drawn
         assert any(0x2800 < ord(ch) <= 0x28FF for ch in drawn)  # the fitted path in braille
@@ -133,9 +137,11 @@ async def test_help_lists_every_key_of_the_screen(demo_app):
         fleet = app.screen
         await pilot.press("f1")
         assert isinstance(app.screen, HelpScreen)
-        shown = text(app.screen.query_one("#help-text"))
-        for binding in [*type(fleet).BINDINGS, *type(app).BINDINGS]:
-            assert binding.description in shown
+        console = Console(width=100, record=True, file=io.StringIO())
+        console.print(app.screen.query_one("#help-text").content)
+        shown = console.export_text()
+        for binding in [*type(fleet).BINDINGS, *type(app).BINDINGS, *OpenTable.BINDINGS]:
+            assert f"{binding.description}: {binding.tooltip}" in " ".join(shown.split())
         assert ("A-Z 0-9 -", "typing a serial (capital letters, digits, '-') on the table jumps to it") in binding_lines(fleet)
         await pilot.press("escape")
         assert app.screen is fleet

@@ -22,8 +22,8 @@ class EntryScreen(Screen):
     """Subclasses supply ``build_record``, ``dry_run`` and ``write``."""
 
     BINDINGS = [
-        Binding("f2", "save", "Save", key_display="F2", id="entry.save"),
-        Binding("escape", "back", "Back", id="entry.back"),
+        Binding("f2", "save", "Save", key_display="F2", tooltip="save (the logbook checks everything first)", id="entry.save"),
+        Binding("escape", "back", "Back", tooltip="leave the form; what is not saved is dropped", id="entry.back"),
         Binding("down", "app.focus_next", "Next field", show=False, id="entry.down"),
         Binding("up", "app.focus_previous", "Previous field", show=False, id="entry.up"),
     ]

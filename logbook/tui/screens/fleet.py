@@ -21,17 +21,23 @@ ANY = Select.NULL
 class FleetScreen(Screen):
     """Sort by any column, filter by site, model and status, type a serial to jump to it."""
 
+    HELP_TITLE = "Fleet view"
     BINDINGS = [
-        Binding("r", "record_reading", "Reading", id="fleet.reading"),
-        Binding("e", "record_event", "Event", id="fleet.event"),
-        Binding("s", "sort_next", "Sort", id="fleet.sort"),
-        Binding("S", "sort_reverse", "Reverse", show=False, id="fleet.sort_reverse"),
-        Binding("f", "filter", "Filter", id="fleet.filter"),
-        Binding("slash", "find", "Find serial", show=False, id="fleet.find"),
-        Binding("x", "clear_filters", "Clear filters", show=False, id="fleet.clear"),
-        Binding("m", "models", "Models", id="fleet.models"),
-        Binding("p", "plan", "Plan", id="fleet.plan"),
-        Binding("escape", "back_to_table", "Table", show=False, id="fleet.table"),
+        Binding("r", "record_reading", "Reading", tooltip="record a reading for the pump under the cursor (then the next ones)",
+                id="fleet.reading"),
+        Binding("e", "record_event", "Event", tooltip="record an overhaul, exchange, re-set, repair, oil change, move...",
+                id="fleet.event"),
+        Binding("s", "sort_next", "Sort", tooltip="sort by the next column (most urgent, P10, P50, hours, serial...)",
+                id="fleet.sort"),
+        Binding("S", "sort_reverse", "Reverse", show=False, tooltip="reverse the sort order", id="fleet.sort_reverse"),
+        Binding("f", "filter", "Filter", tooltip="go to the filters: site, model, status (Tab moves on, Esc back)",
+                id="fleet.filter"),
+        Binding("slash", "find", "Find serial", show=False, tooltip="type a serial to jump to it; Enter opens it",
+                id="fleet.find"),
+        Binding("x", "clear_filters", "Clear filters", show=False, tooltip="show every pump again", id="fleet.clear"),
+        Binding("m", "models", "Models", tooltip="pump models: limits and reference conditions", id="fleet.models"),
+        Binding("p", "plan", "Plan", tooltip="the month-by-month overhaul plan and its export", id="fleet.plan"),
+        Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from a filter", id="fleet.table"),
     ]
 
     def __init__(self) -> None:

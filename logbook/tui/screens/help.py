@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from rich.table import Table
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
@@ -18,7 +19,10 @@ EXTRA = {
         ("A-Z 0-9 -", "typing a serial (capital letters, digits, '-') on the table jumps to it"),
         ("Tab", "moves between the filters (site, model, status), the serial box and the table"),
         ("click header", "sorts by that column; again reverses"),
-        ("Up/Down PgUp/PgDn", "move through the pumps"),
+        ("Up/Down", "move through the pumps (PgUp/PgDn: a page)"),
+        ("Columns", "Hours: operating hours since the last overhaul. Worst: the reading closest to its limit "
+                    "(drain = case drain, servo = servo pressure, drift = neutral drift). P50/P10: dates by which that "
+                    "limit is crossed with 50 % / 10 % probability (months when the terminal is narrow). T: trend arrow."),
     ),
     "PumpScreen": (
         ("Up/Down", "on the reading table: choose the kind shown in the chart"),
@@ -28,7 +32,8 @@ EXTRA = {
         ("Tab / Enter", "next field; Shift+Tab goes back"),
         ("Up/Down", "previous / next field"),
     ),
-    "EventScreen": (("Tab / Enter", "next field; Shift+Tab goes back"),),
+    "EventScreen": (("Tab / Enter", "next field; Shift+Tab goes back"), ("Up/Down", "previous / next field")),
+    "ModelEditScreen": (("Tab / Enter", "next field; Shift+Tab goes back"), ("Up/Down", "previous / next field")),
 }
 
 
@@ -36,18 +41,41 @@ def key_name(key: str) -> str:
     return "/".join(KEY_NAMES.get(k, k.upper() if k.startswith("f") and k[1:].isdigit() else k) for k in key.split(","))
 
 
+def _own_bindings(cls) -> list[Binding]:
+    """Bindings a class and its logbook base classes declare (not Textual's stock ones)."""
+    out = []
+    for klass in cls.__mro__:
+        if not klass.__module__.startswith("logbook."):
+            continue
+        for b in klass.__dict__.get("BINDINGS", ()):
+            out.append(b if isinstance(b, Binding) else Binding(*b))
+    return out
+
+
 def binding_lines(screen: Screen) -> list[tuple[str, str]]:
-    """(key, what it does) for the screen's own bindings, then the app's; hidden ones too."""
+    """(key, what it does) for the focused widget, the screen and the app; hidden keys too."""
     seen: set[str] = set()
     lines: list[tuple[str, str]] = []
-    sources = [type(screen).BINDINGS, type(screen.app).BINDINGS]
+    sources: list[list[Binding]] = []
+    node = screen.focused
+    while node is not None and node is not screen:
+        sources.append(_own_bindings(type(node)))
+        node = node.parent
+    sources += [_own_bindings(type(screen)), _own_bindings(type(screen.app))]
+    keys_of: dict[str, list[str]] = {}  # one line per action: "F1 ?" both open help
     for bindings in sources:
         for b in bindings:
-            b = b if isinstance(b, Binding) else Binding(*b)
             if b.key in seen or not b.description:
                 continue
+            if b.action == "quit" and not screen.app.check_action("quit", ()):
+                continue
             seen.add(b.key)
-            lines.append((key_name(b.key), b.description))
+            words = b.description + (f": {b.tooltip}" if b.tooltip else "")
+            if words not in keys_of:
+                keys_of[words] = []
+                lines.append(("", words))
+            keys_of[words].append(b.key_display or key_name(b.key))
+    lines = [(" ".join(keys_of[words]), words) for _, words in lines]
     for key, words in EXTRA.get(type(screen).__name__, ()):
         lines.append((key, words))
     return lines
@@ -69,13 +97,15 @@ class HelpScreen(ModalScreen):
 
     def compose(self) -> ComposeResult:
         title = getattr(self.under, "HELP_TITLE", type(self.under).__name__.removesuffix("Screen"))
-        rows = binding_lines(self.under)
-        width = max(len(k) for k, _ in rows) + 2 if rows else 8
-        text = "\n".join(f"{k.ljust(width)}{v}" for k, v in rows)
+        table = Table(box=None, show_header=False, padding=(0, 1), expand=True)
+        table.add_column("key", style="bold", max_width=12)
+        table.add_column("what", ratio=1)
+        for key, words in binding_lines(self.under):
+            table.add_row(key, words)
         with VerticalScroll(id="help-box") as box:
             box.border_title = f"Keys: {title}"
             box.border_subtitle = "Esc closes"
-            yield Static(text, id="help-text")
+            yield Static(table, id="help-text")
             yield Static(
                 "\nStatus words come with a symbol (✖ ⚠ ▲ △ … ✓ -) so they read without colour. "
                 "P10/P50/P90: the limit is crossed by then with 10/50/90 % probability. "

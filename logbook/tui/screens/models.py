@@ -17,7 +17,7 @@ class ModelsScreen(Screen):
     """A table of models; Enter edits the one under the cursor."""
 
     HELP_TITLE = "Models and limits"
-    BINDINGS = [Binding("escape", "back", "Back", id="models.back")]
+    BINDINGS = [Binding("escape", "back", "Back", tooltip="back to the fleet view", id="models.back")]
 
     def compose(self) -> ComposeResult:
         yield Static("Pump models: reference conditions and limits (limits apply at reference)", id="title")

@@ -24,9 +24,10 @@ class PlanScreen(Screen):
 
     HELP_TITLE = "Overhaul plan"
     BINDINGS = [
-        Binding("escape", "back", "Back", id="plan.back"),
-        Binding("h", "horizon", "Horizon", id="plan.horizon"),
-        Binding("x", "export", "Export", id="plan.export"),
+        Binding("escape", "back", "Back", tooltip="back to the fleet view", id="plan.back"),
+        Binding("h", "horizon", "Horizon", tooltip="plan 6, 12 or 24 months ahead", id="plan.horizon"),
+        Binding("x", "export", "Export", tooltip="write the plan as Markdown and CSV files (the path is shown)",
+                id="plan.export"),
     ]
 
     class Exported(Message):

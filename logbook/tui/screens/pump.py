@@ -25,17 +25,18 @@ EVENT_WORDS = {
 class PumpScreen(Screen):
     """One pump; ``following`` are the pumps after it in the fleet view (for 'next pump')."""
 
+    HELP_TITLE = "Pump view"
     BINDINGS = [
-        Binding("escape", "back", "Back", id="pump.back"),
-        Binding("r", "record_reading", "Reading", id="pump.reading"),
-        Binding("e", "record_event", "Event", id="pump.event"),
-        Binding("k", "next_kind", "Kind", id="pump.kind"),
-        Binding("v", "next_tab", "View", id="pump.view"),
-        Binding("n", "next_pump", "Next pump", id="pump.next"),
-        Binding("1", "tab('trends')", "Trends", show=False, id="pump.tab1"),
-        Binding("2", "tab('readings')", "Readings", show=False, id="pump.tab2"),
-        Binding("3", "tab('events')", "Events", show=False, id="pump.tab3"),
-        Binding("4", "tab('fitted')", "Fitted in", show=False, id="pump.tab4"),
+        Binding("escape", "back", "Back", tooltip="back to the list you came from", id="pump.back"),
+        Binding("r", "record_reading", "Reading", tooltip="record a reading for this pump", id="pump.reading"),
+        Binding("e", "record_event", "Event", tooltip="record an event for this pump", id="pump.event"),
+        Binding("k", "next_kind", "Kind", tooltip="chart the next reading kind (case drain, servo, drift)", id="pump.kind"),
+        Binding("v", "next_tab", "View", tooltip="next tab: trends, readings, events, fitted in", id="pump.view"),
+        Binding("n", "next_pump", "Next pump", tooltip="the next pump in the fleet view's order", id="pump.next"),
+        Binding("1", "tab('trends')", "Trends", show=False, tooltip="the trends tab", id="pump.tab1"),
+        Binding("2", "tab('readings')", "Readings", show=False, tooltip="the readings tab", id="pump.tab2"),
+        Binding("3", "tab('events')", "Events", show=False, tooltip="the events tab", id="pump.tab3"),
+        Binding("4", "tab('fitted')", "Fitted in", show=False, tooltip="the machines it sat in", id="pump.tab4"),
     ]
 
     def __init__(self, serial: str, following: list[str] | None = None) -> None:
@@ -101,20 +102,21 @@ class PumpScreen(Screen):
         table = self.query_one("#kind-table", DataTable)
         u = self.app.units
         if not table.columns:
-            for label in ("Reading", "Latest", "Limit", "%", "Path", "n", "P10", "P50", "P90"):
+            for label in ("Reading", "Latest", "Limit", "%", "P10", "P50", "P90", "Path", "n"):
                 table.add_column(label, key=label)
         table.clear()
         kinds = self._kinds(pf)
         for kind in ALL_KINDS:
             kf = kinds.get(kind)
             if kf is None:
-                table.add_row(kind.label, "-", "-", "", "", "", "", "", "", key=kind.value)
+                table.add_row(present.KIND_SHORT[kind], "-", "-", "", "", "", "", "", "", key=kind.value)
                 continue
             share = f"{kf.percent_of_limit:.0f}" if kf.percent_of_limit is not None else ""
             table.add_row(
-                kind.label, fmt.value(kind, kf.latest_value, u), fmt.value(kind, kf.limit.value, u) if kf.limit else "none",
-                share, kf.path if kf.path != "none" else "-", str(kf.n_readings),
-                fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), key=kind.value,
+                present.KIND_SHORT[kind], fmt.value(kind, kf.latest_value, u),
+                fmt.value(kind, kf.limit.value, u) if kf.limit else "none", share,
+                fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date),
+                kf.path if kf.path != "none" else "-", str(kf.n_readings), key=kind.value,
             )
         if self.kind is None:
             self.kind = pf.worst.kind if pf and pf.worst else Kind.CASE_DRAIN
@@ -135,8 +137,9 @@ class PumpScreen(Screen):
         flags = present.flag_words(kf.flags)
         trend = " ".join(present.trend(kf))
         segment = f"since {fmt.day(kf.segment_start)}" if kf.segment_start else "no segment"
+        path = f" · {kf.path} path" if kf.path != "none" else ""
         summary.update(
-            f"{kf.kind.label}: {words}{left} · trend {trend} · {kf.n_readings} reading(s) {segment}"
+            f"{kf.kind.label}: {words}{left}{path} · trend {trend} · {kf.n_readings} reading(s) {segment}"
             + (f" · flags: {flags}" if flags else "")
         )
 

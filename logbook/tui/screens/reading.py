@@ -21,8 +21,10 @@ class ReadingScreen(EntryScreen):
 
     HELP_TITLE = "Reading entry"
     BINDINGS = [
-        Binding("f3", "save_next", "Save+next", key_display="F3", id="reading.save_next"),
-        Binding("f4", "next_pump", "Skip pump", key_display="F4", id="reading.skip"),
+        Binding("f3", "save_next", "Save+next", key_display="F3", tooltip="save, then the next pump of the round",
+                id="reading.save_next"),
+        Binding("f4", "next_pump", "Skip pump", key_display="F4", tooltip="the next pump without saving this one",
+                id="reading.skip"),
     ]
 
     def __init__(self, serial: str, following: list[str] | None = None) -> None:

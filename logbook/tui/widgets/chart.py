@@ -17,13 +17,13 @@ from logbook.analysis.results import OUTCOME_WORDS, KindForecast
 from logbook.tui.widgets.canvas import Canvas
 
 LEGEND = (
-    ("●", "point", "reading"),
-    ("×", "outlier", "set aside"),
-    ("⠒", "fit", "fitted path"),
-    ("░", "band", "P10-P90 band"),
-    ("─", "limit", "limit"),
-    ("┊", "today", "today"),
-    ("◆", "cross", "P50 crossing"),
+    ("●", "point", "reading", "reading"),
+    ("×", "outlier", "set aside", "set aside"),
+    ("⠒", "fit", "fitted path", "fit"),
+    ("░", "band", "P10-P90 band", "P10-P90"),
+    ("─", "limit", "limit", "limit"),
+    ("┊", "today", "today", "today"),
+    ("◆", "cross", "P50 crossing", "P50 cross"),
 )
 Y_LABEL_WIDTH = 9
 
@@ -93,14 +93,17 @@ def draw_trend(kf: KindForecast, width: int, height: int, unit: str) -> list[lis
         col = min(col, plot_w - len(text))
         if all(c == " " for c in ticks[max(col - 1, 0): col + len(text) + 1]):
             ticks[col: col + len(text)] = list(text)
-    rows.append([(" ", "")] * Y_LABEL_WIDTH + [(c, "axis") for c in ticks])
+    unit_label = (unit or "")[: Y_LABEL_WIDTH - 1].rjust(Y_LABEL_WIDTH - 1) + " "
+    rows.append([(c, "axis") for c in unit_label] + [(c, "axis") for c in ticks])
     return rows
 
 
 def legend_cells(width: int) -> list[tuple[str, str]]:
+    """The legend line: long words when they fit, short ones otherwise."""
+    long = sum(len(words) + 4 for _, _, words, _ in LEGEND) <= width
     out: list[tuple[str, str]] = []
-    for glyph, layer, words in LEGEND:
-        piece = [(glyph, layer)] + [(c, "") for c in f" {words}  "]
+    for glyph, layer, words, short in LEGEND:
+        piece = [(glyph, layer)] + [(c, "") for c in f" {words if long else short}  "]
         if len(out) + len(piece) > width:
             break
         out += piece
@@ -146,7 +149,7 @@ class TrendChart(Widget):
         unit = fmt.unit_for(kf.kind, self.prefs)
         rows = draw_trend(kf, width, max(height - 1, 5), unit)
         rows.append(legend_cells(width))
-        styles = {layer: self.get_component_rich_style(f"trend-chart--{layer}") for _, layer, _ in LEGEND}
+        styles = {layer: self.get_component_rich_style(f"trend-chart--{layer}") for _, layer, _, _ in LEGEND}
         styles["axis"] = self.get_component_rich_style("trend-chart--axis")
         text = Text(no_wrap=True, overflow="crop")
         for i, row in enumerate(rows):

@@ -9,10 +9,10 @@ from textual.widgets import DataTable
 class OpenTable(DataTable):
     """Enter opens the row under the cursor."""
 
-    BINDINGS = [Binding("enter", "select_cursor", "Open", id="table.open")]
+    BINDINGS = [Binding("enter", "select_cursor", "Open", tooltip="open the row under the cursor", id="table.open")]
 
 
 class EditTable(DataTable):
     """Enter edits the row under the cursor."""
 
-    BINDINGS = [Binding("enter", "select_cursor", "Edit", id="table.edit")]
+    BINDINGS = [Binding("enter", "select_cursor", "Edit", tooltip="edit the row under the cursor", id="table.edit")]
