@@ -161,12 +161,12 @@ class StoreCore:
 
     def _check_then_write(self, check: Callable[[], T], write: Callable[[T], R], *, dry_run: bool = False) -> tuple[T, R | None]:
         """Validate without holding the write lock, then write under it. ``check`` returns
-        something with ``.problems``; when another connection committed in between, the
+        something with ``.problems`` and ``.items``; when another connection committed in between, the
         check runs again inside the write transaction, so a write never rests on stale reads."""
         version = self.data_version()
         checked = check()
-        if checked.problems or dry_run:
-            return checked, None
+        if checked.problems or dry_run or not checked.items:
+            return checked, None  # nothing to write (a re-import of rows already present writes nothing)
         with self.transaction():
             if self.data_version() != version:
                 checked = check()
