@@ -108,7 +108,7 @@ def ols_rows(x: np.ndarray, y: np.ndarray, w: np.ndarray, keep: bool = True) -> 
     ``x`` and ``y`` must be finite everywhere (put 0 where ``w`` is 0).
     """
     with np.errstate(invalid="ignore", divide="ignore"):
-        n = w.sum(axis=1)
+        n = np.einsum("ij->i", w)
         nn = np.where(n > 0, n, 1.0)
         xbar = _rowdot(x, w) / nn
         ybar = _rowdot(y, w) / nn

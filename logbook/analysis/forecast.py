@@ -212,10 +212,23 @@ def _path_quantiles(pp, rows, limit_t, sign, x_now, with_noise, quantiles):
     if rows.size:
         args = [arr[rows] for arr in (pp.a, pp.b, pp.c00, pp.c01, pp.c11)]
         s2 = pp.sigma2[rows] if with_noise else np.zeros(rows.size)
+        lim, sgn, now = limit_t[rows], sign[rows], x_now[rows]
         for qi, q in enumerate(quantiles):
+            if q == 0.5:
+                out[:, qi] = median_crossing(args[0], args[1], args[2], args[3], args[4], s2, lim, sgn, now)
+                continue
             z = _t_quantiles(q, pp.dof[rows])
-            out[:, qi] = crossing_hours(*args, s2, limit_t[rows], sign[rows], x_now[rows], z)
+            out[:, qi] = crossing_hours(*args, s2, lim, sgn, now, z)
     return out
+
+
+def median_crossing(a, b, c00, c01, c11, sigma2, limit_t, sign, x_now):
+    """P50: where the fitted mean path meets the limit (x_now if it is already there, inf if never)."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root = (limit_t - a) / b
+        already = sign * (a + b * x_now - limit_t) >= 0
+        ahead = (sign * b > 0) & (root > x_now)
+    return np.where(already, x_now, np.where(ahead, root, np.inf))
 
 
 def forecast_batch(
