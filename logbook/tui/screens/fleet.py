@@ -37,6 +37,8 @@ class FleetScreen(Screen):
         Binding("x", "clear_filters", "Clear filters", show=False, tooltip="show every pump again", id="fleet.clear"),
         Binding("m", "models", "Models", tooltip="pump models: limits and reference conditions", id="fleet.models"),
         Binding("p", "plan", "Plan", tooltip="the month-by-month overhaul plan and its export", id="fleet.plan"),
+        Binding("o", "round", "Round", show=False, tooltip="a reading round: a site's pumps due for a reading, one after another",
+                id="fleet.round"),
         Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from a filter", id="fleet.table"),
     ]
 
@@ -281,6 +283,11 @@ class FleetScreen(Screen):
         from logbook.tui.screens.models import ModelsScreen
 
         self.app.push_screen(ModelsScreen())
+
+    def action_round(self) -> None:
+        from logbook.tui.screens.round import RoundScreen
+
+        self.app.push_screen(RoundScreen(site=self._filter_value("site")))
 
     def action_plan(self) -> None:
         from logbook.tui.screens.plan import PlanScreen
