@@ -68,3 +68,17 @@ async def test_no_site_no_pumps_and_a_word_why(tmp_path):
         assert screen.site == "North Yard" and [t.serial for t in screen.stops] == ["S-200"]
         assert "every 600 days" in str(screen.query_one("#round-why").render())
     store.close()
+
+
+async def test_key_o_on_the_fleet_view_opens_the_round(tmp_path):
+    store = _store(tmp_path)
+    app = make_app(store, today=TODAY, poll_seconds=0, blink=False)
+    async with app.run_test(size=(120, 36)) as pilot:
+        await _loaded(app, pilot)
+        await pilot.press("o")
+        await pilot.pause()
+        assert isinstance(app.screen, RoundScreen) and app.screen.site == "North Yard"
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, RoundScreen)
+    store.close()
