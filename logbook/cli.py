@@ -109,7 +109,7 @@ def main(argv: list[str] | None = None) -> int:
         today=args.today or date.today(),
         units=UnitPrefs.us() if args.units == "us" else UnitPrefs(),
     )
-    from logbook.store import StoreError
+    from logbook.store import SQLiteError, StoreError
 
     try:
         if args.command is None:
@@ -124,6 +124,10 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except StoreError as exc:
         ctx.err.print(f"logbook: {exc}", markup=False)
+        return 1
+    except SQLiteError as exc:
+        ctx.err.print(f"logbook: the database {ctx.db_path} failed: {exc}. Nothing half-written (each change is one "
+                      "transaction); `logbook check` tells more, and a damaged file is restored from a backup.", markup=False)
         return 1
     except KeyboardInterrupt:
         ctx.err.print("interrupted; nothing half-written (each change is one transaction)")

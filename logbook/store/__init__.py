@@ -12,6 +12,8 @@
 
 from __future__ import annotations
 
+from sqlite3 import DatabaseError as SQLiteError  # any failure of SQLite itself (damaged file, disk full...)
+
 from logbook.store.core import DatabaseBusy, DatabaseMissing, DatabaseTooNew, StoreCore, StoreError
 from logbook.store.corrections import CORRECTABLE, CorrectionsMixin
 from logbook.store.maintenance import BackupResult, Finding, MaintenanceMixin
@@ -32,6 +34,6 @@ class Store(CorrectionsMixin, MaintenanceMixin, TrailMixin, RecordsMixin, WriteM
 
 
 __all__ = [
-    "Store", "StoreError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy",
+    "Store", "StoreError", "SQLiteError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy",
     "TrailEntry", "Finding", "BackupResult", "CORRECTABLE",
 ]

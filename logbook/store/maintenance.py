@@ -84,6 +84,14 @@ class MaintenanceMixin:
     def check(self) -> list[Finding]:
         """Every problem found by SQLite's own checks and the logbook's domain rules,
         read in one snapshot. An empty list means the database is sound."""
+        try:
+            return self._check()
+        except sqlite3.DatabaseError as exc:  # a damaged file can fail the checks themselves
+            if self.conn.in_transaction:
+                self.conn.execute("ROLLBACK")
+            return [Finding("integrity", f"the file cannot be read through: {exc}; restore a backup (`logbook backup`)")]
+
+    def _check(self) -> list[Finding]:
         findings: list[Finding] = []
         self.conn.execute("BEGIN")
         try:
