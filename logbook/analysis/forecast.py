@@ -95,42 +95,42 @@ def crossing_hours(
 
 
 class _PathCdf:
-    """P(mean path beyond the limit at hours x), and its density, for flat (row, quantile) items of one path."""
+    """P(mean path beyond the limit at hours x), and its density, for flat (row, quantile) items of one path.
+
+    Parameters sit in one (7, M) array so that dropping converged items is a single copy.
+    """
 
     def __init__(self, pp, rows, limit_t, sign, with_noise):
-        self.a, self.b = pp.a[rows], pp.b[rows]
-        self.c00 = pp.c00[rows] + (pp.sigma2[rows] if with_noise else 0.0)
-        self.c01, self.c11 = pp.c01[rows], pp.c11[rows]
-        self.lim, self.sign = limit_t[rows], sign[rows]
-        self.dof = np.clip(pp.dof[rows], 1.0, 1e6)
-        self.k = (8 * self.dof + 1) / (8 * self.dof + 3)
-
-    _FIELDS = ("a", "b", "c00", "c01", "c11", "lim", "sign", "dof", "k")
+        dof = np.clip(pp.dof[rows], 1.0, 1e6)
+        sgn = sign[rows]
+        c00 = pp.c00[rows] + (pp.sigma2[rows] if with_noise else 0.0)
+        # sign folded into the path: g(x) = sa + sb x is the (signed) distance short of the limit
+        self.p = np.stack([sgn * (pp.a[rows] - limit_t[rows]), sgn * pp.b[rows], c00, pp.c01[rows], pp.c11[rows],
+                           1.0 / dof, (8 * dof + 1) / (8 * dof + 3)])  # fmt: skip
 
     def take(self, keep: np.ndarray) -> None:
         """Keep only the items ``keep`` (index or mask)."""
-        for name in self._FIELDS:
-            setattr(self, name, getattr(self, name)[keep])
+        self.p = self.p[:, keep]
 
     def subset(self, keep: np.ndarray) -> "_PathCdf":
         new = object.__new__(_PathCdf)
-        for name in self._FIELDS:
-            setattr(new, name, getattr(self, name)[keep])
+        new.p = self.p[:, keep]
         return new
 
     def __call__(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(CDF, dCDF/dx) at hours x, through the normal approximation of ``t_cdf_fast``."""
+        sa, sb, c00, c01, c11, inv_dof, k = self.p
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            slope_var = self.c01 + self.c11 * x
-            var = np.maximum(self.c00 + x * (self.c01 + slope_var), 1e-300)
+            slope_var = c01 + c11 * x
+            var = np.maximum(c00 + x * (c01 + slope_var), 1e-300)
             sd = np.sqrt(var)
-            gap = self.a + self.b * x - self.lim
-            t = self.sign * gap / sd
-            dt = self.sign * (self.b * var - gap * slope_var) / (var * sd)
-            u = t * t / self.dof
-            r = np.sqrt(self.dof * np.log1p(u))
-            z = np.copysign(self.k * r, t)
-            dz = np.where(r > 1e-12, self.k * np.abs(t) / ((1 + u) * r), self.k)
+            gap = sa + sb * x
+            t = gap / sd
+            dt = (sb * var - gap * slope_var) / (var * sd)
+            u = t * t * inv_dof
+            r = np.sqrt(np.log1p(u) / inv_dof)
+            z = np.copysign(k * r, t)
+            dz = np.where(r > 1e-12, k * np.abs(t) / ((1 + u) * r), k)
             return special.ndtr(z), np.exp(-0.5 * z * z) * _INV_SQRT_2PI * dz * dt
 
 
@@ -166,8 +166,8 @@ def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizo
             part_lin, part_exp = f_lin.subset(idx)(end[idx])[0], f_exp.subset(idx)(end[idx])[0]
             f_end[idx] = (1 - w_exp[idx]) * part_lin + w_exp[idx] * part_exp - q[idx]
     out = np.where(f_lo >= 0, lo, np.where(f_hi < 0, np.inf, out))
-    # accuracy of the t approximation: a CDF error of 1e-3 is worth ~1e-3 of the bracket
-    tol = np.maximum(tol_hours, 1e-3 * np.where(np.isfinite(hi - lo), hi - lo, 0.0))
+    # accuracy of the t approximation: a CDF error of 1e-3 is worth about 1e-3 of the bracket
+    tol = np.maximum(tol_hours, 2e-3 * np.where(np.isfinite(hi - lo), hi - lo, 0.0))
     active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > tol))
     lo, hi, q, w_exp, tol = (v[active] for v in (lo, hi, q, w_exp, tol))
     f_lin.take(active)
@@ -186,9 +186,10 @@ def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizo
         done = (np.abs(nxt - x) <= tol) | (hi - lo <= tol)
         x = nxt
         out[active] = x
-        if done.mean() > 0.3 or done.all():
-            keep = ~done
-            active, lo, hi, q, w_exp, tol, x = (v[keep] for v in (active, lo, hi, q, w_exp, tol, x))
+        if done.mean() > 0.15 or done.all():
+            keep = np.flatnonzero(~done)
+            active = active[keep]
+            lo, hi, q, w_exp, tol, x = np.stack([lo, hi, q, w_exp, tol, x])[:, keep]
             f_lin.take(keep)
             f_exp.take(keep)
     out = np.where(out >= cap, np.inf, out)
