@@ -3,8 +3,9 @@
 A machine's hour meter may be replaced (a ``meter_replaced`` event records the old
 meter's last reading in ``hours`` and the new meter's first reading in
 ``to_hours``). *Continuous* hours add the hours lost at each replacement so that
-they never run backwards. Records dated on or after a replacement belong to the
-new meter; records before it to the old one.
+they never run backwards. Records dated after a replacement belong to the new
+meter, records before it to the old one; on the day itself the nearer meter wins
+for arithmetic, and the hour-meter check puts the day on the new meter.
 """
 
 from __future__ import annotations
@@ -17,20 +18,30 @@ from logbook.model import Event, EventKind, Fitment
 
 
 def replacements_of(machine: str, events: Iterable[Event]) -> list[Event]:
-    """The meter replacements of one machine, oldest first."""
+    """The meter replacements of one machine that carry both meter readings, oldest first."""
     return sorted(
-        (e for e in events if e.kind is EventKind.METER_REPLACED and e.machine == machine),
+        (
+            e
+            for e in events
+            if e.kind is EventKind.METER_REPLACED and e.machine == machine and e.hours is not None and e.to_hours is not None
+        ),
         key=lambda e: (e.happened_on, e.id or 0),
     )
 
 
+def read_on_new_meter(rep: Event, on: date, meter_hours: float) -> bool:
+    """Was a meter value read on ``on`` taken on the new meter of ``rep``? On the
+    replacement day itself, the meter whose reading is nearer decides."""
+    if on != rep.happened_on:
+        return on > rep.happened_on
+    return abs(meter_hours - rep.to_hours) < abs(meter_hours - rep.hours)
+
+
 def continuous_hours(meter_hours: float, on: date, replacements: list[Event]) -> float:
-    """Hour-meter reading taken on ``on`` expressed on the machine's continuous scale."""
-    offset = 0.0
-    for rep in replacements:
-        if on >= rep.happened_on:
-            offset += float(rep.hours or 0.0) - float(rep.to_hours or 0.0)
-    return meter_hours + offset
+    """Hour-meter reading taken on ``on`` expressed on the machine's continuous scale
+    (in the first meter's terms)."""
+    offset = sum(rep.hours - rep.to_hours for rep in replacements if read_on_new_meter(rep, on, meter_hours))
+    return float(meter_hours) + offset
 
 
 def pump_hours(meter_hours: float, on: date, fitment: Fitment, replacements: list[Event]) -> float:
@@ -43,10 +54,9 @@ def pump_hours(meter_hours: float, on: date, fitment: Fitment, replacements: lis
 def fitment_on(fitments: Iterable[Fitment], on: date) -> Fitment | None:
     """The fitment that held on a day; on a move day the newer one."""
     best: Fitment | None = None
-    for f in fitments:
+    for f in sorted(fitments, key=lambda f: (f.fitted_on, f.id or 0)):
         if f.fitted_on <= on and (f.removed_on is None or on <= f.removed_on):
-            if best is None or f.fitted_on >= best.fitted_on:
-                best = f
+            best = f
     return best
 
 

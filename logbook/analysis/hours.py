@@ -13,52 +13,33 @@ from datetime import date
 
 import numpy as np
 
-from logbook.model import Event, EventKind, Fitment
+from logbook import meter
+from logbook.model import Event, Fitment
 
 
 def meter_replacements(machine: str, events: Iterable[Event]) -> list[Event]:
     """The meter replacements of ``machine`` that carry both meter readings, in date order."""
-    reps = [
-        e
-        for e in events
-        if e.kind is EventKind.METER_REPLACED and e.machine == machine and e.hours is not None and e.to_hours is not None
-    ]
-    return sorted(reps, key=lambda e: (e.happened_on, e.id or 0))
-
-
-def _after(rep: Event, on: date, meter_hours: float) -> bool:
-    """Was a meter value read on ``on`` taken on the new meter of ``rep``?"""
-    if on != rep.happened_on:
-        return on > rep.happened_on
-    return abs(meter_hours - rep.to_hours) < abs(meter_hours - rep.hours)  # same day: nearer meter
+    return meter.replacements_of(machine, events)
 
 
 def continuous_hours(machine: str, meter_hours: float, on: date, events: Iterable[Event]) -> float:
     """Machine hours on one unbroken scale across meter replacements (in the first meter's terms)."""
-    offset = sum(rep.hours - rep.to_hours for rep in meter_replacements(machine, events) if _after(rep, on, meter_hours))
-    return float(meter_hours) + offset
+    return meter.continuous_hours(meter_hours, on, meter.replacements_of(machine, events))
 
 
 def fitment_on(fitments: Sequence[Fitment], on: date) -> Fitment | None:
     """The fitment the pump was in on ``on`` (the most recent one fitted by then and not yet removed)."""
-    best = None
-    for f in sorted(fitments, key=lambda f: (f.fitted_on, f.id or 0)):
-        if f.fitted_on <= on and (f.removed_on is None or on <= f.removed_on):
-            best = f
-    return best
+    return meter.fitment_on(fitments, on)
 
 
 def pump_hours(
     meter_hours: float, on: date, fitments: Sequence[Fitment], events: Iterable[Event]
 ) -> float | None:
     """Pump operating hours for a machine meter value read on ``on``; None if no fitment covers that day."""
-    fit = fitment_on(fitments, on)
+    fit = meter.fitment_on(fitments, on)
     if fit is None:
         return None
-    events = tuple(events)
-    now = continuous_hours(fit.machine, meter_hours, on, events)
-    at_fit = continuous_hours(fit.machine, fit.machine_hours_at_fit, fit.fitted_on, events)
-    return fit.pump_hours_at_fit + (now - at_fit)
+    return meter.pump_hours(meter_hours, on, fit, meter.replacements_of(fit.machine, events))
 
 
 def pump_hours_by_date(
