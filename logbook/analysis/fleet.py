@@ -46,8 +46,9 @@ class _Row:
     x_now: float
 
 
-def _histories(fleet: Fleet) -> list[PumpHistory]:
-    """Histories of pumps fitted now, plus unfitted pumps that have readings (indexes built once)."""
+def _histories(fleet: Fleet, model: str | None = None) -> list[PumpHistory]:
+    """Histories of pumps fitted now, plus unfitted pumps that have readings (indexes built once);
+    only pumps of ``model`` when given."""
     fits, reads, pump_events, meter_events = defaultdict(list), defaultdict(list), defaultdict(list), defaultdict(list)
     for f in fleet.fitments:
         fits[f.serial].append(f)
@@ -61,6 +62,8 @@ def _histories(fleet: Fleet) -> list[PumpHistory]:
             pump_events[e.serial].append(e)
     out = []
     for serial in sorted(fleet.pumps):
+        if model is not None and fleet.pumps[serial].model != model:
+            continue
         pf = sorted(fits.get(serial, ()), key=lambda f: f.fitted_on)
         fitted = any(f.removed_on is None for f in pf)
         if not fitted and not reads.get(serial):
@@ -293,4 +296,18 @@ def forecast_pump(
     return pf
 
 
-__all__ = ["DEFAULT_HORIZON_HOURS", "fit_detail", "forecast_fleet", "forecast_histories", "forecast_pump"]
+def forecast_in_fleet(fleet: Fleet, serial: str, today: date, **kwargs) -> PumpForecast:
+    """One pump forecast exactly as the fleet view shows it: pooled with the other pumps
+    of its model (pooling never crosses models, so only they are fitted)."""
+    model = fleet.pumps[serial].model
+    subset = replace(fleet, pumps={s: p for s, p in fleet.pumps.items() if p.model == model or s == serial})
+    forecast = forecast_fleet(subset, today, **kwargs)
+    found = forecast.pump(serial)
+    if found is None:  # on the shelf with no readings: forecast on its own
+        return forecast_pump(fleet.history(serial), today)
+    return found
+
+
+__all__ = [
+    "DEFAULT_HORIZON_HOURS", "fit_detail", "forecast_fleet", "forecast_histories", "forecast_in_fleet", "forecast_pump",
+]

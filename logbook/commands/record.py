@@ -115,10 +115,10 @@ def run(args, ctx) -> int:
         previous = store.readings(reading.serial)
         saved = store.add_reading(reading, today=ctx.today)
         ctx.console.print(f"recorded reading {saved.id} for {saved.serial} on {saved.taken_on} ({saved.machine})", markup=False)
-        from logbook.analysis.fleet import forecast_pump
+        from logbook.analysis.fleet import forecast_in_fleet
 
-        history = store.history(saved.serial)
-    forecast = forecast_pump(history, today=ctx.today)
+        fleet = store.fleet()
+    forecast = forecast_in_fleet(fleet, saved.serial, ctx.today)
     before = {k: next((r.value(k) for r in reversed(previous) if r.value(k) is not None), None) for k in Kind}
     for kf in forecast.kinds:
         raw = saved.value(kf.kind)

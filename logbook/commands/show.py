@@ -17,16 +17,17 @@ def register(sub) -> None:
 
 
 def run(args, ctx) -> int:
-    from logbook.analysis.fleet import forecast_pump
+    from logbook.analysis.fleet import forecast_in_fleet
 
     with ctx.open_store() as store:
         pumps = store.pumps()
         if args.serial not in pumps:
             ctx.err.print(f"logbook show: serial {args.serial!r} is not a known pump", markup=False)
             return 2
-        history = store.history(args.serial)
+        fleet = store.fleet()
+        history = fleet.history(args.serial)
         all_readings = store.readings(args.serial, include_superseded=True) if args.all_readings else history.readings
-    forecast = forecast_pump(history, today=ctx.today)
+    forecast = forecast_in_fleet(fleet, args.serial, ctx.today)
     u, c = ctx.units, ctx.console
     m = history.model
     c.print(f"[bold]{args.serial}[/bold]  model {m.code} ({m.displacement_cc:g} cm3/rev, {fmt.pressure(m.rated_pressure_bar, u)} rated)  "
