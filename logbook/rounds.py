@@ -76,35 +76,9 @@ class NextTest:
 # -- hours -----------------------------------------------------------------------
 def machine_points(fleet: Fleet) -> dict[str, list[tuple[date, float]]]:
     """(date, continuous hours) records of each machine's meter: fitments, readings, events."""
-    fits: dict[str, list[Fitment]] = defaultdict(list)
-    for f in fleet.fitments:
-        fits[f.serial].append(f)
-    raw: dict[str, list[tuple[date, float]]] = defaultdict(list)
-    for f in fleet.fitments:
-        raw[f.machine].append((f.fitted_on, f.machine_hours_at_fit))
-        if f.removed_on is not None and f.machine_hours_at_removal is not None:
-            raw[f.machine].append((f.removed_on, f.machine_hours_at_removal))
-    for r in fleet.readings:
-        machine = r.machine
-        if machine is None:
-            fit = meter.fitment_on(fits.get(r.serial, ()), r.taken_on)
-            machine = fit.machine if fit is not None else None
-        if machine is not None:
-            raw[machine].append((r.taken_on, r.machine_hours))
-    for e in fleet.events:
-        if e.kind is EventKind.METER_REPLACED:
-            if e.machine is not None and e.to_hours is not None:
-                raw[e.machine].append((e.happened_on, e.to_hours))  # the new meter: its day belongs to it
-            continue
-        if e.machine is not None and e.hours is not None:
-            raw[e.machine].append((e.happened_on, e.hours))
-        if e.kind is EventKind.MOVE and e.to_machine is not None and e.to_hours is not None:
-            raw[e.to_machine].append((e.happened_on, e.to_hours))
-    out = {}
-    for m, pts in raw.items():
-        reps = meter.replacements_of(m, fleet.events)
-        out[m] = sorted((d, meter.continuous_hours(h, d, reps)) for d, h in pts)
-    return out
+    from logbook.analysis.calendar import machine_hour_points
+
+    return machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
 
 
 def machine_hours_now(points: Sequence[tuple[date, float]], today: date, per_day: float | None) -> float | None:

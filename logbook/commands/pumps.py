@@ -12,6 +12,7 @@ def register(sub) -> None:
     p.add_argument("--site", default=None)
     p.add_argument("--model", default=None)
     p.add_argument("--status", default=None, help="only pumps whose status contains this text")
+    p.add_argument("--due", action="store_true", help="only pumps whose next reading is due (by interval or forecast)")
     p.add_argument("--limit", type=int, default=None, help="show at most N pumps")
     p.set_defaults(func=run)
 
@@ -29,12 +30,17 @@ def urgency_key(p):
     return (past, w.p10_date or date.max, w.p50_date or date.max, p.serial)
 
 
-def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None) -> Table:
+def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None, tests=None, due_only=False) -> Table:
+    """The fleet as a table; ``tests`` (serial -> rounds.NextTest) adds the next-reading column."""
     table = Table(box=None, header_style="bold", pad_edge=False)
-    for col in ("serial", "machine/pos", "model", "h since ovh", "nearest limit", "P10", "P50", "status"):
+    cols = ["serial", "machine/pos", "model", "h since ovh", "nearest limit", "P10", "P50", "status"]
+    if tests is not None:
+        cols.append("next reading")
+    for col in cols:
         table.add_column(col, no_wrap=True)
     rows = [p for p in forecast.pumps if (site is None or p.site == site) and (model is None or p.model == model)
-            and (status is None or status.lower() in p.status.lower())]
+            and (status is None or status.lower() in p.status.lower())
+            and (not due_only or (tests is not None and p.serial in tests and tests[p.serial].is_due(ctx.today)))]
     rows.sort(key=urgency_key)
     for p in rows[:limit]:
         w = p.worst
@@ -47,15 +53,19 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
             fmt.day(w.p10_date) if w else "-",
             fmt.day(w.p50_date) if w else "-",
             p.status,
+            *([tests[p.serial].words(ctx.today) if p.serial in tests else "-"] if tests is not None else []),
         )
     return table
 
 
 def run(args, ctx) -> int:
     from logbook.analysis.fleet import forecast_fleet
+    from logbook.rounds import next_tests
 
     with ctx.open_store() as store:
         fleet = store.fleet()
     forecast = forecast_fleet(fleet, today=ctx.today)
-    ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status, limit=args.limit))
+    tests = next_tests(fleet, forecast, ctx.today)
+    ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status, limit=args.limit,
+                                  tests=tests, due_only=args.due))
     return 0
