@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from sqlite3 import DatabaseError as SQLiteError  # any failure of SQLite itself (damaged file, disk full...)
 
+from logbook.store.bulk import BulkMixin
 from logbook.store.core import DatabaseBusy, DatabaseMissing, DatabaseTooNew, StoreCore, StoreError
 from logbook.store.corrections import CORRECTABLE, CorrectionsMixin
 from logbook.store.maintenance import BackupResult, Finding, MaintenanceMixin
@@ -23,7 +24,7 @@ from logbook.store.trail import TrailEntry, TrailMixin
 from logbook.store.writes import WriteMixin
 
 
-class Store(CorrectionsMixin, MaintenanceMixin, TrailMixin, RecordsMixin, WriteMixin, ReadMixin, StoreCore):
+class Store(CorrectionsMixin, MaintenanceMixin, TrailMixin, BulkMixin, RecordsMixin, WriteMixin, ReadMixin, StoreCore):
     """A logbook database. Reads return domain records; writes validate first and
     then commit all-or-nothing, recording who and when in the audit table.
 

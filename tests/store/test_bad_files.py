@@ -9,7 +9,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from logbook import imports
+from logbook import csvread, imports
 from logbook.cli import main
 from logbook.imports import import_bytes
 from logbook.store import Store
@@ -122,7 +122,7 @@ def test_random_bytes_never_raise(store):
 
 
 def test_files_over_the_size_limit_are_refused(store, tmp_path, monkeypatch, capsys):
-    monkeypatch.setattr(imports, "MAX_FILE_BYTES", 1000)
+    monkeypatch.setattr(csvread, "MAX_FILE_BYTES", 1000)
     report = import_bytes(store, "readings", READINGS * 50, name="big.csv", today=TODAY)
     assert report.problems[0].field == "file" and "split it" in report.problems[0].allowed
     big = tmp_path / "huge.csv"

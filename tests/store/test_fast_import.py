@@ -1,0 +1,113 @@
+"""The column-wise fast lane (Store.add_reading_columns) writes exactly what the
+row-by-row add_readings writes, or declines; it never accepts what add_readings rejects."""
+
+from __future__ import annotations
+
+import sqlite3
+from datetime import date, timedelta
+
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from logbook.imports import _readings_from_columns
+from logbook.store import Store
+
+from .conftest import MACHINES, MODELS, PUMPS, READINGS, TODAY, load
+
+# (serial, machine) of the conftest fleet; S-300 is on the shelf, S-999 unknown.
+PUMP_MACHINE = {"S-100": "M-1", "S-200": "M-2", "S-300": None, "S-999": None}
+LAST = {"S-100": (date(2025, 5, 1), 1500.0), "S-200": (date(2025, 3, 1), 5300.0), "S-300": (date(2025, 6, 1), 0.0),
+        "S-999": (date(2025, 6, 1), 0.0)}
+ROW_COLUMNS = ("case_drain", "servo_pressure", "neutral_drift", "oil_temp", "test_pressure", "test_speed", "machine")
+
+
+@st.composite
+def batches(draw):
+    """Mostly clean batches (dates and hours rising per pump), with a chance of each
+    kind of trouble: unknown pump, meter backwards, duplicates, limits, a wrong machine."""
+    def pick(good, *bad):  # the good value, now and then a bad one
+        return draw(st.sampled_from(bad)) if bad and draw(st.integers(0, 24)) == 0 else good
+
+    rows = []
+    serials = draw(st.lists(st.sampled_from(["S-100", "S-200"]), min_size=1, max_size=2, unique=True))
+    stranger = pick(None, "S-300", "S-999")  # a pump never fitted, or unknown
+    for serial in serials + ([stranger] if stranger else []):
+        day, hours = LAST[serial]
+        for _ in range(draw(st.integers(1, 6))):
+            day += timedelta(days=draw(st.integers(0, 40)))
+            hours += pick(draw(st.sampled_from([0.0, 10.0, 55.5])), -30.0, -0.5)
+            rows.append({
+                "serial": serial, "date": day, "machine_hours": hours,
+                "case_drain": draw(st.sampled_from([None, 3.5, 4.0])) if pick(True, False) else 181.0,
+                "servo_pressure": pick(draw(st.sampled_from([25.0, 24.0])), None),
+                "neutral_drift": draw(st.sampled_from([None, -1.5])),
+                "oil_temp": pick(50.0, None), "test_pressure": pick(400.0, 501.0, None),
+                "test_speed": pick(2000.0, 2600.0, None),
+                "machine": pick(draw(st.sampled_from([None, PUMP_MACHINE[serial]])), "M-2", "M-1"),
+            })
+    if draw(st.integers(0, 9)) == 0:
+        rows.append(dict(rows[0]))  # the same row twice
+    if draw(st.integers(0, 9)) == 0:
+        rows.append({**dict.fromkeys(ROW_COLUMNS), "serial": "S-100", "date": date(2025, 2, 1), "machine_hours": 1100.0,
+                     "case_drain": 3.1, "servo_pressure": 26.0, "neutral_drift": 1.0, "oil_temp": 50.0,
+                     "test_pressure": 400.0, "test_speed": 2000.0})  # already recorded
+    columns = {name: [r.get(name) for r in rows] for name in ("serial", "date", "machine_hours", *ROW_COLUMNS)}
+    return columns, list(range(2, len(rows) + 2))
+
+
+def _content(store: Store) -> list[tuple]:
+    return store.conn.execute(
+        "SELECT serial, taken_on, machine, machine_hours, case_drain_lpm, servo_pressure_bar, neutral_drift_bar, oil_temp_c, "
+        "test_pressure_bar, test_speed_rpm, technician, note, entered_by, import_id IS NOT NULL FROM readings ORDER BY id"
+    ).fetchall()
+
+
+def test_fast_lane_writes_what_the_row_by_row_check_writes(tmp_path):
+    base = Store(tmp_path / "base.db", user="tester")
+    for table, data in (("models", MODELS), ("machines", MACHINES), ("pumps", PUMPS), ("readings", READINGS)):
+        load(base, table, data)
+    stats = {"cases": 0, "fast": 0, "declined and rejected": 0, "declined but accepted": 0}
+
+    def copy() -> Store:
+        s = Store(":memory:", user="tester")
+        base.conn.backup(s.conn)
+        return s
+
+    @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+    @given(batches())
+    def check(batch):
+        columns, lines = batch
+        stats["cases"] += 1
+        fast, slow = copy(), copy()
+        report = fast.add_reading_columns(columns, lines=lines, today=TODAY, source=("f.csv", "0" * 64))
+        reference = slow.add_readings(_readings_from_columns(columns, len(lines)), lines=lines, today=TODAY,
+                                      source=("f.csv", "0" * 64))
+        if report is None:
+            assert _content(fast) == _content(base)  # declining wrote nothing
+            stats["declined and rejected" if reference.problems else "declined but accepted"] += 1
+        else:
+            stats["fast"] += 1
+            assert reference.problems == [] and reference.already_present == 0
+            assert report.added == reference.added == len(lines)
+            assert _content(fast) == _content(slow)
+            assert fast.check() == []
+        fast.close()
+        slow.close()
+
+    check()
+    print(f"fast-lane cases: {stats}")
+    assert stats["fast"] >= 15 and stats["declined and rejected"] >= 15
+    base.close()
+
+
+def test_fast_lane_declines_when_it_would_need_a_message(store):
+    day = date(2025, 8, 1)
+    bad = {"serial": ["S-100"], "date": [day], "machine_hours": [1000.0], "servo_pressure": [25.0]}  # meter backwards
+    before = store.counts()
+    assert store.add_reading_columns(bad, lines=[2], today=TODAY) is None
+    assert store.counts() == before
+    good = {**bad, "machine_hours": [1900.0]}
+    assert store.add_reading_columns(good, lines=[2], today=TODAY).added == 1
+    # Entered without a source file: one audit row per reading, as add_readings does.
+    assert store.audit_trail("S-100")[-1]["action"] == "insert"
+    assert isinstance(store.conn, sqlite3.Connection)
