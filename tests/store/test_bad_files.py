@@ -217,3 +217,17 @@ def test_a_database_path_that_is_not_a_logbook(tmp_path, db_kind, capsys):
         assert main(["--db", str(path), *argv]) == 1
         err = capsys.readouterr().err
         assert "logbook:" in err and "Traceback" not in err
+
+
+def test_sql_in_text_is_stored_as_text(tmp_path):
+    """Values always travel as parameters: SQL typed into a note or a name is just text."""
+    evil = "x'); DROP TABLE readings; --"
+    s = Store(tmp_path / "t.db", user="Robert'); DROP TABLE audit; --")
+    for table, data in (("models", MODELS), ("machines", MACHINES), ("pumps", PUMPS), ("readings", READINGS)):
+        load(s, table, data)
+    data = f"serial,date,machine_hours,servo_pressure,technician,note\nS-200,2025-08-01,5900,25,Ana,{evil}\n".encode()
+    assert import_bytes(s, "readings", data, name=f"{evil}.csv", today=TODAY).problems == []
+    assert s.readings("S-200")[-1].note == evil
+    assert s.counts()["readings"] == 4 and s.audit_trail()[-1]["who"] == "Robert'); DROP TABLE audit; --"
+    assert s.check() == []
+    s.close()

@@ -123,3 +123,42 @@ def test_import_killed_at_any_moment_leaves_nothing_and_a_rerun_completes(tmp_pa
     added = 0 if outcomes[-1][2] else PUMPS * PER_PUMP
     assert code == 0 and out.split() == ["done", str(added), "0"]
     assert _state(db) == ("ok", PUMPS * PER_PUMP, 1)
+
+
+def _plan_child(db: str, out: str, ready) -> None:
+    from logbook.cli import main
+
+    ready.send("ready")
+    main(["--db", db, "--today", "2026-01-01", "forecast", "--out", out])
+    ready.send("done")
+
+
+def _run_plan(db: str, out, kill_after_s: float | None) -> int:
+    ctx = multiprocessing.get_context("fork")
+    ours, theirs = ctx.Pipe()
+    child = ctx.Process(target=_plan_child, args=(db, str(out), theirs))
+    child.start()
+    assert ours.recv() == "ready"
+    if kill_after_s is not None:
+        time.sleep(kill_after_s)
+        if child.is_alive():
+            os.kill(child.pid, signal.SIGKILL)
+    child.join(timeout=120)
+    return child.exitcode
+
+
+def test_plan_run_killed_leaves_the_database_and_no_half_written_plan(store, tmp_path):
+    """A plan run only reads the database and writes its file by rename: killed at any
+    moment, the database is untouched and the plan file is absent or whole."""
+    before = (store.counts(), len(store.audit_trail()))
+    out = tmp_path / "plan.md"
+    left = []
+    for kill_after_s in (0.02, 0.1, 0.3):
+        code = _run_plan(store.path, out, kill_after_s)
+        assert _state(store.path)[0] == "ok"
+        left.append((code, out.read_text() if out.exists() else None))
+    assert _run_plan(store.path, out, None) == 0
+    whole = out.read_text()
+    assert whole.strip() and all(text in (None, whole) for _, text in left)
+    assert (store.counts(), len(store.audit_trail())) == before
+    print(f"plan runs (exit code, left a file): {[(code, text is not None) for code, text in left]}")
