@@ -112,6 +112,8 @@ class BulkMixin:
                 raise _Declined  # already recorded (the same or other values)
         self._check_meters(machine_of, isos, hours)
         texts = [[t or "" for t in columns.get(name) or none] for name in ("technician", "note")]
+        if any(len(t) > 500 or not t.isprintable() for t in texts[0] + texts[1] if t):
+            raise _Declined  # long or unusual text: add_readings words the rule
         values = [serials, isos, machine_of, hours] + [columns.get(name) or none for name in _INPUT[4:14]] + texts
         return Checked([], values, 0)
 

@@ -21,6 +21,7 @@ from logbook.model import (
 from logbook.store.writes import EVENT_COLUMNS, READING_COLUMNS, Checked, _line, _with_line
 from logbook.validate import check_hour_meter, check_reading_against_model
 
+MAX_TEXT = 500
 _VALUE_FIELDS = (
     "case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar oil_temp_c test_pressure_bar "
     "test_speed_rpm oil_grade oil_vi iso4406"
@@ -29,6 +30,15 @@ _VALUE_FIELDS = (
 
 _INSERT_READING = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
 _INSERT_EVENT = f"INSERT INTO events ({', '.join(EVENT_COLUMNS)}) VALUES ({', '.join('?' * len(EVENT_COLUMNS))})"
+
+
+def _text_problems(technician: str, note: str) -> list[Problem]:
+    """Free text: one line of at most MAX_TEXT characters (as in a CSV cell)."""
+    return [
+        Problem(name, text[:40], f"must be one line of at most {MAX_TEXT} characters")
+        for name, text in (("technician", technician), ("note", note))
+        if text and (len(text) > MAX_TEXT or any(ord(ch) < 32 and ch != "\t" for ch in text))
+    ]
 
 
 def _values(r: Reading) -> tuple:
@@ -134,6 +144,7 @@ class RecordsMixin:
             elif r.machine is not None and r.machine != fit.machine:
                 row_problems.append(Problem("machine", r.machine, f"pump {r.serial} sat in {fit.machine} on {r.taken_on}"))
             row_problems += check_model(r, models[pump.model])
+            row_problems += _text_problems(r.technician, r.note)
             key = (r.serial, r.taken_on, r.machine_hours)
             if not row_problems:
                 found = existing.get((r.serial, r.taken_on.isoformat(), r.machine_hours))
@@ -298,6 +309,7 @@ class RecordsMixin:
                         errs += self._check_move(e, machines, fits, current, timeline)
                         if not errs:
                             closed, opened = self._move_fitments(e, current, fits, reps)
+            errs += _text_problems(e.technician, e.note)
             e = dataclasses.replace(e, machine=machine)
             key = (e.kind, e.happened_on, e.serial, e.machine, e.hours)
             if not errs and key in existing:

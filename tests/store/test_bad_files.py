@@ -145,6 +145,8 @@ BAD_ARGS = [
     ["record", "S-100", "--date", "2025-08-01", "--hours", "1900", "--servo-pressure", "=A1"],
     ["record", "S-100", "--date", "2025-08-01", "--hours", "1900", "--oil-grade", "47", "--iso4406", "30/1/2"],
     ["record", "S-100", "--date", "2025-08-01", "--hours", "1900"],
+    ["record", "S-100", "--date", "2025-08-01", "--hours", "1900", "--servo-pressure", "25", "--note", "two\nlines"],
+    ["event", "overhaul", "S-100", "--date", "2025-08-01", "--hours", "1900", "--technician", "x" * 501],
     ["event", "explode", "S-100", "--date", "2025-08-01"],
     ["event", "overhaul", "S-100", "--date", "2025-08-01", "--hours", "many"],
     ["event", "move", "S-100", "--date", "2025-08-01", "--hours", "1900"],
