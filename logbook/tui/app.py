@@ -10,6 +10,7 @@ screens redraw. A poll of ``store.change_count()`` notices other users' writes.
 from __future__ import annotations
 
 from datetime import date
+from pathlib import Path
 
 from textual import work
 from textual.app import App
@@ -19,7 +20,7 @@ from textual.worker import get_current_worker
 
 from logbook.model import Fleet
 from logbook.tui.gate import StoreGate, trouble_text
-from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble
+from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble, FleetRead
 from logbook.units import UnitPrefs
 
 DARK_THEMES = {"textual-dark": "textual-light", "ansi-dark": "ansi-light"}
@@ -29,7 +30,7 @@ LIGHT_THEMES = {v: k for k, v in DARK_THEMES.items()}
 class LogbookApp(App):
     """Fleet view first; pump, entry, model, plan and help screens on top of it."""
 
-    CSS_PATH = "app.tcss"
+    CSS_PATH = Path(__file__).parent / "app.tcss"  # absolute: subclasses elsewhere find it too
     TITLE = "logbook"
     ENABLE_COMMAND_PALETTE = False
     BINDINGS = [
@@ -57,19 +58,21 @@ class LogbookApp(App):
         self.seen_changes: int | None = None
         self.trouble: str = ""
         self.user = getattr(store, "user", "")
-        self._start_light = light
+        sixteen = self.console.color_system in (None, "standard")
+        dark, light_theme = ("ansi-dark", "ansi-light") if sixteen else ("textual-dark", "textual-light")
+        self.theme = light_theme if light else dark
         self.export_dir = export_dir  # where the plan export goes (default: the working directory)
         self.blink = blink  # text cursor blinking (off in tests and snapshots)
 
     # -- start -----------------------------------------------------------------------
-    def on_mount(self) -> None:
-        sixteen = self.console.color_system in (None, "standard")
-        dark, light = ("ansi-dark", "ansi-light") if sixteen else ("textual-dark", "textual-light")
-        self.theme = light if self._start_light else dark
+    def get_default_screen(self):
         from logbook.tui.screens.fleet import FleetScreen
 
-        self.push_screen(FleetScreen())
-        self.load_data("start")
+        return FleetScreen()
+
+    def on_mount(self) -> None:
+        # Read and forecast after the first frame is on screen, so the view appears at once.
+        self.call_after_refresh(self.load_data, "start")
         if self.poll_seconds > 0:
             self.set_interval(self.poll_seconds, self.poll_changes)
 
@@ -82,6 +85,8 @@ class LogbookApp(App):
             with self.gate.open() as store:
                 fleet = store.fleet()
                 count = store.change_count()
+            if self.forecast is None and not worker.is_cancelled:
+                self.post_message(FleetRead(fleet))  # pumps can be listed while the forecast runs
             from logbook.analysis.fleet import forecast_fleet
 
             forecast = forecast_fleet(fleet, today=self.today)
@@ -99,6 +104,11 @@ class LogbookApp(App):
         self.data_generation += 1
         if message.reason == "others":
             self.notify("The logbook was changed by someone else; the views are up to date again.", timeout=4)
+
+    def on_fleet_read(self, message: FleetRead) -> None:
+        if self.forecast is None:
+            self.fleet = message.fleet
+            self.data_generation += 1
 
     def on_data_trouble(self, message: DataTrouble) -> None:
         self.trouble = message.text
@@ -137,9 +147,7 @@ class LogbookApp(App):
     def check_action(self, action: str, parameters) -> bool | None:
         """No quitting from an entry form with one key: Esc leaves the form first."""
         if action == "quit":
-            from logbook.tui.screens.entry import EntryScreen
-
-            return not isinstance(self.screen, EntryScreen)
+            return not getattr(self.screen, "HOLDS_INPUT", False)
         return True
 
     def action_help(self) -> None:

@@ -18,6 +18,14 @@ class DataLoaded(Message):
         self.reason = reason
 
 
+class FleetRead(Message):
+    """The fleet snapshot is read; its forecast is still being computed."""
+
+    def __init__(self, fleet: Fleet) -> None:
+        super().__init__()
+        self.fleet = fleet
+
+
 class DataTrouble(Message):
     """Reading the logbook failed; ``text`` says why in words."""
 

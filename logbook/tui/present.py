@@ -216,6 +216,21 @@ SORT_WORDS = {
 }
 
 
+FORECASTING = "… forecasting"
+
+
+def provisional_pumps(fleet) -> list[PumpForecast]:
+    """Pumps in service from the snapshot alone, shown while the first forecast runs
+    (no figures: every forecast field is left empty)."""
+    out = []
+    for f in fleet.fitments:
+        if f.removed_on is None and f.serial in fleet.pumps:
+            machine = fleet.machines.get(f.machine)
+            out.append(PumpForecast(f.serial, fleet.pumps[f.serial].model, f.machine, f.position,
+                                    machine.site if machine else None, None, None, (), status=FORECASTING))
+    return out
+
+
 def select_pumps(
     pumps, *, site: str | None = None, model: str | None = None, status: str | None = None,
     sort_key: str = "status", reverse: bool = False,

@@ -7,6 +7,7 @@ from datetime import date
 from textual.widgets import DataTable, Select
 
 from logbook.analysis.status import STATUS_ORDER
+from logbook.tui.screens.filters import FilterScreen
 from logbook.tui.screens.fleet import FleetScreen
 from logbook.tui.screens.pump import PumpScreen
 from tests.tui.conftest import settle
@@ -73,22 +74,32 @@ async def test_filter_by_site_model_and_status(demo_app):
     async with demo_app.run_test(size=(120, 40)) as pilot:
         await settle(demo_app, pilot)
         app = demo_app
-        site = "Lowmarsh Pit"
-        app.screen.query_one("#site", Select).value = site
-        await pilot.pause()
+        fleet = app.screen
+        await pilot.press("f")  # the filter window
+        assert isinstance(app.screen, FilterScreen)
+        sites = sorted({p.site for p in app.forecast.pumps})
+        await pilot.press("enter", "down", "down", "enter")  # open the site list, take the second site
+        site = sites[1]
+        assert app.screen.query_one("#site", Select).value == site
         expected = sorted(p.serial for p in app.forecast.pumps if p.site == site)
-        assert sorted(_column(app, "serial")) == expected and 0 < len(expected) < len(app.forecast.pumps)
+        assert sorted(fleet.serials) == expected and 0 < len(expected) < len(app.forecast.pumps)
+        assert f"{len(expected)} pumps match" in str(app.screen.query_one("#filter-count").render())
         app.screen.query_one("#model", Select).value = "TQ-90"
         await pilot.pause()
         expected = sorted(p.serial for p in app.forecast.pumps if p.site == site and p.model == "TQ-90")
+        assert sorted(fleet.serials) == expected
+        await pilot.press("escape")
+        assert app.screen is fleet
+        assert site in str(fleet.query_one("#filter-summary").render())
         assert sorted(_column(app, "serial")) == expected
         await pilot.press("x")  # clear the filters
-        app.screen.query_one("#status", Select).value = "△ plan overhaul"
+        assert len(fleet.serials) == len(app.forecast.pumps)
+        fleet.set_filters({"status": "△ plan overhaul"})
         await pilot.pause()
         shown = _column(app, "status")
         assert set(shown) == {"△ plan overhaul"}
         assert len(shown) == sum(1 for p in app.forecast.pumps if p.status == "△ plan overhaul")
-        assert "of 111 shown" in str(app.screen.query_one("#status-line").render())
+        assert "of 111 shown" in str(fleet.query_one("#status-line").render())
 
 
 async def test_typing_a_serial_jumps_to_it_and_enter_opens_it(demo_app):

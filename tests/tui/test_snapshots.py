@@ -14,6 +14,7 @@ VIEWS = {
     "reading": ("down", "down", "r"),
     "event": ("down", "down", "e"),
     "help": ("f1",),
+    "filters": ("f",),
 }
 
 

@@ -21,6 +21,8 @@ CHECK_DELAY_S = 0.35
 class EntryScreen(Screen):
     """Subclasses supply ``build_record``, ``dry_run`` and ``write``."""
 
+    HOLDS_INPUT = True  # the app's one-key quit is off here
+
     BINDINGS = [
         Binding("f2", "save", "Save", key_display="F2", tooltip="save (the logbook checks everything first)", id="entry.save"),
         Binding("escape", "back", "Back", tooltip="leave the form; what is not saved is dropped", id="entry.back"),

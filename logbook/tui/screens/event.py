@@ -99,5 +99,6 @@ class EventScreen(EntryScreen):
             text += " New trends start for " + ", ".join(k.label for k in resets) + "; the forecast is being updated."
         box.update(text + "\nEsc goes back.")
         box.add_class("-shown")
+        self.call_after_refresh(box.scroll_visible, animate=False)
         self.query_one("#check", Static).update(f"✓ Saved event {event.id}.")
         self.query_one("#check", Static).remove_class("-bad")

@@ -10,12 +10,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Input, Select, Static
+from textual.widgets import DataTable, Footer, Input, Static
 
 from logbook.tui import present
 from logbook.tui.widgets.tables import OpenTable
-
-ANY = Select.NULL
 
 
 class FleetScreen(Screen):
@@ -30,7 +28,7 @@ class FleetScreen(Screen):
         Binding("s", "sort_next", "Sort", tooltip="sort by the next column (most urgent, P10, P50, hours, serial...)",
                 id="fleet.sort"),
         Binding("S", "sort_reverse", "Reverse", show=False, tooltip="reverse the sort order", id="fleet.sort_reverse"),
-        Binding("f", "filter", "Filter", tooltip="go to the filters: site, model, status (Tab moves on, Esc back)",
+        Binding("f", "filter", "Filter", tooltip="choose site, model and status to show",
                 id="fleet.filter"),
         Binding("slash", "find", "Find serial", show=False, tooltip="type a serial to jump to it; Enter opens it",
                 id="fleet.find"),
@@ -39,7 +37,8 @@ class FleetScreen(Screen):
         Binding("p", "plan", "Plan", tooltip="the month-by-month overhaul plan and its export", id="fleet.plan"),
         Binding("o", "round", "Round", show=False, tooltip="a reading round: a site's pumps due for a reading, one after another",
                 id="fleet.round"),
-        Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from a filter", id="fleet.table"),
+        Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from the serial box",
+                id="fleet.table"),
     ]
 
     def __init__(self) -> None:
@@ -48,14 +47,14 @@ class FleetScreen(Screen):
         self.reverse = False
         self.serials: list[str] = []  # serial of each table row, in row order
         self._layout: tuple = ()
-        self._shown_generation = -1
+        self._jumping = False  # typing a serial on the table: the search box is filling
+        self._forecast_shown = False  # the rows come from a forecast (not the provisional list)
+        self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None}
 
     def compose(self) -> ComposeResult:
         yield Static("logbook", id="title")
         with Horizontal(id="filters"):
-            yield Select([], prompt="All sites", id="site", compact=True)
-            yield Select([], prompt="All models", id="model", compact=True)
-            yield Select([], prompt="All statuses", id="status", compact=True)
+            yield Static(self._filter_words(), id="filter-summary")
             yield Input(placeholder="serial…", id="find", compact=True, select_on_focus=False)
         table = OpenTable(id="fleet-table", cursor_type="row", zebra_stripes=True, cell_padding=0)
         yield table
@@ -69,46 +68,60 @@ class FleetScreen(Screen):
 
     # -- data -----------------------------------------------------------------------------
     def _data_changed(self, generation: int) -> None:
-        forecast = self.app.forecast
-        if forecast is None:
+        if self.app.forecast is None:
             if self.app.trouble:
                 self.query_one("#status-line", Static).update(f"Cannot read the logbook: {self.app.trouble}")
+            elif self.app.fleet is not None:
+                self.refill()  # the pumps, while their forecast is computed
             return
-        self._fill_filters(forecast)
         self.refill()
 
-    def _fill_filters(self, forecast) -> None:
-        pumps = forecast.pumps
+    def filter_options(self) -> dict[str, list[str]]:
         from logbook.analysis.status import STATUS_ORDER
 
-        options = {
+        pumps = self.all_pumps()
+        return {
             "site": sorted({p.site or "-" for p in pumps}),
             "model": sorted({p.model for p in pumps}),
             "status": [s for s in STATUS_ORDER if any(p.status == s for p in pumps)]
             + sorted({p.status for p in pumps} - set(STATUS_ORDER)),
         }
-        for name, values in options.items():
-            select = self.query_one(f"#{name}", Select)
-            current = select.value
-            with select.prevent(Select.Changed):
-                select.set_options([(v, v) for v in values])
-                if current in values:
-                    select.value = current
+
+    def _filter_words(self) -> str:
+        f = self.filters
+        words = [f["site"] or "all sites", f["model"] or "all models", f["status"] or "all statuses"]
+        return "Filter (f): " + " · ".join(words)
+
+    def set_filters(self, chosen: dict) -> int:
+        """Apply filters (None = any); returns how many pumps are shown."""
+        self.filters = {k: chosen.get(k) for k in ("site", "model", "status")}
+        self.query_one("#filter-summary", Static).update(self._filter_words())
+        self.refill()
+        return len(self.serials)
 
     def _filter_value(self, name: str):
-        value = self.query_one(f"#{name}", Select).value
-        return None if value is ANY or value is Select.NULL else value
+        return self.filters.get(name)
+
+    def all_pumps(self) -> list:
+        """The forecast's pumps, or while it is computed, the pumps of the snapshot."""
+        if self.app.forecast is not None:
+            return list(self.app.forecast.pumps)
+        return present.provisional_pumps(self.app.fleet) if self.app.fleet is not None else []
 
     def refill(self) -> None:
         """Re-select, re-sort and re-add the rows; keep the cursor on the same pump."""
-        forecast = self.app.forecast
-        if forecast is None:
+        if self.app.fleet is None:
             return
+        forecast = self.app.forecast
+        everything = self.all_pumps()
         table = self.query_one("#fleet-table", DataTable)
-        keep = self.current_serial()
+        # Keep the cursor on its pump, except when the first forecast replaces the provisional list.
+        keep = self.current_serial() if self._forecast_shown or forecast is None else None
+        self._forecast_shown = forecast is not None
         pumps = present.select_pumps(
-            forecast.pumps, site=self._filter_value("site"), model=self._filter_value("model"),
-            status=self._filter_value("status"), sort_key=self.sort_key, reverse=self.reverse,
+            everything, site=self._filter_value("site"), model=self._filter_value("model"),
+            status=self._filter_value("status"), sort_key=self.sort_key if forecast is not None else "where",
+            reverse=self.reverse,
         )
         self._ensure_columns(table)
         table.clear()
@@ -116,13 +129,13 @@ class FleetScreen(Screen):
         table.add_rows([[c.cell(p) for c in self._layout] for p in pumps])
         if keep in self.serials:
             table.move_cursor(row=self.serials.index(keep), animate=False)
-        self._update_title(forecast)
-        self._update_status(pumps, forecast)
+        self._update_title(everything)
+        self._update_status(pumps, everything)
 
     def _ensure_columns(self, table: DataTable) -> bool:
         # One cell for the scrollbar, one for the separator after the last column.
         width = max(table.size.width or self.app.size.width, 40) - 2
-        serial_width = max((len(s) for s in (p.serial for p in self.app.forecast.pumps)), default=7) if self.app.forecast else 7
+        serial_width = max((len(s) for s in self.app.fleet.pumps), default=7) if self.app.fleet else 7
         layout = present.fleet_layout(width, serial_width)
         if [(c.key, c.width, c.label) for c in layout] == [(c.key, c.width, c.label) for c in self._layout]:
             return False
@@ -138,23 +151,26 @@ class FleetScreen(Screen):
         mark = "▼" if not self.reverse else "▲"
         return (column.label[: column.width - 1] + mark) if len(column.label) >= column.width else column.label + mark
 
-    def _update_title(self, forecast) -> None:
-        source = Path(forecast.source).name if forecast.source else "database"
+    def _update_title(self, everything) -> None:
+        source = Path(self.app.fleet.source).name if self.app.fleet.source else "database"
         self.query_one("#title", Static).update(
-            f"Fleet on {forecast.today.isoformat()} · {len(forecast.pumps)} pumps · {source}"
+            f"Fleet on {self.app.today.isoformat()} · {len(everything)} pumps · {source}"
         )
 
-    def _update_status(self, pumps, forecast) -> None:
+    def _update_status(self, pumps, everything) -> None:
+        if self.app.forecast is None:
+            self.query_one("#status-line", Static).update(f"{len(pumps)} pumps · forecasting their wear trends…")
+            return
         counts = Counter(p.status for p in pumps)
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
-        line = f"{len(pumps)} of {len(forecast.pumps)} shown · sorted: {order} · " + "; ".join(parts)
+        line = f"{len(pumps)} of {len(everything)} shown · sorted: {order} · " + "; ".join(parts)
         if self.app.trouble:
             line = f"Last refresh failed: {self.app.trouble}"
         self.query_one("#status-line", Static).update(line)
 
     def on_resize(self, event: events.Resize) -> None:
-        if self.app.forecast is not None:
+        if self.app.fleet is not None:
             self.call_after_refresh(self._relayout)
 
     def _relayout(self) -> None:
@@ -178,10 +194,6 @@ class FleetScreen(Screen):
         return self.serials[i + 1:]
 
     # -- events ------------------------------------------------------------------------------
-    @on(Select.Changed)
-    def _filter_changed(self, event: Select.Changed) -> None:
-        self.refill()
-
     @on(Input.Changed, "#find")
     def _find_changed(self, event: Input.Changed) -> None:
         text = event.value.strip().lower()
@@ -211,10 +223,17 @@ class FleetScreen(Screen):
         ch = event.character
         if ch.isdigit() or (ch.isalpha() and ch.isupper() and ch != "S") or ch == "-":
             find = self.query_one("#find", Input)
-            find.value = ch
-            find.cursor_position = len(ch)
+            if not self._jumping:  # a new search; keys typed before the focus moves are appended
+                self._jumping = True
+                find.value = ""
+            find.insert_text_at_cursor(ch)
             find.focus()
             event.stop()
+
+    @on(events.DescendantFocus)
+    def _focus_moved(self, event: events.DescendantFocus) -> None:
+        if isinstance(event.widget, DataTable):
+            self._jumping = False
 
     # -- actions ---------------------------------------------------------------------------
     @on(DataTable.RowSelected)
@@ -266,15 +285,14 @@ class FleetScreen(Screen):
         self.query_one("#find", Input).focus()
 
     def action_filter(self) -> None:
-        self.query_one("#site", Select).focus()
+        from logbook.tui.screens.filters import FilterScreen
+
+        if self.app.fleet is not None:
+            self.app.push_screen(FilterScreen(self.filter_options(), self.filters, self.set_filters))
 
     def action_clear_filters(self) -> None:
-        for name in ("site", "model", "status"):
-            select = self.query_one(f"#{name}", Select)
-            with select.prevent(Select.Changed):
-                select.clear()
         self.query_one("#find", Input).value = ""
-        self.refill()
+        self.set_filters({})
 
     def action_back_to_table(self) -> None:
         self.query_one("#fleet-table", DataTable).focus()

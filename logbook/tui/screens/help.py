@@ -7,7 +7,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import ModalScreen, Screen
-from textual.widgets import Static
+from textual.widgets import Footer, Static
 
 KEY_NAMES = {
     "escape": "Esc", "enter": "Enter", "slash": "/", "question_mark": "?", "tab": "Tab", "shift+tab": "Shift+Tab",
@@ -17,7 +17,7 @@ KEY_NAMES = {
 EXTRA = {
     "FleetScreen": (
         ("A-Z 0-9 -", "typing a serial (capital letters, digits, '-') on the table jumps to it"),
-        ("Tab", "moves between the filters (site, model, status), the serial box and the table"),
+        ("Tab", "moves between the table and the serial box"),
         ("click header", "sorts by that column; again reverses"),
         ("Up/Down", "move through the pumps (PgUp/PgDn: a page)"),
         ("Columns", "Hours: operating hours since the last overhaul. Worst: the reading closest to its limit "
@@ -112,6 +112,7 @@ class HelpScreen(ModalScreen):
                 "The trend arrow shows whether the value rises (↑) or falls (↓); → steady.",
                 id="help-notes",
             )
+        yield Footer(compact=True)
 
     def action_close(self) -> None:
         self.dismiss()

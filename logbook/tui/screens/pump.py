@@ -81,7 +81,7 @@ class PumpScreen(Screen):
 
     def _show_identity(self, history, pf) -> None:
         m, u = history.model, self.app.units
-        where = present.where(pf) if pf else "not in service"
+        where = present.where(pf) if pf else ("forecast being computed" if self.app.forecast is None else "not in service")
         site = f" ({pf.site})" if pf and pf.site else ""
         self.query_one("#title", Static).update(f"Pump {self.serial} · {m.code} · {where}{site}")
         status = pf.status if pf else "-"

@@ -103,7 +103,7 @@ class ReadingScreen(EntryScreen):
         history = fleet.history(reading.serial)
         before = self.app.pump_forecast(reading.serial)
         previous = [r for r in history.readings if (r.taken_on, r.machine_hours) < (reading.taken_on, reading.machine_hours)]
-        self._pending = {"reading": reading, "before": before, "generation": self.app.data_generation}
+        self._pending = {"reading": reading, "before": before, "forecast": self.app.forecast}
         self._show_result(reading, previous[-1] if previous else None, history.model, before, None)
         if self._go_next_after_save:
             self._go_next_after_save = False
@@ -111,8 +111,8 @@ class ReadingScreen(EntryScreen):
 
     def _forecast_arrived(self, generation: int) -> None:
         pending = self._pending
-        if pending is None or generation == pending["generation"] or self.app.forecast is None:
-            return
+        if pending is None or self.app.forecast is None or self.app.forecast is pending["forecast"]:
+            return  # not the forecast made after this save yet
         reading = pending["reading"]
         history = self.app.fleet.history(reading.serial)
         previous = [r for r in history.readings if (r.taken_on, r.machine_hours) < (reading.taken_on, reading.machine_hours)]
@@ -160,6 +160,7 @@ class ReadingScreen(EntryScreen):
         box.update("\n".join(lines))
         box.remove_class("-rejected")
         box.add_class("-shown")
+        self.call_after_refresh(box.scroll_visible, animate=False)
         self.query_one("#check", Static).update(f"✓ Saved reading {reading.id} for {reading.serial}.")
         self.query_one("#check", Static).remove_class("-bad")
 
