@@ -54,7 +54,7 @@ class BulkMixin:
     ) -> ImportReport | None:
         n = len(lines)
         try:
-            checked, _ = self._check_then_write(
+            self._check_then_write(
                 lambda: self._check_columns(columns, n, today), lambda c: self._write_columns(c, n, source), dry_run=dry_run
             )
         except _Declined:

@@ -10,8 +10,6 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import (
-    Event,
-    EventKind,
     Fitment,
     ImportReport,
     InputRejected,
@@ -21,10 +19,9 @@ from logbook.model import (
     Problem,
     Pump,
     PumpModel,
-    Reading,
 )
 from logbook.store.reads import fitment_from_row
-from logbook.validate import check_hour_meter, check_reading_against_model
+from logbook.validate import check_hour_meter
 
 MODEL_COLUMNS = (
     "code description displacement_cc rated_pressure_bar max_speed_rpm ref_temp_c ref_pressure_bar oil_grade oil_vi "

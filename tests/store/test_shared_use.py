@@ -15,7 +15,7 @@ import pytest
 from logbook.model import Reading
 from logbook.store import DatabaseBusy, Store
 
-from .conftest import MACHINES, MODELS, PUMPS, READINGS, TODAY, load
+from .conftest import MODELS, READINGS, TODAY, load
 
 WRITERS, PER_WRITER = 4, 500
 
