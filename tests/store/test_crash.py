@@ -107,7 +107,7 @@ def test_import_killed_at_any_moment_leaves_nothing_and_a_rerun_completes(tmp_pa
     assert _state(db) == ("ok", 0, 0)
     # 3. Killed at moments spread over parsing, checking and writing.
     outcomes = []
-    for kill_after_s in (0.1, 0.3, 0.6, 0.9, 1.2):
+    for kill_after_s in (0.05, 0.15, 0.25, 0.4, 0.6, 0.9):
         code, out = _run_child(db, big_file, "plain", kill_after_s)
         integrity, readings, imports = _state(db)
         assert integrity == "ok"
