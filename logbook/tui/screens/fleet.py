@@ -13,7 +13,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from logbook.tui import present
-from logbook.tui.widgets.tables import OpenTable
+from logbook.tui.widgets.tables import Cell, OpenTable
 
 
 class FleetScreen(Screen):
@@ -126,7 +126,7 @@ class FleetScreen(Screen):
         self._ensure_columns(table)
         table.clear()
         self.serials = [p.serial for p in pumps]
-        table.add_rows([[c.cell(p) for c in self._layout] for p in pumps])
+        table.add_rows([[Cell(c.cell(p)) for c in self._layout] for p in pumps])
         if keep in self.serials:
             table.move_cursor(row=self.serials.index(keep), animate=False)
         self._update_title(everything)

@@ -2,8 +2,28 @@
 
 from __future__ import annotations
 
+from rich.segment import Segment
 from textual.binding import Binding
 from textual.widgets import DataTable
+
+
+class Cell:
+    """A plain-text table cell that renders as one segment and is never measured or
+    parsed for markup: thousands of rows fill fast when the columns have fixed widths."""
+
+    __slots__ = ("plain",)
+
+    def __init__(self, plain: str) -> None:
+        self.plain = plain
+
+    def __str__(self) -> str:
+        return self.plain
+
+    def __repr__(self) -> str:
+        return f"Cell({self.plain!r})"
+
+    def __rich_console__(self, console, options):
+        yield Segment(self.plain)
 
 
 class OpenTable(DataTable):
