@@ -342,7 +342,8 @@ class RecordsMixin:
             )
             cur = self.conn.execute(_INSERT_EVENT, row)
             ids.append(cur.lastrowid)
-            self._audit("insert", "events", cur.lastrowid, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
+            if import_id is None:  # from a file: the import's audit row stands for its rows
+                self._audit("insert", "events", cur.lastrowid, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
             if closed is not None and closed.id is not None and closed.id > 0:
                 self.conn.execute(
                     "UPDATE fitments SET removed_on = ?, machine_hours_at_removal = ? WHERE id = ?",

@@ -155,3 +155,14 @@ def test_cli_correct_remove_history_and_who(tmp_path, capsys):
         # 350 psi = 24.13 bar (1 psi = 6894.757 Pa, NIST SP 811)
         assert fixed.servo_pressure_bar == pytest.approx(350 * 6894.757293168361 / 1e5)
         assert s.pump_trail("S-100")[-1].who == "Ben Okafor"
+
+
+def test_an_imported_event_file_is_one_audit_row_and_one_history_line(store):
+    from logbook.imports import import_bytes
+
+    data = b"date,kind,serial,hours,note\n2025-06-01,neutral_reset,S-100,1700,re-set\n2025-07-01,oil_change,S-100,1800,\n"
+    assert import_bytes(store, "events", data, name="events.csv", today=TODAY).added == 2
+    rows = [a for a in store.audit_trail() if a["table_name"] == "events"]
+    assert [a["action"] for a in rows] == ["import"]
+    lines = [e for e in store.pump_trail("S-100") if e.table == "events"]
+    assert [(e.action, e.after["file"], e.after["events of this pump"]) for e in lines] == [("import", "events.csv", 2)]
