@@ -111,3 +111,36 @@ def test_fast_lane_declines_when_it_would_need_a_message(store):
     # Entered without a source file: one audit row per reading, as add_readings does.
     assert store.audit_trail("S-100")[-1]["action"] == "insert"
     assert isinstance(store.conn, sqlite3.Connection)
+
+
+def test_one_reading_meter_check_by_sql_matches_the_timeline(store):
+    """Store._meter_neighbours (SQL, for one new reading) answers what
+    MeterTimeline.neighbours answers over the machine's whole history."""
+    count = 0
+    days = st.integers(0, 90).map(lambda d: date(2025, 1, 1) + timedelta(days=d))
+
+    @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+    @given(st.lists(st.tuples(days, st.integers(900, 1300).map(float)), max_size=12, unique=True), st.lists(days, max_size=2),
+           st.lists(st.tuples(days, st.integers(900, 1300).map(float)), max_size=3), days)
+    def check(readings, replacements, events, on):
+        nonlocal count
+        count += 1
+        store.conn.execute("BEGIN")
+        try:
+            for day, hours in readings:
+                store.conn.execute(
+                    "INSERT INTO readings (serial, taken_on, machine, machine_hours, servo_pressure_bar, entered_by, entered_at) "
+                    "VALUES ('S-100', ?, 'M-1', ?, 25, 't', 't')", (day.isoformat(), hours))
+            for day in replacements:
+                store.conn.execute("INSERT INTO events (kind, happened_on, machine, hours, to_hours, entered_by, entered_at) "
+                                   "VALUES ('meter_replaced', ?, 'M-1', 2000, 0, 't', 't')", (day.isoformat(),))
+            for day, hours in events:
+                store.conn.execute("INSERT INTO events (kind, happened_on, serial, machine, hours, entered_by, entered_at) "
+                                   "VALUES ('oil_change', ?, 'S-100', 'M-1', ?, 't', 't')", (day.isoformat(), hours))
+            assert store._meter_neighbours("M-1", on) == store._timeline("M-1").neighbours(on)
+        finally:
+            store.conn.execute("ROLLBACK")
+
+    check()
+    print(f"meter-by-SQL cases: {count}")
+    assert count >= 100
