@@ -161,8 +161,9 @@ class StoreCore:
 
     def _check_then_write(self, check: Callable[[], T], write: Callable[[T], R], *, dry_run: bool = False) -> tuple[T, R | None]:
         """Validate without holding the write lock, then write under it. ``check`` returns
-        something with ``.problems`` and ``.items``; when another connection committed in between, the
-        check runs again inside the write transaction, so a write never rests on stale reads."""
+        something with ``.problems`` and ``.items``; when another connection committed in
+        between, the check runs again inside the write transaction, so a write never rests
+        on stale reads (two cron jobs importing one file: the second finds it all present)."""
         version = self.data_version()
         checked = check()
         if checked.problems or dry_run or not checked.items:
@@ -170,7 +171,7 @@ class StoreCore:
         with self.transaction():
             if self.data_version() != version:
                 checked = check()
-                if checked.problems:
+                if checked.problems or not checked.items:
                     return checked, None
             return checked, write(checked)
 

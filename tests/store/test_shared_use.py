@@ -14,6 +14,7 @@ import pytest
 
 from logbook.model import Reading
 from logbook.store import DatabaseBusy, Store
+from logbook.store.bulk import _Declined
 
 from .conftest import MODELS, READINGS, TODAY, load
 
@@ -153,3 +154,34 @@ def test_an_import_writes_one_audit_row_for_the_file(store):
     assert store.counts()["readings"] == READINGS.count(b"\n") - 1
     rows = [a for a in store.audit_trail() if a["table_name"] == "readings"]
     assert [a["action"] for a in rows] == ["import"] and '"file": "readings.csv"' in rows[0]["after_json"]
+
+
+def test_the_same_file_imported_by_two_jobs_at_once_lands_once(tmp_path):
+    """Both jobs check the file before either writes; the second, re-checking under the
+    lock, finds every row present and writes nothing (no second import row either)."""
+    from logbook.imports import import_bytes
+
+    path = tmp_path / "twice.db"
+    _fleet_for_writers(path)
+    data = ("serial,date,machine_hours,servo_pressure\n" + "".join(
+        f"W-{n},2020-01-{d + 1:02d},{100 + d},25\n" for n in range(WRITERS) for d in range(20))).encode()
+    first, second = Store(path, user="cron1"), Store(path, user="cron2")
+    real_check = second._check_readings
+
+    def first_job_writes_meanwhile(*args, **kwargs):
+        result = real_check(*args, **kwargs)
+        if not first.readings():
+            assert import_bytes(first, "readings", data, name="r.csv", today=TODAY).added == 80
+        return result
+
+    def row_by_row(*args, **kwargs):
+        raise _Declined  # send the second job down the row-by-row path, where the hook sits
+
+    second._check_readings = first_job_writes_meanwhile
+    second._check_columns = row_by_row
+    report = import_bytes(second, "readings", data, name="r.csv", today=TODAY)
+    assert report.problems == [] and report.added == 0 and report.already_present == 80
+    assert second.counts()["readings"] == 80
+    assert second.conn.execute("SELECT count(*) FROM imports").fetchone()[0] == 1
+    first.close()
+    second.close()
