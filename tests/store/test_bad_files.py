@@ -106,7 +106,9 @@ def test_malformed_files_are_rejected_whole_with_a_message(tmp_path):
     check()
     print(f"malformed-file cases: {stats}")
     assert stats["cases"] >= 100 and stats["rejected"] > stats["accepted"]
-    assert store.check() == []
+    # Whatever was accepted left a sound database (a model imported without limits is
+    # allowed, and reported by the check as a gap to fill).
+    assert [f for f in store.check() if f.check != "limits"] == []
     store.close()
 
 
