@@ -37,6 +37,7 @@ class ReadingScreen(EntryScreen):
     def compose(self) -> ComposeResult:
         yield Static("", id="title")
         with VerticalScroll(classes="form", id="form"):
+            yield Static("", id="saved-line")
             yield Static("", id="pump-line", classes="form-hint")
             caution = Static("\n".join(f"⚠ {c}" for c in CAUTIONS), id="cautions")
             caution.border_title = CAUTIONS_TITLE
@@ -124,7 +125,7 @@ class ReadingScreen(EntryScreen):
         from logbook.analysis.normalize import normalized_value
 
         u = self.app.units
-        lines = []
+        lines, shares = [], []
         for kind in ALL_KINDS:
             raw = reading.value(kind)
             if raw is None:
@@ -138,6 +139,7 @@ class ReadingScreen(EntryScreen):
                     share = 100.0 * ref / limit.value
                     side = "over" if (ref > limit.value) == (limit.direction == "above") else "within"
                     parts.append(f"{share:.0f} % of the {fmt.value(kind, limit.value, u)} limit ({side})")
+                    shares.append(f"{present.KIND_SHORT[kind]} {share:.0f} % of limit" + (" (over)" if side == "over" else ""))
             prev = previous.value(kind) if previous else None
             if prev is not None:
                 diff = raw - prev
@@ -146,8 +148,10 @@ class ReadingScreen(EntryScreen):
             lines.append("• " + "; ".join(parts))
         if after is None:
             lines.append("Updating the forecast…")
+            status = "forecast updating…"
         else:
-            lines.append(f"Status: {before.status if before else '-'} → {after.status}")
+            status = f"status {before.status if before else '-'} → {after.status}"
+            lines.append(status[0].upper() + status[1:])
             old = {k.kind: k for k in before.kinds} if before else {}
             for kf in after.kinds:
                 if reading.value(kf.kind) is None:
@@ -160,9 +164,13 @@ class ReadingScreen(EntryScreen):
         box.update("\n".join(lines))
         box.remove_class("-rejected")
         box.add_class("-shown")
-        self.call_after_refresh(box.scroll_visible, animate=False)
-        self.query_one("#check", Static).update(f"✓ Saved reading {reading.id} for {reading.serial}.")
-        self.query_one("#check", Static).remove_class("-bad")
+        saved_line = self.query_one("#saved-line", Static)
+        saved_line.update(f"✓ Saved {reading.serial}: " + ", ".join(shares or ["recorded"]) + f" · {status} (details below)")
+        saved_line.add_class("-shown")
+        if self.serial == reading.serial:  # still on that pump: show the details; else stay on the new form
+            self.call_after_refresh(box.scroll_visible, animate=False)
+            self.query_one("#check", Static).update(f"✓ Saved reading {reading.id} for {reading.serial}.")
+            self.query_one("#check", Static).remove_class("-bad")
 
     # -- actions --------------------------------------------------------------------------------
     def action_save_next(self) -> None:
