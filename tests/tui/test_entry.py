@@ -194,3 +194,25 @@ async def test_a_move_asks_for_the_target_and_checks_it(demo_app, demo_store):
         await settle(app, pilot)
         assert "must be a known machine unit for a move" in text(form.fields["to_machine"].query_one(".field-message"))
         assert isinstance(form.query_one("#check"), Static)
+
+
+async def test_a_reading_typed_in_us_units_is_stored_in_bar_and_litres(demo_store):
+    from scipy import constants
+
+    from logbook.tui.app import make_app
+    from logbook.units import UnitPrefs
+
+    app = make_app(demo_store, today=TODAY, units=UnitPrefs.us(), poll_seconds=0, blink=False)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        form = await open_form(app, pilot, pf.serial, "r")
+        assert "psi" in str(form.fields["servo_pressure"].query_one(".field-unit").render())
+        fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", servo_pressure="362.6", case_drain="",
+             oil_temp="", test_pressure="")
+        await pilot.press("f2")
+        await settle(app, pilot)
+        saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
+        # 1 psi = 6894.757 Pa and 1 bar = 1e5 Pa (NIST SP 811, via scipy.constants)
+        assert len(saved) == 1 and abs(saved[0].servo_pressure_bar - 362.6 * constants.psi / constants.bar) < 1e-9
+        assert abs(saved[0].servo_pressure_bar - 25.0) < 0.01
