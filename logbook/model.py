@@ -7,9 +7,11 @@ edges (CLI, import, TUI, exports), never here.
 
 from __future__ import annotations
 
+from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import date, datetime
 from enum import Enum
+from typing import Iterable
 
 
 class Kind(str, Enum):
@@ -196,26 +198,42 @@ class Fleet:
     data_version: int = 0
 
     def history(self, serial: str) -> PumpHistory:
-        pump = self.pumps[serial]
-        fits = tuple(sorted((f for f in self.fitments if f.serial == serial), key=lambda f: f.fitted_on))
-        machines = {f.machine for f in fits}
-        evs = tuple(
-            sorted(
-                (
-                    e
-                    for e in self.events
-                    if e.serial == serial or (e.kind is EventKind.METER_REPLACED and e.machine in machines)
-                ),
-                key=lambda e: (e.happened_on, e.id or 0),
+        return self.histories([serial])[0]
+
+    def histories(self, serials: Iterable[str] | None = None) -> list[PumpHistory]:
+        """Histories of the given pumps (default: all, by serial), indexes built once.
+        Readings are the current ones (not superseded); events are the pump's own plus
+        the meter replacements of every machine it sat in, in date order."""
+        fits: dict[str, list[Fitment]] = defaultdict(list)
+        reads: dict[str, list[Reading]] = defaultdict(list)
+        own: dict[str, list[Event]] = defaultdict(list)
+        meters: dict[str, list[Event]] = defaultdict(list)
+        for f in self.fitments:
+            fits[f.serial].append(f)
+        for r in self.readings:
+            if r.superseded_by is None:
+                reads[r.serial].append(r)
+        for e in self.events:
+            if e.kind is EventKind.METER_REPLACED:
+                if e.machine is not None:
+                    meters[e.machine].append(e)
+            elif e.serial is not None:
+                own[e.serial].append(e)
+        out = []
+        for serial in sorted(self.pumps) if serials is None else serials:
+            pump = self.pumps[serial]
+            fitted = tuple(sorted(fits[serial], key=lambda f: (f.fitted_on, f.id or 0)))
+            events = own[serial] + [e for m in sorted({f.machine for f in fitted}) for e in meters[m]]
+            out.append(
+                PumpHistory(
+                    pump=pump,
+                    model=self.models[pump.model],
+                    fitments=fitted,
+                    readings=tuple(sorted(reads[serial], key=lambda r: (r.taken_on, r.machine_hours))),
+                    events=tuple(sorted(events, key=lambda e: (e.happened_on, e.id or 0))),
+                )
             )
-        )
-        reads = tuple(
-            sorted(
-                (r for r in self.readings if r.serial == serial and r.superseded_by is None),
-                key=lambda r: (r.taken_on, r.machine_hours),
-            )
-        )
-        return PumpHistory(pump=pump, model=self.models[pump.model], fitments=fits, readings=reads, events=evs)
+        return out
 
 
 @dataclass

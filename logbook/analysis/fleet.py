@@ -7,7 +7,6 @@ beyond the horizon is reported as None (no date).
 
 from __future__ import annotations
 
-from collections import defaultdict
 from dataclasses import dataclass
 from dataclasses import replace
 from datetime import date
@@ -31,7 +30,7 @@ from logbook.analysis.results import (
 )
 from logbook.analysis.segments import Series, build_series, reading_pump_hours
 from logbook.analysis.status import StatusThresholds, pump_status
-from logbook.model import ALL_KINDS, EventKind, Fleet, Kind, Limit, PumpHistory
+from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
 
 DEFAULT_HORIZON_HOURS = 20_000.0
 _OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
@@ -47,42 +46,10 @@ class _Row:
 
 
 def _histories(fleet: Fleet, model: str | None = None) -> list[PumpHistory]:
-    """Histories of pumps fitted now, plus unfitted pumps that have readings (indexes built once);
-    only pumps of ``model`` when given."""
-    fits, reads, pump_events, meter_events = defaultdict(list), defaultdict(list), defaultdict(list), defaultdict(list)
-    for f in fleet.fitments:
-        fits[f.serial].append(f)
-    for r in fleet.readings:
-        if r.superseded_by is None:
-            reads[r.serial].append(r)
-    for e in fleet.events:
-        if e.kind is EventKind.METER_REPLACED and e.machine is not None:
-            meter_events[e.machine].append(e)
-        elif e.serial is not None:
-            pump_events[e.serial].append(e)
-    out = []
-    for serial in sorted(fleet.pumps):
-        if model is not None and fleet.pumps[serial].model != model:
-            continue
-        pf = sorted(fits.get(serial, ()), key=lambda f: f.fitted_on)
-        fitted = any(f.removed_on is None for f in pf)
-        if not fitted and not reads.get(serial):
-            continue
-        machines = {f.machine for f in pf}
-        evs = list(pump_events.get(serial, ()))
-        for m in machines:
-            evs += meter_events.get(m, ())
-        pump = fleet.pumps[serial]
-        out.append(
-            PumpHistory(
-                pump=pump,
-                model=fleet.models[pump.model],
-                fitments=tuple(pf),
-                readings=tuple(sorted(reads.get(serial, ()), key=lambda r: (r.taken_on, r.machine_hours))),
-                events=tuple(sorted(evs, key=lambda e: (e.happened_on, e.id or 0))),
-            )
-        )
-    return out
+    """Histories of pumps fitted now, plus unfitted pumps that have readings; only pumps
+    of ``model`` when given."""
+    serials = [s for s, p in sorted(fleet.pumps.items()) if model is None or p.model == model]
+    return [h for h in fleet.histories(serials) if h.readings or any(f.removed_on is None for f in h.fitments)]
 
 
 def _direction(kind: Kind, limit: Limit | None) -> int:

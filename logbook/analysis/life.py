@@ -16,7 +16,6 @@ Fewer than ``MIN_FAILURES`` failures give no fit, with the reason in words.
 from __future__ import annotations
 
 import math
-from collections import defaultdict
 from dataclasses import dataclass
 
 import numpy as np
@@ -236,36 +235,8 @@ class Intervals:
 
 
 def _histories(fleet: Fleet) -> list[PumpHistory]:
-    """Every pump that has been fitted, with its records (indexes built once, not per pump)."""
-    fits, reads, own, meters = defaultdict(list), defaultdict(list), defaultdict(list), defaultdict(list)
-    for f in fleet.fitments:
-        fits[f.serial].append(f)
-    for r in fleet.readings:
-        if r.superseded_by is None:
-            reads[r.serial].append(r)
-    for e in fleet.events:
-        if e.kind is EventKind.METER_REPLACED and e.machine is not None:
-            meters[e.machine].append(e)
-        elif e.serial is not None:
-            own[e.serial].append(e)
-    out = []
-    for serial in sorted(fits):
-        if serial not in fleet.pumps:
-            continue
-        pump = fleet.pumps[serial]
-        fitted = tuple(sorted(fits[serial], key=lambda f: (f.fitted_on, f.id or 0)))
-        machines = {f.machine for f in fitted}
-        events = own[serial] + [e for m in sorted(machines) for e in meters[m]]
-        out.append(
-            PumpHistory(
-                pump=pump,
-                model=fleet.models[pump.model],
-                fitments=fitted,
-                readings=tuple(sorted(reads[serial], key=lambda r: (r.taken_on, r.machine_hours))),
-                events=tuple(sorted(events, key=lambda e: (e.happened_on, e.id or 0))),
-            )
-        )
-    return out
+    """Every pump that has been fitted, with its records."""
+    return [h for h in fleet.histories() if h.fitments]
 
 
 def _latest_pump_hours(history: PumpHistory, hours_of: dict[int, float]) -> float | None:
