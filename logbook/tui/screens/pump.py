@@ -44,6 +44,8 @@ class PumpScreen(Screen):
         self.serial = serial
         self.following = list(following or [])
         self.kind: Kind | None = None  # chosen kind; None = the one closest to its limit
+        self._readings: dict = {}
+        self._model = None
 
     def compose(self) -> ComposeResult:
         yield Static(f"Pump {self.serial}", id="title")
@@ -56,6 +58,7 @@ class PumpScreen(Screen):
             with TabPane("Readings", id="readings"):
                 yield Static("", id="readings-note", classes="form-hint")
                 yield DataTable(id="readings-table", cursor_type="row", zebra_stripes=True)
+                yield Static("", id="reading-detail", classes="form-hint")
             with TabPane("Events", id="events"):
                 yield DataTable(id="events-table", cursor_type="row", zebra_stripes=True)
             with TabPane("Fitted in", id="fitted"):
@@ -153,6 +156,8 @@ class PumpScreen(Screen):
                           "Test p", "Speed", "ISO 4406", "Technician", "Entered by"):
                 table.add_column(label, key=label)
         table.clear()
+        self._readings = {str(r.id): r for r in history.readings}
+        self._model = m
         for r in reversed(history.readings):
             at_ref = normalized_value(r, Kind.CASE_DRAIN, m) if r.case_drain_lpm is not None else None
             at_ref = None if at_ref is not None and at_ref != at_ref else at_ref  # NaN: conditions missing
@@ -162,7 +167,7 @@ class PumpScreen(Screen):
                 fmt.value(Kind.SERVO_PRESSURE, r.servo_pressure_bar, u), fmt.value(Kind.NEUTRAL_DRIFT, r.neutral_drift_bar, u),
                 fmt.temperature(r.oil_temp_c, u), fmt.pressure(r.test_pressure_bar, u),
                 f"{r.test_speed_rpm:g}" if r.test_speed_rpm else "-", r.iso4406 or "-", r.technician or "-",
-                r.entered_by or "-",
+                r.entered_by or "-", key=str(r.id),
             )
         self.query_one("#readings-note", Static).update(
             f"{len(history.readings)} readings, newest first. 'at ref.' = case drain normalized to {fmt.temperature(m.ref_temp_c, u)}, "
@@ -195,6 +200,22 @@ class PumpScreen(Screen):
                           fmt.hours(f.pump_hours_at_fit))
 
     # -- events ----------------------------------------------------------------------------
+    @on(DataTable.RowHighlighted, "#readings-table")
+    def _reading_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        """Everything about the reading under the cursor, for narrow terminals."""
+        r = self._readings.get(event.row_key.value) if event.row_key is not None else None
+        if r is None:
+            return
+        u = self.app.units
+        when = r.entered_at.strftime("%Y-%m-%d %H:%M") if r.entered_at else "?"
+        oil = f"VG {r.oil_grade or self._model.oil_grade} VI {r.oil_vi or self._model.oil_vi:g}"
+        self.query_one("#reading-detail", Static).update(
+            f"Reading {r.id} of {fmt.day(r.taken_on)}: taken by {r.technician or '-'}, entered by {r.entered_by or '-'} "
+            f"at {when} UTC · oil {fmt.temperature(r.oil_temp_c, u)}, {oil} · test {fmt.pressure(r.test_pressure_bar, u)}, "
+            f"{r.test_speed_rpm or 0:g} rpm · charge {fmt.pressure(r.charge_pressure_bar, u)} · ISO 4406 {r.iso4406 or '-'}"
+            + (f" · note: {r.note}" if r.note else "")
+        )
+
     @on(DataTable.RowHighlighted, "#kind-table")
     def _kind_highlighted(self, event: DataTable.RowHighlighted) -> None:
         kind = Kind(event.row_key.value)
