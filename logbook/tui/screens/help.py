@@ -28,12 +28,9 @@ EXTRA = {
         ("Up/Down", "on the reading table: choose the kind shown in the chart"),
         ("Tab", "moves to the tabs; Left/Right then switch them"),
     ),
-    "ReadingScreen": (
-        ("Tab / Enter", "next field; Shift+Tab goes back"),
-        ("Up/Down", "previous / next field"),
-    ),
-    "EventScreen": (("Tab / Enter", "next field; Shift+Tab goes back"), ("Up/Down", "previous / next field")),
-    "ModelEditScreen": (("Tab / Enter", "next field; Shift+Tab goes back"), ("Up/Down", "previous / next field")),
+    "ReadingScreen": (("Tab / Enter", "next field; Shift+Tab goes back"),),
+    "EventScreen": (("Tab / Enter", "next field; Shift+Tab goes back"),),
+    "ModelEditScreen": (("Tab / Enter", "next field; Shift+Tab goes back"),),
 }
 
 
@@ -67,8 +64,9 @@ def binding_lines(screen: Screen) -> list[tuple[str, str]]:
         for b in bindings:
             if b.key in seen or not b.description:
                 continue
-            if b.action == "quit" and not screen.app.check_action("quit", ()):
-                continue
+            typing = getattr(screen, "HOLDS_INPUT", False)
+            if typing and (len(b.key) == 1 or b.key == "question_mark"):
+                continue  # letters go into the form's fields there
             seen.add(b.key)
             words = b.description + (f": {b.tooltip}" if b.tooltip else "")
             if words not in keys_of:
