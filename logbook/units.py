@@ -2,18 +2,48 @@
 
 Canonical units: bar, L/min, degrees C, hours, cSt, rpm, cm^3/rev. Every factor
 comes from scipy.constants (psi, gallon, bar, litre, minute), none is typed by hand.
+scipy is imported on the first conversion, not with this module (the fleet view's
+first frame must not wait for it); ``PSI_PER_BAR`` and ``LITRE_PER_US_GALLON`` are
+module attributes computed on first access.
 """
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
-from scipy import constants as _c
 
-#: Pascal per psi and per bar (scipy.constants; NIST SP 811 values).
-PSI_PER_BAR = _c.bar / _c.psi
-#: Litres per US gallon.
-LITRE_PER_US_GALLON = _c.gallon / _c.litre
+@functools.cache
+def _constants():
+    """scipy.constants, imported once when a factor is first needed (NIST SP 811 values)."""
+    from scipy import constants
+
+    return constants
+
+
+@functools.cache
+def psi_per_bar() -> float:
+    """psi in one bar (scipy.constants bar / psi)."""
+    c = _constants()
+    return c.bar / c.psi
+
+
+@functools.cache
+def litre_per_us_gallon() -> float:
+    """Litres in one US gallon (scipy.constants gallon / litre)."""
+    c = _constants()
+    return c.gallon / c.litre
+
+
+_LAZY_FACTORS = {"PSI_PER_BAR": psi_per_bar, "LITRE_PER_US_GALLON": litre_per_us_gallon}
+
+
+def __getattr__(name: str):
+    # PSI_PER_BAR and LITRE_PER_US_GALLON: computed (and kept as module globals) on first use.
+    if name in _LAZY_FACTORS:
+        value = globals()[name] = _LAZY_FACTORS[name]()
+        return value
+    raise AttributeError(f"module 'logbook.units' has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -44,22 +74,22 @@ NONE = Quantity("none", "", {"": ""})
 def to_canonical(value: float, unit: str) -> float:
     """Convert ``value`` in ``unit`` (a unit id: bar, psi, L/min, gpm, C, F, ...) to canonical."""
     if unit == "psi":
-        return value / PSI_PER_BAR
+        return value / psi_per_bar()
     if unit == "gpm":
-        return value * LITRE_PER_US_GALLON
+        return value * litre_per_us_gallon()
     if unit == "F":
-        return float(_c.convert_temperature(value, "Fahrenheit", "Celsius"))
+        return float(_constants().convert_temperature(value, "Fahrenheit", "Celsius"))
     return value
 
 
 def from_canonical(value: float, unit: str) -> float:
     """Convert a canonical ``value`` to ``unit``."""
     if unit == "psi":
-        return value * PSI_PER_BAR
+        return value * psi_per_bar()
     if unit == "gpm":
-        return value / LITRE_PER_US_GALLON
+        return value / litre_per_us_gallon()
     if unit == "F":
-        return float(_c.convert_temperature(value, "Celsius", "Fahrenheit"))
+        return float(_constants().convert_temperature(value, "Celsius", "Fahrenheit"))
     return value
 
 
