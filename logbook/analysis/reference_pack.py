@@ -1,0 +1,265 @@
+"""Reference forecast of a fleet: the simple per-pump packing, kept only as a yardstick for tests.
+
+This is the forecast as it was before the array packing of ``fleet.py``: one
+``PumpHistory`` per pump, ``build_series`` per pump and kind, ``TrendBatch.pack``, and
+one ``KindForecast`` at a time. Slow (milliseconds a pump) but easy to read; the test
+``tests/unit/test_fleet_equivalence.py`` checks the fast path against it. Not for use
+outside the tests and the benchmark.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from dataclasses import replace
+from datetime import date
+
+import numpy as np
+
+from logbook.analysis.batch import FALLING, RISING, TrendBatch
+from logbook.analysis.calendar import date_after_hours, hours_per_day, machine_hour_points
+from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit, FitOptions, fit_batch
+from logbook.analysis.forecast import BatchForecast, forecast_batch
+from logbook.analysis.results import (
+    FLAG_JUMP,
+    FLAG_OUTLIER,
+    FLAG_POOLED,
+    FLAG_STEP,
+    FitDetail,
+    FleetForecast,
+    KindForecast,
+    Outcome,
+    PumpForecast,
+)
+from logbook.analysis.segments import Series, build_series, reading_pump_hours
+from logbook.analysis.status import StatusThresholds, pump_status
+from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
+
+DEFAULT_HORIZON_HOURS = 20_000.0
+_OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
+_FLAGS = ((B_OUTLIER, FLAG_OUTLIER), (B_STEP, FLAG_STEP), (B_POOLED, FLAG_POOLED), (B_JUMP, FLAG_JUMP))
+
+
+@dataclass
+class _Row:
+    history: PumpHistory
+    series: Series
+    limit: Limit | None
+    x_now: float
+
+
+def _histories(fleet: Fleet, model: str | None = None) -> list[PumpHistory]:
+    """Histories of pumps fitted now, plus unfitted pumps that have readings; only pumps
+    of ``model`` when given."""
+    serials = [s for s, p in sorted(fleet.pumps.items()) if model is None or p.model == model]
+    return [h for h in fleet.histories(serials) if h.readings or any(f.removed_on is None for f in h.fitments)]
+
+
+def _direction(kind: Kind, limit: Limit | None) -> int:
+    if limit is not None:
+        return FALLING if limit.direction == "below" else RISING
+    return FALLING if kind is Kind.SERVO_PRESSURE else RISING
+
+
+def reference_pack(histories: list[PumpHistory], today: date, utilisation: dict[str, float | None]):
+    """(rows, pump_info, batch) of the given pumps, packed one pump at a time; batch None without rows."""
+    rows: list[_Row] = []
+    groups: dict[tuple[str, Kind], int] = {}
+    pump_info = []
+    for h in histories:
+        hours_of = {i: reading_pump_hours(r, h) for i, r in enumerate(h.readings)}
+        current = next((f for f in h.fitments if f.removed_on is None), None)
+        per_day = utilisation.get(current.machine) if current is not None else None
+        last_on = h.readings[-1].taken_on if h.readings else None
+        pump_now = _pump_hours_today(h, hours_of, current, per_day, today)
+        pump_info.append((h, current, per_day, last_on, pump_now))
+        for kind in ALL_KINDS:
+            s = build_series(h, kind, hours_of)
+            x_now = (pump_now - s.start_hours) if pump_now is not None else (s.x_hours[-1] if s.x_hours else 0.0)
+            rows.append(_Row(h, s, h.model.limit(kind), max(x_now, s.x_hours[-1] if s.x_hours else 0.0)))
+            groups.setdefault((h.model.code, kind), len(groups))
+    if not rows:
+        return rows, pump_info, None
+    batch = TrendBatch.pack(
+        [(r.series.x_hours, r.series.y_value) for r in rows],
+        limit=[r.limit.value if r.limit is not None else np.nan for r in rows],
+        direction=[_direction(r.series.kind, r.limit) for r in rows],
+        group=[groups[(r.history.model.code, r.series.kind)] for r in rows],
+        x_now=[r.x_now for r in rows],
+    )
+    return rows, pump_info, batch
+
+
+def reference_utilisation(fleet: Fleet, today: date) -> dict[str, float | None]:
+    """Hours per day of every machine, one machine at a time."""
+    points = machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
+    return {m: hours_per_day(p, today) for m, p in points.items()}
+
+
+def reference_fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
+    """The batch that ``reference_forecast_fleet`` fits (for the benchmark's core timing)."""
+    return reference_pack(_histories(fleet), today, reference_utilisation(fleet, today))[2]
+
+
+def reference_forecast_histories(
+    histories: list[PumpHistory],
+    today: date,
+    utilisation: dict[str, float | None],
+    *,
+    horizon_hours: float = DEFAULT_HORIZON_HOURS,
+    options: FitOptions | None = None,
+    thresholds: StatusThresholds | None = None,
+    with_noise: bool = False,
+) -> list[PumpForecast]:
+    """Forecast the given pumps together (pooling within each pump model and kind)."""
+    rows, pump_info, batch = reference_pack(histories, today, utilisation)
+    if batch is None:
+        return []
+    fit = fit_batch(batch, options)
+    fc = forecast_batch(batch, fit, horizon_hours=horizon_hours, with_noise=with_noise)
+    out = []
+    for p, (h, current, per_day, last_on, pump_now) in enumerate(pump_info):
+        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day) for k in range(3))
+        pf = PumpForecast(
+            serial=h.pump.serial,
+            model=h.model.code,
+            machine=current.machine if current else None,
+            position=current.position if current else None,
+            site=None,
+            hours_since_overhaul=None if pump_now is None else pump_now - _last_overhaul_hours(rows[3 * p]),
+            hours_per_day=per_day,
+            kinds=kinds,
+            worst=_worst(kinds),
+            last_reading_on=last_on,
+        )
+        out.append(_with_status(pf, today, thresholds))
+    return out
+
+
+def _pump_hours_today(h, hours_of, current, per_day, today) -> float | None:
+    if not h.readings:
+        return current.pump_hours_at_fit if current is not None else None
+    last = max(hours_of.values())
+    last_on = max(r.taken_on for r in h.readings)
+    if current is None or per_day is None:
+        return last
+    return last + per_day * max((today - last_on).days, 0)
+
+
+def _last_overhaul_hours(row: _Row) -> float:
+    """Pump hours at the last overhaul/exchange (0 for a pump never overhauled)."""
+    s = row.series  # case drain resets only at overhaul/exchange
+    return s.start_hours if s.start is not None else 0.0
+
+
+def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day):
+    s = row.series
+    outcome = _OUTCOMES[int(fc.outcome[i])]
+    if outcome is Outcome.NO_DATA and s.readings_before:
+        outcome = Outcome.TOO_FEW
+    flags = frozenset(name for bit, name in _FLAGS if fit.flags[i] & bit)
+    rem = [None if not np.isfinite(v) else float(v) for v in fc.remaining[i]]
+    if outcome not in (Outcome.CROSSING, Outcome.NO_CROSSING):
+        rem = [None, None, None]
+    detail = _detail(s, i, fit)
+    rate = float(fc.rate_per_hour[i]) * 1000.0 if detail is not None and np.isfinite(fc.rate_per_hour[i]) else None
+    return KindForecast(
+        serial=row.history.pump.serial,
+        kind=s.kind,
+        limit=row.limit,
+        outcome=outcome,
+        latest_value=s.y_value[-1] if s.y_value else None,
+        latest_raw=s.raw[-1] if s.raw else None,
+        latest_on=s.dates[-1] if s.dates else None,
+        n_readings=len(s.x_hours),
+        segment_start=s.start_on,
+        hours_in_segment=float(batch.x_now[i]),
+        path=PATH_NAMES[int(fit.path[i])] if detail is not None else "none",
+        p10_hours=rem[0],
+        p50_hours=rem[1],
+        p90_hours=rem[2],
+        p10_date=date_after_hours(today, rem[0], per_day),
+        p50_date=date_after_hours(today, rem[1], per_day),
+        p90_date=date_after_hours(today, rem[2], per_day),
+        flags=flags,
+        fit=detail,
+        rate_per_1000h=rate,
+    )
+
+
+def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:
+    return fit_detail(fit, i, s.x_hours, s.y_value)
+
+
+def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
+    """The chosen path of one batch row as a FitDetail (for charts); None without a fitted line."""
+    if fit.path[row] == 0 or not np.isfinite(fit.b[row]):
+        return None
+    n = len(x_hours)
+    order = np.argsort(np.asarray(x_hours, dtype=float), kind="stable")  # batch columns are in x order
+    used = np.zeros(n, dtype=bool)
+    used[order] = fit.used[row, :n]
+    sigma = float(fit.sigma[row]) if np.isfinite(fit.sigma[row]) else 0.0
+    c00, c01, c11 = float(fit.c00[row]), float(fit.c01[row]), float(fit.c11[row])
+    return FitDetail(
+        x_hours=tuple(float(v) for v in x_hours),
+        y_value=tuple(float(v) for v in y_value),
+        used=tuple(bool(u) for u in used),
+        path=PATH_NAMES[int(fit.path[row])],
+        params=(float(fit.a[row]), float(fit.b[row])),
+        cov=((c00, c01), (c01, c11)),
+        sigma=sigma,
+        dof=int(min(fit.dof[row], 10**6)),
+    )
+
+
+def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
+    """Past limit first, then the earliest P50 (date, else hours), then the nearest to its limit."""
+
+    def key(k: KindForecast):
+        if k.outcome is Outcome.PAST_LIMIT:
+            return (0, 0.0, 0.0)
+        if k.outcome is Outcome.CROSSING:
+            d = k.p50_date.toordinal() if k.p50_date else float("inf")
+            return (1, d, k.p50_hours or 0.0)
+        progress = 0.0
+        if k.limit is not None and k.latest_value:
+            ratio = k.latest_value / k.limit.value if k.limit.value else 0.0
+            progress = ratio if k.limit.direction != "below" else (1 / ratio if ratio else 0.0)
+        return (2, -progress, 0.0)
+
+    cands = [k for k in kinds if k.limit is not None and k.outcome not in (Outcome.NO_DATA, Outcome.NO_LIMIT)]
+    return min(cands, key=key) if cands else None
+
+
+def _with_status(pf: PumpForecast, today: date, thresholds) -> PumpForecast:
+    return replace(pf, status=pump_status(pf, today, thresholds))
+
+
+def reference_forecast_fleet(
+    fleet: Fleet,
+    today: date,
+    horizon_hours: float = DEFAULT_HORIZON_HOURS,
+    *,
+    options: FitOptions | None = None,
+    thresholds: StatusThresholds | None = None,
+    with_noise: bool = False,
+) -> FleetForecast:
+    """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
+    util = reference_utilisation(fleet, today)
+    pumps = reference_forecast_histories(
+        _histories(fleet), today, util, horizon_hours=horizon_hours, options=options,
+        thresholds=thresholds, with_noise=with_noise,
+    )  # fmt: skip
+    pumps = [
+        p if p.machine is None or p.machine not in fleet.machines else _site(p, fleet.machines[p.machine].site)
+        for p in pumps
+    ]
+    notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",)
+    return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
+
+
+def _site(pf: PumpForecast, site: str) -> PumpForecast:
+    return replace(pf, site=site)
+
+
+__all__ = ["reference_fleet_batch", "reference_forecast_fleet", "reference_forecast_histories", "reference_pack", "reference_utilisation"]
