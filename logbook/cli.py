@@ -13,6 +13,7 @@ import sys
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
+from sqlite3 import DatabaseError as SQLiteError  # as logbook.store exports it, without importing the store
 
 from rich.console import Console
 
@@ -109,8 +110,6 @@ def main(argv: list[str] | None = None) -> int:
         today=args.today or date.today(),
         units=UnitPrefs.us() if args.units == "us" else UnitPrefs(),
     )
-    from logbook.store import SQLiteError, StoreError
-
     try:
         if args.command is None:
             from logbook.commands import open_ui
@@ -122,9 +121,6 @@ def main(argv: list[str] | None = None) -> int:
         for problem in exc.problems:
             ctx.err.print(f"  - {problem}", markup=False)
         return 2
-    except StoreError as exc:
-        ctx.err.print(f"logbook: {exc}", markup=False)
-        return 1
     except SQLiteError as exc:
         ctx.err.print(f"logbook: the database {ctx.db_path} failed: {exc}. Nothing half-written (each change is one "
                       "transaction); `logbook check` tells more, and a damaged file is restored from a backup.", markup=False)
@@ -134,6 +130,18 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except Exception as exc:
+        if not _is_store_error(exc):
+            raise
+        ctx.err.print(f"logbook: {exc}", markup=False)
+        return 1
+
+
+def _is_store_error(exc: Exception) -> bool:
+    """A StoreError (missing, locked, too new...): only raised once logbook.store is
+    imported, so the no-command path need not import it (sqlite_utils pulls in pandas)."""
+    core = sys.modules.get("logbook.store.core")
+    return core is not None and isinstance(exc, core.StoreError)
 
 
 if __name__ == "__main__":  # pragma: no cover

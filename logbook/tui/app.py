@@ -1,14 +1,19 @@
 """The logbook's terminal interface.
 
-Run it with ``logbook`` (or ``logbook --db FILE``); tests build it with
-``make_app(store, today=..., units=...)`` and drive it with ``App.run_test``.
-The app reads a fleet snapshot and its forecast in a thread worker, keeps the
-latest pair in ``fleet``/``forecast`` and bumps ``data_generation`` so that open
-screens redraw. A poll of ``store.change_count()`` notices other users' writes.
+Run it with ``logbook`` (or ``logbook --db FILE``): the CLI hands ``make_app`` a
+``StoreOpener`` so that the fleet view's first frame paints before the store and the
+analysis (sqlite_utils, pandas, numpy, scipy) are imported; a thread worker then opens
+the store, lists the pumps and forecasts them. Tests build it with
+``make_app(store, today=..., units=...)`` over an open Store and drive it with
+``App.run_test``. The app keeps the latest snapshot and forecast in ``fleet``/``forecast``
+and bumps ``data_generation`` so that open screens redraw. After a save the saved pump's
+forecast comes first (``forecast_in_fleet``), the whole fleet's after it. A poll of
+``store.change_count()`` notices other users' writes.
 """
 
 from __future__ import annotations
 
+from dataclasses import replace
 from datetime import date
 from pathlib import Path
 
@@ -18,9 +23,9 @@ from textual.binding import Binding
 from textual.reactive import reactive
 from textual.worker import get_current_worker
 
-from logbook.model import Fleet
+from logbook.model import Fleet, Reading
 from logbook.tui.gate import StoreGate, trouble_text
-from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble, FleetRead
+from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble, FleetRead, PumpUpdated
 from logbook.units import UnitPrefs
 
 DARK_THEMES = {"textual-dark": "textual-light", "ansi-dark": "ansi-light"}
@@ -48,8 +53,7 @@ class LogbookApp(App):
     def __init__(self, store, *, today: date, units: UnitPrefs | None = None, poll_seconds: float = 3.0,
                  light: bool = False, blink: bool = True, export_dir=None) -> None:
         super().__init__()
-        self.gate = StoreGate(store)
-        self.store = store
+        self.gate = StoreGate(store)  # an open Store, or a StoreOpener used by the first load
         self.today = today
         self.units = units or UnitPrefs()
         self.poll_seconds = poll_seconds
@@ -57,12 +61,18 @@ class LogbookApp(App):
         self.forecast = None  # FleetForecast once loaded
         self.seen_changes: int | None = None
         self.trouble: str = ""
-        self.user = getattr(store, "user", "")
+        self.refreshing = False  # a saved pump's forecast is shown; the rest of the fleet's is coming
+        self.user = getattr(store, "user", None) or ""
         sixteen = self.console.color_system in (None, "standard")
         dark, light_theme = ("ansi-dark", "ansi-light") if sixteen else ("textual-dark", "textual-light")
         self.theme = light_theme if light else dark
         self.export_dir = export_dir  # where the plan export goes (default: the working directory)
         self.blink = blink  # text cursor blinking (off in tests and snapshots)
+
+    @property
+    def store(self):
+        """The open Store (None until the first load has opened it)."""
+        return self.gate.store
 
     # -- start -----------------------------------------------------------------------
     def get_default_screen(self):
@@ -78,15 +88,30 @@ class LogbookApp(App):
 
     # -- data ------------------------------------------------------------------------
     @work(thread=True, exclusive=True, group="load")
-    def load_data(self, reason: str = "") -> None:
-        """Read a consistent snapshot (under the store lock) and forecast it (outside)."""
+    def load_data(self, reason: str = "", saved=None, basis: Fleet | None = None) -> None:
+        """Read a consistent snapshot (under the store lock) and forecast it (outside).
+
+        After a save (``saved``: the record the store returned, ``basis``: the snapshot
+        shown when it was saved) the saved pump's forecast is posted first: for a reading
+        from ``basis`` plus that reading, without waiting for the read; otherwise from the
+        fresh snapshot. The whole fleet's forecast follows (pooling and machine hours
+        reach other pumps too)."""
         worker = get_current_worker()
+        serial = getattr(saved, "serial", None)
         try:
-            with self.gate.open() as store:
+            quick = basis is not None and self.forecast is not None and serial in getattr(basis, "pumps", {})
+            if quick and isinstance(saved, Reading) and saved.id is not None:
+                self._post_pump(with_reading(basis, saved), serial, basis, worker)
+                quick = False
+            with self.gate.open() as store:  # opens the store on the first load
                 fleet = store.fleet()
                 count = store.change_count()
-            if self.forecast is None and not worker.is_cancelled:
+            if worker.is_cancelled:
+                return
+            if self.forecast is None:
                 self.post_message(FleetRead(fleet))  # pumps can be listed while the forecast runs
+            if quick and serial in fleet.pumps:
+                self._post_pump(fleet, serial, basis, worker)
             from logbook.analysis.fleet import forecast_fleet
 
             forecast = forecast_fleet(fleet, today=self.today)
@@ -97,10 +122,30 @@ class LogbookApp(App):
         if not worker.is_cancelled:
             self.post_message(DataLoaded(fleet, forecast, count, reason))
 
+    def _post_pump(self, fleet: Fleet, serial: str, basis: Fleet, worker) -> None:
+        """Forecast one pump pooled with its model's pumps, as the fleet view would."""
+        from logbook.analysis.fleet import forecast_in_fleet
+
+        forecast = forecast_in_fleet(fleet, serial, self.today)
+        if not worker.is_cancelled:
+            self.post_message(PumpUpdated(fleet, forecast, basis))
+
+    def on_pump_updated(self, message: PumpUpdated) -> None:
+        if self.forecast is None or self.fleet is not message.basis:
+            return  # the first forecast is still coming, or a newer snapshot is shown already
+        serial = message.forecast.serial
+        pumps = [message.forecast if p.serial == serial else p for p in self.forecast.pumps]
+        if all(p.serial != serial for p in self.forecast.pumps):
+            pumps.append(message.forecast)
+        self.fleet, self.forecast = message.fleet, replace(self.forecast, pumps=tuple(pumps))
+        self.refreshing = True
+        self.data_generation += 1
+
     def on_data_loaded(self, message: DataLoaded) -> None:
         self.fleet, self.forecast = message.fleet, message.forecast
         self.seen_changes = message.change_count
         self.trouble = ""
+        self.refreshing = False
         self.data_generation += 1
         if message.reason == "others":
             self.notify("The logbook was changed by someone else; the views are up to date again.", timeout=4)
@@ -112,11 +157,13 @@ class LogbookApp(App):
 
     def on_data_trouble(self, message: DataTrouble) -> None:
         self.trouble = message.text
+        self.refreshing = False
         self.data_generation += 1  # screens show the trouble line
         self.notify(message.text, title="Cannot read the logbook", severity="error", timeout=8)
 
-    def reload(self, reason: str = "") -> None:
-        self.load_data(reason)
+    def reload(self, reason: str = "", saved=None) -> None:
+        """Read and forecast again; ``saved`` (a record just written) gets its pump's forecast first."""
+        self.load_data(reason, saved, self.fleet if saved is not None else None)
 
     @work(thread=True, exclusive=True, group="poll")
     def poll_changes(self) -> None:
@@ -163,6 +210,14 @@ class LogbookApp(App):
         self.theme = DARK_THEMES.get(self.theme) or LIGHT_THEMES.get(self.theme) or "textual-dark"
 
 
+def with_reading(fleet: Fleet, reading: Reading) -> Fleet:
+    """``fleet`` plus a reading the store has just saved (its id and machine set by the store)."""
+    if any(r.id == reading.id for r in fleet.readings):
+        return fleet
+    return replace(fleet, readings=fleet.readings + (reading,))
+
+
 def make_app(store, *, today: date, units: UnitPrefs | None = None, **options) -> LogbookApp:
-    """Build the interface over an open Store (tests pass a temp-file or in-memory one)."""
+    """Build the interface over an open Store (tests pass a temp-file or in-memory one) or
+    over a ``StoreOpener`` (the CLI: the store is opened after the first frame)."""
     return LogbookApp(store, today=today, units=units, **options)

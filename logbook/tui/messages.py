@@ -26,6 +26,17 @@ class FleetRead(Message):
         self.fleet = fleet
 
 
+class PumpUpdated(Message):
+    """One pump's new forecast after a save (``forecast`` is its PumpForecast, pooled as in
+    the fleet view), ahead of the whole fleet's; ``basis`` is the snapshot it replaces."""
+
+    def __init__(self, fleet: Fleet, forecast, basis: Fleet | None) -> None:
+        super().__init__()
+        self.fleet = fleet
+        self.forecast = forecast
+        self.basis = basis
+
+
 class DataTrouble(Message):
     """Reading the logbook failed; ``text`` says why in words."""
 

@@ -172,7 +172,7 @@ class EntryScreen(Screen):
 
     def on_saved(self, message: Saved) -> None:
         self.saving = False
-        self.app.reload("saved")
+        self.app.reload("saved", message.record)  # its pump first, then the fleet
         self.saved(message.record)
 
     # -- hooks -------------------------------------------------------------------------------------

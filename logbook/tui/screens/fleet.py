@@ -52,19 +52,22 @@ class FleetScreen(Screen):
         self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None}
 
     def compose(self) -> ComposeResult:
-        yield Static("logbook", id="title")
+        source = Path(self.app.gate.path).name if self.app.gate.path else "logbook"
+        yield Static(f"Fleet on {self.app.today.isoformat()} · {source}", id="title")
         with Horizontal(id="filters"):
             yield Static(self._filter_words(), id="filter-summary")
             yield Input(placeholder="serial…", id="find", compact=True, select_on_focus=False)
         table = OpenTable(id="fleet-table", cursor_type="row", zebra_stripes=True, cell_padding=0)
         yield table
-        yield Static("Reading the logbook and forecasting…", id="status-line")
+        yield Static("Reading the logbook…", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
         self.query_one("#find", Input).cursor_blink = getattr(self.app, "blink", True)
+        table = self.query_one("#fleet-table", DataTable)
+        self._ensure_columns(table)  # the columns are in the first frame, the rows follow
         self.watch(self.app, "data_generation", self._data_changed, init=True)
-        self.query_one("#fleet-table", DataTable).focus()
+        table.focus()
 
     # -- data -----------------------------------------------------------------------------
     def _data_changed(self, generation: int) -> None:
@@ -165,16 +168,17 @@ class FleetScreen(Screen):
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
         line = f"{len(pumps)} of {len(everything)} shown · sorted: {order} · " + "; ".join(parts)
+        if self.app.refreshing:
+            line += " · re-forecasting the other pumps…"
         if self.app.trouble:
             line = f"Last refresh failed: {self.app.trouble}"
         self.query_one("#status-line", Static).update(line)
 
     def on_resize(self, event: events.Resize) -> None:
-        if self.app.fleet is not None:
-            self.call_after_refresh(self._relayout)
+        self.call_after_refresh(self._relayout)
 
     def _relayout(self) -> None:
-        if self._ensure_columns(self.query_one("#fleet-table", DataTable)):
+        if self._ensure_columns(self.query_one("#fleet-table", DataTable)) and self.app.fleet is not None:
             self._layout = ()
             self.refill()
 
