@@ -45,9 +45,14 @@ def walther_constants(t1_c: float, nu1_cst: float, t2_c: float, nu2_cst: float) 
 
 
 def walther_viscosity(temp_c, a: float, b: float):
-    """Kinematic viscosity (cSt) at ``temp_c`` (scalar or array) from Walther constants."""
+    """Kinematic viscosity (cSt) at ``temp_c`` (scalar or array) from Walther constants.
+
+    The powers go through the ufunc ``np.power`` for a scalar too (not ``**`` on a numpy
+    scalar, which uses the C library's pow), so that one reading and a whole fleet's
+    array give the same digits: the two differ in the last bit.
+    """
     lt = np.log10(np.asarray(temp_c, dtype=float) + KELVIN_OFFSET)
-    nu = 10.0 ** (10.0 ** (a - b * lt)) - 0.7
+    nu = np.power(10.0, np.power(10.0, a - b * lt)) - 0.7
     return float(nu) if np.ndim(nu) == 0 else nu
 
 

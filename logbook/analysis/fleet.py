@@ -1,22 +1,24 @@
 """Forecast a whole fleet in one batch: series packed into (S, N) arrays, fitted at once.
 
-Packing and unpacking loop over pumps in Python; the fit and the forecast run on the
-arrays (``fit.fit_batch``, ``forecast.forecast_batch``). A remaining-hours quantile
-beyond the horizon is reported as None (no date).
+Packing (``packing``, ``utilisation``) and the fit and forecast (``fit.fit_batch``,
+``forecast.forecast_batch``) are array steps over the whole fleet; the one loop over
+pumps builds the result records. A remaining-hours quantile beyond the horizon is
+reported as None (no date).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from dataclasses import replace
 from datetime import date
 
 import numpy as np
 
-from logbook.analysis.batch import FALLING, RISING, TrendBatch
-from logbook.analysis.calendar import date_after_hours, hours_per_day, machine_hour_points
+from logbook.analysis.arrays import NEVER, floats
+from logbook.analysis.batch import TrendBatch
+from logbook.analysis.calendar import hours_per_day, machine_hour_points
 from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit, FitOptions, fit_batch
-from logbook.analysis.forecast import BatchForecast, forecast_batch
+from logbook.analysis.forecast import O_CROSSING, O_NO_CROSSING, O_NO_DATA, O_TOO_FEW, forecast_batch
+from logbook.analysis.packing import FleetArrays, FleetPack, pack
 from logbook.analysis.results import (
     FLAG_JUMP,
     FLAG_OUTLIER,
@@ -28,34 +30,39 @@ from logbook.analysis.results import (
     Outcome,
     PumpForecast,
 )
-from logbook.analysis.segments import Series, build_series, reading_pump_hours
 from logbook.analysis.status import StatusThresholds, pump_status
-from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
+from logbook.analysis.utilisation import machine_points, utilisation
+from logbook.model import ALL_KINDS, Fleet, PumpHistory, PumpModel
 
 DEFAULT_HORIZON_HOURS = 20_000.0
 _OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
 _FLAGS = ((B_OUTLIER, FLAG_OUTLIER), (B_STEP, FLAG_STEP), (B_POOLED, FLAG_POOLED), (B_JUMP, FLAG_JUMP))
+_FLAG_SETS = [frozenset(name for bit, name in _FLAGS if bits & bit) for bits in range(16)]
 
 
-@dataclass
-class _Row:
-    history: PumpHistory
-    series: Series
-    limit: Limit | None
-    x_now: float
+def _fleet_pack(fleet: Fleet, today: date) -> tuple[list[str], list[PumpModel], FleetPack]:
+    """Pumps to forecast (fitted now, or unfitted with readings; by serial), their models and the packed batch."""
+    arrays = FleetArrays(fleet.fitments, fleet.readings, fleet.events)
+    current = np.fromiter((r.superseded_by is None for r in fleet.readings), dtype=bool, count=len(fleet.readings))
+    fits = arrays.fits
+    known = set(np.unique(arrays.serial[current]).tolist()) | set(fits.serial[fits.removed == NEVER].tolist())
+    index = arrays.serial_index
+    serials = [s for s in sorted(fleet.pumps) if index.get(s, -1) in known]
+    models = [fleet.models[fleet.pumps[s].model] for s in serials]
+    now_at = [i for i in fits.current([index[s] for s in serials]) if i >= 0]
+    wanted = sorted(set(fits.machine[now_at].tolist()))
+    points = machine_points(fits, arrays.meters, fleet.events, arrays.machine_index, arrays.fit, arrays.day,
+                            arrays.meter, arrays.cont)  # fmt: skip
+    per_day = utilisation(*points, wanted, today)
+    names = {c: m for m, c in arrays.machine_index.items()}
+    util = {names[c]: v for c, v in per_day.items()}
+    return serials, models, pack(arrays, serials, models, util, today, use=current)
 
 
-def _histories(fleet: Fleet, model: str | None = None) -> list[PumpHistory]:
-    """Histories of pumps fitted now, plus unfitted pumps that have readings; only pumps
-    of ``model`` when given."""
-    serials = [s for s, p in sorted(fleet.pumps.items()) if model is None or p.model == model]
-    return [h for h in fleet.histories(serials) if h.readings or any(f.removed_on is None for f in h.fitments)]
-
-
-def _direction(kind: Kind, limit: Limit | None) -> int:
-    if limit is not None:
-        return FALLING if limit.direction == "below" else RISING
-    return FALLING if kind is Kind.SERVO_PRESSURE else RISING
+def fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
+    """The batch that ``forecast_fleet`` fits (for benchmarks); None for a fleet with nothing to forecast."""
+    serials, _, pk = _fleet_pack(fleet, today)
+    return pk.batch if serials else None
 
 
 def forecast_histories(
@@ -69,104 +76,100 @@ def forecast_histories(
     with_noise: bool = False,
 ) -> list[PumpForecast]:
     """Forecast the given pumps together (pooling within each pump model and kind)."""
-    rows: list[_Row] = []
-    groups: dict[tuple[str, Kind], int] = {}
-    pump_info = []
-    for h in histories:
-        hours_of = {i: reading_pump_hours(r, h) for i, r in enumerate(h.readings)}
-        current = next((f for f in h.fitments if f.removed_on is None), None)
-        per_day = utilisation.get(current.machine) if current is not None else None
-        last_on = h.readings[-1].taken_on if h.readings else None
-        pump_now = _pump_hours_today(h, hours_of, current, per_day, today)
-        pump_info.append((h, current, per_day, last_on, pump_now))
-        for kind in ALL_KINDS:
-            s = build_series(h, kind, hours_of)
-            x_now = (pump_now - s.start_hours) if pump_now is not None else (s.x_hours[-1] if s.x_hours else 0.0)
-            rows.append(_Row(h, s, h.model.limit(kind), max(x_now, s.x_hours[-1] if s.x_hours else 0.0)))
-            groups.setdefault((h.model.code, kind), len(groups))
-    if not rows:
+    if not histories:
         return []
-    batch = TrendBatch.pack(
-        [(r.series.x_hours, r.series.y_value) for r in rows],
-        limit=[r.limit.value if r.limit is not None else np.nan for r in rows],
-        direction=[_direction(r.series.kind, r.limit) for r in rows],
-        group=[groups[(r.history.model.code, r.series.kind)] for r in rows],
-        x_now=[r.x_now for r in rows],
-    )
+    events, seen = [], set()
+    for h in histories:
+        for e in h.events:
+            if id(e) not in seen:
+                seen.add(id(e))
+                events.append(e)
+    arrays = FleetArrays([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
+    serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
+    pk = pack(arrays, serials, models, utilisation, today)
+    return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
+
+
+def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, options, thresholds, with_noise):
+    """Fit and forecast the packed batch, then one PumpForecast per pump (the only loop over pumps)."""
+    batch = pk.batch
     fit = fit_batch(batch, options)
     fc = forecast_batch(batch, fit, horizon_hours=horizon_hours, with_noise=with_noise)
+    n_rows = batch.size
+    outcome = fc.outcome.astype(np.int64)
+    count = np.diff(pk.bounds)
+    outcome = np.where((outcome == O_NO_DATA) & (pk.before > 0), O_TOO_FEW, outcome)
+    detail = (fit.path != 0) & np.isfinite(fit.b)
+    spans = (outcome == O_CROSSING) | (outcome == O_NO_CROSSING)
+    rem = np.where(spans[:, None] & np.isfinite(fc.remaining), fc.remaining, np.nan)
+    rem_list = [[None if v != v else v for v in col] for col in rem.T.tolist()]
+    day_lists = [_dates(today, col, pk.per_day) for col in rem.T]
+    with np.errstate(invalid="ignore"):
+        rate = np.where(detail & np.isfinite(fc.rate_per_hour), fc.rate_per_hour * 1000.0, np.nan).tolist()
+    has = count > 0
+    last = np.maximum(pk.bounds[1:] - 1, 0)
+    latest_y = np.where(has, pk.y[last], np.nan).tolist() if len(pk.y) else [None] * n_rows
+    latest_raw = np.where(has, pk.raw[last], np.nan).tolist() if len(pk.y) else [None] * n_rows
+    latest_day = np.where(has, pk.day[last], 0).tolist() if len(pk.y) else [0] * n_rows
+    fits = _details(pk, fit, detail)
+    flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
+    path = [PATH_NAMES[c] if d else "none" for c, d in zip(fit.path.tolist(), detail.tolist())]
+    x_now = batch.x_now.tolist()
     out = []
-    for p, (h, current, per_day, last_on, pump_now) in enumerate(pump_info):
-        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day) for k in range(3))
+    for p, serial in enumerate(serials):
+        kinds = []
+        for k, kind in enumerate(ALL_KINDS):
+            i = 3 * p + k
+            seen = bool(has[i])
+            kinds.append(KindForecast(
+                serial=serial, kind=kind, limit=pk.limits[i], outcome=_OUTCOMES[outcome[i]],
+                latest_value=latest_y[i] if seen else None, latest_raw=latest_raw[i] if seen else None,
+                latest_on=date.fromordinal(latest_day[i]) if seen else None, n_readings=int(count[i]),
+                segment_start=pk.start_on[i], hours_in_segment=x_now[i], path=path[i],
+                p10_hours=rem_list[0][i], p50_hours=rem_list[1][i], p90_hours=rem_list[2][i],
+                p10_date=day_lists[0][i], p50_date=day_lists[1][i], p90_date=day_lists[2][i],
+                flags=flags[i], fit=fits[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
+            ))  # fmt: skip
+        kinds = tuple(kinds)
+        cur = pk.pump_current[p]
         pf = PumpForecast(
-            serial=h.pump.serial,
-            model=h.model.code,
-            machine=current.machine if current else None,
-            position=current.position if current else None,
-            site=None,
-            hours_since_overhaul=None if pump_now is None else pump_now - _last_overhaul_hours(rows[3 * p]),
-            hours_per_day=per_day,
-            kinds=kinds,
-            worst=_worst(kinds),
-            last_reading_on=last_on,
-        )
-        out.append(_with_status(pf, today, thresholds))
+            serial=serial, model=models[p].code, machine=cur.machine if cur else None,
+            position=cur.position if cur else None, site=sites.get(cur.machine) if cur else None,
+            hours_since_overhaul=pk.since_overhaul[p], hours_per_day=pk.per_day[p], kinds=kinds,
+            worst=_worst(kinds), last_reading_on=pk.last_on[p],
+        )  # fmt: skip
+        out.append(replace(pf, status=pump_status(pf, today, thresholds)))
     return out
 
 
-def _pump_hours_today(h, hours_of, current, per_day, today) -> float | None:
-    if not h.readings:
-        return current.pump_hours_at_fit if current is not None else None
-    last = max(hours_of.values())
-    last_on = max(r.taken_on for r in h.readings)
-    if current is None or per_day is None:
-        return last
-    return last + per_day * max((today - last_on).days, 0)
+def _dates(today: date, remaining: np.ndarray, per_day: list[float | None]) -> list[date | None]:
+    """``calendar.date_after_hours`` for a column of remaining hours (NaN = none) at each pump's rate."""
+    rate = np.repeat(floats(per_day), 3)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        days = remaining / rate
+        ok = np.isfinite(remaining) & (rate > 0) & ~(days > 366 * 200)
+        step = np.ceil(np.where(ok, days, 0.0) - 1e-9).astype(np.int64)
+    base = today.toordinal()
+    return [date.fromordinal(base + d) if k else None for d, k in zip(step.tolist(), ok.tolist())]
 
 
-def _last_overhaul_hours(row: _Row) -> float:
-    """Pump hours at the last overhaul/exchange (0 for a pump never overhauled)."""
-    s = row.series  # case drain resets only at overhaul/exchange
-    return s.start_hours if s.start is not None else 0.0
-
-
-def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day):
-    s = row.series
-    outcome = _OUTCOMES[int(fc.outcome[i])]
-    if outcome is Outcome.NO_DATA and s.readings_before:
-        outcome = Outcome.TOO_FEW
-    flags = frozenset(name for bit, name in _FLAGS if fit.flags[i] & bit)
-    rem = [None if not np.isfinite(v) else float(v) for v in fc.remaining[i]]
-    if outcome not in (Outcome.CROSSING, Outcome.NO_CROSSING):
-        rem = [None, None, None]
-    detail = _detail(s, i, fit)
-    rate = float(fc.rate_per_hour[i]) * 1000.0 if detail is not None and np.isfinite(fc.rate_per_hour[i]) else None
-    return KindForecast(
-        serial=row.history.pump.serial,
-        kind=s.kind,
-        limit=row.limit,
-        outcome=outcome,
-        latest_value=s.y_value[-1] if s.y_value else None,
-        latest_raw=s.raw[-1] if s.raw else None,
-        latest_on=s.dates[-1] if s.dates else None,
-        n_readings=len(s.x_hours),
-        segment_start=s.start_on,
-        hours_in_segment=float(batch.x_now[i]),
-        path=PATH_NAMES[int(fit.path[i])] if detail is not None else "none",
-        p10_hours=rem[0],
-        p50_hours=rem[1],
-        p90_hours=rem[2],
-        p10_date=date_after_hours(today, rem[0], per_day),
-        p50_date=date_after_hours(today, rem[1], per_day),
-        p90_date=date_after_hours(today, rem[2], per_day),
-        flags=flags,
-        fit=detail,
-        rate_per_1000h=rate,
-    )
-
-
-def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:
-    return fit_detail(fit, i, s.x_hours, s.y_value)
+def _details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail | None]:
+    """The chosen path of each row with a fitted line as a FitDetail (None elsewhere), as ``fit_detail`` builds it."""
+    rows = np.flatnonzero(detail)
+    out: list[FitDetail | None] = [None] * len(detail)
+    if not rows.size:
+        return out
+    xs, ys = pk.x.tolist(), pk.y.tolist()
+    used = (fit.weights[np.repeat(np.arange(len(detail)), np.diff(pk.bounds)), pk.rank] > 0).tolist()
+    bounds = pk.bounds.tolist()
+    sigma = np.where(np.isfinite(fit.sigma), fit.sigma, 0.0)
+    dof = np.minimum(fit.dof, 10**6).astype(np.int64)
+    cols = [v[rows].tolist() for v in (fit.path, fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
+    for r, code, a, b, c00, c01, c11, s, d in zip(rows.tolist(), *cols):
+        lo, hi = bounds[r], bounds[r + 1]
+        out[r] = FitDetail(x_hours=tuple(xs[lo:hi]), y_value=tuple(ys[lo:hi]), used=tuple(used[lo:hi]),
+                           path=PATH_NAMES[code], params=(a, b), cov=((c00, c01), (c01, c11)), sigma=s, dof=d)  # fmt: skip
+    return out
 
 
 def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
@@ -210,10 +213,6 @@ def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
     return min(cands, key=key) if cands else None
 
 
-def _with_status(pf: PumpForecast, today: date, thresholds) -> PumpForecast:
-    return replace(pf, status=pump_status(pf, today, thresholds))
-
-
 def forecast_fleet(
     fleet: Fleet,
     today: date,
@@ -224,22 +223,11 @@ def forecast_fleet(
     with_noise: bool = False,
 ) -> FleetForecast:
     """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
-    points = machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
-    util = {m: hours_per_day(p, today) for m, p in points.items()}
-    pumps = forecast_histories(
-        _histories(fleet), today, util, horizon_hours=horizon_hours, options=options,
-        thresholds=thresholds, with_noise=with_noise,
-    )  # fmt: skip
-    pumps = [
-        p if p.machine is None or p.machine not in fleet.machines else _site(p, fleet.machines[p.machine].site)
-        for p in pumps
-    ]
+    serials, models, pk = _fleet_pack(fleet, today)
+    sites = {unit: m.site for unit, m in fleet.machines.items()}
+    pumps = _forecasts(serials, models, pk, today, sites, horizon_hours, options, thresholds, with_noise) if serials else []
     notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
-
-
-def _site(pf: PumpForecast, site: str) -> PumpForecast:
-    return replace(pf, site=site)
 
 
 def forecast_pump(

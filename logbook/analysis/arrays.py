@@ -1,0 +1,139 @@
+"""A fleet's records as numpy columns, and pump hours for many readings at once.
+
+The same rules as ``logbook.meter`` (which stays the one-record definition): the
+fitment that held on a day is the newest one fitted by then and not yet removed;
+continuous machine hours add up the hours lost at each meter replacement before the
+day (on the replacement day itself, the nearer meter decides); pump hours are the
+pump's hours at fitting plus the continuous machine hours run since.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from datetime import date
+
+import numpy as np
+
+from logbook.meter import read_on_new_meter
+from logbook.model import Event, EventKind, Fitment
+
+DAY_BITS = 21  # day ordinals (to year 5741) fit below 2**21: key = index * 2**21 + day
+NEVER = (1 << DAY_BITS) - 1  # removed_on of a fitment still in place
+
+
+def ordinals(days: Sequence[date]) -> np.ndarray:
+    """Day ordinals of a sequence of dates."""
+    return np.fromiter(map(date.toordinal, days), dtype=np.int64, count=len(days))
+
+
+def floats(values: Sequence) -> np.ndarray:
+    """Float column, NaN for None."""
+    return np.array(values, dtype=float) if len(values) else np.zeros(0)
+
+
+def codes(names: Sequence, index: dict) -> np.ndarray:
+    """Integer code of each name, adding unseen names to ``index``; -1 for None."""
+    out = np.empty(len(names), dtype=np.int64)
+    for i, name in enumerate(names):
+        out[i] = -1 if name is None else index.setdefault(name, len(index))
+    return out
+
+
+class MeterTable:
+    """Meter replacements per machine, to put hour-meter values on each machine's continuous scale."""
+
+    def __init__(self, events: Sequence[Event], machine_index: dict[str, int]):
+        reps = [
+            (machine_index.setdefault(e.machine, len(machine_index)), e.happened_on.toordinal(), e.id or 0, i, e)
+            for i, e in enumerate(events)
+            if e.kind is EventKind.METER_REPLACED and e.machine is not None and e.hours is not None and e.to_hours is not None
+        ]
+        reps.sort(key=lambda t: t[:4])
+        self.events = [t[4] for t in reps]
+        self.machine = np.array([t[0] for t in reps], dtype=np.int64)
+        self.day = np.array([t[1] for t in reps], dtype=np.int64)
+        self.key = (self.machine << DAY_BITS) + self.day
+        # offset after the first k replacements of a machine, summed as meter.continuous_hours sums it
+        prefix, running, last = [], [], None
+        for m, e in zip(self.machine.tolist(), self.events):
+            running = [] if m != last else running
+            running = [*running, e.hours - e.to_hours]
+            prefix.append(sum(running))
+            last = m
+        self.prefix = np.array(prefix, dtype=float)
+
+    def continuous(self, machine: np.ndarray, day: np.ndarray, meter_hours: np.ndarray) -> np.ndarray:
+        """Continuous hours of meter values read on machines ``machine`` (codes) on days ``day``."""
+        hours = np.asarray(meter_hours, dtype=float)
+        if not self.events:
+            return hours + 0.0
+        key = (machine << DAY_BITS) + day
+        before = np.searchsorted(self.key, key, "left")  # replacements of earlier machines or days
+        upto = np.searchsorted(self.key, key, "right")
+        prev = before - 1
+        same_machine = (prev >= 0) & (self.machine[np.maximum(prev, 0)] == machine)
+        offset = np.where(same_machine, self.prefix[np.maximum(prev, 0)], 0.0)
+        out = hours + offset
+        for q in np.flatnonzero(upto > before).tolist():  # read on a replacement day: rare, done as meter does
+            mine = [e for e, m in zip(self.events, self.machine.tolist()) if m == machine[q]]
+            on = date.fromordinal(int(day[q]))
+            out[q] = float(meter_hours[q]) + sum(e.hours - e.to_hours for e in mine if read_on_new_meter(e, on, meter_hours[q]))
+        return out
+
+
+class FitmentTable:
+    """Fitments sorted by (pump, fitted_on, id), with the continuous machine hours at each fitting."""
+
+    def __init__(self, fitments: Sequence[Fitment], serial_index: dict[str, int], machine_index: dict[str, int],
+                 meters: MeterTable):  # fmt: skip
+        serial = codes([f.serial for f in fitments], serial_index)
+        fitted = ordinals([f.fitted_on for f in fitments])
+        ids = np.array([f.id or 0 for f in fitments], dtype=np.int64)
+        order = np.lexsort((np.arange(len(fitments)), ids, fitted, serial))
+        self.items = [fitments[i] for i in order.tolist()]
+        self.serial, self.fitted = serial[order], fitted[order]
+        self.machine = codes([f.machine for f in self.items], machine_index)
+        self.removed = np.array([NEVER if f.removed_on is None else f.removed_on.toordinal() for f in self.items],
+                                dtype=np.int64)  # fmt: skip
+        self.pump_at_fit = floats([f.pump_hours_at_fit for f in self.items])
+        self.meter_at_fit = floats([f.machine_hours_at_fit for f in self.items])
+        self.meter_at_removal = floats([f.machine_hours_at_removal for f in self.items])
+        self.key = (self.serial << DAY_BITS) + self.fitted
+        self.depth = int(np.bincount(self.serial).max()) if len(self.items) else 0
+        self.cont_at_fit = meters.continuous(self.machine, self.fitted, self.meter_at_fit)
+        self.meters = meters
+
+    def on(self, serial: np.ndarray, day: np.ndarray) -> np.ndarray:
+        """Index of the fitment that held pump ``serial`` (codes) on ``day``: the newest one fitted by
+        then and not yet removed; -1 where none did."""
+        found = np.full(len(serial), -1, dtype=np.int64)
+        if not self.items:
+            return found
+        key = (serial << DAY_BITS) + day
+        first = np.searchsorted(self.key, serial << DAY_BITS, "left")
+        pos = np.searchsorted(self.key, key, "right")
+        for back in range(1, self.depth + 1):
+            idx = pos - back
+            safe = np.maximum(idx, 0)
+            hit = (found < 0) & (idx >= first) & (self.removed[safe] >= day) & (serial >= 0)
+            found = np.where(hit, idx, found)
+        return found
+
+    def current(self, serial: Sequence[int]) -> list[int]:
+        """Index of each pump's first fitment (in fitting order) not yet removed; -1 for none."""
+        open_ = np.flatnonzero(self.removed == NEVER)
+        got, firsts = np.unique(self.serial[open_], return_index=True)
+        first_open = dict(zip(got.tolist(), open_[firsts].tolist()))
+        return [first_open.get(s, -1) for s in serial]
+
+    def pump_hours(self, fit: np.ndarray, day: np.ndarray, meter_hours: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(pump hours, continuous machine hours) of meter values read while fitments ``fit`` held (fit >= 0)."""
+        f = np.maximum(fit, 0)
+        now = self.meters.continuous(self.machine[f], day, meter_hours)
+        return self.pump_at_fit[f] + (now - self.cont_at_fit[f]), now
+
+    def removal_pump_hours(self) -> np.ndarray:
+        """Pump hours at each removal that has a meter reading (NaN otherwise), as segments' known points."""
+        ok = (self.removed != NEVER) & np.isfinite(self.meter_at_removal) & (self.fitted <= self.removed)
+        hours, _ = self.pump_hours(np.arange(len(self.items)), np.where(ok, self.removed, self.fitted), self.meter_at_removal)
+        return np.where(ok, hours, np.nan)

@@ -1,0 +1,110 @@
+"""Machine utilisation (hours per day) of many machines at once, as ``calendar.hours_per_day`` defines it.
+
+The points per machine are those of ``calendar.machine_hour_points`` (fitments,
+removals, readings taken while a pump sat in the machine, event meter readings), on
+the continuous scale. Theil-Sen slopes (Sen, JASA 1968: the median of pairwise
+slopes) are taken for all machines with the same number of points in one array
+step; a machine whose points are not all finite goes through ``hours_per_day``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from datetime import date
+
+import numpy as np
+
+from logbook.analysis.arrays import NEVER, FitmentTable, MeterTable, codes, floats, ordinals
+from logbook.analysis.calendar import MAX_HOURS_PER_DAY, hours_per_day
+from logbook.model import Event, EventKind
+
+
+def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Event], machine_index: dict[str, int],
+                   read_fit: np.ndarray, read_day: np.ndarray, read_meter: np.ndarray, read_cont: np.ndarray):  # fmt: skip
+    """(machine code, day, continuous hours) of every point, as three arrays.
+
+    ``read_fit`` is the fitment of each reading (-1 for none) and ``read_cont`` its continuous
+    machine hours (on the fitment's machine); readings outside any fitment are no points.
+    """
+    mach, day, meter = [], [], []
+    removed = (fits.removed != NEVER) & np.isfinite(fits.meter_at_removal)
+    mach += [fits.machine, fits.machine[removed]]
+    day += [fits.fitted, fits.removed[removed]]
+    meter += [fits.meter_at_fit, fits.meter_at_removal[removed]]
+    ev_m, ev_d, ev_h = [], [], []
+    for e in events:
+        if e.machine is not None and e.hours is not None:
+            ev_m.append(e.machine), ev_d.append(e.happened_on), ev_h.append(e.hours)
+        if e.kind is EventKind.METER_REPLACED and e.machine is not None and e.to_hours is not None:
+            ev_m.append(e.machine), ev_d.append(e.happened_on), ev_h.append(e.to_hours)
+        elif e.kind is EventKind.MOVE and e.to_machine is not None and e.to_hours is not None:
+            ev_m.append(e.to_machine), ev_d.append(e.happened_on), ev_h.append(e.to_hours)
+    mach.append(codes(ev_m, machine_index))
+    day.append(ordinals(ev_d))
+    meter.append(floats(ev_h))
+    m, d, h = np.concatenate(mach), np.concatenate(day), np.concatenate(meter)
+    c = meters.continuous(m, d, h)
+    held = read_fit >= 0
+    return (np.concatenate([m, fits.machine[read_fit[held]]]), np.concatenate([d, read_day[held]]),
+            np.concatenate([c, read_cont[held]]))  # fmt: skip
+
+
+def _median_slopes(days: np.ndarray, hours: np.ndarray) -> np.ndarray:
+    """Theil-Sen slope of each row of (M, n) points: median of (h_i - h_j) / (d_i - d_j) over d_i > d_j."""
+    dx = days[:, :, None] - days[:, None, :]
+    dy = hours[:, :, None] - hours[:, None, :]
+    valid = dx > 0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slopes = np.where(valid, dy / dx, np.inf).reshape(len(days), -1)
+    slopes.sort(axis=1)
+    count = valid.reshape(len(days), -1).sum(axis=1)
+    rows = np.arange(len(days))
+    hi = slopes[rows, count // 2]
+    lo = slopes[rows, np.maximum(count - 1, 0) // 2]
+    return np.where(count % 2 == 1, hi, (lo + hi) / 2)
+
+
+def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted: Sequence[int], today: date,
+                window_days: int = 365, min_span_days: int = 28) -> dict[int, float | None]:  # fmt: skip
+    """Hours per day of the ``wanted`` machine codes (None where ``hours_per_day`` gives None)."""
+    out: dict[int, float | None] = {m: None for m in wanted}
+    t = today.toordinal()
+    want = np.zeros(max([*wanted, int(machine.max(initial=-1))]) + 2, dtype=bool)
+    want[list(wanted)] = True
+    keep = want[machine] & (day <= t)
+    m, d, h = machine[keep], day[keep].astype(float), hours[keep]
+    order = np.lexsort((h, d, m))
+    m, d, h = m[order], d[order], h[order]
+    starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
+    ends = np.r_[starts[1:], len(m)]
+    if not len(m):
+        return out
+    bad = np.logical_or.reduceat(~(np.isfinite(h) & np.isfinite(d)), starts)
+    recent = d >= t - window_days
+    n_rec = np.add.reduceat(recent.astype(np.int64), starts)
+    first_rec = starts + (ends - starts - n_rec)  # points are in day order: the recent ones come last
+    span_rec = np.where(n_rec > 0, d[ends - 1] - d[np.minimum(first_rec, ends - 1)], 0.0)
+    span_all = d[ends - 1] - d[starts]
+    use_rec = (n_rec >= 2) & (span_rec >= min_span_days)
+    use_all = ~use_rec & (ends - starts >= 2) & (span_all >= min_span_days)
+    lo = np.where(use_rec, first_rec, starts)
+    count = ends - lo
+    codes_ = m[starts]
+    slope = np.full(len(starts), np.nan)
+    theil = (use_rec | use_all) & ~bad
+    for n in np.unique(count[theil]).tolist():
+        rows = np.flatnonzero(theil & (count == n))
+        cols = lo[rows, None] + np.arange(n)[None, :]
+        slope[rows] = _median_slopes(d[cols], h[cols])
+    slope = np.clip(slope, 0.0, MAX_HOURS_PER_DAY)
+    few = ~theil & ~bad & (ends - starts >= 2) & (span_all > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        straight = np.clip((h[ends - 1] - h[starts]) / span_all, 0.0, MAX_HOURS_PER_DAY)
+    slope = np.where(few, straight, slope)
+    for g, code in enumerate(codes_.tolist()):
+        if bad[g]:  # not all finite: the one-machine definition
+            pts = [(date.fromordinal(int(x)), y) for x, y in zip(d[starts[g] : ends[g]], h[starts[g] : ends[g]].tolist())]
+            out[code] = hours_per_day(pts, today, window_days, min_span_days)
+        elif theil[g] or few[g]:
+            out[code] = float(slope[g])
+    return out
