@@ -17,7 +17,6 @@ from sqlite3 import DatabaseError as SQLiteError  # as logbook.store exports it,
 
 from rich.console import Console
 
-from logbook.model import InputRejected
 from logbook.units import UnitPrefs
 
 COMMAND_MODULES = (
@@ -101,9 +100,25 @@ def _add_global_options(parser: argparse.ArgumentParser, *, suppress: bool) -> N
     parser.add_argument("--today", type=date.fromisoformat, default=default(None), help=argparse.SUPPRESS)
 
 
+def _options_only(argv: list[str] | None) -> argparse.Namespace | None:
+    """The global options when ``argv`` holds nothing else (no command: the fleet view),
+    parsed without importing every command module; None when there is more to parse."""
+    quick = argparse.ArgumentParser(prog="logbook", add_help=False, exit_on_error=False)
+    _add_global_options(quick, suppress=False)
+    try:
+        args, rest = quick.parse_known_args(argv)
+    except argparse.ArgumentError:
+        return None  # the full parser says what is wrong
+    if rest:
+        return None
+    args.command = None
+    return args
+
+
 def main(argv: list[str] | None = None) -> int:
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    args = _options_only(argv)
+    if args is None:
+        args = build_parser().parse_args(argv)
     ctx = Context(
         db_path=args.db if args.db is not None else default_db_path(),
         user=args.user,
@@ -112,15 +127,10 @@ def main(argv: list[str] | None = None) -> int:
     )
     try:
         if args.command is None:
-            from logbook.commands import open_ui
+            from logbook.tui.launch import run  # not via logbook.commands: light until the first frame
 
-            return open_ui.run(args, ctx)
+            return run(args, ctx)
         return int(args.func(args, ctx) or 0)
-    except InputRejected as exc:
-        ctx.err.print("[bold]Not recorded[/bold] - nothing was written:")
-        for problem in exc.problems:
-            ctx.err.print(f"  - {problem}", markup=False)
-        return 2
     except SQLiteError as exc:
         ctx.err.print(f"logbook: the database {ctx.db_path} failed: {exc}. Nothing half-written (each change is one "
                       "transaction); `logbook check` tells more, and a damaged file is restored from a backup.", markup=False)
@@ -131,17 +141,23 @@ def main(argv: list[str] | None = None) -> int:
     except BrokenPipeError:
         return 0
     except Exception as exc:
-        if not _is_store_error(exc):
-            raise
-        ctx.err.print(f"logbook: {exc}", markup=False)
-        return 1
+        if _raised_as(exc, "logbook.model", "InputRejected"):
+            ctx.err.print("[bold]Not recorded[/bold] - nothing was written:")
+            for problem in exc.problems:
+                ctx.err.print(f"  - {problem}", markup=False)
+            return 2
+        if _raised_as(exc, "logbook.store.core", "StoreError"):  # missing, locked, too new...
+            ctx.err.print(f"logbook: {exc}", markup=False)
+            return 1
+        raise
 
 
-def _is_store_error(exc: Exception) -> bool:
-    """A StoreError (missing, locked, too new...): only raised once logbook.store is
-    imported, so the no-command path need not import it (sqlite_utils pulls in pandas)."""
-    core = sys.modules.get("logbook.store.core")
-    return core is not None and isinstance(exc, core.StoreError)
+def _raised_as(exc: Exception, module: str, name: str) -> bool:
+    """``isinstance(exc, module.name)`` without importing ``module``: an exception of it
+    can only have been raised once it was imported. (The no-command path imports neither
+    the model nor the store before the fleet view's first frame.)"""
+    loaded = sys.modules.get(module)
+    return loaded is not None and isinstance(exc, getattr(loaded, name))
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import os
 from collections import Counter
-from pathlib import Path
 
 
 def print_summary(ctx) -> int:
@@ -23,20 +21,7 @@ def print_summary(ctx) -> int:
 
 
 def run(args, ctx) -> int:
-    """Start the fleet view without importing the store or the analysis: the app opens
-    the store in a worker after its first frame (a missing file is reported here)."""
-    if not os.isatty(1) or not os.isatty(0):
-        return print_summary(ctx)
-    if not Path(ctx.db_path).exists():
-        ctx.open_store().close()  # raises DatabaseMissing with the store's own words
-    try:
-        from logbook.tui.app import make_app
-        from logbook.tui.gate import StoreOpener
-    except ImportError:
-        return print_summary(ctx)
-    app = make_app(StoreOpener(Path(ctx.db_path), ctx.user), today=ctx.today, units=ctx.units)
-    try:
-        app.run()
-    finally:
-        app.gate.close()
-    return 0
+    """The fleet view at a terminal, else the summary (see ``logbook.tui.launch``)."""
+    from logbook.tui.launch import run as launch
+
+    return launch(args, ctx)

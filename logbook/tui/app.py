@@ -16,6 +16,7 @@ from __future__ import annotations
 from dataclasses import replace
 from datetime import date
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from textual import work
 from textual.app import App
@@ -23,10 +24,12 @@ from textual.binding import Binding
 from textual.reactive import reactive
 from textual.worker import get_current_worker
 
-from logbook.model import Fleet, Reading
 from logbook.tui.gate import StoreGate, trouble_text
 from logbook.tui.messages import ChangesSeen, DataLoaded, DataTrouble, FleetRead, PumpUpdated
 from logbook.units import UnitPrefs
+
+if TYPE_CHECKING:  # the model is imported by the first load, after the first frame
+    from logbook.model import Fleet, Reading
 
 DARK_THEMES = {"textual-dark": "textual-light", "ansi-dark": "ansi-light"}
 LIGHT_THEMES = {v: k for k, v in DARK_THEMES.items()}
@@ -81,8 +84,9 @@ class LogbookApp(App):
         return FleetScreen()
 
     def on_mount(self) -> None:
-        # Read and forecast after the first frame is on screen, so the view appears at once.
-        self.call_after_refresh(self.load_data, "start")
+        # Open, read and forecast after the fleet view's first frame is on screen (the
+        # worker's imports and reads then cannot delay it).
+        self.screen.call_after_refresh(self.load_data, "start")
         if self.poll_seconds > 0:
             self.set_interval(self.poll_seconds, self.poll_changes)
 
@@ -96,6 +100,8 @@ class LogbookApp(App):
         from ``basis`` plus that reading, without waiting for the read; otherwise from the
         fresh snapshot. The whole fleet's forecast follows (pooling and machine hours
         reach other pumps too)."""
+        from logbook.model import Reading
+
         worker = get_current_worker()
         serial = getattr(saved, "serial", None)
         try:

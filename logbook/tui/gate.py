@@ -8,13 +8,10 @@ needs it, after the fleet view's first frame is on screen.
 from __future__ import annotations
 
 import contextlib
-import sqlite3
 import threading
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterator
-
-from logbook.model import InputRejected
 
 
 @dataclass(frozen=True)
@@ -93,6 +90,9 @@ class _Held:
 
 def trouble_text(exc: BaseException) -> str:
     """A sentence for a person instead of a traceback (store errors already are one)."""
+    import sqlite3
+
+    from logbook.model import InputRejected
     from logbook.store import StoreError
 
     if isinstance(exc, InputRejected):

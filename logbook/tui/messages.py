@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from textual.message import Message
 
-from logbook.model import Fleet, Problem
+if TYPE_CHECKING:
+    from logbook.model import Fleet, Problem
 
 
 class DataLoaded(Message):

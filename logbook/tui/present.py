@@ -22,6 +22,7 @@ from logbook.analysis.results import (
 )
 from logbook.analysis.status import STATUS_ORDER
 from logbook.model import Kind
+from logbook.tui.layout import clip, fleet_columns
 
 KIND_SHORT = {Kind.CASE_DRAIN: "drain", Kind.SERVO_PRESSURE: "servo", Kind.NEUTRAL_DRIFT: "drift"}
 
@@ -104,11 +105,6 @@ class Column:
     cell: Callable[[PumpForecast], str]
 
 
-def clip(text: str, width: int) -> str:
-    """Text cut to ``width`` cells with an ellipsis, so that columns never run together."""
-    return text if len(text) <= width else text[: max(width - 1, 0)] + "…"
-
-
 def _month(d: date | None) -> str:
     return fmt.month(d)
 
@@ -128,62 +124,25 @@ def _closest(p: PumpForecast, long: bool) -> str:
 
 
 def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
-    """Columns that fit ``width`` cells (one space between columns).
-
-    The narrow layout (80 columns) shows months for P50/P10, short kind names and an
-    arrow for the trend; each step up adds detail while it still fits: full dates,
-    full status, longer machine/position, the site, kind names, trend words.
-    """
-    w = {"serial": max(6, min(serial_width, 12)), "where": 15, "model": 6, "hours": 6, "kind": 5,
-         "p50": 7, "p10": 7, "trend": 1, "status": 15, "site": 0}
-    full_dates = long_kind = trend_words = False
-
-    def total() -> int:
-        shown = [v for v in w.values() if v]
-        return sum(shown) + len(shown) - 1
-
-    for step in ("dates", "status", "where", "site", "kind", "trend"):
-        before = dict(w)
-        if step == "dates":
-            w["p50"] = w["p10"] = 10
-        elif step == "status":
-            w["status"] = 23
-        elif step == "where":
-            w["where"] = 19
-        elif step == "kind":
-            w["kind"] = 14
-        elif step == "site":
-            w["site"] = 14
-        elif step == "trend":
-            w["trend"] = 17
-        if total() > width:
-            w = before
-            break
-        full_dates |= step == "dates"
-        long_kind |= step == "kind"
-        trend_words |= step == "trend"
-    for key, least in (("where", 9), ("status", 10), ("serial", 6)):  # narrower than 80 columns: squeeze
-        if total() > width:
-            w[key] = max(least, w[key] - (total() - width))
-    if total() < width and w["where"] < 19:
-        w["where"] = min(19, w["where"] + width - total())
-    day = fmt.day if full_dates else _month
-    cols = [
-        Column("serial", "Serial", w["serial"], lambda p: p.serial),
-        Column("where", "Machine, position" if w["where"] >= 17 else "Machine", w["where"], where),
-        Column("site", "Site", w["site"], lambda p: p.site or "-"),
-        Column("model", "Model", w["model"], lambda p: p.model),
-        Column("hours", "Hours" if w["kind"] < 14 else "Hours", w["hours"], _hours_cell),
-        Column("kind", "Closest to limit" if long_kind else "Worst", w["kind"], lambda p: _closest(p, long_kind)),
-        Column("p50", "P50 date" if full_dates else "P50", w["p50"], _worst_date(lambda k: k.p50_date, day)),
-        Column("p10", "P10 date" if full_dates else "P10", w["p10"], _worst_date(lambda k: k.p10_date, day)),
-        Column("trend", "Trend" if trend_words else "T", w["trend"],
-               (lambda p: " ".join(trend(p.worst))) if trend_words else (lambda p: trend(p.worst)[0])),
-        Column("status", "Status", w["status"], lambda p: p.status or "-"),
-    ]
+    """The columns of ``layout.fleet_columns`` (what fits ``width``) with how each cell
+    is worded, clipped to its column."""
+    spec = fleet_columns(width, serial_width)
+    day = fmt.day if spec.full_dates else _month
+    cells: dict[str, Callable[[PumpForecast], str]] = {
+        "serial": lambda p: p.serial,
+        "where": where,
+        "site": lambda p: p.site or "-",
+        "model": lambda p: p.model,
+        "hours": _hours_cell,
+        "kind": lambda p: _closest(p, spec.long_kind),
+        "p50": _worst_date(lambda k: k.p50_date, day),
+        "p10": _worst_date(lambda k: k.p10_date, day),
+        "trend": (lambda p: " ".join(trend(p.worst))) if spec.trend_words else (lambda p: trend(p.worst)[0]),
+        "status": lambda p: p.status or "-",
+    }
     return tuple(
-        Column(c.key, clip(c.label, c.width), c.width, (lambda cell, w: lambda p: clip(cell(p), w))(c.cell, c.width))
-        for c in cols if c.width
+        Column(c.key, c.label, c.width, (lambda cell, w: lambda p: clip(cell(p), w))(cells[c.key], c.width))
+        for c in spec.columns
     )
 
 

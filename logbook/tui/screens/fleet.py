@@ -1,4 +1,9 @@
-"""Fleet view: one row per pump in service, most urgent first; the screen logbook opens on."""
+"""Fleet view: one row per pump in service, most urgent first; the screen logbook opens on.
+
+Its first frame (title, filter line, column headers, footer) needs only Textual and
+``layout``; ``present`` (and with it the model and analysis result modules) is
+imported when the first rows are filled.
+"""
 
 from __future__ import annotations
 
@@ -10,16 +15,24 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.screen import Screen
+from rich.text import Text
 from textual.widgets import DataTable, Footer, Input, Static
 
-from logbook.tui import present
+from logbook.tui.layout import ColumnSpec, fleet_columns
 from logbook.tui.widgets.tables import Cell, OpenTable
+
+
+def _present():
+    from logbook.tui import present
+
+    return present
 
 
 class FleetScreen(Screen):
     """Sort by any column, filter by site, model and status, type a serial to jump to it."""
 
     HELP_TITLE = "Fleet view"
+    AUTO_FOCUS = "#fleet-table"  # not the serial box, the first focusable (one focus change less at start)
     BINDINGS = [
         Binding("r", "record_reading", "Reading", tooltip="record a reading for the pump under the cursor (then the next ones)",
                 id="fleet.reading"),
@@ -46,7 +59,8 @@ class FleetScreen(Screen):
         self.sort_key = "status"
         self.reverse = False
         self.serials: list[str] = []  # serial of each table row, in row order
-        self._layout: tuple = ()
+        self._layout: tuple[ColumnSpec, ...] = ()  # the columns shown
+        self._layout_size: tuple[int, int] = (0, 0)  # (width, serial width) they were laid out for
         self._jumping = False  # typing a serial on the table: the search box is filling
         self._forecast_shown = False  # the rows come from a forecast (not the provisional list)
         self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None}
@@ -67,7 +81,6 @@ class FleetScreen(Screen):
         table = self.query_one("#fleet-table", DataTable)
         self._ensure_columns(table)  # the columns are in the first frame, the rows follow
         self.watch(self.app, "data_generation", self._data_changed, init=True)
-        table.focus()
 
     # -- data -----------------------------------------------------------------------------
     def _data_changed(self, generation: int) -> None:
@@ -109,12 +122,13 @@ class FleetScreen(Screen):
         """The forecast's pumps, or while it is computed, the pumps of the snapshot."""
         if self.app.forecast is not None:
             return list(self.app.forecast.pumps)
-        return present.provisional_pumps(self.app.fleet) if self.app.fleet is not None else []
+        return _present().provisional_pumps(self.app.fleet) if self.app.fleet is not None else []
 
     def refill(self) -> None:
         """Re-select, re-sort and re-add the rows; keep the cursor on the same pump."""
         if self.app.fleet is None:
             return
+        present = _present()
         forecast = self.app.forecast
         everything = self.all_pumps()
         table = self.query_one("#fleet-table", DataTable)
@@ -127,9 +141,10 @@ class FleetScreen(Screen):
             reverse=self.reverse,
         )
         self._ensure_columns(table)
+        columns = present.fleet_layout(*self._layout_size)  # the same columns, with their cells
         table.clear()
         self.serials = [p.serial for p in pumps]
-        table.add_rows([[Cell(c.cell(p)) for c in self._layout] for p in pumps])
+        table.add_rows([[Cell(c.cell(p)) for c in columns] for p in pumps])
         if keep in self.serials:
             table.move_cursor(row=self.serials.index(keep), animate=False)
         self._update_title(everything)
@@ -139,13 +154,14 @@ class FleetScreen(Screen):
         # One cell for the scrollbar, one for the separator after the last column.
         width = max(table.size.width or self.app.size.width, 40) - 2
         serial_width = max((len(s) for s in self.app.fleet.pumps), default=7) if self.app.fleet else 7
-        layout = present.fleet_layout(width, serial_width)
-        if [(c.key, c.width, c.label) for c in layout] == [(c.key, c.width, c.label) for c in self._layout]:
+        layout = fleet_columns(width, serial_width).columns
+        self._layout_size = (width, serial_width)
+        if layout == self._layout:
             return False
         self._layout = layout
         table.clear(columns=True)
-        for c in layout:
-            table.add_column(self._header(c), width=c.width + 1, key=c.key)
+        for c in layout:  # a Text label: no markup to parse
+            table.add_column(Text(self._header(c)), width=c.width + 1, key=c.key)
         return True
 
     def _header(self, column) -> str:
@@ -165,6 +181,7 @@ class FleetScreen(Screen):
             self.query_one("#status-line", Static).update(f"{len(pumps)} pumps · forecasting their wear trends…")
             return
         counts = Counter(p.status for p in pumps)
+        present = _present()
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
         line = f"{len(pumps)} of {len(everything)} shown · sorted: {order} · " + "; ".join(parts)
@@ -272,7 +289,7 @@ class FleetScreen(Screen):
             self.app.push_screen(EventScreen(serial))
 
     def action_sort_next(self) -> None:
-        order = present.SORT_ORDER
+        order = _present().SORT_ORDER
         keys = [c.key for c in self._layout] or list(order)
         candidates = [k for k in order if k in keys]
         self.sort_key = candidates[(candidates.index(self.sort_key) + 1) % len(candidates)] if self.sort_key in candidates else candidates[0]

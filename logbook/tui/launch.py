@@ -1,0 +1,36 @@
+"""`logbook` with no command at a terminal: start the fleet view, importing as little
+as possible before its first frame (not the store, the analysis or the command modules).
+
+Elsewhere (no terminal, or Textual missing) it prints ``open_ui.print_summary`` instead.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+
+def run(args, ctx) -> int:
+    """The app opens the store in a worker after its first frame; a missing database is
+    reported here, before the screen is taken over."""
+    if not os.isatty(1) or not os.isatty(0):
+        return _summary(ctx)
+    if not Path(ctx.db_path).exists():
+        ctx.open_store().close()  # raises DatabaseMissing with the store's own words
+    try:
+        from logbook.tui.app import make_app
+        from logbook.tui.gate import StoreOpener
+    except ImportError:
+        return _summary(ctx)
+    app = make_app(StoreOpener(Path(ctx.db_path), ctx.user), today=ctx.today, units=ctx.units)
+    try:
+        app.run()
+    finally:
+        app.gate.close()
+    return 0
+
+
+def _summary(ctx) -> int:
+    from logbook.commands.open_ui import print_summary
+
+    return print_summary(ctx)
