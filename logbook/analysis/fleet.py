@@ -8,7 +8,9 @@ reported as None (no date).
 
 from __future__ import annotations
 
-from dataclasses import replace
+import gc
+from contextlib import contextmanager
+from dataclasses import fields, replace
 from datetime import date
 
 import numpy as np
@@ -17,7 +19,7 @@ from logbook.analysis.arrays import NEVER, floats
 from logbook.analysis.batch import TrendBatch
 from logbook.analysis.calendar import hours_per_day, machine_hour_points
 from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit, FitOptions, fit_batch
-from logbook.analysis.forecast import O_CROSSING, O_NO_CROSSING, O_NO_DATA, O_TOO_FEW, forecast_batch
+from logbook.analysis.forecast import O_CROSSING, O_NO_CROSSING, O_NO_DATA, O_NO_LIMIT, O_PAST_LIMIT, O_TOO_FEW, forecast_batch
 from logbook.analysis.packing import FleetArrays, FleetPack, pack
 from logbook.analysis.results import (
     FLAG_JUMP,
@@ -30,7 +32,7 @@ from logbook.analysis.results import (
     Outcome,
     PumpForecast,
 )
-from logbook.analysis.status import StatusThresholds, pump_status
+from logbook.analysis.status import StatusThresholds, pump_statuses
 from logbook.analysis.utilisation import machine_points, utilisation
 from logbook.model import ALL_KINDS, Fleet, PumpHistory, PumpModel
 
@@ -43,7 +45,7 @@ _FLAG_SETS = [frozenset(name for bit, name in _FLAGS if bits & bit) for bits in 
 def _fleet_pack(fleet: Fleet, today: date) -> tuple[list[str], list[PumpModel], FleetPack]:
     """Pumps to forecast (fitted now, or unfitted with readings; by serial), their models and the packed batch."""
     arrays = FleetArrays(fleet.fitments, fleet.readings, fleet.events)
-    current = np.fromiter((r.superseded_by is None for r in fleet.readings), dtype=bool, count=len(fleet.readings))
+    current = arrays.latest
     fits = arrays.fits
     known = set(np.unique(arrays.serial[current]).tolist()) | set(fits.serial[fits.removed == NEVER].tolist())
     index = arrays.serial_index
@@ -84,10 +86,24 @@ def forecast_histories(
             if id(e) not in seen:
                 seen.add(id(e))
                 events.append(e)
-    arrays = FleetArrays([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
-    serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
-    pk = pack(arrays, serials, models, utilisation, today)
-    return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
+    with _cycles_paused():
+        arrays = FleetArrays([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
+        serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
+        pk = pack(arrays, serials, models, utilisation, today)
+        return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
+
+
+@contextmanager
+def _cycles_paused():
+    """Pause the cyclic garbage collector while the (acyclic) records are read and made: its full passes
+    over a large fleet's half a million objects cost a fifth of the forecast. Reference counting still frees."""
+    was_on = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_on:
+            gc.enable()
 
 
 def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, options, thresholds, with_noise):
@@ -95,62 +111,122 @@ def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, opti
     batch = pk.batch
     fit = fit_batch(batch, options)
     fc = forecast_batch(batch, fit, horizon_hours=horizon_hours, with_noise=with_noise)
-    n_rows = batch.size
-    outcome = fc.outcome.astype(np.int64)
+    n_pumps = len(serials)
     count = np.diff(pk.bounds)
-    outcome = np.where((outcome == O_NO_DATA) & (pk.before > 0), O_TOO_FEW, outcome)
+    code = np.where((fc.outcome == O_NO_DATA) & (pk.before > 0), O_TOO_FEW, fc.outcome)
+    outcome = [_OUTCOMES[c] for c in code.tolist()]
     detail = (fit.path != 0) & np.isfinite(fit.b)
-    spans = (outcome == O_CROSSING) | (outcome == O_NO_CROSSING)
+    spans = (code == O_CROSSING) | (code == O_NO_CROSSING)
     rem = np.where(spans[:, None] & np.isfinite(fc.remaining), fc.remaining, np.nan)
-    rem_list = [[None if v != v else v for v in col] for col in rem.T.tolist()]
-    day_lists = [_dates(today, col, pk.per_day) for col in rem.T]
+    rate_rows = np.repeat(floats(pk.per_day), 3)
+    days = _days_ahead(rem, rate_rows)  # (S, 3) days from today, -1 for no date
+    base = today.toordinal()
+    when = [[date.fromordinal(base + d) if d >= 0 else None for d in col] for col in days.T.tolist()]
+    hours = [[None if v != v else v for v in col] for col in rem.T.tolist()]
     with np.errstate(invalid="ignore"):
         rate = np.where(detail & np.isfinite(fc.rate_per_hour), fc.rate_per_hour * 1000.0, np.nan).tolist()
-    has = count > 0
+    has = (count > 0).tolist()
     last = np.maximum(pk.bounds[1:] - 1, 0)
-    latest_y = np.where(has, pk.y[last], np.nan).tolist() if len(pk.y) else [None] * n_rows
-    latest_raw = np.where(has, pk.raw[last], np.nan).tolist() if len(pk.y) else [None] * n_rows
-    latest_day = np.where(has, pk.day[last], 0).tolist() if len(pk.y) else [0] * n_rows
+    empty = not len(pk.y)
+    latest_y = [None] * len(has) if empty else pk.y[last].tolist()
+    latest_raw = [None] * len(has) if empty else pk.raw[last].tolist()
+    latest_day = [0] * len(has) if empty else pk.day[last].tolist()
     fits = _details(pk, fit, detail)
     flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
     path = [PATH_NAMES[c] if d else "none" for c, d in zip(fit.path.tolist(), detail.tolist())]
-    x_now = batch.x_now.tolist()
+    x_now, counts = batch.x_now.tolist(), count.tolist()
+    kind_rows = []
+    for i, serial in enumerate(np.repeat(serials, 3).tolist() if n_pumps else []):
+        seen = has[i]
+        kind_rows.append(_record(KindForecast, {
+            "serial": serial, "kind": ALL_KINDS[i % 3], "limit": pk.limits[i], "outcome": outcome[i],
+            "latest_value": latest_y[i] if seen else None, "latest_raw": latest_raw[i] if seen else None,
+            "latest_on": date.fromordinal(latest_day[i]) if seen else None, "n_readings": counts[i],
+            "segment_start": pk.start_on[i], "hours_in_segment": x_now[i], "path": path[i],
+            "p10_hours": hours[0][i], "p50_hours": hours[1][i], "p90_hours": hours[2][i],
+            "p10_date": when[0][i], "p50_date": when[1][i], "p90_date": when[2][i], "flags": flags[i],
+            "fit": fits[i], "rate_per_1000h": None if rate[i] != rate[i] else rate[i],
+        }))  # fmt: skip
+    worst = _worst_rows(pk, code, rem, days, n_pumps)
+    status = pump_statuses(
+        np.array([o.value for o in outcome], dtype=object).reshape(n_pumps, 3), (fit.flags & B_STEP).astype(bool).reshape(n_pumps, 3),
+        np.where(days >= 0, days + base, np.nan)[:, 0].reshape(n_pumps, 3),
+        np.where(days >= 0, days + base, np.nan)[:, 1].reshape(n_pumps, 3),
+        rem[:, 0].reshape(n_pumps, 3), rem[:, 1].reshape(n_pumps, 3), floats(pk.per_day), today, thresholds,
+    ) if n_pumps else []  # fmt: skip
     out = []
     for p, serial in enumerate(serials):
-        kinds = []
-        for k, kind in enumerate(ALL_KINDS):
-            i = 3 * p + k
-            seen = bool(has[i])
-            kinds.append(KindForecast(
-                serial=serial, kind=kind, limit=pk.limits[i], outcome=_OUTCOMES[outcome[i]],
-                latest_value=latest_y[i] if seen else None, latest_raw=latest_raw[i] if seen else None,
-                latest_on=date.fromordinal(latest_day[i]) if seen else None, n_readings=int(count[i]),
-                segment_start=pk.start_on[i], hours_in_segment=x_now[i], path=path[i],
-                p10_hours=rem_list[0][i], p50_hours=rem_list[1][i], p90_hours=rem_list[2][i],
-                p10_date=day_lists[0][i], p50_date=day_lists[1][i], p90_date=day_lists[2][i],
-                flags=flags[i], fit=fits[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
-            ))  # fmt: skip
-        kinds = tuple(kinds)
         cur = pk.pump_current[p]
-        pf = PumpForecast(
-            serial=serial, model=models[p].code, machine=cur.machine if cur else None,
-            position=cur.position if cur else None, site=sites.get(cur.machine) if cur else None,
-            hours_since_overhaul=pk.since_overhaul[p], hours_per_day=pk.per_day[p], kinds=kinds,
-            worst=_worst(kinds), last_reading_on=pk.last_on[p],
-        )  # fmt: skip
-        out.append(replace(pf, status=pump_status(pf, today, thresholds)))
+        kinds = tuple(kind_rows[3 * p : 3 * p + 3])
+        out.append(_record(PumpForecast, {
+            "serial": serial, "model": models[p].code, "machine": cur.machine if cur else None,
+            "position": cur.position if cur else None, "site": sites.get(cur.machine) if cur else None,
+            "hours_since_overhaul": pk.since_overhaul[p], "hours_per_day": pk.per_day[p], "kinds": kinds,
+            "worst": kinds[worst[p]] if worst[p] >= 0 else None, "status": status[p], "last_reading_on": pk.last_on[p],
+        }))  # fmt: skip
     return out
 
 
-def _dates(today: date, remaining: np.ndarray, per_day: list[float | None]) -> list[date | None]:
-    """``calendar.date_after_hours`` for a column of remaining hours (NaN = none) at each pump's rate."""
-    rate = np.repeat(floats(per_day), 3)
+def _record(cls, values: dict):
+    """A result record from all its field values: the dataclass without its generated __init__ (a
+    few microseconds each, for tens of thousands of records); equal to ``cls(**values)``."""
+    if cls not in _FAST:
+        return cls(**values)
+    obj = _new(cls)
+    _set(obj, "__dict__", values)
+    return obj
+
+
+_new, _set = object.__new__, object.__setattr__
+_FIELDS = {
+    KindForecast: ("serial", "kind", "limit", "outcome", "latest_value", "latest_raw", "latest_on", "n_readings",
+                   "segment_start", "hours_in_segment", "path", "p10_hours", "p50_hours", "p90_hours", "p10_date",
+                   "p50_date", "p90_date", "flags", "fit", "rate_per_1000h"),
+    PumpForecast: ("serial", "model", "machine", "position", "site", "hours_since_overhaul", "hours_per_day", "kinds",
+                   "worst", "status", "last_reading_on"),
+    FitDetail: ("x_hours", "y_value", "used", "path", "params", "cov", "sigma", "dof"),
+}  # fmt: skip
+# the shortcut holds only while the records are plain dataclasses with exactly these fields
+_FAST = {cls for cls, names in _FIELDS.items()
+         if tuple(f.name for f in fields(cls)) == names and not hasattr(cls, "__post_init__")
+         and not hasattr(cls, "__slots__")}  # fmt: skip
+
+
+def _days_ahead(remaining: np.ndarray, per_day: np.ndarray) -> np.ndarray:
+    """``calendar.date_after_hours`` as whole days from today for (S, Q) remaining hours (NaN = none); -1 for no date."""
     with np.errstate(invalid="ignore", divide="ignore"):
-        days = remaining / rate
-        ok = np.isfinite(remaining) & (rate > 0) & ~(days > 366 * 200)
-        step = np.ceil(np.where(ok, days, 0.0) - 1e-9).astype(np.int64)
-    base = today.toordinal()
-    return [date.fromordinal(base + d) if k else None for d, k in zip(step.tolist(), ok.tolist())]
+        days = remaining / per_day[:, None]
+        ok = np.isfinite(remaining) & (per_day[:, None] > 0) & ~(days > 366 * 200)
+        step = np.ceil(np.where(ok, days, 0.0) - 1e-9)
+    return np.where(ok, step, -1).astype(np.int64)
+
+
+def _worst_rows(pk: FleetPack, code: np.ndarray, rem: np.ndarray, days: np.ndarray, n_pumps: int) -> list[int]:
+    """Per pump, the kind ``_worst`` picks (-1 for none): past limit first, then the earliest P50 (date,
+    else hours), then the nearest to its limit; the first such kind on a tie."""
+    limit = floats([np.nan if lim is None else lim.value for lim in pk.limits])
+    below = np.array([lim is not None and lim.direction == "below" for lim in pk.limits], dtype=bool)
+    has_limit = np.array([lim is not None for lim in pk.limits], dtype=bool)
+    last = np.maximum(pk.bounds[1:] - 1, 0)
+    latest = np.where(np.diff(pk.bounds) > 0, pk.y[last] if len(pk.y) else 0.0, 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = np.where(limit != 0, latest / np.where(limit != 0, limit, 1.0), 0.0)
+        progress = np.where(below, np.where(ratio != 0, 1.0 / np.where(ratio != 0, ratio, 1.0), 0.0), ratio)
+    progress = np.where(latest != 0, progress, 0.0)
+    past, crossing = code == O_PAST_LIMIT, code == O_CROSSING
+    k0 = np.where(past, 0, np.where(crossing, 1, 2)).astype(float).reshape(n_pumps, 3)
+    k1 = np.where(past, 0.0, np.where(crossing, np.where(days[:, 1] >= 0, days[:, 1], np.inf), -progress))
+    k2 = np.where(crossing, np.nan_to_num(rem[:, 1], nan=0.0), 0.0)
+    k1, k2 = k1.reshape(n_pumps, 3), k2.reshape(n_pumps, 3)
+    cand = (has_limit & (code != O_NO_DATA) & (code != O_NO_LIMIT)).reshape(n_pumps, 3)
+    best = np.where(cand[:, 0], 0, -1)
+    for j in (1, 2):
+        b = np.maximum(best, 0)
+        rows = np.arange(n_pumps)
+        b0, b1, b2 = k0[rows, b], k1[rows, b], k2[rows, b]
+        less = (k0[:, j] < b0) | ((k0[:, j] == b0) & ((k1[:, j] < b1) | ((k1[:, j] == b1) & (k2[:, j] < b2))))
+        best = np.where(cand[:, j] & ((best < 0) | less), j, best)
+    return best.tolist()
 
 
 def _details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail | None]:
@@ -159,16 +235,21 @@ def _details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail
     out: list[FitDetail | None] = [None] * len(detail)
     if not rows.size:
         return out
-    xs, ys = pk.x.tolist(), pk.y.tolist()
-    used = (fit.weights[np.repeat(np.arange(len(detail)), np.diff(pk.bounds)), pk.rank] > 0).tolist()
-    bounds = pk.bounds.tolist()
+    count = np.diff(pk.bounds)
+    take = np.repeat(detail, count)  # entries of the rows with a detail
+    entry_row = np.repeat(np.arange(len(detail)), count)[take]
+    xs, ys = pk.x[take].tolist(), pk.y[take].tolist()
+    used = (fit.weights[entry_row, pk.rank[take]] > 0).tolist()
+    bounds = np.r_[0, np.cumsum(count[rows])].tolist()
     sigma = np.where(np.isfinite(fit.sigma), fit.sigma, 0.0)
     dof = np.minimum(fit.dof, 10**6).astype(np.int64)
     cols = [v[rows].tolist() for v in (fit.path, fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
-    for r, code, a, b, c00, c01, c11, s, d in zip(rows.tolist(), *cols):
-        lo, hi = bounds[r], bounds[r + 1]
-        out[r] = FitDetail(x_hours=tuple(xs[lo:hi]), y_value=tuple(ys[lo:hi]), used=tuple(used[lo:hi]),
-                           path=PATH_NAMES[code], params=(a, b), cov=((c00, c01), (c01, c11)), sigma=s, dof=d)  # fmt: skip
+    for n, (r, code, a, b, c00, c01, c11, s, d) in enumerate(zip(rows.tolist(), *cols)):
+        lo, hi = bounds[n], bounds[n + 1]
+        out[r] = _record(FitDetail, {
+            "x_hours": tuple(xs[lo:hi]), "y_value": tuple(ys[lo:hi]), "used": tuple(used[lo:hi]),
+            "path": PATH_NAMES[code], "params": (a, b), "cov": ((c00, c01), (c01, c11)), "sigma": s, "dof": d,
+        })  # fmt: skip
     return out
 
 
@@ -194,25 +275,6 @@ def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
     )
 
 
-def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
-    """Past limit first, then the earliest P50 (date, else hours), then the nearest to its limit."""
-
-    def key(k: KindForecast):
-        if k.outcome is Outcome.PAST_LIMIT:
-            return (0, 0.0, 0.0)
-        if k.outcome is Outcome.CROSSING:
-            d = k.p50_date.toordinal() if k.p50_date else float("inf")
-            return (1, d, k.p50_hours or 0.0)
-        progress = 0.0
-        if k.limit is not None and k.latest_value:
-            ratio = k.latest_value / k.limit.value if k.limit.value else 0.0
-            progress = ratio if k.limit.direction != "below" else (1 / ratio if ratio else 0.0)
-        return (2, -progress, 0.0)
-
-    cands = [k for k in kinds if k.limit is not None and k.outcome not in (Outcome.NO_DATA, Outcome.NO_LIMIT)]
-    return min(cands, key=key) if cands else None
-
-
 def forecast_fleet(
     fleet: Fleet,
     today: date,
@@ -223,9 +285,10 @@ def forecast_fleet(
     with_noise: bool = False,
 ) -> FleetForecast:
     """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
-    serials, models, pk = _fleet_pack(fleet, today)
-    sites = {unit: m.site for unit, m in fleet.machines.items()}
-    pumps = _forecasts(serials, models, pk, today, sites, horizon_hours, options, thresholds, with_noise) if serials else []
+    with _cycles_paused():
+        serials, models, pk = _fleet_pack(fleet, today)
+        sites = {unit: m.site for unit, m in fleet.machines.items()}
+        pumps = _forecasts(serials, models, pk, today, sites, horizon_hours, options, thresholds, with_noise) if serials else []
     notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
 

@@ -68,3 +68,34 @@ def pump_status(pf: PumpForecast, today: date, thresholds: StatusThresholds | No
     if TOO_FEW in words and any(w in (STEADY, PLAN_OVERHAUL, OVERHAUL_DUE) for w in words):
         words = [w for w in words if w != TOO_FEW]
     return min(words, key=STATUS_ORDER.index)
+
+
+def pump_statuses(
+    outcome, step, p10_day, p50_day, p10_hours, p50_hours, per_day, today: date,
+    thresholds: StatusThresholds | None = None,
+) -> list[str]:  # fmt: skip
+    """``pump_status`` of many pumps at once from (P, K) numpy arrays: outcome (Outcome values as strings),
+    step flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day (NaN for none)."""
+    import numpy as np  # here, so that the views can import this module without numpy
+
+    th = thresholds or StatusThresholds()
+    t = today.toordinal()
+    rate = np.asarray(per_day, dtype=float)[:, None]
+    with np.errstate(invalid="ignore"):
+        due = (p10_day <= t + th.due_days) | (p10_hours <= rate * th.due_days)
+        plan = (p50_day <= t + th.plan_days) | (p50_hours <= rate * th.plan_days)
+        word = np.select(
+            [outcome == Outcome.PAST_LIMIT.value, step,
+             (outcome == Outcome.CROSSING.value) & due, (outcome == Outcome.CROSSING.value) & plan,
+             outcome == Outcome.CROSSING.value, (outcome == Outcome.NO_CROSSING.value) & (p10_day <= t + th.due_days),
+             outcome == Outcome.NO_CROSSING.value, outcome == Outcome.TOO_FEW.value, outcome == Outcome.NO_LIMIT.value],
+            [_RANK[OVER_LIMIT], _RANK[STEP_CHANGE], _RANK[OVERHAUL_DUE], _RANK[PLAN_OVERHAUL], _RANK[STEADY],
+             _RANK[OVERHAUL_DUE], _RANK[STEADY], _RANK[TOO_FEW], _RANK[STEADY]],
+            _RANK[NO_READINGS],
+        )  # fmt: skip
+    usable = np.isin(word, [_RANK[STEADY], _RANK[PLAN_OVERHAUL], _RANK[OVERHAUL_DUE]]).any(axis=1, keepdims=True)
+    word = np.where(usable & (word == _RANK[TOO_FEW]), len(STATUS_ORDER), word)
+    return [STATUS_ORDER[w] for w in word.min(axis=1).tolist()]
+
+
+_RANK = {word: i for i, word in enumerate(STATUS_ORDER)}

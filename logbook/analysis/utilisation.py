@@ -14,7 +14,7 @@ from datetime import date
 
 import numpy as np
 
-from logbook.analysis.arrays import NEVER, FitmentTable, MeterTable, codes, floats, ordinals
+from logbook.analysis.arrays import DAY_BITS, NEVER, FitmentTable, MeterTable, codes, floats, ordinals
 from logbook.analysis.calendar import MAX_HOURS_PER_DAY, hours_per_day
 from logbook.model import Event, EventKind
 
@@ -72,13 +72,13 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
     want = np.zeros(max([*wanted, int(machine.max(initial=-1))]) + 2, dtype=bool)
     want[list(wanted)] = True
     keep = want[machine] & (day <= t)
-    m, d, h = machine[keep], day[keep].astype(float), hours[keep]
-    order = np.lexsort((h, d, m))
-    m, d, h = m[order], d[order], h[order]
-    starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
-    ends = np.r_[starts[1:], len(m)]
+    m, d, h = machine[keep], day[keep], hours[keep]
+    order = np.argsort((m << DAY_BITS) + d, kind="stable")  # by machine, then day
+    m, d, h = m[order], d[order].astype(float), h[order]
     if not len(m):
         return out
+    starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
+    ends = np.r_[starts[1:], len(m)]
     bad = np.logical_or.reduceat(~(np.isfinite(h) & np.isfinite(d)), starts)
     recent = d >= t - window_days
     n_rec = np.add.reduceat(recent.astype(np.int64), starts)
@@ -98,8 +98,11 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
         slope[rows] = _median_slopes(d[cols], h[cols])
     slope = np.clip(slope, 0.0, MAX_HOURS_PER_DAY)
     few = ~theil & ~bad & (ends - starts >= 2) & (span_all > 0)
+    group = np.repeat(np.arange(len(starts)), ends - starts)
+    h_last = np.maximum.reduceat(np.where(d == d[ends - 1][group], h, -np.inf), starts)  # in (day, hours) order
+    h_first = np.minimum.reduceat(np.where(d == d[starts][group], h, np.inf), starts)
     with np.errstate(invalid="ignore", divide="ignore"):
-        straight = np.clip((h[ends - 1] - h[starts]) / span_all, 0.0, MAX_HOURS_PER_DAY)
+        straight = np.clip((h_last - h_first) / span_all, 0.0, MAX_HOURS_PER_DAY)
     slope = np.where(few, straight, slope)
     for g, code in enumerate(codes_.tolist()):
         if bad[g]:  # not all finite: the one-machine definition
