@@ -129,16 +129,22 @@ class LogbookApp(App):
             self.post_message(DataLoaded(fleet, forecast, count, reason))
 
     def _post_pump(self, fleet: Fleet, serial: str, basis: Fleet, worker) -> None:
-        """Forecast one pump pooled with its model's pumps, as the fleet view would."""
+        """Forecast one pump pooled with its model's pumps, as the fleet view would, and
+        wait (a moment at most) until it is on screen: the read that follows would
+        otherwise compete with the redraw for the interpreter."""
         from logbook.analysis.fleet import forecast_in_fleet
 
         forecast = forecast_in_fleet(fleet, serial, self.today)
         if not worker.is_cancelled:
-            self.post_message(PumpUpdated(fleet, forecast, basis))
+            message = PumpUpdated(fleet, forecast, basis)
+            self.post_message(message)
+            message.shown.wait(timeout=2.0)
 
     def on_pump_updated(self, message: PumpUpdated) -> None:
         if self.forecast is None or self.fleet is not message.basis:
+            message.shown.set()
             return  # the first forecast is still coming, or a newer snapshot is shown already
+        self.call_after_refresh(message.shown.set)
         serial = message.forecast.serial
         pumps = [message.forecast if p.serial == serial else p for p in self.forecast.pumps]
         if all(p.serial != serial for p in self.forecast.pumps):

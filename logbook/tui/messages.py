@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import threading
 from typing import TYPE_CHECKING
 
 from textual.message import Message
@@ -38,6 +39,7 @@ class PumpUpdated(Message):
         self.fleet = fleet
         self.forecast = forecast
         self.basis = basis
+        self.shown = threading.Event()  # set once the interface has drawn it (or passed it over)
 
 
 class DataTrouble(Message):

@@ -133,3 +133,37 @@ async def test_a_saved_reading_updates_its_pump_before_the_whole_fleet(demo_stor
         for a, b in zip(quick.kinds, full.kinds):
             assert (a.kind, a.outcome, a.p10_date, a.p50_date, a.p90_date) == (b.kind, b.outcome, b.p10_date, b.p50_date, b.p90_date)
         assert app.refreshing is False and app.pump_forecast(pf.serial) == full
+
+
+async def test_one_changed_pump_is_rewritten_in_place_and_a_covered_view_catches_up(demo_app):
+    from dataclasses import replace
+
+    from logbook.tui.screens.pump import PumpScreen
+
+    app = demo_app
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        fleet_view = app.screen
+        table = fleet_view.query_one("#fleet-table", DataTable)
+        keys = list(table.rows)
+        first, second = fleet_view.serials[3], fleet_view.serials[4]
+
+        def with_hours(serial: str, hours: float):
+            pumps = tuple(replace(p, hours_since_overhaul=hours) if p.serial == serial else p for p in app.forecast.pumps)
+            app.forecast = replace(app.forecast, pumps=pumps)
+            app.data_generation += 1
+
+        def hours_cell(serial: str) -> str:
+            return str(table.get_cell_at((fleet_view.serials.index(serial), list(table.columns).index("hours"))))
+
+        with_hours(first, 12345.0)  # hours do not move a pump in the most-urgent-first order
+        await pilot.pause()
+        assert hours_cell(first) == "12,345" and list(table.rows) == keys  # same rows, one rewritten
+        app.push_screen(PumpScreen(second))
+        await settle(app, pilot)
+        with_hours(second, 23456.0)
+        await pilot.pause()
+        assert hours_cell(second) != "23,456"  # covered: not redrawn behind the pump view
+        app.pop_screen()
+        await settle(app, pilot)
+        assert hours_cell(second) == "23,456"

@@ -14,7 +14,8 @@ from textual import events, on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
-from textual.screen import Screen
+from textual.coordinate import Coordinate
+from textual.screen import ModalScreen, Screen
 from rich.text import Text
 from textual.widgets import DataTable, Footer, Input, Static
 
@@ -63,6 +64,8 @@ class FleetScreen(Screen):
         self._layout_size: tuple[int, int] = (0, 0)  # (width, serial width) they were laid out for
         self._jumping = False  # typing a serial on the table: the search box is filling
         self._forecast_shown = False  # the rows come from a forecast (not the provisional list)
+        self._shown: list = []  # the pump forecast behind each row, in row order
+        self._stale = False  # new data arrived while another screen covered this one
         self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None}
 
     def compose(self) -> ComposeResult:
@@ -84,6 +87,9 @@ class FleetScreen(Screen):
 
     # -- data -----------------------------------------------------------------------------
     def _data_changed(self, generation: int) -> None:
+        if self._covered():  # under a pump or entry screen: refill when shown again
+            self._stale = True
+            return
         if self.app.forecast is None:
             if self.app.trouble:
                 self.query_one("#status-line", Static).update(f"Cannot read the logbook: {self.app.trouble}")
@@ -91,6 +97,21 @@ class FleetScreen(Screen):
                 self.refill()  # the pumps, while their forecast is computed
             return
         self.refill()
+
+    def _covered(self) -> bool:
+        """Another full screen is above this one (a modal such as Filter or Help is not:
+        the table shows around it)."""
+        for screen in reversed(self.app.screen_stack):
+            if screen is self:
+                return False
+            if not isinstance(screen, ModalScreen):
+                return True
+        return True
+
+    def on_screen_resume(self) -> None:
+        if self._stale:
+            self._stale = False
+            self._data_changed(self.app.data_generation)
 
     def filter_options(self) -> dict[str, list[str]]:
         from logbook.analysis.status import STATUS_ORDER
@@ -140,15 +161,33 @@ class FleetScreen(Screen):
             status=self._filter_value("status"), sort_key=self.sort_key if forecast is not None else "where",
             reverse=self.reverse,
         )
-        self._ensure_columns(table)
+        rebuilt = self._ensure_columns(table)
         columns = present.fleet_layout(*self._layout_size)  # the same columns, with their cells
-        table.clear()
-        self.serials = [p.serial for p in pumps]
-        table.add_rows([[Cell(c.cell(p)) for c in columns] for p in pumps])
-        if keep in self.serials:
-            table.move_cursor(row=self.serials.index(keep), animate=False)
+        if not (not rebuilt and self._update_in_place(table, columns, pumps)):
+            table.clear()
+            self.serials = [p.serial for p in pumps]
+            table.add_rows([[Cell(c.cell(p)) for c in columns] for p in pumps])
+            if keep in self.serials:
+                table.move_cursor(row=self.serials.index(keep), animate=False)
+        self._shown = pumps
         self._update_title(everything)
         self._update_status(pumps, everything)
+
+    #: Above this many changed rows the table is refilled rather than updated cell by cell.
+    IN_PLACE_ROWS = 20
+
+    def _update_in_place(self, table: DataTable, columns, pumps) -> bool:
+        """Rewrite only the rows whose forecast changed (one saved pump) when the order
+        is the same; False when the table has to be refilled."""
+        if [p.serial for p in pumps] != self.serials or len(self._shown) != len(pumps) or table.row_count != len(pumps):
+            return False
+        changed = [i for i, (was, now) in enumerate(zip(self._shown, pumps)) if was is not now]
+        if len(changed) > self.IN_PLACE_ROWS:
+            return False
+        for row in changed:
+            for col, column in enumerate(columns):
+                table.update_cell_at(Coordinate(row, col), Cell(column.cell(pumps[row])))
+        return True
 
     def _ensure_columns(self, table: DataTable) -> bool:
         # One cell for the scrollbar, one for the separator after the last column.
