@@ -32,11 +32,13 @@ def floats(values: Sequence) -> np.ndarray:
 
 
 def codes(names: Sequence, index: dict) -> np.ndarray:
-    """Integer code of each name, adding unseen names to ``index``; -1 for None."""
-    out = np.empty(len(names), dtype=np.int64)
-    for i, name in enumerate(names):
-        out[i] = -1 if name is None else index.setdefault(name, len(index))
-    return out
+    """Integer code of each name, adding unseen names to ``index`` in order of first appearance; -1 for None."""
+    seen = dict.fromkeys(names)
+    for name in seen:
+        if name is not None and name not in index:
+            index[name] = len(index)
+    lookup = {**index, None: -1} if None in seen else index
+    return np.fromiter(map(lookup.__getitem__, names), dtype=np.int64, count=len(names))
 
 
 class MeterTable:
@@ -61,6 +63,11 @@ class MeterTable:
             prefix.append(sum(running))
             last = m
         self.prefix = np.array(prefix, dtype=float)
+        # the replacements of the machine of each replacement: events[first[i]:last[i]]
+        starts = np.flatnonzero(np.r_[True, self.machine[1:] != self.machine[:-1]]) if len(reps) else np.zeros(0, int)
+        ends = np.r_[starts[1:], len(reps)].astype(np.int64)
+        self.first = np.repeat(starts, ends - starts).tolist()
+        self.last = np.repeat(ends, ends - starts).tolist()
 
     def continuous(self, machine: np.ndarray, day: np.ndarray, meter_hours: np.ndarray) -> np.ndarray:
         """Continuous hours of meter values read on machines ``machine`` (codes) on days ``day``."""
@@ -75,7 +82,7 @@ class MeterTable:
         offset = np.where(same_machine, self.prefix[np.maximum(prev, 0)], 0.0)
         out = hours + offset
         for q in np.flatnonzero(upto > before).tolist():  # read on a replacement day: rare, done as meter does
-            mine = [e for e, m in zip(self.events, self.machine.tolist()) if m == machine[q]]
+            mine = self.events[self.first[before[q]] : self.last[before[q]]]
             on = date.fromordinal(int(day[q]))
             out[q] = float(meter_hours[q]) + sum(e.hours - e.to_hours for e in mine if read_on_new_meter(e, on, meter_hours[q]))
         return out

@@ -177,10 +177,10 @@ def _sub(st: LineStats, rows: np.ndarray) -> LineStats:
     return LineStats(*(None if v is None else v[rows] for v in (st.n, st.xbar, st.ybar, st.sxx, st.a, st.b, st.rss, st.dx, st.r)))
 
 
-def _confirm_log(rows, ly, x0, w, scan, *args):
+def _confirm_log(rows, ly, x0, w, scan, *args, **kwargs):
     """Rerun a scan on the log scale for candidate ``rows`` (all y > 0); returns (found, column)."""
     st = ols_rows(x0[rows], ly[rows], w[rows])
-    return (scan(st, *args) if scan is _outlier_scan else scan(st, w[rows], *args))
+    return (scan(st, *args) if scan is _outlier_scan else scan(st, w[rows], *args, **kwargs))
 
 
 def _log_line(x0, ly, lin: LineStats) -> LineStats:
@@ -234,7 +234,7 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
     found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True)
     cand = np.flatnonzero(found & all_pos)
     if cand.size:  # not a step if the exponential path explains it
-        f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt)
+        f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt, left_aligned=True)  # w untouched yet
         found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
     cand = np.flatnonzero(found)
     if cand.size:  # nor if it rests on one reading: drop the most extreme one and look again

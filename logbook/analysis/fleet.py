@@ -240,16 +240,16 @@ def _details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail
     entry_row = np.repeat(np.arange(len(detail)), count)[take]
     xs, ys = pk.x[take].tolist(), pk.y[take].tolist()
     used = (fit.weights[entry_row, pk.rank[take]] > 0).tolist()
-    bounds = np.r_[0, np.cumsum(count[rows])].tolist()
+    bounds = np.r_[0, np.cumsum(count[rows])]
+    spans = list(map(slice, bounds[:-1].tolist(), bounds[1:].tolist()))
+    x_t, y_t, used_t = (list(map(tuple, map(v.__getitem__, spans))) for v in (xs, ys, used))
     sigma = np.where(np.isfinite(fit.sigma), fit.sigma, 0.0)
     dof = np.minimum(fit.dof, 10**6).astype(np.int64)
-    cols = [v[rows].tolist() for v in (fit.path, fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
-    for n, (r, code, a, b, c00, c01, c11, s, d) in enumerate(zip(rows.tolist(), *cols)):
-        lo, hi = bounds[n], bounds[n + 1]
-        out[r] = _record(FitDetail, {
-            "x_hours": tuple(xs[lo:hi]), "y_value": tuple(ys[lo:hi]), "used": tuple(used[lo:hi]),
-            "path": PATH_NAMES[code], "params": (a, b), "cov": ((c00, c01), (c01, c11)), "sigma": s, "dof": d,
-        })  # fmt: skip
+    cols = [v[rows].tolist() for v in (fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
+    names = [PATH_NAMES[c] for c in fit.path[rows].tolist()]
+    for r, x, y, u, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, names, *cols):
+        out[r] = _record(FitDetail, {"x_hours": x, "y_value": y, "used": u, "path": name, "params": (a, b),
+                                     "cov": ((c00, c01), (c01, c11)), "sigma": s, "dof": d})  # fmt: skip
     return out
 
 
