@@ -64,8 +64,8 @@ class MeterTable:
             last = m
         self.prefix = np.array(prefix, dtype=float)
         # the replacements of the machine of each replacement: events[first[i]:last[i]]
-        starts = np.flatnonzero(np.r_[True, self.machine[1:] != self.machine[:-1]]) if len(reps) else np.zeros(0, int)
-        ends = np.r_[starts[1:], len(reps)].astype(np.int64)
+        starts = np.flatnonzero(np.r_[True, self.machine[1:] != self.machine[:-1]][: len(reps)])
+        ends = np.r_[starts[1:], len(reps)][: len(starts)].astype(np.int64)
         self.first = np.repeat(starts, ends - starts).tolist()
         self.last = np.repeat(ends, ends - starts).tolist()
 

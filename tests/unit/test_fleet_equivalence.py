@@ -248,3 +248,11 @@ def test_a_bad_test_pressure_is_refused_as_before():
         reference_forecast_fleet(bad, TODAY)
     with pytest.raises(ValueError, match="test_pressure_bar"):
         forecast_fleet(bad, TODAY)
+
+
+def test_a_fleet_without_events_or_replacements():
+    fleet = edge_fleet(8, pumps=30)
+    bare = dataclasses.replace(fleet, events=())
+    assert_same(forecast_fleet(bare, TODAY), reference_forecast_fleet(bare, TODAY))
+    no_meters = dataclasses.replace(fleet, events=tuple(e for e in fleet.events if e.kind is not EventKind.METER_REPLACED))
+    assert_same(forecast_fleet(no_meters, TODAY), reference_forecast_fleet(no_meters, TODAY))
