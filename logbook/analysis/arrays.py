@@ -133,8 +133,16 @@ class FitmentTable:
         first_open = dict(zip(got.tolist(), open_[firsts].tolist()))
         return [first_open.get(s, -1) for s in serial]
 
+    def machine_of(self, fit: np.ndarray) -> np.ndarray:
+        """Machine code of each fitment index, -1 where ``fit`` is -1."""
+        if not self.items:
+            return np.full(len(fit), -1, dtype=np.int64)
+        return np.where(fit >= 0, self.machine[np.maximum(fit, 0)], -1)
+
     def pump_hours(self, fit: np.ndarray, day: np.ndarray, meter_hours: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(pump hours, continuous machine hours) of meter values read while fitments ``fit`` held (fit >= 0)."""
+        if not self.items:
+            return np.full(len(fit), np.nan), np.full(len(fit), np.nan)
         f = np.maximum(fit, 0)
         now = self.meters.continuous(self.machine[f], day, meter_hours)
         return self.pump_at_fit[f] + (now - self.cont_at_fit[f]), now

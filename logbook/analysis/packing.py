@@ -251,7 +251,7 @@ def _start_hours(arrays, evs, ev_pump, ev_day, wanted, idx, r_hours, first, coun
     meter = floats([evs[j].hours for j in wanted.tolist()])
     fit = fits.on(serial, ev_day[wanted])
     mach = codes([evs[j].machine for j in wanted.tolist()], arrays.machine_index)
-    direct = ~np.isnan(meter) & (fit >= 0) & ((mach < 0) | (mach == fits.machine[np.maximum(fit, 0)]))
+    direct = ~np.isnan(meter) & (fit >= 0) & ((mach < 0) | (mach == fits.machine_of(fit)))
     hours, _ = fits.pump_hours(fit, ev_day[wanted], np.nan_to_num(meter))
     out[wanted[direct]] = hours[direct]
     removal = fits.removal_pump_hours() if not direct.all() else None

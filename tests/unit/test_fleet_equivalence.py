@@ -250,9 +250,16 @@ def test_a_bad_test_pressure_is_refused_as_before():
         forecast_fleet(bad, TODAY)
 
 
-def test_a_fleet_without_events_or_replacements():
+@pytest.mark.parametrize("part", ["events", "meter_replaced", "readings", "fitments", "all", "pumps"])
+def test_a_fleet_with_parts_missing(part):
     fleet = edge_fleet(8, pumps=30)
-    bare = dataclasses.replace(fleet, events=())
-    assert_same(forecast_fleet(bare, TODAY), reference_forecast_fleet(bare, TODAY))
-    no_meters = dataclasses.replace(fleet, events=tuple(e for e in fleet.events if e.kind is not EventKind.METER_REPLACED))
-    assert_same(forecast_fleet(no_meters, TODAY), reference_forecast_fleet(no_meters, TODAY))
+    cut = {
+        "events": dict(events=()),
+        "meter_replaced": dict(events=tuple(e for e in fleet.events if e.kind is not EventKind.METER_REPLACED)),
+        "readings": dict(readings=()),
+        "fitments": dict(fitments=()),
+        "all": dict(readings=(), fitments=(), events=()),
+        "pumps": dict(pumps={}),
+    }[part]
+    fleet = dataclasses.replace(fleet, **cut)
+    assert_same(forecast_fleet(fleet, TODAY), reference_forecast_fleet(fleet, TODAY))
