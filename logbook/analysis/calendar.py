@@ -3,7 +3,7 @@
 Utilisation is the Theil-Sen slope (median of pairwise slopes; Sen, JASA 1968) of
 continuous machine hours against date over the last ``window_days``, so that a long
 gap, a meter typo or a quiet month does not swing it; with too little recent history
-the whole history is used.
+the whole history is used. ``utilisation`` computes the same for many machines at once.
 """
 
 from __future__ import annotations

@@ -18,8 +18,25 @@ import numpy as np
 from logbook.analysis.arrays import NEVER, floats
 from logbook.analysis.batch import TrendBatch
 from logbook.analysis.calendar import hours_per_day, machine_hour_points
-from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit, FitOptions, fit_batch
-from logbook.analysis.forecast import O_CROSSING, O_NO_CROSSING, O_NO_DATA, O_NO_LIMIT, O_PAST_LIMIT, O_TOO_FEW, forecast_batch
+from logbook.analysis.fit import (
+    B_JUMP,
+    B_OUTLIER,
+    B_POOLED,
+    B_STEP,
+    PATH_NAMES,
+    BatchFit,
+    FitOptions,
+    fit_batch,
+)
+from logbook.analysis.forecast import (
+    O_CROSSING,
+    O_NO_CROSSING,
+    O_NO_DATA,
+    O_NO_LIMIT,
+    O_PAST_LIMIT,
+    O_TOO_FEW,
+    forecast_batch,
+)
 from logbook.analysis.packing import FleetArrays, FleetPack, pack
 from logbook.analysis.results import (
     FLAG_JUMP,

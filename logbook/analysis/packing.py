@@ -15,11 +15,27 @@ from operator import attrgetter
 
 import numpy as np
 
-from logbook.analysis.arrays import NEVER, FitmentTable, MeterTable, codes, floats, ordinals
+from logbook.analysis.arrays import (
+    NEVER,
+    FitmentTable,
+    MeterTable,
+    codes,
+    floats,
+    ordinals,
+)
 from logbook.analysis.batch import FALLING, RISING, TrendBatch
 from logbook.analysis.hours import pump_hours_by_date
 from logbook.analysis.normalize import normalized_value, reference_viscosity_cst
-from logbook.model import ALL_KINDS, SEGMENT_RESETS, Event, Fitment, Kind, Limit, PumpModel, Reading
+from logbook.model import (
+    ALL_KINDS,
+    SEGMENT_RESETS,
+    Event,
+    Fitment,
+    Kind,
+    Limit,
+    PumpModel,
+    Reading,
+)
 from logbook.oil import oil_walther, walther_viscosity
 
 VALUE_FIELDS = ("case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar")  # in ALL_KINDS order
@@ -327,4 +343,4 @@ def _oil_groups(grade: np.ndarray, vi: np.ndarray) -> list[np.ndarray]:
     return groups
 
 
-__all__ = ["FleetArrays", "FleetPack", "NEVER", "pack"]
+__all__ = ["NEVER", "FleetArrays", "FleetPack", "pack"]

@@ -9,15 +9,27 @@ outside the tests and the benchmark.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from datetime import date
 
 import numpy as np
 
 from logbook.analysis.batch import FALLING, RISING, TrendBatch
-from logbook.analysis.calendar import date_after_hours, hours_per_day, machine_hour_points
-from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit, FitOptions, fit_batch
+from logbook.analysis.calendar import (
+    date_after_hours,
+    hours_per_day,
+    machine_hour_points,
+)
+from logbook.analysis.fit import (
+    B_JUMP,
+    B_OUTLIER,
+    B_POOLED,
+    B_STEP,
+    PATH_NAMES,
+    BatchFit,
+    FitOptions,
+    fit_batch,
+)
 from logbook.analysis.forecast import BatchForecast, forecast_batch
 from logbook.analysis.results import (
     FLAG_JUMP,

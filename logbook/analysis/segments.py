@@ -3,6 +3,8 @@
 A segment starts at the pump's last event that resets that kind (model.SEGMENT_RESETS):
 overhaul or exchange for every kind, neutral re-adjustment for drift, control repair for
 servo pressure and drift. x = pump operating hours since the segment start.
+This is the one-pump definition (rounds, fleet life, single-pump views); the fleet
+forecast packs all pumps at once in ``packing`` by the same rules.
 """
 
 from __future__ import annotations

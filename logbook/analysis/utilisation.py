@@ -14,7 +14,15 @@ from datetime import date
 
 import numpy as np
 
-from logbook.analysis.arrays import DAY_BITS, NEVER, FitmentTable, MeterTable, codes, floats, ordinals
+from logbook.analysis.arrays import (
+    DAY_BITS,
+    NEVER,
+    FitmentTable,
+    MeterTable,
+    codes,
+    floats,
+    ordinals,
+)
 from logbook.analysis.calendar import MAX_HOURS_PER_DAY, hours_per_day
 from logbook.model import Event, EventKind
 

@@ -20,8 +20,22 @@ from datetime import date, timedelta
 from logbook.analysis import fleet as fleet_module
 from logbook.analysis.fit import fit_batch
 from logbook.analysis.forecast import forecast_batch
-from logbook.analysis.reference_pack import reference_fleet_batch, reference_forecast_fleet
-from logbook.model import Event, EventKind, Fitment, Fleet, Kind, Limit, Machine, Pump, PumpModel, Reading
+from logbook.analysis.reference_pack import (
+    reference_fleet_batch,
+    reference_forecast_fleet,
+)
+from logbook.model import (
+    Event,
+    EventKind,
+    Fitment,
+    Fleet,
+    Kind,
+    Limit,
+    Machine,
+    Pump,
+    PumpModel,
+    Reading,
+)
 
 TODAY = date(2026, 6, 15)
 SITES = ("Site A", "Site B", "Site C", "Site D")

@@ -21,9 +21,24 @@ import pytest
 import demo_fleet
 from logbook.analysis.fit import FitOptions
 from logbook.analysis.fleet import forecast_fleet, forecast_histories, forecast_in_fleet
-from logbook.analysis.reference_pack import reference_forecast_fleet, reference_forecast_histories, reference_utilisation
+from logbook.analysis.reference_pack import (
+    reference_forecast_fleet,
+    reference_forecast_histories,
+    reference_utilisation,
+)
 from logbook.analysis.status import StatusThresholds
-from logbook.model import Event, EventKind, Fitment, Fleet, Kind, Limit, Machine, Pump, PumpModel, Reading
+from logbook.model import (
+    Event,
+    EventKind,
+    Fitment,
+    Fleet,
+    Kind,
+    Limit,
+    Machine,
+    Pump,
+    PumpModel,
+    Reading,
+)
 from logbook.store import Store
 
 REL = 1e-9
