@@ -84,11 +84,18 @@ class LogbookApp(App):
         return FleetScreen()
 
     def on_mount(self) -> None:
-        # Open, read and forecast after the fleet view's first frame is on screen (the
-        # worker's imports and reads then cannot delay it).
-        self.screen.call_after_refresh(self.load_data, "start")
+        self.screen.call_after_refresh(self._start_when_drawn)
         if self.poll_seconds > 0:
             self.set_interval(self.poll_seconds, self.poll_changes)
+
+    def _start_when_drawn(self, frames: int = 0) -> None:
+        """Open, read and forecast once the fleet view's first frame is on screen, footer
+        keys included (Textual fills the footer a frame after the rest): the worker's
+        imports and reads would otherwise hold that frame back."""
+        if frames < 10 and not self.screen.query("FooterKey"):
+            self.screen.call_after_refresh(self._start_when_drawn, frames + 1)
+            return
+        self.screen.call_after_refresh(self.load_data, "start")
 
     # -- data ------------------------------------------------------------------------
     @work(thread=True, exclusive=True, group="load")
