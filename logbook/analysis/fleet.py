@@ -80,7 +80,8 @@ def _fleet_pack(fleet: Fleet, today: date) -> tuple[list[str], list[PumpModel], 
 
 def fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
     """The batch that ``forecast_fleet`` fits (for benchmarks); None for a fleet with nothing to forecast."""
-    serials, _, pk = _fleet_pack(fleet, today)
+    with _cycles_paused():
+        serials, _, pk = _fleet_pack(fleet, today)
     return pk.batch if serials else None
 
 
