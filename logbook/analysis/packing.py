@@ -40,8 +40,6 @@ from logbook.oil import oil_walther, walther_viscosity
 
 VALUE_FIELDS = ("case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar")  # in ALL_KINDS order
 RESETS = [np.array([kind in SEGMENT_RESETS.get(ev, ()) for ev in SEGMENT_RESETS]) for kind in ALL_KINDS]
-
-
 NUMBERS = ("machine_hours", *VALUE_FIELDS, "oil_temp_c", "test_pressure_bar", "oil_grade", "oil_vi", "superseded_by")
 
 
@@ -76,6 +74,7 @@ class FleetArrays:
         self.fit = self.fits.on(self.serial, self.day)
         hours, self.cont = self.fits.pump_hours(self.fit, self.day, self.meter)
         self.hours = np.where(self.fit >= 0, hours, self.meter)  # the meter itself where no fitment held
+
 
 @dataclass
 class FleetPack:
