@@ -13,6 +13,7 @@ forecast comes first (``forecast_in_fleet``), the whole fleet's after it. A poll
 
 from __future__ import annotations
 
+import bisect
 from dataclasses import replace
 from datetime import date
 from pathlib import Path
@@ -103,22 +104,28 @@ class LogbookApp(App):
         """Read a consistent snapshot (under the store lock) and forecast it (outside).
 
         After a save (``saved``: the record the store returned, ``basis``: the snapshot
-        shown when it was saved) the saved pump's forecast is posted first: for a reading
-        from ``basis`` plus that reading, without waiting for the read; otherwise from the
-        fresh snapshot. The whole fleet's forecast follows (pooling and machine hours
-        reach other pumps too)."""
+        shown when it was saved) the saved pump's forecast is posted first, then the whole
+        fleet's (pooling and machine hours reach other pumps too). For a reading both come
+        from ``basis`` plus that reading, and the store is not read again when nothing but
+        that reading was written since ``basis`` (its change count rose by exactly one)."""
         from logbook.model import Reading
 
         worker = get_current_worker()
         serial = getattr(saved, "serial", None)
         try:
             quick = basis is not None and self.forecast is not None and serial in getattr(basis, "pumps", {})
+            fleet = None
             if quick and isinstance(saved, Reading) and saved.id is not None:
-                self._post_pump(with_reading(basis, saved), serial, basis, worker)
+                fleet = with_reading(basis, saved)
+                self._post_pump(fleet, serial, basis, worker)
                 quick = False
             with self.gate.open() as store:  # opens the store on the first load
-                fleet = store.fleet()
                 count = store.change_count()
+                if fleet is None or count != basis.data_version + 1:  # someone else wrote too: read it all
+                    fleet = store.fleet()
+                    count = fleet.data_version
+                else:
+                    fleet = replace(fleet, data_version=count)
             if worker.is_cancelled:
                 return
             if self.forecast is None:
@@ -230,10 +237,14 @@ class LogbookApp(App):
 
 
 def with_reading(fleet: Fleet, reading: Reading) -> Fleet:
-    """``fleet`` plus a reading the store has just saved (its id and machine set by the store)."""
+    """``fleet`` plus a reading the store has just saved (its id and machine set by the
+    store), in the store's reading order, so that it equals a fresh read when nothing
+    else changed. Keeps ``data_version``: the result is no snapshot of the store."""
     if any(r.id == reading.id for r in fleet.readings):
         return fleet
-    return replace(fleet, readings=fleet.readings + (reading,))
+    readings = list(fleet.readings)
+    bisect.insort(readings, reading, key=lambda r: (r.taken_on, r.machine_hours, r.id or 0))
+    return replace(fleet, readings=tuple(readings))
 
 
 def make_app(store, *, today: date, units: UnitPrefs | None = None, **options) -> LogbookApp:

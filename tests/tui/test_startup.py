@@ -118,9 +118,14 @@ async def test_a_saved_reading_updates_its_pump_before_the_whole_fleet(demo_stor
         await pilot.pause(0.5)
         await settle(app, pilot)
         seen.clear()
+        reads = []
+        read_fleet = demo_store.fleet
+        demo_store.fleet = lambda: reads.append(1) or read_fleet()
         await pilot.press("f2")
         await settle(app, pilot)
+        del demo_store.fleet
         assert [r.taken_on for r in demo_store.readings(pf.serial)].count(TODAY) == 1  # saved
+        assert reads == []  # nobody else wrote: the store was not read again
         order = [m for m in seen if isinstance(m, (PumpUpdated, DataLoaded))]
         assert [type(m) for m in order] == [PumpUpdated, DataLoaded]  # the pump first, then the fleet
         quick, full = order[0].forecast, order[1].forecast.pump(pf.serial)
@@ -133,6 +138,36 @@ async def test_a_saved_reading_updates_its_pump_before_the_whole_fleet(demo_stor
         for a, b in zip(quick.kinds, full.kinds):
             assert (a.kind, a.outcome, a.p10_date, a.p50_date, a.p90_date) == (b.kind, b.outcome, b.p10_date, b.p50_date, b.p90_date)
         assert app.refreshing is False and app.pump_forecast(pf.serial) == full
+        # Nothing else was written: the snapshot built in memory (no re-read) is the store's own.
+        fresh = demo_store.fleet()
+        assert order[1].fleet.readings == fresh.readings and order[1].fleet.data_version == fresh.data_version
+
+
+async def test_a_reading_saved_after_another_users_write_is_forecast_on_a_fresh_read(demo_store, demo_db, tmp_path):
+    from logbook.store import Store
+
+    app = RecordingApp(demo_store, today=TODAY, poll_seconds=0, blink=False, export_dir=tmp_path)
+    app.seen = seen = []
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        model = app.fleet.models[pf.model]
+        with Store(demo_db, create=False, user="someone else") as elsewhere:  # another user's change
+            elsewhere.update_model(pf.model, reading_interval_days=90)
+        form = await open_form(app, pilot, pf.serial, "r")
+        fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain=f"{model.limit(Kind.CASE_DRAIN).value * 0.8:.2f}",
+             oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
+             test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")
+        await pilot.pause(0.5)
+        await settle(app, pilot)
+        seen.clear()
+        await pilot.press("f2")
+        await settle(app, pilot)
+        loaded = [m for m in seen if isinstance(m, DataLoaded)]
+        fresh = demo_store.fleet()
+        assert len(loaded) == 1
+        assert loaded[0].fleet.models[pf.model].reading_interval_days == 90  # the other user's change was read
+        assert loaded[0].fleet.readings == fresh.readings
 
 
 async def test_one_changed_pump_is_rewritten_in_place_and_a_covered_view_catches_up(demo_app):
