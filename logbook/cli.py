@@ -13,7 +13,7 @@ import sys
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
-from sqlite3 import DatabaseError as SQLiteError  # as logbook.store exports it, without importing the store
+from sqlite3 import DatabaseError as SQLiteError  # as logbook.store names it (not imported here)
 
 from rich.console import Console
 
@@ -127,7 +127,7 @@ def main(argv: list[str] | None = None) -> int:
     )
     try:
         if args.command is None:
-            from logbook.tui.launch import run  # not via logbook.commands: light until the first frame
+            from logbook.tui.launch import run  # not via logbook.commands: light until the frame
 
             return run(args, ctx)
         return int(args.func(args, ctx) or 0)

@@ -47,7 +47,7 @@ from logbook.imports import import_bytes
 from logbook.store import Store
 from logbook.tui.app import LogbookApp
 from logbook.tui.gate import StoreOpener
-from tui_marks import HEAVY, Marks
+from tui_marks import HEAVY, Marks  # beside this script
 
 TODAY = date(2026, 12, 1)
 RENAMED = {"serial", "machine", "unit", "to_machine"}

@@ -75,9 +75,9 @@ async def test_a_database_too_new_for_this_logbook_is_explained_in_the_view(demo
 
 
 def test_a_missing_database_is_reported_before_the_interface_starts(tmp_path, monkeypatch, capsys):
-    import logbook.tui.launch as launch
     import logbook.tui.app as tui_app
     from logbook.cli import main
+    from logbook.tui import launch
 
     monkeypatch.setattr(launch.os, "isatty", lambda fd: True)
 

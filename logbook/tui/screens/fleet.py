@@ -10,13 +10,13 @@ from __future__ import annotations
 from collections import Counter
 from pathlib import Path
 
+from rich.text import Text
 from textual import events, on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.coordinate import Coordinate
 from textual.screen import ModalScreen, Screen
-from rich.text import Text
 from textual.widgets import DataTable, Footer, Input, Static
 
 from logbook.tui.layout import ColumnSpec, fleet_columns
