@@ -363,5 +363,8 @@ def _path_params(st: LineStats, group: np.ndarray, eligible: np.ndarray, opt: Fi
     with np.errstate(invalid="ignore"):
         c00 = sigma2 / np.maximum(n, 1) + st.xbar * st.xbar * slope_var
         c01 = -st.xbar * slope_var
-    ok = np.isfinite(b) & np.isfinite(slope_var) & np.isfinite(c00) & ((n >= opt.min_points) | has_prior)
+    # Readings that all sit at (nearly) the same operating hours say nothing about a rate.
+    with np.errstate(invalid="ignore"):
+        spread = st.sxx > 1e-9 * np.maximum(n, 1) * np.maximum(st.xbar * st.xbar, 1.0)
+    ok = spread & np.isfinite(b) & np.isfinite(slope_var) & np.isfinite(c00) & ((n >= opt.min_points) | has_prior)
     return PathParams(a=a, b=b, c00=c00, c01=c01, c11=slope_var, sigma2=sigma2, dof=dof, prior_weight=weight, ok=ok)

@@ -109,6 +109,16 @@ def test_every_outcome_is_explicit():
     assert np.isfinite(fc.remaining[4]).all() and not np.isfinite(fc.remaining[5, 1])
 
 
+def test_readings_all_at_the_same_hours_give_no_rate():
+    # A machine whose meter did not move between readings: no spread in x, so no wear
+    # rate can be estimated (ordinary least squares needs Sxx > 0; any regression text).
+    x = np.full(5, 1200.0)
+    y = np.array([2.0, 2.1, 1.9, 2.05, 2.0])
+    b = TrendBatch.pack([(x, y)], [6.0], [RISING], None, [1300.0])
+    fc = forecast_batch(b, fit_batch(b, FitOptions(pool=False)))
+    assert fc.outcome.tolist() == [O_TOO_FEW]
+
+
 # ---- fleet API ---------------------------------------------------------------------------
 MODEL = PumpModel(
     code="T1", description="test pump", displacement_cc=50.0, rated_pressure_bar=350.0, max_speed_rpm=2500.0,
