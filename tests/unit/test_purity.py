@@ -1,10 +1,24 @@
-"""The pure layers (oil, analysis) must not pull in the UI or the database."""
+"""The pure layers (model, units, oil, meter, validate, analysis, plan, rounds) must not
+pull in the UI or the database."""
 
 import subprocess
 import sys
 
 MODULES = [
+    "logbook.model",
+    "logbook.units",
+    "logbook.fmt",
+    "logbook.meter",
+    "logbook.validate",
+    "logbook.plan",
+    "logbook.rounds",
+    "logbook.cautions",
+    "logbook.exports",
     "logbook.oil",
+    "logbook.analysis.arrays",
+    "logbook.analysis.packing",
+    "logbook.analysis.utilisation",
+    "logbook.analysis.life",
     "logbook.analysis",
     "logbook.analysis.batch",
     "logbook.analysis.calendar",
