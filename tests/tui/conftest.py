@@ -53,7 +53,13 @@ def demo_app(demo_store, tmp_path):
 
 
 async def settle(app, pilot) -> None:
-    """Wait for every worker (fleet load, forecast, checks, saves) and the redraw after it."""
+    """Wait for every worker (fleet load, forecast, checks, saves) and the redraw after it.
+    The first load starts only once the first frame is drawn: wait for it to start too."""
+    for _ in range(200):
+        if getattr(app, "forecast", None) is not None or getattr(app, "trouble", ""):
+            break
+        await pilot.pause(0.01)
+        await app.workers.wait_for_complete()
     for _ in range(3):
         await app.workers.wait_for_complete()
         await pilot.pause()
