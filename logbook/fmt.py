@@ -58,3 +58,29 @@ def nearest_limit(kf, prefs: UnitPrefs) -> str:
     if kf.limit.direction == "below":
         return f"{kf.kind.label} {value(kf.kind, kf.latest_value, prefs, with_unit=False)}/{value(kf.kind, kf.limit.value, prefs)}"
     return f"{kf.kind.label} {100.0 * kf.latest_value / kf.limit.value:.0f}%"
+
+
+def limit_use(kind: Kind, normalized: float | None, limit, prefs: UnitPrefs) -> str:
+    """Short: a rising reading as a percentage of its limit ('64%'); a falling one as its
+    margin above the lower limit in the user's unit ('+2.5', '-1.0' when below it)."""
+    if normalized is None or limit is None or not limit.value:
+        return ""
+    if limit.direction == "below":
+        margin = units.from_canonical(normalized, unit_for(kind, prefs)) - units.from_canonical(limit.value, unit_for(kind, prefs))
+        return f"{margin:+.1f}"
+    return f"{100.0 * normalized / limit.value:.0f}%"
+
+
+def against_limit(kind: Kind, normalized: float | None, limit, prefs: UnitPrefs) -> str:
+    """Long: how a normalized value stands against its limit, in words, e.g.
+    '64 % of the 24.00 L/min limit' or '2.50 bar above the 20.00 bar lower limit',
+    with '(over)' once the limit is crossed."""
+    if normalized is None or limit is None or not limit.value:
+        return ""
+    over = normalized > limit.value if limit.direction == "above" else normalized < limit.value
+    tag = " (over)" if over else ""
+    if limit.direction == "below":
+        margin = abs(normalized - limit.value)
+        side = "below" if normalized < limit.value else "above"
+        return f"{value(kind, margin, prefs)} {side} the {value(kind, limit.value, prefs)} lower limit{tag}"
+    return f"{100.0 * normalized / limit.value:.0f} % of the {value(kind, limit.value, prefs)} limit{tag}"

@@ -208,9 +208,8 @@ def select_pumps(
 def outcome_line(kf: KindForecast, prefs) -> str:
     """One line for a kind: latest against its limit, and what the engine projects."""
     latest = fmt.value(kf.kind, kf.latest_value, prefs)
-    limit = fmt.value(kf.kind, kf.limit.value, prefs) if kf.limit else "no limit"
-    share = f" ({kf.percent_of_limit:.0f} % of limit)" if kf.percent_of_limit is not None else ""
+    versus = fmt.against_limit(kf.kind, kf.latest_value, kf.limit, prefs) or "no limit"
     words = OUTCOME_WORDS[kf.outcome]
     if kf.outcome is Outcome.CROSSING:
         words = f"P10 {fmt.day(kf.p10_date)} · P50 {fmt.day(kf.p50_date)} · P90 {fmt.day(kf.p90_date)}"
-    return f"{kf.kind.label}: {latest} against {limit}{share}; {words}"
+    return f"{kf.kind.label}: {latest}, {versus}; {words}"

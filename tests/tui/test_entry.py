@@ -77,7 +77,7 @@ async def test_a_valid_reading_is_saved_compared_and_changes_the_forecast(demo_a
         assert abs(after.latest_value - round(limit * 0.8, 2)) < 1e-6
         assert after.p10_date != old.p10_date  # a worn-looking reading moves the crossing
         result = text(form.query_one("#result"))
-        assert "80 % of the" in result and "(within)" in result and "previous" in result
+        assert "80 % of the" in result and "(over)" not in result and "previous" in result
         assert f"was P10 {old.p10_date.isoformat()}" in result and after.p10_date.isoformat() in result
         await pilot.press("escape")
         await settle(app, pilot)

@@ -105,7 +105,7 @@ class PumpScreen(Screen):
         table = self.query_one("#kind-table", DataTable)
         u = self.app.units
         if not table.columns:
-            for label in ("Reading", "Latest", "Limit", "%", "P10", "P50", "P90", "Path", "n"):
+            for label in ("Reading", "Latest", "Limit", "Use", "P10", "P50", "P90", "Path", "n"):
                 table.add_column(label, key=label)
         table.clear()
         kinds = self._kinds(pf)
@@ -114,7 +114,7 @@ class PumpScreen(Screen):
             if kf is None:
                 table.add_row(present.KIND_SHORT[kind], "-", "-", "", "", "", "", "", "", key=kind.value)
                 continue
-            share = f"{kf.percent_of_limit:.0f}" if kf.percent_of_limit is not None else ""
+            share = fmt.limit_use(kind, kf.latest_value, kf.limit, u)
             table.add_row(
                 present.KIND_SHORT[kind], fmt.value(kind, kf.latest_value, u),
                 fmt.value(kind, kf.limit.value, u) if kf.limit else "none", share,

@@ -136,10 +136,8 @@ class ReadingScreen(EntryScreen):
             if ref is not None and ref == ref:
                 parts.append(f"{fmt.value(kind, ref, u)} at reference")
                 if limit is not None:
-                    share = 100.0 * ref / limit.value
-                    side = "over" if (ref > limit.value) == (limit.direction == "above") else "within"
-                    parts.append(f"{share:.0f} % of the {fmt.value(kind, limit.value, u)} limit ({side})")
-                    shares.append(f"{present.KIND_SHORT[kind]} {share:.0f} % of limit" + (" (over)" if side == "over" else ""))
+                    parts.append(fmt.against_limit(kind, ref, limit, u))
+                    shares.append(f"{present.KIND_SHORT[kind]} {fmt.against_limit(kind, ref, limit, u)}")
             prev = previous.value(kind) if previous else None
             if prev is not None:
                 diff = raw - prev
