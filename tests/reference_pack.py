@@ -30,6 +30,7 @@ from logbook.analysis.fit import (
     FitOptions,
     fit_batch,
 )
+from logbook.analysis.fleet import fit_detail
 from logbook.analysis.forecast import BatchForecast, forecast_batch
 from logbook.analysis.results import (
     FLAG_JUMP,
@@ -200,28 +201,6 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
 
 def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:
     return fit_detail(fit, i, s.x_hours, s.y_value)
-
-
-def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
-    """The chosen path of one batch row as a FitDetail (for charts); None without a fitted line."""
-    if fit.path[row] == 0 or not np.isfinite(fit.b[row]):
-        return None
-    n = len(x_hours)
-    order = np.argsort(np.asarray(x_hours, dtype=float), kind="stable")  # batch columns are in x order
-    used = np.zeros(n, dtype=bool)
-    used[order] = fit.used[row, :n]
-    sigma = float(fit.sigma[row]) if np.isfinite(fit.sigma[row]) else 0.0
-    c00, c01, c11 = float(fit.c00[row]), float(fit.c01[row]), float(fit.c11[row])
-    return FitDetail(
-        x_hours=tuple(float(v) for v in x_hours),
-        y_value=tuple(float(v) for v in y_value),
-        used=tuple(bool(u) for u in used),
-        path=PATH_NAMES[int(fit.path[row])],
-        params=(float(fit.a[row]), float(fit.b[row])),
-        cov=((c00, c01), (c01, c11)),
-        sigma=sigma,
-        dof=int(min(fit.dof[row], 10**6)),
-    )
 
 
 def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
