@@ -58,7 +58,7 @@ def walther_viscosity(temp_c, a: float, b: float):
 
 # ASTM D2270 Table 1: L and H (cSt at 40 C) for the kinematic viscosity at 100 C, Y,
 # from 2.0 to 70.0 cSt; Y steps 0.1 up to 20, 0.2 up to 30, then 0.5. The numbers are
-# the standard's; this copy was transcribed from the table in the `chemicals` package
+# the standard's; this copy was taken from the table in the `chemicals` package
 # (MIT licence; it cites ASTM D2270-10(2016)) and is checked against that copy and
 # against the standard's worked examples in tests/unit/test_oil.py.
 _D2270_Y = np.round(np.concatenate([np.arange(20, 201) / 10, np.arange(101, 151) / 5, np.arange(61, 141) / 2]), 1)
