@@ -38,7 +38,7 @@ def test_viscosity_index_d2270_worked_examples(nu40, nu100, vi):
 
 
 def test_d2270_table_equals_the_chemicals_copy():
-    # Cross-check of our transcription of ASTM D2270 Table 1 against the `chemicals`
+    # Cross-check of our copy of ASTM D2270 Table 1 against the `chemicals`
     # package's table (which cites ASTM D2270-10(2016)); test-only dependency.
     from chemicals import viscosity as chem
 
