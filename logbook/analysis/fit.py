@@ -275,7 +275,8 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
     if rows.size:  # zero what is no longer used, so that raw moments see only used readings
         wr = w[rows]
         x0[rows] *= wr
-        ly[rows] *= wr
+        with np.errstate(invalid="ignore"):  # log of a non-positive reading: that row has no log path (all_pos)
+            ly[rows] *= wr
     lg = _log_line(x0, ly, lin)
     all_pos &= np.isfinite(lg.b)
     lin.dx = lin.r = None
