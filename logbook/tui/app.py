@@ -5,7 +5,8 @@ Run it with ``logbook`` (or ``logbook --db FILE``): the CLI hands ``make_app`` a
 analysis (sqlite_utils, pandas, numpy, scipy) are imported; a thread worker then opens
 the store, lists the pumps and forecasts them. Tests build it with
 ``make_app(store, today=..., units=...)`` over an open Store and drive it with
-``App.run_test``. The app keeps the latest snapshot and forecast in ``fleet``/``forecast``
+``App.run_test``. The app keeps the latest snapshot and forecast in ``fleet``/``forecast``,
+each pump's next reading (``rounds.next_tests``, refreshed with the forecast) in ``tests``,
 and bumps ``data_generation`` so that open screens redraw. After a save the saved pump's
 forecast comes first (``forecast_in_fleet``), the whole fleet's after it. A poll of
 ``store.change_count()`` notices other users' writes.
@@ -63,6 +64,7 @@ class LogbookApp(App):
         self.poll_seconds = poll_seconds
         self.fleet: Fleet | None = None
         self.forecast = None  # FleetForecast once loaded
+        self.tests: dict | None = None  # serial -> rounds.NextTest, computed with the forecast
         self.seen_changes: int | None = None
         self.trouble: str = ""
         self.refreshing = False  # a saved pump's forecast is shown; the rest of the fleet's is coming
@@ -135,12 +137,15 @@ class LogbookApp(App):
             from logbook.analysis.fleet import forecast_fleet
 
             forecast = forecast_fleet(fleet, today=self.today)
+            from logbook.rounds import next_tests
+
+            tests = next_tests(fleet, forecast, self.today)
         except Exception as exc:  # shown to the person, never a traceback
             if not worker.is_cancelled:
                 self.post_message(DataTrouble(trouble_text(exc)))
             return
         if not worker.is_cancelled:
-            self.post_message(DataLoaded(fleet, forecast, count, reason))
+            self.post_message(DataLoaded(fleet, forecast, count, reason, tests))
 
     def _post_pump(self, fleet: Fleet, serial: str, basis: Fleet, worker) -> None:
         """Forecast one pump pooled with its model's pumps, as the fleet view would, and
@@ -148,9 +153,13 @@ class LogbookApp(App):
         otherwise compete with the redraw for the interpreter."""
         from logbook.analysis.fleet import forecast_in_fleet
 
+        from logbook.rounds import next_tests
+
         forecast = forecast_in_fleet(fleet, serial, self.today)
+        shown = self.forecast  # the other pumps' forecasts stay as shown until the fleet's arrive
+        tests = next_tests(fleet, with_pump(shown, forecast), self.today) if shown is not None else None
         if not worker.is_cancelled:
-            message = PumpUpdated(fleet, forecast, basis)
+            message = PumpUpdated(fleet, forecast, basis, tests)
             self.post_message(message)
             message.shown.wait(timeout=2.0)
 
@@ -159,16 +168,14 @@ class LogbookApp(App):
             message.shown.set()
             return  # the first forecast is still coming, or a newer snapshot is shown already
         self.call_after_refresh(message.shown.set)
-        serial = message.forecast.serial
-        pumps = [message.forecast if p.serial == serial else p for p in self.forecast.pumps]
-        if all(p.serial != serial for p in self.forecast.pumps):
-            pumps.append(message.forecast)
-        self.fleet, self.forecast = message.fleet, replace(self.forecast, pumps=tuple(pumps))
+        self.fleet, self.forecast = message.fleet, with_pump(self.forecast, message.forecast)
+        if message.tests is not None:
+            self.tests = message.tests
         self.refreshing = True
         self.data_generation += 1
 
     def on_data_loaded(self, message: DataLoaded) -> None:
-        self.fleet, self.forecast = message.fleet, message.forecast
+        self.fleet, self.forecast, self.tests = message.fleet, message.forecast, message.tests
         self.seen_changes = message.change_count
         self.trouble = ""
         self.refreshing = False
@@ -216,6 +223,10 @@ class LogbookApp(App):
     def pump_forecast(self, serial: str):
         return self.forecast.pump(serial) if self.forecast is not None else None
 
+    def next_test(self, serial: str):
+        """The pump's rounds.NextTest (None while computed, or when it is not fitted)."""
+        return self.tests.get(serial) if self.tests is not None else None
+
     # -- actions -----------------------------------------------------------------------
     def check_action(self, action: str, parameters) -> bool | None:
         """No quitting from an entry form with one key: Esc leaves the form first."""
@@ -234,6 +245,15 @@ class LogbookApp(App):
 
     def action_toggle_theme(self) -> None:
         self.theme = DARK_THEMES.get(self.theme) or LIGHT_THEMES.get(self.theme) or "textual-dark"
+
+
+def with_pump(forecast, pump_forecast):
+    """A FleetForecast with one pump's forecast put in place of (or beside) the one it had."""
+    serial = pump_forecast.serial
+    pumps = [pump_forecast if p.serial == serial else p for p in forecast.pumps]
+    if all(p.serial != serial for p in forecast.pumps):
+        pumps.append(pump_forecast)
+    return replace(forecast, pumps=tuple(pumps))
 
 
 def with_reading(fleet: Fleet, reading: Reading) -> Fleet:

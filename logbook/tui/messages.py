@@ -12,12 +12,14 @@ if TYPE_CHECKING:
 
 
 class DataLoaded(Message):
-    """A fresh fleet snapshot and its forecast (``forecast`` is a FleetForecast)."""
+    """A fresh fleet snapshot and its forecast (``forecast`` is a FleetForecast; ``tests``
+    maps serial to its rounds.NextTest)."""
 
-    def __init__(self, fleet: Fleet, forecast, change_count: int, reason: str = "") -> None:
+    def __init__(self, fleet: Fleet, forecast, change_count: int, reason: str = "", tests=None) -> None:
         super().__init__()
         self.fleet = fleet
         self.forecast = forecast
+        self.tests = tests if tests is not None else {}
         self.change_count = change_count
         self.reason = reason
 
@@ -32,13 +34,15 @@ class FleetRead(Message):
 
 class PumpUpdated(Message):
     """One pump's new forecast after a save (``forecast`` is its PumpForecast, pooled as in
-    the fleet view), ahead of the whole fleet's; ``basis`` is the snapshot it replaces."""
+    the fleet view), ahead of the whole fleet's; ``basis`` is the snapshot it replaces;
+    ``tests`` (serial -> rounds.NextTest) is every pump's next reading with it."""
 
-    def __init__(self, fleet: Fleet, forecast, basis: Fleet | None) -> None:
+    def __init__(self, fleet: Fleet, forecast, basis: Fleet | None, tests=None) -> None:
         super().__init__()
         self.fleet = fleet
         self.forecast = forecast
         self.basis = basis
+        self.tests = tests
         self.shown = threading.Event()  # set once the interface has drawn it (or passed it over)
 
 

@@ -123,9 +123,36 @@ def _closest(p: PumpForecast, long: bool) -> str:
     return p.worst.kind.label if long else KIND_SHORT[p.worst.kind]
 
 
-def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
+def next_cell(test, today: date) -> str:
+    """The next reading in four cells: 'now!' (the last reading jumped), 'due' (due or
+    overdue), '12d' (days to go), '-' (nothing asks for one, or not fitted)."""
+    if test is None or (test.test_on is None and not test.asap):
+        return "-"
+    if test.asap:
+        return "now!"
+    days = (test.test_on - today).days
+    if days <= 0:
+        return "due"
+    return f"{days}d" if days <= 999 else f"{days // 365}y"
+
+
+def next_words(test, today: date) -> str:
+    """The next reading in full words with the reason, for the pump view."""
+    if test is None:
+        return "Next reading: none planned (not fitted in a machine)"
+    return f"Next reading: {test.words(today)} · {test.reason}"
+
+
+def is_reading_due(tests, serial: str, today: date) -> bool:
+    """The pump's next reading (``tests``: serial -> rounds.NextTest) is due by ``today``."""
+    test = tests.get(serial) if tests else None
+    return test is not None and test.is_due(today)
+
+
+def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | None = None) -> tuple[Column, ...]:
     """The columns of ``layout.fleet_columns`` (what fits ``width``) with how each cell
-    is worded, clipped to its column."""
+    is worded, clipped to its column; ``tests`` (serial -> rounds.NextTest, None while
+    not computed) words the next-reading column as of ``today``."""
     spec = fleet_columns(width, serial_width)
     day = fmt.day if spec.full_dates else _month
     cells: dict[str, Callable[[PumpForecast], str]] = {
@@ -139,6 +166,7 @@ def fleet_layout(width: int, serial_width: int = 7) -> tuple[Column, ...]:
         "p10": _worst_date(lambda k: k.p10_date, day),
         "trend": (lambda p: " ".join(trend(p.worst))) if spec.trend_words else (lambda p: trend(p.worst)[0]),
         "status": lambda p: p.status or "-",
+        "next": (lambda p: "") if tests is None or today is None else (lambda p: next_cell(tests.get(p.serial), today)),
     }
     return tuple(
         Column(c.key, c.label, c.width, (lambda cell, w: lambda p: clip(cell(p), w))(cells[c.key], c.width))
@@ -167,12 +195,22 @@ SORT_KEYS: dict[str, Callable[[PumpForecast], tuple]] = {
     "trend": lambda p: (trend(p.worst)[1], urgency_key(p)),
     "status": urgency_key,
 }
-SORT_ORDER = ("status", "p10", "p50", "hours", "serial", "where", "site", "model", "kind", "trend")
+SORT_ORDER = ("status", "p10", "next", "p50", "hours", "serial", "where", "site", "model", "kind", "trend")
 SORT_WORDS = {
     "status": "most urgent first", "p10": "P10 date", "p50": "P50 date", "hours": "hours since overhaul (most first)",
     "serial": "serial", "where": "machine and position", "site": "site", "model": "model",
-    "kind": "reading closest to its limit", "trend": "trend",
+    "kind": "reading closest to its limit", "trend": "trend", "next": "next reading (soonest first)",
 }
+
+
+def next_sort_key(tests, today: date | None) -> Callable[[PumpForecast], tuple]:
+    """Soonest next reading first ('now!', then by date); pumps without one last."""
+    def key(pf: PumpForecast) -> tuple:
+        t = tests.get(pf.serial) if tests else None
+        when = t.test_on if t is not None else None
+        return (when is None and not (t and t.asap), not (t and t.asap), when or date.max, urgency_key(pf))
+
+    return key
 
 
 FORECASTING = "… forecasting"
@@ -192,16 +230,19 @@ def provisional_pumps(fleet) -> list[PumpForecast]:
 
 def select_pumps(
     pumps, *, site: str | None = None, model: str | None = None, status: str | None = None,
-    sort_key: str = "status", reverse: bool = False,
+    sort_key: str = "status", reverse: bool = False, due: bool = False, tests=None, today: date | None = None,
 ) -> list[PumpForecast]:
-    """The pumps passing the filters (None = any), in the order of one column."""
+    """The pumps passing the filters (None = any; ``due``: only pumps whose next reading
+    in ``tests`` is due by ``today``), in the order of one column."""
     chosen = [
         p for p in pumps
         if (site is None or (p.site or "-") == site)
         and (model is None or p.model == model)
         and (status is None or p.status == status)
+        and (not due or (today is not None and is_reading_due(tests, p.serial, today)))
     ]
-    chosen.sort(key=SORT_KEYS[sort_key], reverse=reverse)
+    key = next_sort_key(tests, today) if sort_key == "next" else SORT_KEYS[sort_key]
+    chosen.sort(key=key, reverse=reverse)
     return chosen
 
 

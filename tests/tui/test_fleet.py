@@ -128,12 +128,14 @@ async def test_open_a_pump_from_the_table(demo_app):
         assert isinstance(demo_app.screen, FleetScreen) and demo_app.screen.current_serial() == serial
 
 
-async def test_narrow_layout_shows_months_and_keeps_every_column(demo_app):
+async def test_narrow_layout_shows_months_and_the_next_reading(demo_app):
     async with demo_app.run_test(size=(80, 24)) as pilot:
         await settle(demo_app, pilot)
         table = _table(demo_app)
         keys = [c.value for c in table.columns]
-        assert keys == ["serial", "where", "model", "hours", "kind", "p50", "p10", "trend", "status"]
+        # at 80 columns the trend arrow gives way to the next reading; the status stays whole
+        assert keys == ["serial", "where", "model", "hours", "kind", "p50", "p10", "status", "next"]
+        assert "△ plan overhaul" in _column(demo_app, "status")
         assert sum(c.width for c in table.columns.values()) <= 79
         p10 = [d for d in _column(demo_app, "p10") if d != "-"]
         assert p10 and all(date.fromisoformat(d + "-01") for d in p10)  # YYYY-MM at 80 columns

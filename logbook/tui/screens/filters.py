@@ -1,4 +1,4 @@
-"""Choose the fleet view's filters: site, model and status (a small window over the view)."""
+"""Choose the fleet view's filters: site, model, status and reading due (a small window over the view)."""
 
 from __future__ import annotations
 
@@ -9,7 +9,8 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Footer, Label, Select, Static
 
-FILTERS = (("site", "Site", "All sites"), ("model", "Model", "All models"), ("status", "Status", "All statuses"))
+FILTERS = (("site", "Site", "All sites"), ("model", "Model", "All models"), ("status", "Status", "All statuses"),
+           ("due", "Next reading", "Any date"))
 
 
 class FilterScreen(ModalScreen[dict]):

@@ -23,6 +23,10 @@ from logbook.tui.layout import ColumnSpec, fleet_columns
 from logbook.tui.widgets.tables import Cell, OpenTable
 
 
+#: The filter value (and status line words) for pumps whose next reading is due.
+READING_DUE = "reading due"
+
+
 def _present():
     from logbook.tui import present
 
@@ -65,8 +69,9 @@ class FleetScreen(Screen):
         self._jumping = False  # typing a serial on the table: the search box is filling
         self._forecast_shown = False  # the rows come from a forecast (not the provisional list)
         self._shown: list = []  # the pump forecast behind each row, in row order
+        self._shown_tests: list = []  # the next reading (rounds.NextTest) behind each row
         self._stale = False  # new data arrived while another screen covered this one
-        self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None}
+        self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None, "due": None}
 
     def compose(self) -> ComposeResult:
         source = Path(self.app.gate.path).name if self.app.gate.path else "logbook"
@@ -122,16 +127,19 @@ class FleetScreen(Screen):
             "model": sorted({p.model for p in pumps}),
             "status": [s for s in STATUS_ORDER if any(p.status == s for p in pumps)]
             + sorted({p.status for p in pumps} - set(STATUS_ORDER)),
+            "due": [READING_DUE],
         }
 
     def _filter_words(self) -> str:
         f = self.filters
         words = [f["site"] or "all sites", f["model"] or "all models", f["status"] or "all statuses"]
+        if f.get("due"):
+            words.append(READING_DUE)
         return "Filter (f): " + " · ".join(words)
 
     def set_filters(self, chosen: dict) -> int:
         """Apply filters (None = any); returns how many pumps are shown."""
-        self.filters = {k: chosen.get(k) for k in ("site", "model", "status")}
+        self.filters = {k: chosen.get(k) for k in ("site", "model", "status", "due")}
         self.query_one("#filter-summary", Static).update(self._filter_words())
         self.refill()
         return len(self.serials)
@@ -159,29 +167,34 @@ class FleetScreen(Screen):
         pumps = present.select_pumps(
             everything, site=self._filter_value("site"), model=self._filter_value("model"),
             status=self._filter_value("status"), sort_key=self.sort_key if forecast is not None else "where",
-            reverse=self.reverse,
+            reverse=self.reverse, due=bool(self._filter_value("due")), tests=self.app.tests, today=self.app.today,
         )
+        tests = self.app.tests or {}
+        shown_tests = [tests.get(p.serial) for p in pumps]
         rebuilt = self._ensure_columns(table)
-        columns = present.fleet_layout(*self._layout_size)  # the same columns, with their cells
-        if not (not rebuilt and self._update_in_place(table, columns, pumps)):
+        columns = present.fleet_layout(*self._layout_size, tests=self.app.tests, today=self.app.today)
+        if not (not rebuilt and self._update_in_place(table, columns, pumps, shown_tests)):
             table.clear()
             self.serials = [p.serial for p in pumps]
             table.add_rows([[Cell(c.cell(p)) for c in columns] for p in pumps])
             if keep in self.serials:
                 table.move_cursor(row=self.serials.index(keep), animate=False)
-        self._shown = pumps
+        self._shown, self._shown_tests = pumps, shown_tests
         self._update_title(everything)
         self._update_status(pumps, everything)
 
     #: Above this many changed rows the table is refilled rather than updated cell by cell.
     IN_PLACE_ROWS = 20
 
-    def _update_in_place(self, table: DataTable, columns, pumps) -> bool:
+    def _update_in_place(self, table: DataTable, columns, pumps, tests) -> bool:
         """Rewrite only the rows whose forecast changed (one saved pump) when the order
         is the same; False when the table has to be refilled."""
         if [p.serial for p in pumps] != self.serials or len(self._shown) != len(pumps) or table.row_count != len(pumps):
             return False
-        changed = [i for i, (was, now) in enumerate(zip(self._shown, pumps)) if was is not now]
+        if len(self._shown_tests) != len(tests):
+            return False
+        changed = [i for i, (was, now, was_t, now_t) in enumerate(zip(self._shown, pumps, self._shown_tests, tests))
+                   if was is not now or was_t != now_t]
         if len(changed) > self.IN_PLACE_ROWS:
             return False
         for row in changed:
@@ -223,7 +236,8 @@ class FleetScreen(Screen):
         present = _present()
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
-        line = f"{len(pumps)} of {len(everything)} shown · sorted: {order} · " + "; ".join(parts)
+        due = sum(1 for p in pumps if present.is_reading_due(self.app.tests, p.serial, self.app.today))
+        line = f"{len(pumps)} of {len(everything)} shown · {due} {READING_DUE} · sorted: {order} · " + "; ".join(parts)
         if self.app.refreshing:
             line += " · re-forecasting the other pumps…"
         if self.app.trouble:
