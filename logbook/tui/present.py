@@ -139,8 +139,8 @@ def next_cell(test, today: date) -> str:
 def next_words(test, today: date) -> str:
     """The next reading in full words with the reason, for the pump view."""
     if test is None:
-        return "Next reading: none planned (not fitted in a machine)"
-    return f"Next reading: {test.words(today)} · {test.reason}"
+        return "Next: no reading planned (not fitted in a machine)"
+    return f"Next: {test.words(today)} · {test.reason}"
 
 
 def is_reading_due(tests, serial: str, today: date) -> bool:

@@ -34,7 +34,7 @@ def _present():
 
 
 class FleetScreen(Screen):
-    """Sort by any column, filter by site, model and status, type a serial to jump to it."""
+    """Sort by any column, filter by site, model, status and reading due, type a serial to jump to it."""
 
     HELP_TITLE = "Fleet view"
     AUTO_FOCUS = "#fleet-table"  # not the serial box, the first focusable (one focus change less at start)
@@ -46,7 +46,7 @@ class FleetScreen(Screen):
         Binding("s", "sort_next", "Sort", tooltip="sort by the next column (most urgent, P10, P50, hours, serial...)",
                 id="fleet.sort"),
         Binding("S", "sort_reverse", "Reverse", show=False, tooltip="reverse the sort order", id="fleet.sort_reverse"),
-        Binding("f", "filter", "Filter", tooltip="choose site, model and status to show",
+        Binding("f", "filter", "Filter", tooltip="choose site, model, status or reading due",
                 id="fleet.filter"),
         Binding("slash", "find", "Find serial", show=False, tooltip="type a serial to jump to it; Enter opens it",
                 id="fleet.find"),

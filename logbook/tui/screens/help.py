@@ -22,7 +22,8 @@ EXTRA = {
         ("Up/Down", "move through the pumps (PgUp/PgDn: a page)"),
         ("Columns", "Hours: operating hours since the last overhaul. Worst: the reading closest to its limit "
                     "(drain = case drain, servo = servo pressure, drift = neutral drift). P50/P10: dates by which that "
-                    "limit is crossed with 50 % / 10 % probability (months when the terminal is narrow). T: trend arrow."),
+                    "limit is crossed with 50 % / 10 % probability (months when the terminal is narrow). T: trend arrow "
+                    "(wider terminals). Next: the next reading, due, days to go or now! after a jump."),
     ),
     "PumpScreen": (
         ("Up/Down", "on the reading table: choose the kind shown in the chart"),

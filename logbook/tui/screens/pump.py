@@ -94,7 +94,7 @@ class PumpScreen(Screen):
         lines = [
             f"{status} · {since} since overhaul · {per_day} · last read {last}",
             present.next_words(self.app.next_test(self.serial), self.app.today) if self.app.tests is not None
-            else "Next reading: being worked out…",
+            else "Next: reading date being worked out…",
             f"{m.code} {m.displacement_cc:g} cm3/rev, rated {fmt.pressure(m.rated_pressure_bar, u)} · reference "
             f"{fmt.temperature(m.ref_temp_c, u)}, {fmt.pressure(m.ref_pressure_bar, u)}, VG {m.oil_grade} VI {m.oil_vi:g}",
         ]
