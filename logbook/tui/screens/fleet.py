@@ -134,7 +134,7 @@ class FleetScreen(Screen):
         f = self.filters
         words = [f["site"] or "all sites", f["model"] or "all models", f["status"] or "all statuses"]
         if f.get("due"):
-            words.append(READING_DUE)
+            words.insert(0, READING_DUE)  # first: the line is clipped at 80 columns
         return "Filter (f): " + " · ".join(words)
 
     def set_filters(self, chosen: dict) -> int:
@@ -237,7 +237,8 @@ class FleetScreen(Screen):
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
         due = sum(1 for p in pumps if present.is_reading_due(self.app.tests, p.serial, self.app.today))
-        line = f"{len(pumps)} of {len(everything)} shown · {due} {READING_DUE} · sorted: {order} · " + "; ".join(parts)
+        line = " · ".join([f"{len(pumps)} of {len(everything)} shown", f"{due} {READING_DUE}", f"sorted: {order}"]
+                          + (["; ".join(parts)] if parts else []))
         if self.app.refreshing:
             line += " · re-forecasting the other pumps…"
         if self.app.trouble:
