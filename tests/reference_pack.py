@@ -21,22 +21,14 @@ from logbook.analysis.calendar import (
     machine_hour_points,
 )
 from logbook.analysis.fit import (
-    B_JUMP,
-    B_OUTLIER,
-    B_POOLED,
-    B_STEP,
     PATH_NAMES,
     BatchFit,
     FitOptions,
     fit_batch,
 )
-from logbook.analysis.fleet import fit_detail
+from logbook.analysis.fleet import _FLAGS, _OUTCOMES, DEFAULT_HORIZON_HOURS, fit_detail
 from logbook.analysis.forecast import BatchForecast, forecast_batch
 from logbook.analysis.results import (
-    FLAG_JUMP,
-    FLAG_OUTLIER,
-    FLAG_POOLED,
-    FLAG_STEP,
     FitDetail,
     FleetForecast,
     KindForecast,
@@ -47,9 +39,6 @@ from logbook.analysis.segments import Series, build_series, reading_pump_hours
 from logbook.analysis.status import StatusThresholds, pump_status
 from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
 
-DEFAULT_HORIZON_HOURS = 20_000.0
-_OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
-_FLAGS = ((B_OUTLIER, FLAG_OUTLIER), (B_STEP, FLAG_STEP), (B_POOLED, FLAG_POOLED), (B_JUMP, FLAG_JUMP))
 
 
 @dataclass
