@@ -5,8 +5,8 @@ Model (see ``make_plan``):
   crossing date falls on or before the last day of the horizon.
 - Its target month is the month of its earliest P10 date (the start month when it
   is past the limit or the P10 date lies before the start month).
-- Pumps are placed in order of urgency (past limit first, then earliest P10, P50,
-  serial) into the latest month <= target that has room: shop capacity per month,
+- Pumps are placed in the engine's one order of urgency (``analysis.status.urgency_key``,
+  the order of every pump list) into the latest month <= target that has room: shop capacity per month,
   shop capacity per site per month, and an exchange pump of its model. A pump is
   never placed after its target month; when no month up to the target has room it
   goes to ``Plan.unplaced`` with the reason. The pumps that fit are then re-placed
@@ -33,6 +33,7 @@ from datetime import date, timedelta
 from statistics import NormalDist
 
 from logbook.analysis.results import FleetForecast, KindForecast, Outcome, PumpForecast
+from logbook.analysis.status import urgency_key
 from logbook.model import InputRejected, Kind, Problem
 
 _Z90 = NormalDist().inv_cdf(0.9)  # 1.2815515655446004
@@ -235,7 +236,8 @@ def _is_due(kf: KindForecast, end_day: date) -> bool:
 
 
 def _urgency(kf: KindForecast) -> tuple:
-    """Sort key: past limit first (furthest past first), then earliest P10, P50."""
+    """Which of a pump's due kinds drives its plan line: past limit first (furthest past first),
+    then earliest P10, P50. Pumps themselves go in ``urgency_key`` order."""
     if kf.outcome is Outcome.PAST_LIMIT:
         over = kf.percent_of_limit or 0.0
         if kf.limit is not None and kf.limit.direction == "below":
@@ -341,8 +343,8 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings) -> Plan:
             continue
         shop_due = [k for k in due if k.kind not in settings.on_machine_kinds]
         driver = (shop_due or due)[0]
-        candidates.append((_urgency(driver), pf.serial, pf, driver, due, bool(shop_due)))
-    candidates.sort(key=lambda c: (c[0], c[1]))
+        candidates.append((urgency_key(pf), pf.serial, pf, driver, due, bool(shop_due)))
+    candidates.sort(key=lambda c: c[0])  # the engine's one most-urgent-first order
 
     first = _Shop(settings)
     months: dict[str, date] = {}

@@ -99,3 +99,40 @@ def pump_statuses(
 
 
 _RANK = {word: i for i, word in enumerate(STATUS_ORDER)}
+
+#: Outcome of the worst kind, most urgent first (used after the status to break ties).
+_OUTCOME_RANK = {
+    Outcome.PAST_LIMIT: 0,
+    Outcome.CROSSING: 1,
+    Outcome.NO_CROSSING: 2,
+    Outcome.TOO_FEW: 3,
+    Outcome.NO_DATA: 4,
+    Outcome.NO_LIMIT: 5,
+}
+
+
+def status_rank(status: str) -> int:
+    """Position of a status word in ``STATUS_ORDER`` (unknown words last)."""
+    return _RANK.get(status, len(STATUS_ORDER))
+
+
+def urgency_key(pf: PumpForecast) -> tuple:
+    """The one "most urgent first" order of pumps (every list sorts on it): status in
+    ``STATUS_ORDER``, then the worst kind's outcome, then furthest past its limit, earliest
+    P10 date, earliest P50 date, serial."""
+    status = status_rank(pf.status)
+    kf = pf.worst
+    if kf is None:
+        return (status, 9, date.max, date.max, 0.0, pf.serial)
+    rank = _OUTCOME_RANK.get(kf.outcome, 8)
+    if kf.outcome is Outcome.PAST_LIMIT:
+        over = kf.percent_of_limit or 0.0
+        if kf.limit is not None and kf.limit.direction == "below":
+            over = -over
+        return (status, rank, date.min, date.min, -over, pf.serial)
+    return (status, rank, kf.p10_date or date.max, kf.p50_date or date.max, 0.0, pf.serial)
+
+
+def most_urgent_first(pumps) -> list[PumpForecast]:
+    """``pumps`` sorted by ``urgency_key``."""
+    return sorted(pumps, key=urgency_key)

@@ -17,21 +17,10 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def urgency_key(p):
-    """Past limit first, then the earliest P10 date, then the earliest P50 date."""
-    from datetime import date
-
-    from logbook.analysis.results import Outcome
-
-    w = p.worst
-    if w is None:
-        return (2, date.max, date.max, p.serial)
-    past = 0 if w.outcome is Outcome.PAST_LIMIT else 1
-    return (past, w.p10_date or date.max, w.p50_date or date.max, p.serial)
-
-
 def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None, tests=None, due_only=False) -> Table:
     """The fleet as a table; ``tests`` (serial -> rounds.NextTest) adds the next-reading column."""
+    from logbook.analysis.status import urgency_key
+
     table = Table(box=None, header_style="bold", pad_edge=False)
     cols = ["serial", "machine/pos", "model", "h since ovh", "nearest limit", "P10", "P50", "status"]
     if tests is not None:
@@ -41,7 +30,7 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
     rows = [p for p in forecast.pumps if (site is None or p.site == site) and (model is None or p.model == model)
             and (status is None or status.lower() in p.status.lower())
             and (not due_only or (tests is not None and p.serial in tests and tests[p.serial].is_due(ctx.today)))]
-    rows.sort(key=urgency_key)
+    rows.sort(key=urgency_key)  # the engine's one most-urgent-first order
     for p in rows[:limit]:
         w = p.worst
         table.add_row(

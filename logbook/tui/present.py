@@ -20,7 +20,7 @@ from logbook.analysis.results import (
     Outcome,
     PumpForecast,
 )
-from logbook.analysis.status import STATUS_ORDER
+from logbook.analysis.status import status_rank, urgency_key  # the engine's one most-urgent-first order
 from logbook.model import Kind
 from logbook.tui.layout import clip, fleet_columns
 
@@ -31,16 +31,6 @@ FLAG_WORDS = {
     FLAG_OUTLIER: "a wild reading set aside",
     FLAG_STEP: "sudden step (breakage?)",
     FLAG_JUMP: "newest reading far from the trend",
-}
-
-#: Outcome order for "most urgent first" (past the limit, then by P10 date, ...).
-_OUTCOME_RANK = {
-    Outcome.PAST_LIMIT: 0,
-    Outcome.CROSSING: 1,
-    Outcome.NO_CROSSING: 2,
-    Outcome.TOO_FEW: 3,
-    Outcome.NO_DATA: 4,
-    Outcome.NO_LIMIT: 5,
 }
 
 
@@ -66,27 +56,6 @@ def trend(kf: KindForecast | None) -> tuple[str, str]:
         return arrow, "rising" if rate > 0 else "falling"
     toward = (rate > 0) == (kf.limit.direction == "above")
     return arrow, "toward limit" if toward else "away from limit"
-
-
-def urgency_key(pf: PumpForecast) -> tuple:
-    """Most urgent first: the engine's status order, then furthest past the limit,
-    earliest P10, earliest P50, serial."""
-    status = STATUS_ORDER.index(pf.status) if pf.status in STATUS_ORDER else len(STATUS_ORDER)
-    kf = pf.worst
-    if kf is None:
-        return (status, 9, date.max, date.max, 0.0, pf.serial)
-    rank = _OUTCOME_RANK.get(kf.outcome, 8)
-    if kf.outcome is Outcome.PAST_LIMIT:
-        over = kf.percent_of_limit or 0.0
-        if kf.limit is not None and kf.limit.direction == "below":
-            over = -over
-        return (status, rank, date.min, date.min, -over, pf.serial)
-    return (status, rank, kf.p10_date or date.max, kf.p50_date or date.max, 0.0, pf.serial)
-
-
-def status_rank(status: str) -> int:
-    """Position of a status word in the engine's most-urgent-first order."""
-    return STATUS_ORDER.index(status) if status in STATUS_ORDER else len(STATUS_ORDER)
 
 
 def where(pf: PumpForecast) -> str:

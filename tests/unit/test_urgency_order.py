@@ -1,0 +1,93 @@
+"""Every list of pumps puts them in the engine's one most-urgent-first order.
+
+``logbook pumps`` (and the ten-pump summary of ``logbook demo``, which prints its first
+ten rows), the fleet view and the plan all sort on ``analysis.status.urgency_key``.
+The order itself is our own rule (common practice, no published source): status in
+``STATUS_ORDER``, then the worst kind's outcome, furthest past the limit, earliest P10
+and P50 dates, serial. These tests check that the lists agree with each other and with
+that rule written out here, on the demo fleet.
+"""
+
+from __future__ import annotations
+
+import io
+from datetime import date
+
+import pytest
+from rich.console import Console
+
+import demo_fleet
+from logbook.analysis.fleet import forecast_fleet
+from logbook.analysis.status import STATUS_ORDER, STEP_CHANGE, urgency_key
+from logbook.cli import Context
+from logbook.commands.pumps import fleet_table
+from logbook.plan import PlanSettings, make_plan
+from logbook.store import Store
+from logbook.tui.present import select_pumps
+from logbook.units import UnitPrefs
+
+TODAY = date(2026, 12, 1)
+
+
+@pytest.fixture(scope="module")
+def forecast():
+    store = Store(":memory:")
+    demo_fleet.load(store, TODAY, seed=7)
+    return forecast_fleet(store.fleet(), TODAY)
+
+
+def _ctx() -> Context:
+    return Context(db_path=None, user=None, today=TODAY, units=UnitPrefs(), console=Console(file=io.StringIO()))
+
+
+def _table_serials(table) -> list[str]:
+    return list(table.columns[0]._cells)
+
+
+def _by_hand(pumps) -> list[str]:
+    """The rule in the module docstring, written out independently of the engine."""
+
+    def key(p):
+        kf = p.worst
+        status = STATUS_ORDER.index(p.status) if p.status in STATUS_ORDER else len(STATUS_ORDER)
+        if kf is None:
+            return (status, 9, date.max, date.max, 0.0, p.serial)
+        outcome = ["past_limit", "crossing", "no_crossing", "too_few", "no_data", "no_limit"].index(kf.outcome.value)
+        if outcome == 0:
+            over = kf.percent_of_limit or 0.0
+            return (status, 0, date.min, date.min, over if kf.limit.direction == "below" else -over, p.serial)
+        return (status, outcome, kf.p10_date or date.max, kf.p50_date or date.max, 0.0, p.serial)
+
+    return [p.serial for p in sorted(pumps, key=key)]
+
+
+def test_pumps_command_and_fleet_view_agree(forecast):
+    want = _by_hand(forecast.pumps)
+    assert _table_serials(fleet_table(forecast, _ctx())) == want
+    assert [p.serial for p in select_pumps(forecast.pumps, sort_key="status")] == want
+
+
+def test_the_step_change_pump_is_near_the_top_everywhere(forecast):
+    step = [p.serial for p in forecast.pumps if p.status == STEP_CHANGE]
+    assert step, "the demo fleet must hold a pump in 'step change - inspect'"
+    summary = _table_serials(fleet_table(forecast, _ctx(), limit=10))  # what `logbook demo` prints
+    view = [p.serial for p in select_pumps(forecast.pumps, sort_key="status")]
+    over = sum(p.status == STATUS_ORDER[0] for p in forecast.pumps)
+    for serial in step:
+        assert serial in summary
+        assert summary.index(serial) == view.index(serial) < over + len(step)
+
+
+def test_the_plan_takes_pumps_in_the_same_order(forecast):
+    plan = make_plan(forecast, PlanSettings(start_month=date(2026, 12, 1), horizon_months=12))
+    rank = {s: i for i, s in enumerate(_by_hand(forecast.pumps))}
+    assert len(plan.lines) > 5
+    for month in plan.settings.months:
+        serials = [line.serial for line in plan.month_lines(month)]
+        assert serials == sorted(serials, key=rank.__getitem__), month
+    unplaced = [line.serial for line in plan.unplaced]
+    assert unplaced == sorted(unplaced, key=rank.__getitem__)
+
+
+def test_the_key_is_the_engines(forecast):
+    assert [p.serial for p in sorted(forecast.pumps, key=urgency_key)] == _by_hand(forecast.pumps)
