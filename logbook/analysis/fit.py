@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 from logbook.analysis.batch import LineStats, TrendBatch, _rowdot, ols_rows
 from logbook.analysis.pooling import group_prior, shrink_slope
@@ -104,9 +104,11 @@ def _crit_tables(width: int, alpha_out: float, alpha_step: float, side: int) -> 
     n = np.arange(width + 1, dtype=float)
     dof = np.maximum(n - 3, 1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        t2 = stats.t.isf(alpha_out / (2 * np.maximum(n, 1)), dof) ** 2
+        # upper quantiles as scipy.stats computes them: t.isf(q, v) = -stdtrit(v, q) (squared here),
+        # f.isf(q, 1, v) = fdtri(1, v, 1 - q); scipy.special alone imports in a third of the time
+        t2 = special.stdtrit(dof, alpha_out / (2 * np.maximum(n, 1))) ** 2
         cand = np.maximum(n - 2 * side + 1, 1)
-        f = stats.f.isf(alpha_step / cand, 1, dof)
+        f = special.fdtri(1, dof, 1.0 - alpha_step / cand)
     return t2, f
 
 

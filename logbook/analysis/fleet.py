@@ -8,9 +8,7 @@ reported as None (no date).
 
 from __future__ import annotations
 
-import gc
-from contextlib import contextmanager
-from dataclasses import fields, replace
+from dataclasses import replace
 from datetime import date
 
 import numpy as np
@@ -80,8 +78,7 @@ def _fleet_pack(fleet: Fleet, today: date) -> tuple[list[str], list[PumpModel], 
 
 def fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
     """The batch that ``forecast_fleet`` fits (for benchmarks); None for a fleet with nothing to forecast."""
-    with _cycles_paused():
-        serials, _, pk = _fleet_pack(fleet, today)
+    serials, _, pk = _fleet_pack(fleet, today)
     return pk.batch if serials else None
 
 
@@ -104,24 +101,10 @@ def forecast_histories(
             if id(e) not in seen:
                 seen.add(id(e))
                 events.append(e)
-    with _cycles_paused():
-        arrays = FleetArrays([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
-        serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
-        pk = pack(arrays, serials, models, utilisation, today)
-        return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
-
-
-@contextmanager
-def _cycles_paused():
-    """Pause the cyclic garbage collector while the (acyclic) records are read and made: its full passes
-    over a large fleet's half a million objects cost a fifth of the forecast. Reference counting still frees."""
-    was_on = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if was_on:
-            gc.enable()
+    arrays = FleetArrays([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
+    serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
+    pk = pack(arrays, serials, models, utilisation, today)
+    return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
 
 
 def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, options, thresholds, with_noise):
@@ -156,7 +139,7 @@ def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, opti
     kind_rows = []
     for i, serial in enumerate(np.repeat(serials, 3).tolist() if n_pumps else []):
         seen = has[i]
-        kind_rows.append(_record(KindForecast, {
+        kind_rows.append(KindForecast(**{
             "serial": serial, "kind": ALL_KINDS[i % 3], "limit": pk.limits[i], "outcome": outcome[i],
             "latest_value": latest_y[i] if seen else None, "latest_raw": latest_raw[i] if seen else None,
             "latest_on": date.fromordinal(latest_day[i]) if seen else None, "n_readings": counts[i],
@@ -176,38 +159,13 @@ def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, opti
     for p, serial in enumerate(serials):
         cur = pk.pump_current[p]
         kinds = tuple(kind_rows[3 * p : 3 * p + 3])
-        out.append(_record(PumpForecast, {
+        out.append(PumpForecast(**{
             "serial": serial, "model": models[p].code, "machine": cur.machine if cur else None,
             "position": cur.position if cur else None, "site": sites.get(cur.machine) if cur else None,
             "hours_since_overhaul": pk.since_overhaul[p], "hours_per_day": pk.per_day[p], "kinds": kinds,
             "worst": kinds[worst[p]] if worst[p] >= 0 else None, "status": status[p], "last_reading_on": pk.last_on[p],
         }))  # fmt: skip
     return out
-
-
-def _record(cls, values: dict):
-    """A result record from all its field values: the dataclass without its generated __init__ (a
-    few microseconds each, for tens of thousands of records); equal to ``cls(**values)``."""
-    if cls not in _FAST:
-        return cls(**values)
-    obj = _new(cls)
-    _set(obj, "__dict__", values)
-    return obj
-
-
-_new, _set = object.__new__, object.__setattr__
-_FIELDS = {
-    KindForecast: ("serial", "kind", "limit", "outcome", "latest_value", "latest_raw", "latest_on", "n_readings",
-                   "segment_start", "hours_in_segment", "path", "p10_hours", "p50_hours", "p90_hours", "p10_date",
-                   "p50_date", "p90_date", "flags", "fit", "rate_per_1000h"),
-    PumpForecast: ("serial", "model", "machine", "position", "site", "hours_since_overhaul", "hours_per_day", "kinds",
-                   "worst", "status", "last_reading_on"),
-    FitDetail: ("x_hours", "y_value", "used", "path", "params", "cov", "sigma", "dof"),
-}  # fmt: skip
-# the shortcut holds only while the records are plain dataclasses with exactly these fields
-_FAST = {cls for cls, names in _FIELDS.items()
-         if tuple(f.name for f in fields(cls)) == names and not hasattr(cls, "__post_init__")
-         and not hasattr(cls, "__slots__")}  # fmt: skip
 
 
 def _days_ahead(remaining: np.ndarray, per_day: np.ndarray) -> np.ndarray:
@@ -266,7 +224,7 @@ def _details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail
     cols = [v[rows].tolist() for v in (fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
     names = [PATH_NAMES[c] for c in fit.path[rows].tolist()]
     for r, x, y, u, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, names, *cols):
-        out[r] = _record(FitDetail, {"x_hours": x, "y_value": y, "used": u, "path": name, "params": (a, b),
+        out[r] = FitDetail(**{"x_hours": x, "y_value": y, "used": u, "path": name, "params": (a, b),
                                      "cov": ((c00, c01), (c01, c11)), "sigma": s, "dof": d})  # fmt: skip
     return out
 
@@ -303,10 +261,9 @@ def forecast_fleet(
     with_noise: bool = False,
 ) -> FleetForecast:
     """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
-    with _cycles_paused():
-        serials, models, pk = _fleet_pack(fleet, today)
-        sites = {unit: m.site for unit, m in fleet.machines.items()}
-        pumps = _forecasts(serials, models, pk, today, sites, horizon_hours, options, thresholds, with_noise) if serials else []
+    serials, models, pk = _fleet_pack(fleet, today)
+    sites = {unit: m.site for unit, m in fleet.machines.items()}
+    pumps = _forecasts(serials, models, pk, today, sites, horizon_hours, options, thresholds, with_noise) if serials else []
     notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
 

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from logbook.analysis.batch import TrendBatch
 from logbook.analysis.fit import EXPONENTIAL, BatchFit
@@ -41,8 +41,9 @@ _T_TABLE_MAX = 2000
 @lru_cache(maxsize=16)
 def _t_table(q: float) -> np.ndarray:
     """Student t quantile q for 1..2000 degrees of freedom (index = dof), and the normal one at 0."""
-    table = stats.t.ppf(q, np.arange(_T_TABLE_MAX + 1, dtype=float))
-    table[0] = stats.norm.ppf(q)
+    with np.errstate(invalid="ignore"):  # dof 0 is no t distribution: the normal one goes there
+        table = special.stdtrit(np.arange(_T_TABLE_MAX + 1, dtype=float), q)  # = scipy.stats.t.ppf(q, dof)
+    table[0] = special.ndtri(q)  # = scipy.stats.norm.ppf(q)
     return table
 
 

@@ -19,7 +19,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import optimize, special
 
 from logbook.analysis.hours import pump_hours
 from logbook.analysis.results import FleetForecast
@@ -51,7 +51,7 @@ class WeibullFit:
         c = math.log(-math.log1p(-p))
         grad = np.array([-c / self.shape, 1.0])  # d ln t_p / d(ln shape, ln scale)
         var = float(grad @ np.asarray(self.cov_log) @ grad)
-        z = stats.norm.ppf(0.5 + confidence / 2)
+        z = special.ndtri(0.5 + confidence / 2)  # = scipy.stats.norm.ppf
         mid = math.log(self.quantile_hours(p))
         half = z * math.sqrt(max(var, 0.0))
         return math.exp(mid - half), math.exp(mid + half)

@@ -36,7 +36,7 @@ FLAG_POOLED = "pooled"  # the wear rate borrowed strength from the model's fleet
 FLAG_JUMP = "last_reading_jumped"  # the newest reading is far from the trend
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class FitDetail:
     """Enough of the fit to draw it: points, which were used, the path and its band.
 
@@ -57,21 +57,21 @@ class FitDetail:
     def band(self, x: "list[float] | tuple[float, ...]", coverage: float = 0.8):
         """(lower, middle, upper) prediction band on the reading's scale at hours ``x``."""
         import numpy as np
-        from scipy import stats
+        from scipy import special
 
         xs = np.asarray(x, dtype=float)
         a, b = self.params
         mid = a + b * xs
         var_mean = self.cov[0][0] + 2 * xs * self.cov[0][1] + xs * xs * self.cov[1][1]
         se = np.sqrt(np.maximum(var_mean + self.sigma**2, 0.0))
-        t = stats.t.ppf(0.5 + coverage / 2, max(self.dof, 1))
+        t = special.stdtrit(max(self.dof, 1), 0.5 + coverage / 2)  # = scipy.stats.t.ppf
         lo, hi = mid - t * se, mid + t * se
         if self.path == "exponential":
             return np.exp(lo), np.exp(mid), np.exp(hi)
         return lo, mid, hi
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class KindForecast:
     """Forecast for one pump and one reading kind."""
 
@@ -103,7 +103,7 @@ class KindForecast:
         return 100.0 * self.latest_value / self.limit.value
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class PumpForecast:
     """One pump in service: where it is and its forecasts, worst first."""
 

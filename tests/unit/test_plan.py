@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from collections import Counter
 from datetime import date, timedelta
 
@@ -173,7 +174,7 @@ def test_neutral_drift_only_is_on_the_machine_and_uses_no_shop_room():
 
 def test_no_utilisation_is_reported_not_guessed():
     kf = kind_forecast("U", p10_days=50)
-    kf = type(kf)(**{**kf.__dict__, "p10_date": None, "p50_date": None, "p90_date": None})
+    kf = dataclasses.replace(kf, p10_date=None, p50_date=None, p90_date=None)
     plan = make_plan(fleet([pump_forecast("U", [kf])]), PlanSettings(START))
     assert plan.lines == () and "utilisation" in plan.unplaced[0].note
 
@@ -242,7 +243,7 @@ def test_crossing_probability_without_p90_uses_the_lower_spread():
     # The engine leaves P90 blank beyond its horizon: the P10-P50 spread is used on both sides,
     # i.e. scipy.stats.lognorm with s = ln(d50/d10)/z0.9.
     kf = kind_forecast("A", p10_days=40, spread=1.5)
-    kf = type(kf)(**{**kf.__dict__, "p90_date": None, "p90_hours": None})
+    kf = dataclasses.replace(kf, p90_date=None, p90_hours=None)
     d50 = (kf.p50_date - TODAY).days
     s = __import__("math").log(d50 / 40) / stats.norm.ppf(0.9)
     for days in (30, 90, 150):
