@@ -38,7 +38,7 @@ from logbook.model import InputRejected, Kind, Problem
 
 _Z90 = NormalDist().inv_cdf(0.9)  # 1.2815515655446004
 
-#: What is done when each reading reaches its limit (domain primer, section 2).
+#: What is done when each reading reaches its limit (common practice, no published source).
 ACTION_WORDS = {
     Kind.CASE_DRAIN: "overhaul or exchange the pump",
     Kind.SERVO_PRESSURE: "repair charge supply or control",

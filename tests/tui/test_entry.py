@@ -59,7 +59,7 @@ async def test_a_valid_reading_is_saved_compared_and_changes_the_forecast(demo_a
         assert form.fields["date"].text == TODAY.isoformat()
         assert form.fields["test_speed"].text  # prefilled from the last test or the model
         # At the model's reference conditions the normalized value equals the reading
-        # (Q_ref = Q_meas * dp_ref/dp_meas * nu_meas/nu_ref, domain primer section 3).
+        # (Q_ref = Q_meas * dp_ref/dp_meas * nu_meas/nu_ref: laminar leakage, Rabie, Fluid Power Engineering, 2009, eq. 2.19).
         fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain=f"{limit * 0.8:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")

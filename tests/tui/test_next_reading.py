@@ -95,7 +95,7 @@ async def test_a_saved_reading_updates_that_pumps_next_reading(later_app):
         drain = next(k for k in pf.kinds if k.kind is Kind.CASE_DRAIN).latest_value
         form = await open_form(app, pilot, serial, "r")
         assert isinstance(form, ReadingScreen)
-        # at the model's reference conditions the normalized value equals the reading (domain primer, section 3)
+        # at the model's reference conditions the normalized value equals the reading (laminar leakage scaling, Rabie, Fluid Power Engineering, 2009, eq. 2.19)
         fill(form, machine_hours=f"{meter_now(app, pf.machine) + 20 * 16:.0f}", case_drain=f"{drain:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")

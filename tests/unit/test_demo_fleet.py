@@ -55,7 +55,7 @@ def machine_at(data: dict, serial: str, day: str) -> str:
 
 
 def normalized_case_drain(row: dict, model: dict) -> float:
-    """Q_ref = Q_meas * (dp_ref / dp_meas) * (nu_meas / nu_ref), docs/csv-formats.md and the domain primer."""
+    """Q_ref = Q_meas * (dp_ref / dp_meas) * (nu_meas / nu_ref), docs/csv-formats.md (laminar leakage, Rabie, Fluid Power Engineering, 2009, eq. 2.19)."""
     nu_meas = oil.viscosity_cst(float(row["oil_temp"]), int(row["oil_grade"]), float(row["oil_vi"]))
     nu_ref = oil.viscosity_cst(float(model["ref_temp"]), int(model["oil_grade"]), float(model["oil_vi"]))
     return float(row["case_drain"]) * float(model["ref_pressure"]) / float(row["test_pressure"]) * nu_meas / nu_ref
@@ -74,8 +74,8 @@ def series(data: dict, name: str) -> tuple[sc.Scenario, dict, list[dict], list[d
 
 
 def test_walther_helper_matches_the_d341_worked_example():
-    # reference-checks.md section 2: 32 cSt at 40 C and 5.4 cSt at 100 C give about 8.53 cSt at 80 C
-    # (secondary source quoting ASTM D341, re-derived).
+    # ASTM D341 (Walther) worked example, as quoted by a secondary source and re-derived:
+    # 32 cSt at 40 C and 5.4 cSt at 100 C give about 8.53 cSt at 80 C.
     assert walther_cst(80.0, 40.0, 32.0, 100.0, 5.4) == pytest.approx(8.53, abs=0.01)
 
 
@@ -327,7 +327,7 @@ def test_values_within_plausible_domains(demo):
         m = pump_model[r["serial"]]
         speed = float(r["test_speed"])
         assert 1800 <= speed <= float(m["max_speed"])
-        # theoretical flow Q_th = Vg * n / 1000 (standard fluid power identity, reference-checks.md section 6)
+        # theoretical flow Q_th = Vg * n / 1000 (textbook identity of positive-displacement pumps: displacement times speed)
         assert 0 < float(r["case_drain"]) < float(m["displacement"]) * speed / 1000
         assert 35 <= float(r["oil_temp"]) <= 70
         assert 0.8 * float(m["rated_pressure"]) <= float(r["test_pressure"]) <= float(m["rated_pressure"])

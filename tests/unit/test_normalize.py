@@ -1,4 +1,4 @@
-"""Normalization of readings: laminar leakage scaling (reference-checks.md section 5) and pump formulas (section 6)."""
+"""Normalization of readings: laminar leakage scaling (Rabie, Fluid Power Engineering, 2009, eq. 2.19; Manring, Hydraulic Control Systems, 2005) and pump formulas (textbook identities)."""
 
 import math
 
@@ -17,7 +17,7 @@ MODEL = PumpModel(
 
 
 def test_annulus_leakage_check_value():
-    # Rabie, Fluid Power Engineering (2009) eq. 2.19, computed check in reference-checks.md:
+    # Rabie, Fluid Power Engineering (2009) eq. 2.19; the check value is computed from that formula (not a published figure):
     # D = 20 mm, c = 10 um, L = 30 mm, dp = 250 bar, mu = 0.04002 Pa s -> 6.5417 mL/min.
     q_lpm = normalize.annulus_leakage_lpm(0.020, 10e-6, 0.030, 250.0, 0.04002)
     assert q_lpm * 1000 == pytest.approx(6.5417, rel=1e-4)
@@ -31,7 +31,8 @@ def test_annulus_eccentric_factor():
 
 
 def test_thin_gap_formula_agrees_with_exact_annulus():
-    # reference-checks.md section 5: the exact annulus formula agrees to 0.05 % for this gap.
+    # Hagen-Poiseuille flow in a concentric annulus without the thin-gap approximation agrees
+    # to 0.05 % for this gap (computed here from both formulas, not a published figure).
     thin = normalize.annulus_leakage_lpm(0.020, 10e-6, 0.030, 250.0, 0.04002)
     exact = normalize.annulus_leakage_exact_lpm(0.010 + 10e-6, 0.010, 0.030, 250.0, 0.04002)
     assert thin == pytest.approx(exact, rel=5e-4)
@@ -61,7 +62,7 @@ def test_other_oil_uses_its_own_viscosity():
 
 
 def test_theoretical_flow():
-    # reference-checks.md section 6 (fluid power texts): 50 cm^3/rev at 1450 rpm -> 72.5 L/min.
+    # Textbook identity of fluid power, Q_th = Vg * n / 1000: 50 cm^3/rev at 1450 rpm -> 72.5 L/min.
     assert normalize.theoretical_flow_lpm(50.0, 1450.0) == pytest.approx(72.5)
     assert normalize.case_drain_percent(3.625, MODEL) == pytest.approx(5.0)
 

@@ -1,4 +1,4 @@
-"""Oil viscosity against ASTM D341, ASTM D2270 and ISO 3448 (values in /work/shared/reference-checks.md)."""
+"""Oil viscosity against ASTM D341, ASTM D2270 and ISO 3448 (each check names its worked example)."""
 
 import numpy as np
 import pytest

@@ -11,7 +11,7 @@ from logbook import units
 def test_psi_per_bar_matches_nist_sp811():
     # NIST SP 811 (2008), Appendix B.8: 1 psi = 6.894 757 E+03 Pa; 1 bar = 1.0 E+05 Pa.
     assert units.PSI_PER_BAR == pytest.approx(1e5 / 6894.757293168361, rel=1e-12)
-    assert units.PSI_PER_BAR == pytest.approx(14.503773773, rel=1e-9)  # reference-checks.md section 7
+    assert units.PSI_PER_BAR == pytest.approx(14.503773773, rel=1e-9)  # NIST SP 811 (2008), Appendix B.8, as above
     assert units.to_canonical(14.503773773, "psi") == pytest.approx(1.0, rel=1e-9)
 
 
@@ -32,8 +32,8 @@ def test_fahrenheit_matches_scipy_and_fixed_points():
 
 
 def test_theoretical_flow_handbook_identity():
-    # Q_th = Vg * n / 1000: 50 cm3/rev at 1450 rpm -> 72.5 L/min (standard fluid power identity,
-    # reference-checks.md section 6).
+    # Q_th = Vg * n / 1000: 50 cm3/rev at 1450 rpm -> 72.5 L/min (standard fluid power identity:
+    # displacement per revolution times speed).
     assert units.theoretical_flow_lpm(50, 1450) == pytest.approx(72.5)
     # US form gpm = in^3/rev * rpm / 231: 1 in^3/rev at 231 rpm is 1 gpm.
     cc_per_in3 = 2.54**3

@@ -60,6 +60,6 @@ def test_dates():
 
 @pytest.mark.parametrize("grade,ok", [("46", True), ("VG 68", True), ("ISO VG 32", True), ("47", False), ("x", False)])
 def test_oil_grades_are_iso_3448(grade, ok):
-    # ISO 3448 grade numbers (reference-checks.md section 2).
+    # ISO 3448 viscosity grade numbers (ISO VG 2 to 3200).
     value, problem = validate.parse_oil_grade(grade)
     assert (problem is None) == ok
