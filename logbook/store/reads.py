@@ -189,6 +189,61 @@ class ReadMixin:
             self.conn.execute("COMMIT")
         return fleet
 
+    def fleet_as_of(self, day: date) -> Fleet:
+        """The fleet as the logbook knew it on ``day`` (see ``logbook.asof``), read in one transaction."""
+        from logbook.asof import fleet_as_of
+
+        self.conn.execute("BEGIN")
+        try:
+            fleet = Fleet(
+                models=self.models(),
+                machines=self.machines(),
+                pumps=self.pumps(),
+                fitments=tuple(self.fitments()),
+                readings=tuple(self.readings(include_superseded=True)),
+                events=tuple(self.events(include_removed=True)),
+                source=self.path,
+                data_version=self.change_count(),
+            )
+            known = self.known_spans(fleet)
+        finally:
+            self.conn.execute("COMMIT")
+        return fleet_as_of(fleet, known, day)
+
+    def known_spans(self, fleet: Fleet):
+        """When each reading and event of ``fleet`` came to be known and, if corrected or removed,
+        the day that was entered (from the corrections' own entry times and the audit trail)."""
+        from logbook.asof import Known
+
+        removed = {
+            (row["table_name"], int(row["row_key"])): _dt(row["at"]).date()
+            for row in self.db.query(
+                "SELECT table_name, row_key, min(at) AS at FROM audit WHERE action = 'remove' "
+                "AND table_name IN ('readings', 'events') GROUP BY table_name, row_key"
+            )
+        }
+        by_id = {r.id: r for r in fleet.readings}
+        corrections = {r.superseded_by for r in fleet.readings if r.superseded_by is not None}
+
+        def entered(r: Reading) -> date:
+            return r.entered_at.date() if r.entered_at is not None else r.taken_on
+
+        readings = {}
+        for r in fleet.readings:
+            known_from = entered(r) if r.id in corrections else r.taken_on
+            until = None
+            if r.superseded_by is not None and r.superseded_by in by_id:
+                until = entered(by_id[r.superseded_by])
+            if r.removed_reason is not None:
+                gone = removed.get(("readings", r.id), known_from)
+                until = gone if until is None else min(until, gone)
+            readings[r.id] = (known_from, until)
+        events = {
+            e.id: (e.happened_on, removed.get(("events", e.id), e.happened_on) if e.removed_reason is not None else None)
+            for e in fleet.events
+        }
+        return Known(readings=readings, events=events)
+
     def history(self, serial: str) -> PumpHistory:
         return self.fleet().history(serial)
 
