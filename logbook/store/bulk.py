@@ -3,9 +3,10 @@
 ``add_reading_columns`` applies the same rules as ``add_readings`` but over whole
 columns (set operations, one sort per machine) and writes with one ``executemany``
 fed straight from the columns. It only ever says yes: at the first row that might
-need a message (unknown pump, outside a fitment, a reading already recorded, an
-hour meter out of order, a model limit...) it declines and returns None, and the
-caller runs ``add_readings``, which finds and words every problem.
+need a message (unknown pump, outside a fitment, a reading recorded before, even
+one corrected or removed since, an hour meter out of order, a model limit...) it
+declines and returns None, and the caller runs ``add_readings``, which finds and
+words every problem and every row already present.
 """
 
 from __future__ import annotations
@@ -104,12 +105,11 @@ class BulkMixin:
         if len(keys) != n:
             raise _Declined  # a row twice in the file
         for row in self.conn.execute(
-            "SELECT serial, taken_on, machine_hours FROM readings WHERE superseded_by IS NULL AND removed_reason IS NULL "
-            "AND serial IN (SELECT value FROM json_each(?))",
+            "SELECT serial, taken_on, machine_hours FROM readings WHERE serial IN (SELECT value FROM json_each(?))",
             (json.dumps(sorted(serial_set)),),
         ):
             if row in keys:
-                raise _Declined  # already recorded (the same or other values)
+                raise _Declined  # recorded before (current, corrected or removed; the same or other values or text)
         self._check_meters(machine_of, isos, hours)
         texts = [[t or "" for t in columns.get(name) or none] for name in ("technician", "note")]
         if any(len(t) > 500 or not t.isprintable() for t in texts[0] + texts[1] if t):

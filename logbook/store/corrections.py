@@ -59,6 +59,15 @@ class CorrectionsMixin:
             raise InputRejected([Problem("reading", reading_id, f"was removed ({old.removed_reason}); it cannot be changed")])
         return old
 
+    def _kept_since(self, table: str, row_id: int, kept: str) -> str:
+        """'corrected on DATE' or 'removed on DATE' for a kept original (the day of its audit row)."""
+        action = "correct" if kept == "corrected" else "remove"
+        row = self.conn.execute(
+            "SELECT at FROM audit WHERE table_name = ? AND row_key = ? AND action = ? ORDER BY id DESC LIMIT 1",
+            (table, str(row_id), action),
+        ).fetchone()
+        return f"{kept} on {row[0][:10]}" if row else kept
+
     def correct_reading(self, reading_id: int, *, reason: str, today: date, **changes) -> Reading:
         """Supersede a reading by a corrected copy, validated exactly as a new reading
         (the old one left out of the hour-meter timeline). Returns the new reading."""
@@ -74,6 +83,9 @@ class CorrectionsMixin:
             checked = self._check_readings([new], today, None, without=[old.id])
             if checked.problems:
                 raise InputRejected(checked.problems)
+            if checked.present:  # the corrected values are those of another current reading
+                raise InputRejected([Problem("changes", "", "would make it a copy of another reading already recorded "
+                                             f"({new.serial} {new.taken_on} {new.machine_hours:g} h); remove this one instead")])
             _, _, machine = checked.items[0]
             # The new row takes the next id; the old row points at it first, because the
             # index of current readings allows one (serial, date, hours) at a time.

@@ -18,7 +18,7 @@ from logbook.model import (
     Problem,
     Reading,
 )
-from logbook.store.writes import EVENT_COLUMNS, READING_COLUMNS, Checked, _line, _with_line
+from logbook.store.writes import EVENT_COLUMNS, READING_COLUMNS, Checked, _line, _shown, _with_line
 from logbook.validate import check_hour_meter, check_reading_against_model
 
 MAX_TEXT = 500
@@ -47,8 +47,61 @@ def _values(r: Reading) -> tuple:
             r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.iso4406)
 
 
+@dataclasses.dataclass(frozen=True)
+class _Stored:
+    """A stored reading or event that a new row may repeat."""
+
+    id: int
+    values: tuple  # with the key, its identity: measured values (readings), where a move went (events)
+    texts: tuple[str, str]  # technician, note: free text, not part of the identity
+    machine: str | None
+    kept: str | None  # None while current; "corrected" or "removed" for a kept original
+
+
+def _same_record(stored: Sequence[_Stored], values: tuple, texts: tuple[str, str], machine: str | None) -> _Stored | None:
+    """The stored record a new row repeats (same key and values, and the machine if the row names one):
+    a current one with the same text first, then a kept original with the same text, then one whose text differs."""
+    same = [s for s in stored if s.values == values and machine in (None, s.machine)]
+    return min(same, key=lambda s: (s.texts != texts, s.kept is not None), default=None)
+
+
+_DESTINATION = ("to_machine", "to_position", "to_hours")
+
+
+def _destination(e: Event) -> tuple:
+    """Where a move or a meter replacement went (with the key, an event's identity)."""
+    return (e.to_machine, e.to_position, e.to_hours)
+
+
+def _where(line: int | None, text: str) -> str:
+    return f"line {line}: {text}" if line is not None else text
+
+
+def _text_hint(notes: list[str], how: str) -> str:
+    """For one record typed in again: how its text differs from the stored one ('' when it does not)."""
+    return f" ({notes[0].removeprefix('already present; ').removesuffix(' - not changed')}; {how})" if notes else ""
+
+
 class RecordsMixin:
-    """add_readings / add_events (batches) and their one-record forms."""
+    """add_readings / add_events (batches) and their one-record forms.
+
+    The identity of a reading is its pump, date, hour meter and measured values; of an
+    event its kind, date, pump (or machine, for meter_replaced), hour meter and, for a
+    move or meter replacement, where it went. A row with the identity of a stored record
+    is already present and never written again: from a file (``source`` given) also when
+    that record was corrected or removed since, so a re-import never undoes either.
+    Technician and note are free text: a difference is reported, the stored text stays."""
+
+    def _present_note(self, table: str, s: _Stored, texts: tuple[str, str], line: int | None, given: str) -> str | None:
+        """What to tell about a row found already present (None: nothing to tell)."""
+        diffs = [f"{name} differs: stored {old!r}, {given} {new!r}"
+                 for name, old, new in zip(("technician", "note"), s.texts, texts) if old != new]
+        if s.kept is None and not diffs:
+            return None
+        text = "already present" + (f" ({self._kept_since(table, s.id, s.kept)})" if s.kept else "")
+        text += "".join(f"; {d}" for d in diffs)
+        text += " - " + ", ".join(what for what, why in (("not added again", s.kept), ("not changed", diffs)) if why)
+        return _where(line, text)
 
     def _all_fitments(self) -> dict[str, list[Fitment]]:
         by_serial: dict[str, list[Fitment]] = defaultdict(list)
@@ -81,54 +134,79 @@ class RecordsMixin:
         def write(checked: Checked) -> None:
             ids.extend(self._write_readings(checked.items, source))
 
-        checked, _ = self._check_then_write(lambda: self._check_readings(readings, today, lines), write, dry_run=dry_run)
+        checked, _ = self._check_then_write(lambda: self._check_readings(readings, today, lines, from_file=source is not None), write, dry_run=dry_run)
         added = 0 if checked.problems else len(checked.items)
         return ImportReport("readings", added=added, already_present=checked.present, problems=checked.problems,
-                            dry_run=dry_run, ids=ids)
+                            flagged=checked.notes, dry_run=dry_run, ids=ids)
 
-    def _current_reading_values(self, readings: Sequence[Reading], without: Sequence[int] = ()) -> dict[tuple, tuple]:
-        """(serial, date text, machine_hours) -> (id, values) of the current readings that
-        share a pump with ``readings`` (looked up key by key for a few readings)."""
+    def _stored_readings(self, readings: Sequence[Reading], without: Sequence[int] = (), *, kept: bool = False
+                         ) -> dict[tuple, list[_Stored]]:
+        """(serial, date text, machine_hours) -> the stored readings with that key among the pumps
+        of ``readings``: the current ones and, with ``kept``, corrected and removed ones too
+        (looked up key by key for a few readings). ``without``: ids left out."""
         skip = set(without)
-        cols = ", ".join(_VALUE_FIELDS)
-        found = {}
+        select = (f"SELECT id, serial, taken_on, machine_hours, {', '.join(_VALUE_FIELDS)}, technician, note, machine, "
+                  "superseded_by, removed_reason FROM readings WHERE ")
+        current = "" if kept else " AND superseded_by IS NULL AND removed_reason IS NULL"
         if len(readings) <= 20:
-            for r in readings:
-                row = self.conn.execute(
-                    f"SELECT id, serial, taken_on, machine_hours, {cols} FROM readings WHERE serial = ? AND taken_on = ? "
-                    "AND machine_hours = ? AND superseded_by IS NULL AND removed_reason IS NULL",
-                    (r.serial, r.taken_on.isoformat(), r.machine_hours),
-                ).fetchone()
-                if row is not None and row[0] not in skip:
-                    found[(row[1], row[2], row[3])] = (row[0], tuple(row[4:]))
-            return found
-        serials = {r.serial for r in readings}
-        for row in self.conn.execute(
-            f"SELECT id, serial, taken_on, machine_hours, {cols} FROM readings WHERE superseded_by IS NULL "
-            "AND removed_reason IS NULL AND serial IN (SELECT value FROM json_each(?))",
-            (json.dumps(sorted(serials)),),
-        ):
-            if row[0] not in skip:
-                found[(row[1], row[2], row[3])] = (row[0], tuple(row[4:]))
+            keys = {(r.serial, r.taken_on.isoformat(), r.machine_hours) for r in readings}
+            rows = [row for key in keys for row in self.conn.execute(
+                select + "serial = ? AND taken_on = ? AND machine_hours = ?" + current, key)]
+        else:
+            rows = self.conn.execute(select + "serial IN (SELECT value FROM json_each(?))" + current,
+                                     (json.dumps(sorted({r.serial for r in readings})),))
+        found: dict[tuple, list[_Stored]] = defaultdict(list)
+        n = len(_VALUE_FIELDS)
+        for row in rows:
+            if row[0] in skip:
+                continue
+            superseded, removed = row[-2:]
+            state = "corrected" if superseded is not None else "removed" if removed is not None else None
+            found[row[1:4]].append(_Stored(row[0], tuple(row[4:4 + n]), (row[4 + n], row[5 + n]), row[6 + n], state))
         return found
 
     def _check_readings(
-        self, readings: Sequence[Reading], today: date, lines: Sequence[int] | None, without: Sequence[int] = ()
+        self, readings: Sequence[Reading], today: date, lines: Sequence[int] | None, without: Sequence[int] = (),
+        *, from_file: bool = False,
     ) -> Checked:
         """Every problem of a batch of readings, and the accepted ones as (index, reading, machine).
-        ``without``: reading ids left out of the comparison (the one being corrected)."""
+        ``without``: reading ids left out of the comparison (the one being corrected).
+        ``from_file``: kept originals (corrected or removed readings) count as present too."""
         pumps, models = self.pumps(), self.models()
         fits = self._all_fitments()
-        existing = self._current_reading_values(readings, without)
+        stored = self._stored_readings(readings, without, kept=from_file)
+        given = "file" if from_file else "given"
         problems: list[Problem] = []
+        notes: list[str] = []
         accepted: list[tuple[int, Reading, str]] = []
         present = 0
         seen: set[tuple] = set()
         check_model = check_reading_against_model
         for i, r in enumerate(readings):
+            line = _line(lines, i)
             pump = pumps.get(r.serial)
             if pump is None:
-                problems.append(Problem("serial", r.serial, "is not a known pump serial", line=_line(lines, i)))
+                problems.append(Problem("serial", r.serial, "is not a known pump serial", line=line))
+                continue
+            key = (r.serial, r.taken_on.isoformat(), r.machine_hours)
+            here = stored.get(key, ())
+            texts = (r.technician, r.note)
+            same = _same_record(here, _values(r), texts, r.machine)
+            if same is not None:  # recorded before: nothing to check, nothing to write
+                present += 1
+                note = self._present_note("readings", same, texts, line, given)
+                if note:
+                    notes.append(note)
+                continue
+            clash = next((s for s in here if s.kept is None), None)
+            if clash is not None:
+                differ = ", ".join(f"{name} stored {_shown(old)}, {given} {_shown(new)}"
+                                   for name, old, new in zip(_VALUE_FIELDS, clash.values, _values(r)) if old != new)
+                problems.append(Problem(
+                    "serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}",
+                    f"a reading with other values is already recorded (id {clash.id}: {differ or f'machine stored {clash.machine}, {given} {r.machine}'}); "
+                    f"correct it with `logbook correct {clash.id}` so the original is kept", line=line,
+                ))
                 continue
             row_problems: list[Problem] = []
             if r.taken_on > today:
@@ -145,26 +223,11 @@ class RecordsMixin:
                 row_problems.append(Problem("machine", r.machine, f"pump {r.serial} sat in {fit.machine} on {r.taken_on}"))
             row_problems += check_model(r, models[pump.model])
             row_problems += _text_problems(r.technician, r.note)
-            key = (r.serial, r.taken_on, r.machine_hours)
-            if not row_problems:
-                found = existing.get((r.serial, r.taken_on.isoformat(), r.machine_hours))
-                if key in seen:
-                    row_problems.append(Problem("serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}", "appears twice in this file"))
-                elif found is not None:
-                    if found[1] == _values(r):
-                        present += 1
-                        continue
-                    row_problems.append(
-                        Problem(
-                            "serial/date/machine_hours",
-                            f"{r.serial} {r.taken_on} {r.machine_hours:g}",
-                            f"a reading with other values is already recorded (id {found[0]}); "
-                            "correct it with `logbook correct` so the original is kept",
-                        )
-                    )
+            if not row_problems and key in seen:
+                row_problems.append(Problem("serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}", "appears twice in this file"))
             seen.add(key)
             if row_problems:
-                problems += _with_line(row_problems, _line(lines, i))
+                problems += _with_line(row_problems, line)
                 continue
             accepted.append((i, r, fit.machine))
         # Hour meters: check the accepted rows against each other and the database.
@@ -174,7 +237,7 @@ class RecordsMixin:
             problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
             if problem:
                 problems.append(_with_line([problem], _line(lines, i))[0])
-            return Checked(problems, accepted, present)
+            return Checked(problems, accepted, present, notes)
         timelines: dict[str, meter.MeterTimeline] = {}
         for _, r, machine in accepted:
             if machine not in timelines:
@@ -185,7 +248,7 @@ class RecordsMixin:
             if (earlier is not None and r.machine_hours < earlier[1] - 1e-9) or (later is not None and r.machine_hours > later[1] + 1e-9):
                 problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
                 problems.append(_with_line([problem], _line(lines, i))[0])
-        return Checked(problems, accepted, present)
+        return Checked(problems, accepted, present, notes)
 
     def _write_readings(self, accepted: Sequence[tuple[int, Reading, str]], source: tuple[str, str] | None) -> list[int]:
         """Insert checked readings (inside the caller's transaction); returns their ids."""
@@ -224,9 +287,8 @@ class RecordsMixin:
         if report.problems:
             raise InputRejected(report.problems)
         if report.already_present:
-            raise InputRejected(
-                [Problem("reading", f"{reading.serial} {reading.taken_on}", "is already recorded with the same values")]
-            )
+            raise InputRejected([Problem("reading", f"{reading.serial} {reading.taken_on}", "is already recorded with the same values"
+                                         + _text_hint(report.flagged, "change it with `logbook correct ID --technician/--note`"))])
         return self.reading(report.ids[0])
 
     # -- events --------------------------------------------------------------------
@@ -246,21 +308,36 @@ class RecordsMixin:
         def write(checked: Checked) -> None:
             ids.extend(self._write_events(checked.items, source))
 
-        checked, _ = self._check_then_write(lambda: self._check_events(events, today, lines), write, dry_run=dry_run)
+        checked, _ = self._check_then_write(lambda: self._check_events(events, today, lines, from_file=source is not None),
+                                            write, dry_run=dry_run)
         added = 0 if checked.problems else len(checked.items)
         return ImportReport("events", added=added, already_present=checked.present, problems=checked.problems,
-                            dry_run=dry_run, ids=ids)
+                            flagged=checked.notes, dry_run=dry_run, ids=ids)
 
-    def _check_events(self, events: Sequence[Event], today: date, lines: Sequence[int] | None) -> Checked:
-        """Every problem of a batch of events; the plan as (index, event, fitment before, closed, opened)."""
+    def _stored_events(self, *, kept: bool) -> dict[tuple, list[_Stored]]:
+        """(kind, date, serial, hours) -> the stored events with that key: the current ones and,
+        with ``kept``, removed ones too."""
+        found: dict[tuple, list[_Stored]] = defaultdict(list)
+        for e in self.events(include_removed=kept):
+            found[(e.kind, e.happened_on, e.serial, e.hours)].append(_Stored(
+                e.id, _destination(e), (e.technician, e.note), e.machine, "removed" if e.removed_reason is not None else None))
+        return found
+
+    def _check_events(self, events: Sequence[Event], today: date, lines: Sequence[int] | None, *,
+                      from_file: bool = False) -> Checked:
+        """Every problem of a batch of events; the plan as (index, event, fitment before, closed, opened).
+        ``from_file``: removed events count as present too."""
         pumps, machines = self.pumps(), self.machines()
         fits = self._all_fitments()
         reps = self._replacements()
-        existing = {(e.kind, e.happened_on, e.serial, e.machine, e.hours) for e in self.events()}
+        stored = self._stored_events(kept=from_file)
+        given = "file" if from_file else "given"
         order = sorted(range(len(events)), key=lambda i: (events[i].happened_on, i))
         problems: list[Problem] = []
+        notes: list[str] = []
         plan: list[tuple[int, Event, Fitment | None, Fitment | None, Fitment | None]] = []
         present = 0
+        seen: set[tuple] = set()
         timelines: dict[str, meter.MeterTimeline] = {}
 
         def timeline(machine: str) -> meter.MeterTimeline:
@@ -270,6 +347,26 @@ class RecordsMixin:
 
         for i in order:
             e, line = events[i], _line(lines, i)
+            # A meter replacement is known by its machine: without one it matches nothing (and is refused below).
+            here = stored.get((e.kind, e.happened_on, e.serial, e.hours), ()) if e.serial or e.machine else ()
+            texts = (e.technician, e.note)
+            same = _same_record(here, _destination(e), texts, e.machine)
+            if same is not None:  # recorded before: nothing to check, nothing to write
+                present += 1
+                note = self._present_note("events", same, texts, line, given)
+                if note:
+                    notes.append(note)
+                continue
+            clash = next((s for s in here if s.kept is None and e.machine in (None, s.machine)), None)
+            if clash is not None:
+                name, old, new = next((n, a, b) for n, a, b in zip(_DESTINATION, clash.values, _destination(e)) if a != b)
+                problems.append(Problem(
+                    name, new if new is not None else "",
+                    f"a {e.kind.value} with other values is already recorded (event {clash.id}: {name} stored {_shown(old)}); "
+                    f"to record it otherwise, remove that one with `logbook remove event {clash.id} --reason ...` first",
+                    line=line,
+                ))
+                continue
             errs: list[Problem] = []
             current = None
             if e.happened_on > today:
@@ -311,11 +408,10 @@ class RecordsMixin:
                             closed, opened = self._move_fitments(e, current, fits, reps)
             errs += _text_problems(e.technician, e.note)
             e = dataclasses.replace(e, machine=machine)
-            key = (e.kind, e.happened_on, e.serial, e.machine, e.hours)
-            if not errs and key in existing:
-                present += 1
-                continue
-            existing.add(key)
+            key = (e.kind, e.happened_on, e.serial, e.machine, e.hours, *_destination(e))
+            if not errs and key in seen:
+                errs.append(Problem("event", f"{e.kind.value} {e.happened_on}", "appears twice in this file"))
+            seen.add(key)
             if errs:
                 problems += _with_line(errs, line)
                 continue
@@ -329,7 +425,7 @@ class RecordsMixin:
                 reps[e.machine].append(e)
                 timeline(e.machine).add_replacement(e.happened_on)
             plan.append((i, e, current if closed is not None else None, closed, opened))
-        return Checked(problems, plan, present)
+        return Checked(problems, plan, present, notes)
 
     def _write_events(self, plan, source: tuple[str, str] | None) -> list[int]:
         """Insert checked events and the fitment changes of moves (inside the caller's transaction)."""
@@ -401,5 +497,6 @@ class RecordsMixin:
         if report.problems:
             raise InputRejected(report.problems)
         if report.already_present:
-            raise InputRejected([Problem("event", f"{event.kind.value} {event.happened_on}", "is already recorded")])
+            raise InputRejected([Problem("event", f"{event.kind.value} {event.happened_on}", "is already recorded"
+                                         + _text_hint(report.flagged, "events are not edited; remove it and enter it again"))])
         return next(e for e in self.events() if e.id == report.ids[0])

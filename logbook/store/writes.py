@@ -65,8 +65,49 @@ def _with_line(problems: list[Problem], line: int | None) -> list[Problem]:
     return problems
 
 
-def _same_model(a: PumpModel, b: PumpModel) -> bool:
-    return dataclasses.astuple(a) == dataclasses.astuple(b)
+#: Model fields as models.csv names them (the stored names without their unit).
+_MODEL_CSV_NAMES = {c: c.removesuffix("_cc").removesuffix("_bar").removesuffix("_rpm").removesuffix("_c")
+                    for c in MODEL_COLUMNS if c != "code"}
+#: Fields no command changes once a model is entered (they define the pump).
+_FIXED_MODEL_FIELDS = ("displacement", "rated_pressure", "max_speed")
+
+
+def _model_differences(old: PumpModel, new: PumpModel) -> list[tuple[str, object, object]]:
+    """(models.csv column, stored value, new value) for every field and limit that differs."""
+    diffs = [(name, getattr(old, c), getattr(new, c)) for c, name in _MODEL_CSV_NAMES.items() if getattr(old, c) != getattr(new, c)]
+    for kind in Kind:
+        a, b = old.limit(kind), new.limit(kind)
+        if (a and (a.value, a.direction)) != (b and (b.value, b.direction)):
+            diffs.append((f"{kind.value}_limit", a.value if a else None, b.value if b else None))
+    return diffs
+
+
+def _shown(value: object) -> str:
+    """A stored or given value in a message: numbers plain, text quoted, nothing as 'blank'."""
+    if value is None or value == "":
+        return "blank"
+    return f"{value:g}" if isinstance(value, float) else repr(value) if isinstance(value, str) else str(value)
+
+
+def _model_change_message(code: str, diffs: list[tuple[str, object, object]]) -> str:
+    """Which values differ and the audited way to change each (an import changes nothing)."""
+    names = [name for name, _, _ in diffs]
+    hows = []
+    limits = []  # with the canonical unit written out, whatever --units says
+    for name, _, new in diffs:
+        if name.endswith("_limit"):
+            kind = Kind(name.removesuffix("_limit"))
+            limits.append(f"--limit {kind.value}=" + ("none" if new is None else _shown(new) + kind.unit.replace("L/min", "lpm")))
+    if limits:
+        hows.append(f"change a limit with `logbook model {code} {' '.join(limits)}` (audited)")
+    editable = [n for n in names if not n.endswith("_limit") and n not in _FIXED_MODEL_FIELDS]
+    if editable:
+        hows.append(f"change {', '.join(editable)} in the fleet view: Models (key m), Enter on the model (audited)")
+    fixed = [n for n in names if n in _FIXED_MODEL_FIELDS]
+    if fixed:
+        hows.append(f"{', '.join(fixed)} cannot be changed once entered: give the other pump model its own code")
+    return ("already exists with other values (" + "; ".join(f"{n}: stored {_shown(a)}, file {_shown(b)}" for n, a, b in diffs)
+            + "); an import does not change a model: " + "; ".join(hows))
 
 
 @dataclasses.dataclass
@@ -76,6 +117,7 @@ class Checked:
     problems: list[Problem]
     items: list
     present: int = 0
+    notes: list[str] = dataclasses.field(default_factory=list)  # per line: present rows worth a word
 
 
 class WriteMixin:
@@ -171,13 +213,11 @@ class WriteMixin:
             seen.add(m.code)
             old = existing.get(m.code)
             if old is not None:
-                if _same_model(old, m):
+                diffs = _model_differences(old, m)
+                if not diffs:
                     present += 1
                 else:
-                    problems.append(
-                        Problem("model", m.code, "already exists with other values; change it with `logbook model set` "
-                                "so the change is audited", line=_line(lines, i))
-                    )
+                    problems.append(Problem("model", m.code, _model_change_message(m.code, diffs), line=_line(lines, i)))
                 continue
             problems += _with_line(self._check_model(m), _line(lines, i))
             new.append(m)

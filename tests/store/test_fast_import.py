@@ -1,15 +1,17 @@
 """The column-wise fast lane (Store.add_reading_columns) writes exactly what the
-row-by-row add_readings writes, or declines; it never accepts what add_readings rejects."""
+row-by-row add_readings writes, or declines; it never accepts what add_readings rejects,
+nor a row that add_readings finds already present (also one corrected or removed since)."""
 
 from __future__ import annotations
 
+import hashlib
 import sqlite3
-from datetime import date, timedelta
+from datetime import date, datetime, timedelta, timezone
 
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from logbook.imports import _readings_from_columns
+from logbook.imports import _readings_from_columns, import_bytes, read_columns
 from logbook.store import Store
 
 from .conftest import MACHINES, MODELS, PUMPS, READINGS, TODAY, load
@@ -18,7 +20,21 @@ from .conftest import MACHINES, MODELS, PUMPS, READINGS, TODAY, load
 PUMP_MACHINE = {"S-100": "M-1", "S-200": "M-2", "S-300": None, "S-999": None}
 LAST = {"S-100": (date(2025, 5, 1), 1500.0), "S-200": (date(2025, 3, 1), 5300.0), "S-300": (date(2025, 6, 1), 0.0),
         "S-999": (date(2025, 6, 1), 0.0)}
-ROW_COLUMNS = ("case_drain", "servo_pressure", "neutral_drift", "oil_temp", "test_pressure", "test_speed", "machine")
+ROW_COLUMNS = ("case_drain", "servo_pressure", "neutral_drift", "oil_temp", "test_pressure", "test_speed", "machine",
+               "technician")
+# Rows of READINGS whose stored reading is removed (S-100 in May) or corrected to another day
+# (S-200 in March) in the base database: a file repeating them must add nothing.
+REMOVED = {"serial": "S-100", "date": date(2025, 5, 1), "machine_hours": 1500.0, "case_drain": 3.6, "servo_pressure": 25.5,
+           "neutral_drift": 1.5, "oil_temp": 55.0, "test_pressure": 390.0, "test_speed": 2000.0, "technician": "Ana"}
+CORRECTED = {"serial": "S-200", "date": date(2025, 3, 1), "machine_hours": 5300.0, "case_drain": 4.0, "servo_pressure": 27.0,
+             "neutral_drift": -2.0, "oil_temp": 48.0, "test_pressure": 400.0, "test_speed": 2000.0, "technician": "Ben"}
+
+
+def _kept_originals(store: Store) -> None:
+    """Remove and correct two readings of the conftest fleet (see REMOVED and CORRECTED)."""
+    by_key = {(r.serial, r.taken_on): r.id for r in store.readings()}
+    store.remove_reading(by_key["S-100", date(2025, 5, 1)], reason="gauge not bled")
+    store.correct_reading(by_key["S-200", date(2025, 3, 1)], taken_on=date(2025, 2, 28), reason="wrong day", today=TODAY)
 
 
 @st.composite
@@ -50,7 +66,11 @@ def batches(draw):
     if draw(st.integers(0, 9)) == 0:
         rows.append({**dict.fromkeys(ROW_COLUMNS), "serial": "S-100", "date": date(2025, 2, 1), "machine_hours": 1100.0,
                      "case_drain": 3.1, "servo_pressure": 26.0, "neutral_drift": 1.0, "oil_temp": 50.0,
-                     "test_pressure": 400.0, "test_speed": 2000.0})  # already recorded
+                     "test_pressure": 400.0, "test_speed": 2000.0})  # already recorded (by another technician)
+    for kept in (REMOVED, CORRECTED):
+        if draw(st.integers(0, 5)) == 0:  # a kept original again, with its own technician or another
+            rows.insert(draw(st.integers(0, len(rows))),
+                        {**dict.fromkeys(ROW_COLUMNS), **kept, "technician": draw(st.sampled_from([kept["technician"], None]))})
     columns = {name: [r.get(name) for r in rows] for name in ("serial", "date", "machine_hours", *ROW_COLUMNS)}
     return columns, list(range(2, len(rows) + 2))
 
@@ -66,7 +86,8 @@ def test_fast_lane_writes_what_the_row_by_row_check_writes(tmp_path):
     base = Store(tmp_path / "base.db", user="tester")
     for table, data in (("models", MODELS), ("machines", MACHINES), ("pumps", PUMPS), ("readings", READINGS)):
         load(base, table, data)
-    stats = {"cases": 0, "fast": 0, "declined and rejected": 0, "declined but accepted": 0}
+    _kept_originals(base)
+    stats = {"cases": 0, "fast": 0, "declined and rejected": 0, "declined but accepted": 0, "kept original present": 0}
 
     def copy() -> Store:
         s = Store(":memory:", user="tester")
@@ -82,12 +103,13 @@ def test_fast_lane_writes_what_the_row_by_row_check_writes(tmp_path):
         report = fast.add_reading_columns(columns, lines=lines, today=TODAY, source=("f.csv", "0" * 64))
         reference = slow.add_readings(_readings_from_columns(columns, len(lines)), lines=lines, today=TODAY,
                                       source=("f.csv", "0" * 64))
+        stats["kept original present"] += any("not added again" in note for note in reference.flagged)
         if report is None:
             assert _content(fast) == _content(base)  # declining wrote nothing
             stats["declined and rejected" if reference.problems else "declined but accepted"] += 1
         else:
             stats["fast"] += 1
-            assert reference.problems == [] and reference.already_present == 0
+            assert reference.problems == [] and reference.already_present == 0 and reference.flagged == []
             assert report.added == reference.added == len(lines)
             assert _content(fast) == _content(slow)
             assert fast.check() == []
@@ -97,7 +119,37 @@ def test_fast_lane_writes_what_the_row_by_row_check_writes(tmp_path):
     check()
     print(f"fast-lane cases: {stats}")
     assert stats["fast"] >= 8 and stats["declined and rejected"] >= 8  # both sides exercised
+    assert stats["kept original present"] >= 3
     base.close()
+
+
+def test_both_lanes_leave_a_removed_or_corrected_reading_as_it_is(tmp_path):
+    """A clean file (the fast lane's kind) repeating kept originals next to a new reading:
+    the import and the row-by-row path give the same report and the same rows."""
+    header = "serial,date,machine_hours,case_drain,servo_pressure,neutral_drift,oil_temp,test_pressure,test_speed,technician"
+    cells = [header] + [",".join("" if r.get(c) is None else f"{r[c]:g}" if isinstance(r[c], float) else str(r[c])
+                                 for c in header.split(",")) for r in (REMOVED, CORRECTED)]
+    data = ("\n".join(cells) + "\nS-100,2025-08-01,1900,,25,,,,,Cy\n").encode()
+    stores = []
+    for name in ("import", "rows"):
+        s = Store(tmp_path / f"{name}.db", user="tester", clock=lambda: datetime(2026, 11, 20, 8, tzinfo=timezone.utc))
+        for table, part in (("models", MODELS), ("machines", MACHINES), ("pumps", PUMPS), ("readings", READINGS)):
+            load(s, table, part)
+        _kept_originals(s)
+        stores.append(s)
+    via_import = import_bytes(stores[0], "readings", data, name="f.csv", today=TODAY)
+    columns, lines = read_columns("readings", data, TODAY)  # a clean file: the fast lane is tried first
+    by_rows = stores[1].add_readings(_readings_from_columns(columns, len(lines)), lines=lines, today=TODAY,
+                                     source=("f.csv", hashlib.sha256(data).hexdigest()))
+    assert (via_import.added, via_import.already_present, via_import.problems) == (1, 2, [])
+    assert via_import.flagged == by_rows.flagged == [
+        "line 2: already present (removed on 2026-11-20) - not added again",
+        "line 3: already present (corrected on 2026-11-20) - not added again",
+    ]
+    assert (by_rows.added, by_rows.already_present, by_rows.problems) == (1, 2, [])
+    assert _content(stores[0]) == _content(stores[1])
+    for s in stores:
+        s.close()
 
 
 def test_fast_lane_declines_when_it_would_need_a_message(store):
