@@ -2,6 +2,8 @@
 
 Files are imported all-or-nothing. Column headers may carry a unit in brackets
 (``case_drain [gpm]``). Formats are documented in docs/csv-formats.md and the README.
+Rows already recorded (also corrected or removed since) are counted, never written
+again; what the store says about them comes back as the report's ``flagged`` lines.
 """
 
 from __future__ import annotations

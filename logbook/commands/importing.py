@@ -12,7 +12,8 @@ def register(sub) -> None:
         "import",
         help="import models, machines, pumps, events or readings from a CSV file (all rows or none)",
         description="Columns are documented in the README. A unit may follow a column name in brackets, "
-        "e.g. 'case_drain [gpm]'. Re-importing the same rows adds nothing.",
+        "e.g. 'case_drain [gpm]'. Re-importing the same rows adds nothing: a reading or event corrected or "
+        "removed since stays so, and a differing technician or note is reported line by line, not changed.",
     )
     p.add_argument("table", choices=TABLES)
     p.add_argument("file", type=Path)
