@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import os
+import re
 import sys
 from dataclasses import dataclass, field
 from datetime import date
@@ -65,8 +66,59 @@ class Context:
         return Store(self.db_path, create=create, user=self.user)
 
 
+def whole_number(text: str) -> int:
+    """argparse type of every integer option: ASCII digits 0-9 and an optional minus, as
+    ``validate.whole_number`` reads them (int() would take 4_2 and Unicode digits)."""
+    from logbook.validate import whole_number as parse
+
+    value = parse(text)
+    if value is None:
+        from logbook.model import echo
+
+        raise argparse.ArgumentTypeError(f"{echo(text)} is not a whole number: write it with the digits 0-9, e.g. 6")
+    return value
+
+
+def iso_day(text: str) -> date:
+    """argparse type of a date option: YYYY-MM-DD exactly (``validate.iso_date``)."""
+    from logbook.validate import iso_date
+
+    value = iso_date(text)
+    if value is None:
+        from logbook.model import echo
+
+        raise argparse.ArgumentTypeError(f"{echo(text)} is not a date written YYYY-MM-DD, e.g. 2026-03-14")
+    return value
+
+
+_LONG_RUN = re.compile(r"\S{70,}")
+
+
+class Parser(argparse.ArgumentParser):
+    """The program's argument parser, also for every command (``add_subparsers`` makes
+    its subparsers of the parser's own class):
+
+    - no abbreviated options: ``--servo-pressur`` is an error, not ``--servo-pressure``
+      (a typo would otherwise land in whichever option it happens to begin);
+    - ``type=int`` means ``whole_number`` (int() reads "4_2" as 42, and Unicode digits);
+    - a long value quoted in an error message is cut as ``model.echo`` cuts it."""
+
+    def __init__(self, *args, **kwargs):
+        kwargs["allow_abbrev"] = False
+        super().__init__(*args, **kwargs)
+        self.register("type", int, whole_number)  # argparse looks each type up here (groups share it)
+
+    def error(self, message: str):
+        from logbook.model import ECHO_LIMIT
+
+        def cut(m: re.Match) -> str:
+            return f"{m[0][:ECHO_LIMIT]}... ({len(m[0])} characters)"
+
+        super().error(_LONG_RUN.sub(cut, message))
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = Parser(
         prog="logbook",
         description="Maintenance logbook for servo-controlled axial piston pumps: readings, wear trends, overhaul plans. "
         "Run without a command to open the fleet view.",
@@ -97,13 +149,13 @@ def _add_global_options(parser: argparse.ArgumentParser, *, suppress: bool) -> N
                         help="record changes under this name (default: your login)")
     parser.add_argument("--units", choices=("metric", "us"), default=default(os.environ.get("LOGBOOK_UNITS", "metric")),
                         help="units to show and to read bare numbers in: metric (bar, L/min, C) or us (psi, gpm, F)")
-    parser.add_argument("--today", type=date.fromisoformat, default=default(None), help=argparse.SUPPRESS)
+    parser.add_argument("--today", type=iso_day, default=default(None), help=argparse.SUPPRESS)
 
 
 def _options_only(argv: list[str] | None) -> argparse.Namespace | None:
     """The global options when ``argv`` holds nothing else (no command: the fleet view),
     parsed without importing every command module; None when there is more to parse."""
-    quick = argparse.ArgumentParser(prog="logbook", add_help=False, exit_on_error=False)
+    quick = Parser(prog="logbook", add_help=False, exit_on_error=False)
     _add_global_options(quick, suppress=False)
     try:
         args, rest = quick.parse_known_args(argv)

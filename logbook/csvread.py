@@ -4,6 +4,14 @@
 for big, clean files: it parses column by column and declines (returns None) at
 the first thing out of the ordinary, so the row-by-row reader produces the
 messages. Both give the same values for a file both accept.
+
+Formula cells (OWASP "CSV Injection"): every CSV the program writes passes each cell
+through ``quote_formula``, which puts a single quote before a cell a spreadsheet would
+run as a formula (one starting with = + - @, a tab or a carriage return; plain numbers
+such as -2.5 are left alone). Reading a text column (technician, note, description)
+undoes exactly that: one leading quote before such a start is removed
+(``unquote_formula``), so a note written out and read back is the note as typed. Free
+text is otherwise stored verbatim, formula-looking or not.
 """
 
 from __future__ import annotations
@@ -20,7 +28,7 @@ from logbook import units, validate
 from logbook.model import Problem
 
 TABLES = ("models", "machines", "pumps", "events", "readings")
-MAX_TEXT = 500
+MAX_TEXT = validate.MAX_TEXT
 _HEADER_RE = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]*?)\s*\])?\s*$")
 
 
@@ -107,6 +115,10 @@ MEASURED = ("case_drain", "servo_pressure", "neutral_drift")
 #: each file is imported all-or-nothing).
 MAX_FILE_BYTES = 200 * 1024 * 1024
 _FORMULA_RE = re.compile(r"^\s*(=|[+\-@]\s*[A-Za-z(])")
+#: Cell starts a spreadsheet reads as a formula (OWASP "CSV Injection").
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+#: A negative number as the program writes one (-2.5): kept a number, not quoted.
+_PLAIN_NUMBER = re.compile(r"-[0-9]+(?:\.[0-9]+)?")
 #: Characters that make a file need the csv module: quotes, NUL, and line breaks that
 #: str.splitlines() would split on but csv.reader would not.
 _NOT_PLAIN = ('"', "\x00", "\v", "\f", "\x1c", "\x1d", "\x1e", "\x85", "\u2028", "\u2029")
@@ -114,24 +126,34 @@ _CACHE_LIMIT = 50_000  # distinct cell texts remembered per column
 _INF = float("inf")
 
 
-def _formula(name: str, value: str) -> Problem:
-    return Problem(name, value, "is a spreadsheet formula, not a value: save the sheet as CSV with values")
+def quote_formula(cell: str) -> str:
+    """The cell as every CSV writer of the program writes it: a single quote before a
+    cell that starts like a formula (``FORMULA_START``, also after quotes already there,
+    so ``unquote_formula`` gives back exactly the cell), except a plain negative number
+    such as -2.5 (digits and one point: no sign +, no exponent)."""
+    if cell.lstrip("'").startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(cell):
+        return "'" + cell
+    return cell
+
+
+def unquote_formula(cell: str) -> str:
+    """Inverse of ``quote_formula`` for a text cell read back: drops one leading quote
+    when a formula start follows it (after any further quotes)."""
+    if cell.startswith("'") and cell.lstrip("'").startswith(FORMULA_START):
+        return cell[1:]
+    return cell
 
 
 def parse_text(name: str, value: str) -> tuple[str, Problem | None]:
-    if len(value) > MAX_TEXT:
-        return "", Problem(name, value[:40] + "...", f"is longer than {MAX_TEXT} characters")
-    if any(ord(ch) < 32 and ch not in "\t" for ch in value):
-        return "", Problem(name, value, "contains control characters (line breaks are not allowed in one cell)")
-    if _FORMULA_RE.match(value):
-        return "", _formula(name, value)
-    return value, None
+    """A free-text cell, verbatim but for the quote ``quote_formula`` adds."""
+    text, problem = validate.parse_free_text(name, unquote_formula(value))
+    return ("", problem) if problem else (text, None)
 
 
 def parse_cell(name: str, col: Column, raw: str, unit: str | None, today: date):
     """One cell to its canonical value, or a Problem."""
-    if col.kind != "text" and _FORMULA_RE.match(raw) and not _is_number(raw):
-        return None, _formula(name, raw)
+    if col.kind != "text" and _FORMULA_RE.match(raw) and not _float_like(raw):
+        return None, Problem(name, raw, "is a spreadsheet formula, not a value: save the sheet as CSV with values")
     if col.kind == "number":
         return validate.parse_number(col.spec, raw, unit)
     if col.kind == "date":
@@ -147,7 +169,8 @@ def parse_cell(name: str, col: Column, raw: str, unit: str | None, today: date):
     return parse_text(name, raw)
 
 
-def _is_number(raw: str) -> bool:
+def _float_like(raw: str) -> bool:
+    """float() reads it ('-inf', '+nan'): not a formula, though not a number the checks take."""
     try:
         float(raw)
     except ValueError:
@@ -180,16 +203,16 @@ def cell_parser(
         plain = unit_id == spec.quantity.canonical
         integer = spec.integer
         to_canonical = units.to_canonical
+        is_number = units.is_number
 
         def parse_number(raw: str):
             try:
                 return cache[raw]
             except KeyError:
                 pass
-            try:
-                value = float(raw)
-            except ValueError:
+            if not is_number(raw):  # float() would take 4_2, Unicode digits, nan, spaces
                 return slow(raw)
+            value = float(raw)
             if value != value or value == _INF or value == -_INF or integer:
                 return slow(raw)
             canonical = value if plain else to_canonical(value, unit_id)
@@ -246,7 +269,7 @@ def _open(table: str, data: bytes):
             unit = units.resolve_unit(quantity, unit_text)
             if unit is None:
                 problems.append(
-                    Problem("header", cell, f"unit [{unit_text}] is not allowed for {name}; allowed: "
+                    Problem("header", cell, f"the unit in brackets is not allowed for {name}; allowed: "
                             f"{units.allowed_units(quantity) or 'no unit'}", line=1)
                 )
         if name in (f for f, _ in fields):

@@ -236,9 +236,26 @@ class Fleet:
         return out
 
 
+#: Characters of a value a message quotes; the rest is counted, not shown.
+ECHO_LIMIT = 60
+
+
+def echo(value: object) -> str:
+    """A value as a message quotes it: its repr, a long text cut to its first
+    ``ECHO_LIMIT`` characters and followed by how long it is (a 1 MB cell would
+    otherwise fill the screen)."""
+    if isinstance(value, str) and len(value) > ECHO_LIMIT:
+        return f"{value[:ECHO_LIMIT]!r}... ({len(value)} characters)"
+    text = repr(value)
+    if len(text) > ECHO_LIMIT + 2:
+        return f"{text[:ECHO_LIMIT]}... ({len(text)} characters)"
+    return text
+
+
 @dataclass
 class Problem:
-    """One thing wrong with an input: names the field, the value and what is allowed."""
+    """One thing wrong with an input: names the field, the value and what is allowed.
+    The value is kept whole; its message quotes it through ``echo``."""
 
     field: str
     value: object
@@ -249,7 +266,7 @@ class Problem:
     def __str__(self) -> str:
         where = f"line {self.line}: " if self.line is not None else ""
         unit = f" {self.unit}" if self.unit else ""
-        return f"{where}{self.field} = {self.value!r}{unit}: {self.allowed}"
+        return f"{where}{self.field} = {echo(self.value)}{unit}: {self.allowed}"
 
 
 class InputRejected(Exception):

@@ -10,6 +10,7 @@ module attributes computed on first access.
 from __future__ import annotations
 
 import functools
+import re
 from dataclasses import dataclass
 
 
@@ -91,6 +92,30 @@ def from_canonical(value: float, unit: str) -> float:
     if unit == "F":
         return float(_constants().convert_temperature(value, "Celsius", "Fahrenheit"))
     return value
+
+
+#: A number as people type it: ASCII digits 0-9, an optional sign, one decimal point,
+#: an optional exponent. Python's float() also takes "4_2" (42), Unicode digits
+#: ("٤٢", "４２"), "nan" and "infinity"; none of those is a reading.
+NUMBER = r"[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+_NUMBER_RE = re.compile(NUMBER)
+_VALUE_UNIT_RE = re.compile(rf"({NUMBER})\s*((?:[^\W\d_]|°).*)?")  # a unit starts with a letter or °
+#: The digits, sign, point and exponent a number is written with (for messages).
+NUMBER_FORM = "the digits 0-9, an optional sign and a decimal point (e.g. 4.2 or -1.5)"
+
+
+def is_number(text: str) -> bool:
+    """True when ``text`` (as given, no spaces around) is a number in the ``NUMBER`` form."""
+    return _NUMBER_RE.fullmatch(text) is not None
+
+
+def split_value_unit(text: str) -> tuple[str, str] | None:
+    """'4.2gpm' -> ('4.2', 'gpm'), ' 61 psi ' -> ('61', 'psi'), '24' -> ('24', ''); None when
+    the text does not start with a number in the ``NUMBER`` form ('4_2', '٤.٢', 'abc')."""
+    m = _VALUE_UNIT_RE.fullmatch(text.strip())
+    if m is None:
+        return None
+    return m.group(1), (m.group(2) or "").strip()
 
 
 def resolve_unit(quantity: Quantity, text: str | None) -> str | None:

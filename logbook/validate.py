@@ -80,7 +80,12 @@ HOURS_FIELDS: dict[str, FieldSpec] = {
 }
 
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")
-_ISO4406_RE = re.compile(r"^(\d{1,2}|-|\*)/(\d{1,2})/(\d{1,2})$")
+_ISO4406_RE = re.compile(r"^([0-9]{1,2}|-|\*)/([0-9]{1,2})/([0-9]{1,2})$")  # ASCII digits only
+#: YYYY-MM-DD and nothing else: date.fromisoformat (3.11) also takes 20260203 and 2026-W05-2.
+_DATE_RE = re.compile(r"[0-9]{4}-[0-9]{2}-[0-9]{2}")
+_WHOLE_RE = re.compile(r"[0-9]+")
+#: Longest free text (technician, note, reason), as in one CSV cell.
+MAX_TEXT = 500
 
 
 def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = None) -> tuple[float | None, Problem | None]:
@@ -89,6 +94,9 @@ def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = N
         return None, None
     unit_id = unit if unit is not None else spec.quantity.canonical
     shown_unit = unit_id
+    if isinstance(text, str) and not units.is_number(text.strip()):
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}, written with {units.NUMBER_FORM}",
+                             shown_unit)
     try:
         value = float(text.strip() if isinstance(text, str) else text)
     except (TypeError, ValueError):
@@ -113,15 +121,44 @@ def parse_date(field_name: str, text: str | date | None, today: date, required: 
             return None, Problem(field_name, text or "", "is required: a date as YYYY-MM-DD")
         return None, None
     else:
-        try:
-            value = date.fromisoformat(str(text).strip())
-        except ValueError:
-            return None, Problem(field_name, text, "must be a date as YYYY-MM-DD (ISO 8601)")
+        value = iso_date(str(text).strip())
+        if value is None:
+            return None, Problem(field_name, text, "must be a date as YYYY-MM-DD (ISO 8601), e.g. 2026-03-14")
     if value > today:
         return None, Problem(field_name, str(text), f"is in the future: dates up to today ({today.isoformat()}) are allowed")
     if value < EARLIEST_DATE:
         return None, Problem(field_name, str(text), f"must be on or after {EARLIEST_DATE.isoformat()}")
     return value, None
+
+
+def iso_date(text: str) -> date | None:
+    """The date written exactly YYYY-MM-DD (ASCII digits), else None."""
+    if _DATE_RE.fullmatch(text) is None:
+        return None
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        return None
+
+
+def whole_number(text: str) -> int | None:
+    """A whole number of ASCII digits 0-9 with an optional minus sign ('42', '-1'), else
+    None: int() would also take '4_2', ' 42 ' and Unicode digits."""
+    digits = text.removeprefix("-")
+    if _WHOLE_RE.fullmatch(digits) is None:
+        return None
+    return int(text)
+
+
+def parse_free_text(field_name: str, text: str) -> tuple[str | None, Problem | None]:
+    """Free text (technician, note, reason) is kept exactly as typed: one line of at most
+    ``MAX_TEXT`` characters; a tab is allowed, other control characters are not."""
+    if len(text) > MAX_TEXT:
+        return None, Problem(field_name, text, f"is longer than {MAX_TEXT} characters: one line of at most {MAX_TEXT}")
+    if any(ord(ch) < 32 and ch != "\t" for ch in text):
+        return None, Problem(field_name, text, "contains control characters (line breaks are not allowed): "
+                             f"one line of at most {MAX_TEXT} characters")
+    return text, None
 
 
 def parse_name(field_name: str, text: str | None, required: bool = True) -> tuple[str | None, Problem | None]:
@@ -142,10 +179,7 @@ def parse_oil_grade(text: str | int | None) -> tuple[int | None, Problem | None]
     if text is None or str(text).strip() == "":
         return None, None
     raw = str(text).strip().upper().removeprefix("ISO").strip().removeprefix("VG").strip()
-    try:
-        grade = int(raw)
-    except ValueError:
-        grade = -1
+    grade = whole_number(raw)
     if grade not in ISO_VG_GRADES:
         return None, Problem("oil_grade", text, "must be an ISO VG grade: " + ", ".join(str(g) for g in ISO_VG_GRADES))
     return grade, None

@@ -79,10 +79,11 @@ def changes_from_args(args, ctx) -> dict:
     for field in ("technician", "note"):
         text = getattr(args, field)
         if text is not None:
-            if len(text) > 500 or any(ord(ch) < 32 and ch != "\t" for ch in text):
-                problems.append(Problem(field, text[:40], "must be one line of at most 500 characters"))
+            value, problem = validate.parse_free_text(field, text)
+            if problem:
+                problems.append(problem)
             else:
-                changes[field] = text
+                changes[field] = value
     if problems:
         raise InputRejected(problems)
     if not changes:

@@ -14,6 +14,7 @@ import tempfile
 from pathlib import Path
 
 from logbook.model import InputRejected, Problem
+from logbook.validate import whole_number
 
 SUFFIX_FORMATS = {".csv": "csv", ".md": "md", ".html": "html", ".htm": "html", ".json": "json"}
 
@@ -47,13 +48,14 @@ def _pairs(values: list[str], option: str, known: set[str] | None, what: str) ->
     for text in values:
         name, sep, number = text.partition("=")
         name = name.strip()
-        if not sep or not name or not number.strip().isdigit():
+        count = whole_number(number.strip())
+        if not sep or not name or count is None or count < 0:
             problems.append(Problem(option, text, f"NAME=N with N a whole number of 0 or more, e.g. {option} X=2"))
         elif known is not None and name not in known:
             allowed = ", ".join(sorted(known)) or "none recorded"
             problems.append(Problem(option, text, f"{what} must be one of: {allowed}"))
         else:
-            out[name] = int(number)
+            out[name] = count
     return out, problems
 
 
@@ -80,6 +82,21 @@ def _check_args(args) -> list[Problem]:
         if not parent.is_dir():
             problems.append(Problem("--out", args.out, "a file in an existing folder, or - for stdout"))
     return problems
+
+
+#: Months a plan may start before and after this month: a later start is beyond any
+#: forecast's reach, an earlier one plans for the past (a typo such as 1969-01 or 2062-04).
+MONTHS_BACK, MONTHS_AHEAD = 24, 120
+
+
+def _month_in_range(start, this_month, text: str) -> list[Problem]:
+    from logbook.plan import add_months, month_label
+
+    first, last = add_months(this_month, -MONTHS_BACK), add_months(this_month, MONTHS_AHEAD)
+    if first <= start <= last:
+        return []
+    return [Problem("--month", text, f"a month from {month_label(first)} to {month_label(last)} "
+                    f"({MONTHS_BACK // 12} years before to {MONTHS_AHEAD // 12} years after this month)")]
 
 
 def _write(data: bytes, out: str) -> None:
@@ -132,11 +149,15 @@ def run(args, ctx) -> int:
     fmt = _format(args)
     problems = _check_args(args)
     start = month_start(ctx.today)
-    if args.month is not None:
+    if args.month is not None and not args.month.isascii():  # parse_month's isdigit() takes Unicode digits
+        problems.append(Problem("--month", args.month, "a month written YYYY-MM with the digits 0-9, e.g. 2026-04"))
+    elif args.month is not None:
         try:
             start = parse_month(args.month, "--month")
         except InputRejected as exc:
             problems += exc.problems
+        else:
+            problems += _month_in_range(start, month_start(ctx.today), args.month)
     if problems:
         return _bad(ctx, problems)
 

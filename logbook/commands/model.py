@@ -21,6 +21,10 @@ def register(sub) -> None:
 
 def run(args, ctx) -> int:
     with ctx.open_store() as store:
+        if args.code is not None and args.code not in (known := store.models()):
+            ctx.err.print(f"logbook model: {Problem('model', args.code, 'no such model; models: ' + ', '.join(sorted(known)))}",
+                          markup=False, soft_wrap=True)
+            return 2
         if args.limit:
             if args.code is None:
                 raise InputRejected([Problem("model", "", "name the model whose limit to change")])

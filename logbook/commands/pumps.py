@@ -5,6 +5,7 @@ from __future__ import annotations
 from rich.table import Table
 
 from logbook import fmt
+from logbook.model import Problem
 
 
 def register(sub) -> None:
@@ -47,12 +48,33 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
     return table
 
 
+def filter_problems(fleet, *, site=None, model=None, status=None) -> list[Problem]:
+    """A filter that can match no pump in any fleet state is a typo: name it and list what
+    there is (sites of the recorded machines, the recorded models, the status words)."""
+    from logbook.analysis.status import STATUS_ORDER
+
+    problems = []
+    sites = sorted({m.site for m in fleet.machines.values()})
+    if site is not None and site not in sites:
+        problems.append(Problem("--site", site, "no such site; sites: " + (", ".join(sites) or "none recorded")))
+    if model is not None and model not in fleet.models:
+        problems.append(Problem("--model", model, "no such model; models: " + (", ".join(sorted(fleet.models)) or "none recorded")))
+    if status is not None and not any(status.lower() in word.lower() for word in STATUS_ORDER):
+        problems.append(Problem("--status", status, "no status contains this text; statuses: " + ", ".join(STATUS_ORDER)))
+    return problems
+
+
 def run(args, ctx) -> int:
     from logbook.analysis.fleet import forecast_fleet
     from logbook.rounds import next_tests
 
     with ctx.open_store() as store:
         fleet = store.fleet()
+    problems = filter_problems(fleet, site=args.site, model=args.model, status=args.status)
+    if problems:
+        for problem in problems:
+            ctx.err.print(f"logbook pumps: {problem}", markup=False, soft_wrap=True)
+        return 2
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = next_tests(fleet, forecast, ctx.today)
     ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status, limit=args.limit,

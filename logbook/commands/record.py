@@ -2,13 +2,9 @@
 
 from __future__ import annotations
 
-import re
-
 from logbook import fmt, units, validate
 from logbook.cautions import CAUTIONS
 from logbook.model import InputRejected, Kind, Problem, Reading
-
-_VALUE_RE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s].*)?$")
 
 # option -> (field spec name, quantity default unit attribute of UnitPrefs)
 NUMERIC_OPTIONS = {
@@ -40,14 +36,14 @@ def parse_with_unit(name: str, text: str | None, prefs: units.UnitPrefs) -> tupl
     if text is None:
         return None, None
     spec = validate.READING_FIELDS[name]
-    m = _VALUE_RE.match(text)
-    if not m:
-        return None, Problem(name, text, f"must be {spec.describe_range(default_unit(spec, prefs))}, optionally with a unit "
-                             f"({units.allowed_units(spec.quantity) or 'none'})")
-    number, unit_text = m.group(1), m.group(2)
+    split = units.split_value_unit(text)
+    if split is None:
+        return None, Problem(name, text, f"must be {spec.describe_range(default_unit(spec, prefs))}, written with "
+                             f"{units.NUMBER_FORM}, optionally with a unit ({units.allowed_units(spec.quantity) or 'none'})")
+    number, unit_text = split
     unit = units.resolve_unit(spec.quantity, unit_text) if unit_text else default_unit(spec, prefs)
     if unit is None:
-        return None, Problem(name, text, f"unit {unit_text!r} is not allowed; allowed: {units.allowed_units(spec.quantity) or 'no unit'}")
+        return None, Problem(name, text, f"the unit is not allowed; allowed: {units.allowed_units(spec.quantity) or 'no unit'}")
     return validate.parse_number(spec, number, unit)
 
 

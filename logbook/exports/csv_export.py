@@ -5,30 +5,22 @@ ISO dates; a period as the decimal mark; CRLF line ends (RFC 4180). Provenance a
 cautions come first as rows whose first cell starts with "#" (skip them with
 ``comment="#"`` in most CSV readers).
 
-Formula injection (OWASP "CSV Injection"): a text cell that starts with = + - @,
-a tab or a carriage return gets a leading single quote so a spreadsheet shows it
-as text. Numbers this module formats itself (e.g. "-3.20") are left alone.
+Formula injection (OWASP "CSV Injection"): every cell goes through
+``csvread.quote_formula``, the one guard all CSV writers share: a cell that starts
+with = + - @, a tab or a carriage return gets a leading single quote so a
+spreadsheet shows it as text. Plain numbers (e.g. "-3.20") are left alone.
 """
 
 from __future__ import annotations
 
 import csv
 import io
-import re
 
+from logbook.csvread import quote_formula
 from logbook.exports import PROBABILITY_NOTE
 from logbook.exports.common import PLAN_COLUMNS, plan_rows
 
 BOM = "\ufeff"
-_DANGEROUS_START = ("=", "+", "-", "@", "\t", "\r")
-_PLAIN_NUMBER = re.compile(r"^-?\d+(\.\d+)?$")
-
-
-def neutralise(cell: str) -> str:
-    """Prefix a single quote to a cell a spreadsheet could read as a formula."""
-    if cell.startswith(_DANGEROUS_START) and not _PLAIN_NUMBER.match(cell):
-        return "'" + cell
-    return cell
 
 
 def render_csv(report) -> bytes:
@@ -46,8 +38,8 @@ def render_csv(report) -> bytes:
     meta += [("# note", PROBABILITY_NOTE)]
     meta += [("# note", text) for text in report.notes]
     for key, value in meta:
-        writer.writerow([key, neutralise(value)])
-    writer.writerow([header for _, header in PLAN_COLUMNS])
+        writer.writerow([quote_formula(key), quote_formula(value)])
+    writer.writerow([quote_formula(header) for _, header in PLAN_COLUMNS])
     for row in plan_rows(report):
-        writer.writerow([neutralise(row[key]) for key, _ in PLAN_COLUMNS])
+        writer.writerow([quote_formula(row[key]) for key, _ in PLAN_COLUMNS])
     return (BOM + buffer.getvalue()).encode("utf-8")

@@ -18,6 +18,7 @@ from html import escape
 from logbook import fmt, units
 from logbook.analysis.results import FleetForecast
 from logbook.cautions import CAUTIONS, CAUTIONS_TITLE
+from logbook.csvread import quote_formula
 from logbook.imports import COLUMNS
 from logbook.model import ALL_KINDS, Fleet, Kind, PumpModel, Reading
 from logbook.rounds import NextTest
@@ -26,8 +27,6 @@ from logbook.units import UnitPrefs
 FORMATS = ("md", "html", "csv")
 #: The readings-import columns, in the importer's order.
 CSV_COLUMNS: tuple[str, ...] = tuple(COLUMNS["readings"])
-#: Cells a spreadsheet could read as a formula when they start with one of these.
-FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 @dataclass(frozen=True)
@@ -101,27 +100,19 @@ def _number(value: float, digits: int = 1) -> str:
     return text.rstrip("0").rstrip(".") if "." in text else text
 
 
-def csv_cell(text: str) -> str:
-    """A prefilled cell. Formula-looking text is refused, not altered: changing it would change
-    what gets imported. Names cannot start that way (validate.parse_name), numbers are positive."""
-    if text.startswith(FORMULA_START):
-        raise ValueError(f"cell {text!r}: starts like a spreadsheet formula; refusing to write it")
-    return text
-
-
 def render_csv(sheet: RoundSheet) -> str:
     prefs = sheet.units
     header = [f"{name} [{_unit_of(name, prefs)}]" if _unit_of(name, prefs) else name for name in CSV_COLUMNS]
     buf = io.StringIO(newline="")
     writer = csv.writer(buf, lineterminator="\r\n")
-    writer.writerow(header)
+    writer.writerow([quote_formula(cell) for cell in header])
     for stop in sheet.stops:
         row = dict.fromkeys(CSV_COLUMNS, "")
         row["serial"] = stop.test.serial
         row["machine"] = stop.test.machine
         row["test_pressure"] = _number(units.from_canonical(stop.model.ref_pressure_bar, _unit_of("test_pressure", prefs) or "bar"))
         row["test_speed"] = _number(stop.model.test_speed_rpm, 0)
-        writer.writerow([csv_cell(row[name]) for name in CSV_COLUMNS])
+        writer.writerow([quote_formula(row[name]) for name in CSV_COLUMNS])  # read back by csvread
     return buf.getvalue()
 
 

@@ -18,7 +18,7 @@ from logbook.analysis.life import life_figures
 from logbook.cautions import CAUTIONS
 from logbook.exports import FORMATS, Provenance, Report, render
 from logbook.exports.common import PLAN_COLUMNS
-from logbook.exports.csv_export import neutralise
+from logbook.csvread import quote_formula
 from logbook.model import ALL_KINDS, Kind, PumpModel
 from logbook.plan import PlanSettings, make_plan
 
@@ -125,9 +125,9 @@ def test_csv_formula_injection_guard(outputs):
     assert "'" + NASTY in cells and NASTY not in cells
     assert "'-South|x" in cells and "'@West" in cells
     assert not [c for c in cells if c[:1] in ("=", "+", "-", "@", "\t", "\r")]
-    for bad in ("=1+1", "+1", "-2+3", "@SUM(A1)", "\tx", "\rx"):
-        assert neutralise(bad) == "'" + bad
-    assert neutralise("-3.20") == "-3.20" and neutralise("North") == "North"
+    for bad in ("=1+1", "+1+cmd|' /C calc'!A0", "-2+3", "@SUM(A1)", "\tx", "\rx", "- seals checked"):
+        assert quote_formula(bad) == "'" + bad
+    assert quote_formula("-3.20") == "-3.20" and quote_formula("North") == "North"
 
 
 def test_json_parses_back_with_every_pump_and_kind(report, outputs):

@@ -18,6 +18,7 @@ import pytest
 from logbook import rounds
 from logbook.analysis.results import FLAG_JUMP
 from logbook.cautions import CAUTIONS
+from logbook.csvread import quote_formula, unquote_formula
 from logbook.exports import round_sheet
 from logbook.imports import COLUMNS, read_table
 from logbook.model import Event, EventKind, Fitment, Fleet, Kind, Limit, Machine, Pump, PumpModel, Reading
@@ -199,10 +200,63 @@ def test_us_units_go_into_the_headers_and_convert_back():
     assert parsed[0]["servo_pressure"] == pytest.approx(380 / 14.503774, rel=1e-5)
 
 
-def test_a_formula_looking_cell_is_refused_not_altered():
-    assert round_sheet.csv_cell("M-1") == "M-1"
-    with pytest.raises(ValueError, match="formula"):
-        round_sheet.csv_cell("=HYPERLINK(1)")
+FORMULA_NOTES = [
+    '=HYPERLINK("http://example.invalid","x")',  # OWASP "CSV Injection" examples
+    "-2+3+cmd|' /C calc'!A0",
+    "+1",
+    "@SUM(A1:A9)",
+    "\tindented",
+    "- seals checked",
+    "'=already quoted",
+    "''- twice quoted",
+    "-2.5",  # a plain number stays a number
+    "it's fine",
+    "'",
+]
+
+
+def test_csv_sheet_round_trip_keeps_formula_leading_notes_as_typed():
+    """A filled sheet whose notes and technicians start like formulas, written as every CSV
+    writer of the program writes (quote_formula), imports back to exactly the typed text."""
+    fleet = _fleet(replace(MODEL, reading_interval_days=30))
+    today = date(2026, 3, 20)
+    tests = rounds.plan_round(fleet, None, today, within_days=30)
+    sheet = round_sheet.build_sheet(fleet, None, tests, site="North Yard", made_on=today, test_by=today)
+    rows = list(csv.reader(io.StringIO(round_sheet.render_csv(sheet), newline="")))
+    header = rows[0] if rows[0][:1] == ["serial"] else next(r for r in rows if r[:1] == ["serial"])
+    col = {name: header.index(name) for name in ("serial", "date", "machine_hours", "servo_pressure", "technician", "note")}
+    template = next(r for r in rows if r[:1] == ["P-1"])
+    filled = [header]
+    for i, note in enumerate(FORMULA_NOTES):
+        row = list(template)
+        row[col["date"]], row[col["machine_hours"]], row[col["servo_pressure"]] = "2026-03-20", str(1600 + i), "24"
+        row[col["note"]], row[col["technician"]] = quote_formula(note), quote_formula("-" + note[:5])
+        filled.append(row)
+    out = io.StringIO(newline="")
+    csv.writer(out, lineterminator="\r\n").writerows(filled)
+    written = [c for r in csv.reader(io.StringIO(out.getvalue(), newline="")) for c in r]
+    assert not [c for c in written if c[:1] in ("=", "+", "@", "\t") or (c[:1] == "-" and c != "-2.5")]
+    parsed, _, problems, blank = read_table("readings", out.getvalue().encode(), today)
+    assert (problems, blank) == ([], 0)
+    assert [r["note"] for r in parsed] == FORMULA_NOTES
+    assert [r["technician"] for r in parsed] == ["-" + n[:5] for n in FORMULA_NOTES]
+
+
+def test_formula_leading_text_is_imported_verbatim_when_not_quoted():
+    """A sheet saved by a spreadsheet (no quote added) keeps its text as typed: the importer
+    refuses no free text for how it starts."""
+    text = "serial,date,machine_hours,servo_pressure,note\r\n" + "".join(
+        f"P-1,2026-03-20,{1600 + i},24,{n}\r\n" for i, n in enumerate(["- seals checked", "=1+1", "@x", "+3 bar"]))
+    parsed, _, problems, _ = read_table("readings", text.encode(), date(2026, 3, 20))
+    assert problems == []
+    assert [r["note"] for r in parsed] == ["- seals checked", "=1+1", "@x", "+3 bar"]
+
+
+@pytest.mark.parametrize("cell", FORMULA_NOTES + ["", "North", "M-1", "18/16/13", "''", "'x", "'-", "-", "=", "\r"])
+def test_quote_formula_and_unquote_formula_are_inverse(cell):
+    written = quote_formula(cell)
+    assert unquote_formula(written) == cell
+    assert written[:1] not in ("=", "+", "@", "\t", "\r") and (written[:1] != "-" or written == "-2.5")
 
 
 @pytest.mark.parametrize("fmt", ["md", "html"])
