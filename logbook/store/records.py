@@ -92,16 +92,21 @@ class RecordsMixin:
     that record was corrected or removed since, so a re-import never undoes either.
     Technician and note are free text: a difference is reported, the stored text stays."""
 
-    def _present_note(self, table: str, s: _Stored, texts: tuple[str, str], line: int | None, given: str) -> str | None:
-        """What to tell about a row found already present (None: nothing to tell)."""
+    def _repeats(self, table: str, stored: Sequence[_Stored], values: tuple, texts: tuple[str, str], machine: str | None,
+                 line: int | None, given: str, notes: list[str]) -> bool:
+        """Whether a new row repeats a stored record (then it is already present); adds to ``notes``
+        what to tell about it: a kept original, a technician or note that differs."""
+        s = _same_record(stored, values, texts, machine)
+        if s is None:
+            return False
         diffs = [f"{name} differs: stored {old!r}, {given} {new!r}"
                  for name, old, new in zip(("technician", "note"), s.texts, texts) if old != new]
-        if s.kept is None and not diffs:
-            return None
-        text = "already present" + (f" ({self._kept_since(table, s.id, s.kept)})" if s.kept else "")
-        text += "".join(f"; {d}" for d in diffs)
-        text += " - " + ", ".join(what for what, why in (("not added again", s.kept), ("not changed", diffs)) if why)
-        return _where(line, text)
+        if s.kept is not None or diffs:
+            text = "already present" + (f" ({self._kept_since(table, s.id, s.kept)})" if s.kept else "")
+            text += "".join(f"; {d}" for d in diffs)
+            text += " - " + ", ".join(what for what, why in (("not added again", s.kept), ("not changed", diffs)) if why)
+            notes.append(_where(line, text))
+        return True
 
     def _all_fitments(self) -> dict[str, list[Fitment]]:
         by_serial: dict[str, list[Fitment]] = defaultdict(list)
@@ -190,13 +195,8 @@ class RecordsMixin:
                 continue
             key = (r.serial, r.taken_on.isoformat(), r.machine_hours)
             here = stored.get(key, ())
-            texts = (r.technician, r.note)
-            same = _same_record(here, _values(r), texts, r.machine)
-            if same is not None:  # recorded before: nothing to check, nothing to write
-                present += 1
-                note = self._present_note("readings", same, texts, line, given)
-                if note:
-                    notes.append(note)
+            if self._repeats("readings", here, _values(r), (r.technician, r.note), r.machine, line, given, notes):
+                present += 1  # recorded before: nothing to check, nothing to write
                 continue
             clash = next((s for s in here if s.kept is None), None)
             if clash is not None:
@@ -204,7 +204,8 @@ class RecordsMixin:
                                    for name, old, new in zip(_VALUE_FIELDS, clash.values, _values(r)) if old != new)
                 problems.append(Problem(
                     "serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}",
-                    f"a reading with other values is already recorded (id {clash.id}: {differ or f'machine stored {clash.machine}, {given} {r.machine}'}); "
+                    f"a reading with other values is already recorded (id {clash.id}: "
+                    f"{differ or f'machine stored {clash.machine}, {given} {r.machine}'}); "
                     f"correct it with `logbook correct {clash.id}` so the original is kept", line=line,
                 ))
                 continue
@@ -349,13 +350,8 @@ class RecordsMixin:
             e, line = events[i], _line(lines, i)
             # A meter replacement is known by its machine: without one it matches nothing (and is refused below).
             here = stored.get((e.kind, e.happened_on, e.serial, e.hours), ()) if e.serial or e.machine else ()
-            texts = (e.technician, e.note)
-            same = _same_record(here, _destination(e), texts, e.machine)
-            if same is not None:  # recorded before: nothing to check, nothing to write
-                present += 1
-                note = self._present_note("events", same, texts, line, given)
-                if note:
-                    notes.append(note)
+            if self._repeats("events", here, _destination(e), (e.technician, e.note), e.machine, line, given, notes):
+                present += 1  # recorded before: nothing to check, nothing to write
                 continue
             clash = next((s for s in here if s.kept is None and e.machine in (None, s.machine)), None)
             if clash is not None:
