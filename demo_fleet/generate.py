@@ -6,7 +6,6 @@ Dates count back from ``today`` so that the demo always looks current; the same
 
 from __future__ import annotations
 
-import argparse
 import csv
 import io
 import tempfile
@@ -144,10 +143,12 @@ def build(today: date, seed: int = 7) -> DemoData:
 
 
 def csv_text(table: str, rows: list[dict]) -> str:
+    from logbook.csvread import quote_formula  # the guard every CSV writer of the program uses
+
     buffer = io.StringIO()
     writer = csv.DictWriter(buffer, fieldnames=COLUMNS[table], lineterminator="\n")
     writer.writeheader()
-    writer.writerows(rows)
+    writer.writerows({k: quote_formula(v) if isinstance(v, str) else v for k, v in row.items()} for row in rows)
     return buffer.getvalue()
 
 
@@ -180,9 +181,11 @@ def load(store, today: date, seed: int = 7, workdir: Path | None = None) -> dict
 
 def main(argv: list[str] | None = None) -> int:
     """``python -m demo_fleet OUTDIR [--today YYYY-MM-DD] [--seed N]``"""
-    parser = argparse.ArgumentParser(prog="python -m demo_fleet", description=f"Write the {sc.COMPANY} demo CSV files.")
+    from logbook.cli import Parser, iso_day  # no abbreviated options, strict numbers and dates
+
+    parser = Parser(prog="python -m demo_fleet", description=f"Write the {sc.COMPANY} demo CSV files.")
     parser.add_argument("outdir", type=Path)
-    parser.add_argument("--today", type=date.fromisoformat, default=date.today(), help="YYYY-MM-DD (default: today)")
+    parser.add_argument("--today", type=iso_day, default=date.today(), help="YYYY-MM-DD (default: today)")
     parser.add_argument("--seed", type=int, default=7)
     args = parser.parse_args(argv)
     paths = write_csvs(args.outdir, args.today, args.seed)
