@@ -3,6 +3,7 @@
     python tests/bench/bench_calibration.py            # 5 seeds x 240 pumps, 4 % and 10 % noise
     python tests/bench/bench_calibration.py --quick    # 2 seeds x 120 pumps
     python tests/bench/bench_calibration.py --with-noise   # the engine's prediction band (forecast_fleet(with_noise=True))
+    python tests/bench/bench_calibration.py --no-pool      # each pump on its own (FitOptions(pool=False))
 
 Fleets come from ``truth_fleet`` (written apart from the engine). Each is forecast as of
 its cut date with only the readings before it, by ``logbook.analysis.fleet.forecast_fleet``
@@ -67,8 +68,8 @@ class Preds:
 # --- the engine ---
 
 
-def engine_preds(tf: TruthFleet, with_noise: bool = False) -> Preds:
-    fc = forecast_fleet(tf.fleet, tf.cut, with_noise=with_noise)
+def engine_preds(tf: TruthFleet, with_noise: bool = False, options=None) -> Preds:
+    fc = forecast_fleet(tf.fleet, tf.cut, with_noise=with_noise, options=options)
     by_key, rate = {}, {}
     for pf in fc.pumps:
         rate[pf.serial] = pf.hours_per_day
@@ -240,7 +241,7 @@ def print_table(title: str, truth, cuts: np.ndarray, preds: dict[str, Preds], sc
     print(f"\n{title}")
     head = f"{'group':<18}{'rows':>5}"
     for name in preds:
-        head += f" | {name + ': declined/over':<22}{'cover':>6}{'<P10':>7}{'>P90':>7}{'|P50|':>7} "
+        head += f" | {name + ': decl/over':<26}{'cover':>6}{'<P10':>7}{'>P90':>7}{'|P50|':>7} "
     print(head)
     print("-" * len(head))
     for label, mask, judged in groups(truth):
@@ -255,7 +256,7 @@ def print_table(title: str, truth, cuts: np.ndarray, preds: dict[str, Preds], sc
             s = score(q, truth_v[mask], ref[mask])
             if label == "path stable":  # never crosses: only "after P90" (a false alarm) can happen
                 s = dict(s, p50=np.nan)
-            line += f" | {f'{declined}/{over}':<22}" + _cells(s, p50_target and judged, judged)
+            line += f" | {f'{declined}/{over}':<26}" + _cells(s, p50_target and judged, judged)
         print(line)
 
 
@@ -266,6 +267,18 @@ def diagnostics(truth, eng: Preds, tfs: list[TruthFleet]) -> None:
         rows = [i for i, t in enumerate(truth) if t.path == p and eng.why[i] == ""]
         c = Counter(eng.path[i] for i in rows)
         print(f"  {p:<12} n={len(rows):>4}  " + "  ".join(f"{k} {100 * v / max(len(rows), 1):4.1f} %" for k, v in sorted(c.items())))
+    print("engine in hours by true path and readings class: cover / before P10 / after P90 / median |P50| (%, rows)")
+    cls = np.array([t.readings_class for t in truth])
+    hv = np.array([t.cross_hours for t in truth])
+    xc = np.array([t.x_cut for t in truth])
+    for p in PATHS[:-1]:
+        cells = []
+        for c in ("2-4", "5-7", "8+"):
+            m = (path == p) & (cls == c)
+            s = score(eng.hours[m], hv[m], xc[m])
+            cells.append(f"{c}: {s['cover']:3.0f}/{s['before']:3.0f}/{s['after']:3.0f}/{s['p50']:4.0f} ({s['n']:>3})"
+                         if s.get("n") else f"{c}: -")
+        print(f"  {p:<14} " + "   ".join(cells))
     print("steps (case drain, 6+ readings): flagged 'step_detected'")
     for st in ("plus40", "sigma8"):
         rows = [i for i, t in enumerate(truth) if t.step == st]
@@ -274,7 +287,7 @@ def diagnostics(truth, eng: Preds, tfs: list[TruthFleet]) -> None:
     clean = [i for i, t in enumerate(truth) if t.step is None and t.n_readings >= 6 and t.outlier is None]
     false = sum("step_detected" in eng.flags[i] for i in clean)
     print(f"  false flags on series without a step: {false}/{len(clean)} = {100 * false / max(len(clean), 1):.1f} %")
-    print("newest reading typed in the wrong unit: engine outcome (flags)")
+    print("newest reading typed in the wrong unit (all kinds): engine outcome (flags)")
     rows = [i for i, t in enumerate(truth) if t.outlier == "newest"]
     c = Counter((eng.why[i] or "forecast") + (" +jump" if "last_reading_jumped" in eng.flags[i] else "") for i in rows)
     print("  " + ", ".join(f"{k}: {v}" for k, v in sorted(c.items())) + f"  (of {len(rows)})")
@@ -298,7 +311,13 @@ def main(argv=None) -> int:
     ap.add_argument("--pumps", type=int, default=None)
     ap.add_argument("--noise", type=float, nargs="*", default=[0.04, 0.10])
     ap.add_argument("--with-noise", action="store_true", help="forecast_fleet(..., with_noise=True)")
+    ap.add_argument("--no-pool", action="store_true", help="forecast_fleet(..., options=FitOptions(pool=False))")
     args = ap.parse_args(argv)
+    options = None
+    if args.no_pool:
+        from logbook.analysis.fit import FitOptions  # only for this switch: the fit module's name may change
+
+        options = FitOptions(pool=False)
     seeds = args.seeds or (2 if args.quick else 5)
     n_pumps = args.pumps or (120 if args.quick else 240)
     for noise in args.noise:
@@ -307,7 +326,7 @@ def main(argv=None) -> int:
         truth = [t for tf in tfs for t in tf.truth]
         cuts = np.array([tf.cut.toordinal() for tf in tfs for _ in tf.truth], dtype=float)
         t1 = time.perf_counter()
-        parts = [engine_preds(tf, args.with_noise) for tf in tfs]
+        parts = [engine_preds(tf, args.with_noise, options) for tf in tfs]
         t2 = time.perf_counter()
         base = [baseline_preds(tf) for tf in tfs]
         t3 = time.perf_counter()
@@ -317,7 +336,7 @@ def main(argv=None) -> int:
         print(f"targets: cover 80 +/- 5 %, <P10 and >P90 each <= 13 %, median |P50| <= 15 % of true remaining life"
               f"{' (4 % noise)' if abs(noise - 0.04) < 1e-9 else ' (no |P50| target at this noise)'}; ✓/✗ judged on "
               f"'all', path types and readings classes; declined = too few / no data, over = 'past limit' though not")
-        label = "engine+noise" if args.with_noise else "engine"
+        label = "engine" + ("+noise" if args.with_noise else "") + (" no pool" if args.no_pool else "")
         preds = {label: eng, "OLS log": ols}
         print_table("in operating hours (crossing hours since fitting)", truth, cuts, preds, "hours", noise)
         print_table("in calendar days (dates, with each method's hours per day)", truth, cuts, preds, "days", noise)

@@ -398,12 +398,8 @@ def reference_value(reading: Reading, kind: Kind, model: PumpModel) -> float | N
     """A reading brought to the model's reference conditions with this module's own oil table
     (for baselines that must not lean on the engine): case drain * (dp_ref/dp) * (nu/nu_ref), |drift|."""
     raw = reading.value(kind)
-    if raw is None:
-        return None
-    if kind is Kind.NEUTRAL_DRIFT:
-        return abs(raw)
-    if kind is Kind.SERVO_PRESSURE:
-        return raw
+    if raw is None or kind is not Kind.CASE_DRAIN:  # servo pressure as read, drift as a magnitude
+        return None if raw is None else (abs(raw) if kind is Kind.NEUTRAL_DRIFT else raw)
     dp = reading.test_pressure_bar or model.ref_pressure_bar
     temp = model.ref_temp_c if reading.oil_temp_c is None else reading.oil_temp_c
     oil = (reading.oil_grade, float(reading.oil_vi)) if reading.oil_grade is not None else (model.oil_grade, float(model.oil_vi))
