@@ -1,22 +1,21 @@
 """Inspection rounds (pure: no SQL, no UI): when each pump's next reading is due, which
 pumps a round at a site should test, and which newly imported readings need a second look.
 
-Hours since the last reading are pump operating hours on the continuous scale of
-``logbook.meter``, so a replaced hour meter neither hides nor invents an overdue pump.
+Hours since the last reading are pump operating hours on the continuous scale of the
+engine's timeline (``analysis.timeline``), so a replaced hour meter neither hides nor
+invents an overdue pump; utilisation, pump hours and segments are the engine's.
 The rules are written out in docs/rounds.md.
 """
 
 from __future__ import annotations
 
 import math
-from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date, timedelta
 from typing import Iterable, Sequence
 
-from logbook import meter
 from logbook.analysis.results import FLAG_JUMP, FleetForecast, KindForecast, Outcome, PumpForecast
-from logbook.model import Event, EventKind, Fitment, Fleet, Kind, PumpModel, Reading
+from logbook.model import ALL_KINDS, Event, EventKind, Fleet, Kind, PumpModel, Reading
 
 #: Events after which the pump's wear starts again: its next reading is a new baseline.
 BASELINE_EVENTS = (EventKind.OVERHAUL, EventKind.EXCHANGE)
@@ -74,38 +73,38 @@ class NextTest:
 
 
 # -- hours -----------------------------------------------------------------------
-def machine_points(fleet: Fleet) -> dict[str, list[tuple[date, float]]]:
-    """(date, continuous hours) records of each machine's meter: fitments, readings, events."""
-    from logbook.analysis.calendar import machine_hour_points
+class MachineClocks:
+    """Each machine's newest hour-meter record by a day, from the engine's machine points (fittings,
+    removals, readings, events, on the continuous scale), and its utilisation from the engine."""
 
-    return machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
+    def __init__(self, timeline, today: date):
+        import numpy as np
 
+        from logbook.analysis.utilisation import machine_points
 
-def machine_hours_now(points: Sequence[tuple[date, float]], today: date, per_day: float | None) -> float | None:
-    """Continuous machine hours today: the newest record plus utilisation times the days since."""
-    known = [p for p in points if p[0] <= today]
-    if not known:
-        return None
-    newest_day = max(d for d, _ in known)
-    hours = max(h for d, h in known if d == newest_day)
-    if per_day is not None and per_day > 0:
-        hours += per_day * (today - newest_day).days
-    return hours
+        self.timeline, self.today = timeline, today
+        machine, day, hours = machine_points(timeline.fits, timeline.meters, timeline.events, timeline.machine_index,
+                                             timeline.fit, timeline.day, timeline.meter, timeline.cont)  # fmt: skip
+        keep = day <= today.toordinal()
+        machine, day, hours = machine[keep], day[keep], hours[keep]
+        order = np.lexsort((hours, day, machine))  # the newest day's highest record comes last
+        last = order[np.r_[machine[order][1:] != machine[order][:-1], True]] if len(order) else order
+        self.newest = {m: (d, h) for m, d, h in zip(machine[last].tolist(), day[last].tolist(), hours[last].tolist())}
 
+    def hours_now(self, machine: str, per_day: float | None) -> float | None:
+        """Continuous machine hours today: the newest record plus utilisation times the days since."""
+        code = self.timeline.machine_index.get(machine)
+        if code not in self.newest:
+            return None
+        newest_day, hours = self.newest[code]
+        if per_day is not None and per_day > 0:
+            hours += per_day * (self.today.toordinal() - newest_day)
+        return hours
 
-def utilisation(points: Sequence[tuple[date, float]], today: date) -> float | None:
-    """Hours per day from a machine's records (the engine's robust slope)."""
-    from logbook.analysis.calendar import hours_per_day
+    def utilisation(self, machines) -> dict[str, float | None]:
+        from logbook.analysis.utilisation import machine_utilisation
 
-    return hours_per_day(points, today)
-
-
-def reading_pump_hours(reading: Reading, fitments: Sequence[Fitment], events: Iterable[Event]) -> float | None:
-    """Pump operating hours at a reading, through the fitment that held that day."""
-    fit = meter.fitment_on(fitments, reading.taken_on)
-    if fit is None:
-        return None
-    return meter.pump_hours(reading.machine_hours, reading.taken_on, fit, meter.replacements_of(fit.machine, events))
+        return machine_utilisation(self.timeline, sorted(machines), self.today) if machines else {}
 
 
 # -- the interval and the forecast rule ----------------------------------------------
@@ -200,32 +199,22 @@ def next_tests(
     fleet: Fleet, forecast: FleetForecast | None, today: date, rules: TestRules | None = None
 ) -> dict[str, NextTest]:
     """The next test of every pump fitted today, by serial."""
+    from logbook.analysis.timeline import Timeline
+
     rules = rules or TestRules()
-    points = machine_points(fleet)
-    per_day_cache: dict[str, float | None] = {}
-    fits: dict[str, list[Fitment]] = defaultdict(list)
-    for f in fleet.fitments:
-        fits[f.serial].append(f)
-    reads: dict[str, list[Reading]] = defaultdict(list)
-    for r in fleet.readings:
-        if r.superseded_by is None:
-            reads[r.serial].append(r)
+    timeline = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    clocks = MachineClocks(timeline, today)
+    fitted = _fitted_today(timeline, sorted(fleet.pumps), today)
+    last_of = _last_readings(timeline)
+    per_day = _utilisation(fitted, forecast, clocks, timeline)
     out: dict[str, NextTest] = {}
-    for serial in sorted(fleet.pumps):
-        current = meter.fitment_on(fits.get(serial, ()), today)
-        if current is None:
-            continue
+    for serial, fit in fitted.items():
+        current = timeline.fits.items[fit]
         model = fleet.models[fleet.pumps[serial].model]
         machine = fleet.machines.get(current.machine)
         pf = forecast.pump(serial) if forecast is not None else None
-        if current.machine not in per_day_cache:
-            per_day_cache[current.machine] = (
-                pf.hours_per_day if pf is not None and pf.hours_per_day is not None
-                else utilisation(points.get(current.machine, []), today)
-            )
-        per_day = per_day_cache[current.machine]
-        history = sorted(reads.get(serial, ()), key=lambda r: (r.taken_on, r.machine_hours))
-        last = history[-1] if history else None
+        last_index = last_of.get(timeline.serial_index.get(serial))
+        last = fleet.readings[last_index] if last_index is not None else None
         base = dict(serial=serial, model=model.code, machine=current.machine, position=current.position,
                     site=machine.site if machine else "", last_reading_on=last.taken_on if last else None)
         restart = _baseline_event(fleet.events, serial, last)
@@ -237,20 +226,56 @@ def next_tests(
                                    days_since_reading=(today - last.taken_on).days if last else None,
                                    interval_due_on=since, test_on=since, reason=why)
             continue
-        reps = meter.replacements_of(current.machine, fleet.events)
-        now_machine = machine_hours_now(points.get(current.machine, []), today, per_day)
-        at_last = reading_pump_hours(last, fits[serial], fleet.events)
+        rate = per_day[current.machine]
+        now_machine = clocks.hours_now(current.machine, rate)
         hours_since = None
-        if now_machine is not None and at_last is not None:
-            at_fit = meter.continuous_hours(current.machine_hours_at_fit, current.fitted_on, reps)
-            hours_since = max(current.pump_hours_at_fit + (now_machine - at_fit) - at_last, 0.0)
-        due_on, why = interval_due(model, last.taken_on, hours_since, per_day, today)
+        if now_machine is not None and timeline.fit[last_index] >= 0:  # pump hours of the last reading are known
+            now = current.pump_hours_at_fit + (now_machine - float(timeline.fits.cont_at_fit[fit]))
+            hours_since = max(now - float(timeline.hours[last_index]), 0.0)
+        due_on, why = interval_due(model, last.taken_on, hours_since, rate, today)
         early_on, early_why, asap = forecast_test_date(pf, today, due_on, rules)
         test_on, reason = (early_on, early_why) if early_on is not None else (due_on, why)
         out[serial] = NextTest(**base, hours_since_reading=hours_since, days_since_reading=(today - last.taken_on).days,
                                interval_due_on=due_on, test_on=test_on, reason=reason,
                                earlier=early_on is not None, asap=asap)
     return out
+
+
+def _fitted_today(timeline, serials: list[str], today: date) -> dict[str, int]:
+    """Serial -> index of the fitment that holds the pump today (the engine's rule), for pumps fitted today."""
+    import numpy as np
+
+    codes = np.array(timeline.pump_codes(serials), dtype=np.int64)
+    fit = timeline.fits.on(codes, np.full(len(serials), today.toordinal(), dtype=np.int64)).tolist()
+    return {s: f for s, f in zip(serials, fit) if f >= 0}
+
+
+def _last_readings(timeline) -> dict[int, int]:
+    """Serial code -> index of the pump's newest current reading, by (date, meter); the later record on a tie."""
+    import numpy as np
+
+    rows = np.flatnonzero(timeline.latest)
+    order = rows[np.lexsort((rows, timeline.meter[rows], timeline.day[rows], timeline.serial[rows]))]
+    serial = timeline.serial[order]
+    last = order[np.r_[serial[1:] != serial[:-1], True]] if len(order) else order
+    return dict(zip(timeline.serial[last].tolist(), last.tolist()))
+
+
+def _utilisation(fitted: dict[str, int], forecast, clocks: MachineClocks, timeline) -> dict[str, float | None]:
+    """Hours per day of each machine holding a pump: the forecast's for its first pump (by serial), else
+    the engine's from the records."""
+    per_day: dict[str, float | None] = {}
+    missing = set()
+    for serial, fit in fitted.items():
+        machine = timeline.fits.items[fit].machine
+        if machine in per_day or machine in missing:
+            continue
+        pf = forecast.pump(serial) if forecast is not None else None
+        if pf is not None and pf.hours_per_day is not None:
+            per_day[machine] = pf.hours_per_day
+        else:
+            missing.add(machine)
+    return {**per_day, **clocks.utilisation(missing)}
 
 
 def plan_round(
@@ -278,36 +303,35 @@ def second_look(
 ) -> list[str]:
     """Lines for new readings whose normalized value falls outside the trend's prediction band
     (central ``coverage``) at their operating hours, as the trend stood before the import."""
+    from logbook.analysis.fleet import pack_fleet
     from logbook.analysis.normalize import normalized_value
-    from logbook.analysis.segments import build_series
-    from logbook.analysis.segments import reading_pump_hours as engine_pump_hours
+    from logbook.analysis.timeline import Timeline
 
     lines: list[str] = []
-    histories: dict = {}
-    series_of: dict = {}
+    packed = pack_fleet(before, forecast.today)
+    position = {s: i for i, s in enumerate(packed.serials)}
+    new = sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours))
+    hours = Timeline(before.fitments, new, before.events).hours  # pump hours of the new readings
     low_q, high_q = round(50 - 50 * coverage, 1), round(50 + 50 * coverage, 1)
-    for r in sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours)):
+    for i, r in enumerate(new):
         pf = forecast.pump(r.serial)
-        if pf is None or r.serial not in before.pumps:
+        if pf is None or r.serial not in before.pumps or r.serial not in position:
             continue
-        if r.serial not in histories:
-            histories[r.serial] = before.history(r.serial)
-        history = histories[r.serial]
+        model = before.models[before.pumps[r.serial].model]
         for kf in pf.kinds:
             if kf.fit is None or r.value(kf.kind) is None:
                 continue
-            if (r.serial, kf.kind) not in series_of:
-                series_of[(r.serial, kf.kind)] = build_series(history, kf.kind)
-            series = series_of[(r.serial, kf.kind)]
-            if series.start is not None and r.taken_on < series.start.happened_on:
+            row = 3 * position[r.serial] + ALL_KINDS.index(kf.kind)
+            start_on = packed.pack.start_on[row]
+            if packed.pack.started[row] and r.taken_on < start_on:
                 continue  # an older wear segment: the current trend says nothing about it
-            x = engine_pump_hours(r, history) - series.start_hours
-            value = normalized_value(r, kf.kind, history.model)
+            x = float(hours[i] - packed.pack.origin[row])
+            value = normalized_value(r, kf.kind, model)
             lo, _, hi = (float(v[0]) for v in kf.fit.band([x], coverage=coverage))
             if lo <= value <= hi:
                 continue
             side = "above" if value > hi else "below"
-            since = series.start_on.isoformat() if series.start_on else "with its first reading"
+            since = start_on.isoformat() if start_on else "with its first reading"
             unit = kf.kind.unit
             at_ref = " at reference conditions" if kf.kind is Kind.CASE_DRAIN else ""
             lines.append(
@@ -335,6 +359,6 @@ def import_second_look(before: Fleet, after: Fleet, today: date, *, coverage: fl
 
 
 __all__ = [
-    "NextTest", "TestRules", "band_width_ratio", "forecast_test_date", "import_second_look",
-    "interval_due", "machine_hours_now", "machine_points", "next_tests", "plan_round", "second_look",
+    "MachineClocks", "NextTest", "TestRules", "band_width_ratio", "forecast_test_date", "import_second_look",
+    "interval_due", "next_tests", "plan_round", "second_look",
 ]

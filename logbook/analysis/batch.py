@@ -56,24 +56,59 @@ class TrendBatch:
         x_now: Sequence[float] | None = None,
         width: int | None = None,
     ) -> "TrendBatch":
-        """Pad a list of (x_hours, y_values) pairs into a batch (sorted by x, NaN readings left out)."""
-        width = width or max([len(xs) for xs, _ in series] + [1])
-        s = len(series)
-        x = np.full((s, width), np.nan)
-        y = np.full((s, width), np.nan)
-        last = np.zeros(s)
-        for i, (xs, ys) in enumerate(series):
-            xa, ya = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
-            keep = np.isfinite(xa) & np.isfinite(ya)
-            xa, ya = xa[keep], ya[keep]
-            order = np.argsort(xa, kind="stable")
-            k = min(len(order), width)
-            order = order[len(order) - k :]  # keep the newest ``width`` readings
-            x[i, :k], y[i, :k] = xa[order], ya[order]
-            last[i] = xa[order[-1]] if k else 0.0
-        grp = np.full(s, -1) if group is None else group
-        now = last if x_now is None else x_now
-        return cls(x=x, y=y, limit=limit, direction=direction, group=grp, x_now=now)
+        """A batch of a list of (x_hours, y_values) pairs, padded by ``pad_rows``; ``x_now`` defaults to each
+        row's last x."""
+        lengths = [len(xs) for xs, _ in series]
+        row = np.repeat(np.arange(len(series)), lengths)
+        x = np.concatenate([np.asarray(xs, dtype=float) for xs, _ in series] + [np.zeros(0)])
+        y = np.concatenate([np.asarray(ys, dtype=float) for _, ys in series] + [np.zeros(0)])
+        position = np.arange(len(row)) - np.repeat(np.cumsum([0, *lengths[:-1]]), lengths).astype(np.int64)
+        bx, by, _, kept = pad_rows(row, x, y, len(series), position, width)
+        last = np.where(kept > 0, bx[np.arange(len(series)), np.maximum(np.minimum(kept, bx.shape[1]) - 1, 0)], 0.0)
+        grp = np.full(len(series), -1) if group is None else group
+        return cls(x=bx, y=by, limit=limit, direction=direction, group=grp, x_now=last if x_now is None else x_now)
+
+
+def in_order(group: np.ndarray, *keys: np.ndarray) -> np.ndarray:
+    """Stable order by ``group``, then by ``keys`` (most significant first), cheap when already in key order."""
+    order = np.argsort(group, kind="stable")
+    g = group[order]
+    same = g[1:] == g[:-1]
+    ok, tie = np.ones(len(same), dtype=bool), same
+    for key in keys:
+        k = key[order]
+        ok &= ~tie | (k[1:] >= k[:-1])
+        tie = tie & (k[1:] == k[:-1])
+    if ok.all():
+        return order
+    return np.lexsort(tuple(reversed(keys)) + (group,))
+
+
+def pad_rows(row: np.ndarray, x: np.ndarray, y: np.ndarray, rows: int, tiebreak: np.ndarray, width: int | None = None):
+    """Points (row, x, y) as padded (rows, width) arrays: each row's finite points left-aligned in x order
+    (ties by ``tiebreak``), NaN after; with ``width`` the newest ``width`` of a row kept. The width defaults
+    to the most points of a row. Returns (x, y, rank of each point among its row's points in x order,
+    finite points per row)."""
+    order = in_order(row, x, tiebreak)
+    per_row = np.bincount(row, minlength=rows)
+    rank = np.empty(len(row), dtype=np.int64)
+    rank[order] = np.arange(len(row)) - np.r_[0, np.cumsum(per_row)][row[order]]
+    fine = np.isfinite(x) & np.isfinite(y)
+    col, kept = rank, per_row
+    if not fine.all():
+        sub = order[fine[order]]
+        kept = np.bincount(row[sub], minlength=rows)
+        col = np.full(len(row), -1, dtype=np.int64)
+        col[sub] = np.arange(len(sub)) - np.r_[0, np.cumsum(kept)][row[sub]]
+    if width is None:
+        width = max(int(per_row.max(initial=0)), 1)
+    else:
+        col = col - np.maximum(kept - width, 0)[row]  # drop the oldest beyond the width
+        fine &= col >= 0
+    bx, by = np.full((rows, width), np.nan), np.full((rows, width), np.nan)
+    bx[row[fine], col[fine]] = x[fine]
+    by[row[fine], col[fine]] = y[fine]
+    return bx, by, rank, kept
 
 
 @dataclass

@@ -16,15 +16,14 @@ Fewer than ``MIN_FAILURES`` failures give no fit, with the reason in words.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import optimize, special
 
-from logbook.analysis.hours import pump_hours
 from logbook.analysis.results import FleetForecast
-from logbook.analysis.segments import event_pump_hours, reading_pump_hours
-from logbook.model import EventKind, Fleet, PumpHistory
+from logbook.analysis.timeline import Timeline
+from logbook.model import Event, EventKind, Fleet
 
 MIN_FAILURES = 2
 FEW_FAILURES = 5  # below this the bounds are wide: say so
@@ -234,19 +233,25 @@ class Intervals:
     skipped: tuple[str, ...] = ()  # what could not be used, in words
 
 
-def _histories(fleet: Fleet) -> list[PumpHistory]:
-    """Every pump that has been fitted, with its records."""
-    return [h for h in fleet.histories() if h.fitments]
+@dataclass(slots=True)
+class _Bucket:
+    """Intervals of one pump model as they are found."""
 
+    serials: list[str] = field(default_factory=list)
+    hours: list[float] = field(default_factory=list)
+    observed: list[bool] = field(default_factory=list)
+    entry: list[float] = field(default_factory=list)
+    skipped: list[str] = field(default_factory=list)
 
-def _latest_pump_hours(history: PumpHistory, hours_of: dict[int, float]) -> float | None:
-    seen = list(hours_of.values()) + [f.pump_hours_at_fit for f in history.fitments]
-    for f in history.fitments:
-        if f.removed_on is not None and f.machine_hours_at_removal is not None:
-            h = pump_hours(f.machine_hours_at_removal, f.removed_on, [f], history.events)
-            if h is not None:
-                seen.append(h)
-    return max(seen) if seen else None
+    def add(self, serial: str, hours: float, observed: bool, entry: float) -> None:
+        self.serials.append(serial)
+        self.hours.append(hours)
+        self.observed.append(observed)
+        self.entry.append(entry)
+
+    def intervals(self, model: str) -> Intervals:
+        return Intervals(model, tuple(self.serials), tuple(self.hours), tuple(self.observed), tuple(self.entry),
+                         tuple(self.skipped))  # fmt: skip
 
 
 def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dict[str, Intervals]:
@@ -256,45 +261,42 @@ def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dic
     recorded: ``pump_hours_at_fit`` of its first fitment is taken as that age and
     enters as left truncation). The open interval since the last overhaul is censored
     at ``ages_now[serial]`` (hours since the last overhaul, e.g. the engine's estimate
-    for today) when given, else at the latest recorded pump hours. Pump hours at an
-    event come from the trend engine's own rule (``segments.event_pump_hours``).
+    for today) when given, else at the latest recorded pump hours. Pump hours at the
+    events and the latest ones are the engine's (``Timeline``), from current readings.
     """
     ages_now = ages_now or {}
-    found: dict[str, dict[str, list]] = {}
-    for history in _histories(fleet):
-        serial = history.pump.serial
-        hours_of = {i: reading_pump_hours(r, history) for i, r in enumerate(history.readings)}
-        bucket = found.setdefault(history.model.code, {"s": [], "t": [], "d": [], "e": [], "skip": []})
-
-        def add(hours: float, observed: bool, entry_hours: float) -> None:
-            for key, value in (("s", serial), ("t", hours), ("d", observed), ("e", entry_hours)):
-                bucket[key].append(value)
-
+    timeline = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    ends = sorted((e for e in fleet.events if e.serial in fleet.pumps and e.kind in (EventKind.OVERHAUL, EventKind.EXCHANGE)),
+                  key=lambda e: (e.happened_on, e.id or 0))  # fmt: skip
+    at_end = dict(zip(map(id, ends), timeline.event_pump_hours(ends, timeline.latest).tolist()))
+    highest = timeline.highest_pump_hours(timeline.latest)
+    own: dict[str, list[Event]] = {}
+    for e in ends:
+        own.setdefault(e.serial, []).append(e)
+    first_fit = {}
+    for f in sorted(fleet.fitments, key=lambda f: (f.fitted_on, f.id or 0)):
+        first_fit.setdefault(f.serial, f)
+    found: dict[str, _Bucket] = {}
+    for serial in sorted(s for s in fleet.pumps if s in first_fit):
+        bucket = found.setdefault(fleet.models[fleet.pumps[serial].model].code, _Bucket())
         start: float | None = 0.0
-        entry = float(history.fitments[0].pump_hours_at_fit)
-        ends = [e for e in history.events if e.serial == serial and e.kind in (EventKind.OVERHAUL, EventKind.EXCHANGE)]
-        for event in ends:
-            at = event_pump_hours(event, history, hours_of)
-            if at is None:
-                bucket["skip"].append(f"{serial}: {event.kind.value} on {event.happened_on}: pump hours unknown")
+        entry = float(first_fit[serial].pump_hours_at_fit)
+        for event in own.get(serial, ()):
+            at = at_end[id(event)]
+            if at != at:
+                bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on}: pump hours unknown")
                 start = None  # the next interval's start is unknown
                 continue
             if start is not None and at - start > entry:
-                add(at - start, True, entry)
+                bucket.add(serial, at - start, True, entry)
             elif start is not None:
-                bucket["skip"].append(f"{serial}: {event.kind.value} on {event.happened_on} is not after the last")
+                bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on} is not after the last")
             start, entry = at, 0.0
-        if serial in ages_now:
-            age = ages_now[serial]
-        else:
-            latest = _latest_pump_hours(history, hours_of)
-            age = latest - start if latest is not None and start is not None else None
+        latest = highest[timeline.serial_index[serial]]
+        age = ages_now[serial] if serial in ages_now else (latest - start if latest == latest and start is not None else None)
         if age is not None and age > entry:
-            add(age, False, entry)
-    return {
-        model: Intervals(model, tuple(b["s"]), tuple(b["t"]), tuple(b["d"]), tuple(b["e"]), tuple(b["skip"]))
-        for model, b in sorted(found.items())
-    }
+            bucket.add(serial, age, False, entry)
+    return {model: b.intervals(model) for model, b in sorted(found.items())}
 
 
 def fleet_life(

@@ -18,16 +18,23 @@ condition (no correction for that factor).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 import numpy as np
 
 from logbook.model import Kind, PumpModel, Reading
-from logbook.oil import viscosity_cst
+from logbook.oil import oil_walther, viscosity_cst, walther_viscosity
+from logbook.units import theoretical_flow_lpm
+
+__all__ = [
+    "annulus_leakage_exact_lpm", "annulus_leakage_lpm", "at_reference", "case_drain_at_reference",
+    "case_drain_percent", "normalized_value", "reference_viscosity_cst", "theoretical_flow_lpm", "trended_values",
+]
 
 
-def theoretical_flow_lpm(displacement_cc: float, speed_rpm: float) -> float:
-    """Theoretical flow, L/min = cm^3/rev * rpm / 1000."""
-    return displacement_cc * speed_rpm / 1000.0
+def at_reference(q, dp, nu, ref_dp, ref_nu):
+    """Q_ref = Q_meas * (dp_ref / dp_meas) * (nu_meas / nu_ref): the one formula, on scalars or arrays."""
+    return q * (ref_dp / dp) * (nu / ref_nu)
 
 
 def reference_viscosity_cst(model: PumpModel) -> float:
@@ -53,8 +60,7 @@ def case_drain_at_reference(
     temp = np.where(np.isfinite(temp), temp, model.ref_temp_c)
     grade = model.oil_grade if oil_grade is None else oil_grade
     vi = model.oil_vi if oil_vi is None else oil_vi
-    nu_meas = viscosity_cst(temp, grade, vi)
-    out = q * (model.ref_pressure_bar / dp) * (nu_meas / reference_viscosity_cst(model))
+    out = at_reference(q, dp, viscosity_cst(temp, grade, vi), model.ref_pressure_bar, reference_viscosity_cst(model))
     return float(out) if np.ndim(out) == 0 else out
 
 
@@ -75,6 +81,74 @@ def normalized_value(reading: Reading, kind: Kind, model: PumpModel) -> float | 
     if kind is Kind.NEUTRAL_DRIFT:
         return abs(raw)
     return float(raw)
+
+
+def trended_values(kind: Kind, raw: np.ndarray, conditions: "ReadingConditions | None") -> np.ndarray:
+    """``normalized_value`` of many readings of one kind at once (``conditions`` of the same readings,
+    needed for case drain only)."""
+    if kind is Kind.NEUTRAL_DRIFT:
+        return np.abs(raw)
+    if kind is Kind.SERVO_PRESSURE or not len(raw):
+        return raw
+    return conditions.case_drain_at_reference(raw)
+
+
+class ReadingConditions:
+    """Test pressure, oil temperature and oil of many case drain readings, the model's reference
+    conditions filled in where a reading gives none (NaN temperature or pressure, None oil)."""
+
+    def __init__(self, dp, temp, grade, vi, models: Sequence[PumpModel], model_of: np.ndarray, refuse):
+        """``model_of``: index into ``models`` of each reading; ``refuse(i)`` raises the one-reading
+        error of reading ``i`` (called for the first reading that cannot be normalized)."""
+        self.models, self.model_of, self.refuse = models, model_of, refuse
+        self.dp = self._filled(dp, "ref_pressure_bar", np.isfinite)
+        self.temp = self._filled(temp, "ref_temp_c", np.isfinite)
+        self.grade = self._filled(grade, "oil_grade", lambda v: ~np.isnan(v))
+        self.vi = self._filled(vi, "oil_vi", lambda v: ~np.isnan(v))
+
+    def _filled(self, got: np.ndarray, model_field: str, keep) -> np.ndarray:
+        own = np.array([getattr(m, model_field) for m in self.models], dtype=float)[self.model_of]
+        return np.where(keep(got), got, own)
+
+    def case_drain_at_reference(self, raw: np.ndarray) -> np.ndarray:
+        bad = self.dp <= 0
+        nu = np.full(len(raw), np.nan)
+        for mine in _oil_groups(self.grade, self.vi):
+            try:
+                a, b = oil_walther(int(self.grade[mine[0]]), float(self.vi[mine[0]]))
+            except (TypeError, ValueError):
+                bad[mine] = True
+                continue
+            nu[mine] = walther_viscosity(self.temp[mine], a, b)
+        ref_nu = np.full(len(self.models), np.nan)
+        for c, m in enumerate(self.models):
+            try:
+                ref_nu[c] = reference_viscosity_cst(m)
+            except (TypeError, ValueError):
+                bad |= self.model_of == c
+        if bad.any():  # refuse as the one-reading code does, naming the field and the value
+            self.refuse(int(np.flatnonzero(bad)[0]))
+        ref_dp = np.array([m.ref_pressure_bar for m in self.models], dtype=float)[self.model_of]
+        return at_reference(raw, self.dp, nu, ref_dp, ref_nu[self.model_of])
+
+
+def _oil_groups(grade: np.ndarray, vi: np.ndarray) -> list[np.ndarray]:
+    """Indices of the readings of each oil (grade, viscosity index); a NaN grade or index is an oil of its own."""
+    todo = np.ones(len(grade), dtype=bool)
+    groups = []
+    while todo.any() and len(groups) < 16:  # peel one oil at a time: a fleet uses a handful
+        i = int(np.argmax(todo))
+        mine = todo & (grade == grade[i]) & (vi == vi[i])
+        mine[i] = True
+        todo &= ~mine
+        groups.append(np.flatnonzero(mine))
+    if todo.any():  # many oils: group the rest by sorting
+        rest = np.flatnonzero(todo)
+        _, inverse = np.unique(np.stack([grade[rest], vi[rest]], axis=1), axis=0, return_inverse=True)
+        inverse = inverse.reshape(-1)
+        order = np.argsort(inverse, kind="stable")
+        groups += np.split(rest[order], np.flatnonzero(np.diff(inverse[order])) + 1)
+    return groups
 
 
 def case_drain_percent(case_drain_lpm: float, model: PumpModel, speed_rpm: float | None = None) -> float:

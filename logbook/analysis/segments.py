@@ -1,119 +1,127 @@
-"""The current wear segment of each reading kind and the series to fit in it.
+"""Step of the engine: the current wear segment of every (pump, reading kind), and which readings are in it.
 
-A segment starts at the pump's last event that resets that kind (model.SEGMENT_RESETS):
-overhaul or exchange for every kind, neutral re-adjustment for drift, control repair for
-servo pressure and drift. x = pump operating hours since the segment start.
-This is the one-pump definition (rounds, fleet life, single-pump views); the fleet
-forecast packs all pumps at once in ``packing`` by the same rules.
+A segment starts at the pump's last event that resets the kind (``model.SEGMENT_RESETS``:
+overhaul or exchange for every kind, neutral re-adjustment for drift, control repair
+for servo pressure and drift), in (date, id, record) order. A reading belongs to the
+segment when it was taken after the start: a later day; on the same day, at or above
+the event's pump hours when the event has a meter reading, else when it was entered
+after the event (no way to tell: taken as the check after the work). x counts pump
+hours from the start's pump hours, but never from after the segment's first reading;
+without a start, from zero.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import date
 
-from logbook.analysis.hours import continuous_hours, fitment_on, pump_hours, pump_hours_by_date
-from logbook.analysis.normalize import normalized_value
-from logbook.model import SEGMENT_RESETS, Event, Kind, PumpHistory, Reading
+import numpy as np
 
+from logbook.analysis.batch import in_order
+from logbook.analysis.timeline import Timeline, ordinals
+from logbook.model import ALL_KINDS, SEGMENT_RESETS, Event
 
-@dataclass(frozen=True)
-class Series:
-    """Readings of one kind in the current segment, ready for the batch."""
-
-    kind: Kind
-    start: Event | None
-    start_on: date | None
-    start_hours: float  # pump hours at the segment start
-    x_hours: tuple[float, ...]  # hours since segment start
-    y_value: tuple[float, ...]  # normalized
-    raw: tuple[float, ...]
-    dates: tuple[date, ...]
-    pump_hours: tuple[float, ...]
-    readings_before: int  # readings of this kind before the segment (0 with none at all)
+#: RESETS[k][e]: does an event of the e-th kind in SEGMENT_RESETS restart the k-th kind of ALL_KINDS?
+RESETS = [np.array([kind in SEGMENT_RESETS.get(ev, ()) for ev in SEGMENT_RESETS]) for kind in ALL_KINDS]
+KINDS = len(ALL_KINDS)
 
 
-def segment_start(kind: Kind, history: PumpHistory) -> Event | None:
-    """The pump's last event that starts a new segment for ``kind``."""
-    last = None
-    for ev in history.events:  # date order
-        if ev.serial == history.pump.serial and kind in SEGMENT_RESETS.get(ev.kind, ()):
-            last = ev
-    return last
+@dataclass(slots=True)
+class PumpReadings:
+    """The readings of the pumps being forecast, pump after pump, each pump's in (date, meter) order."""
+
+    codes: list[int]  # serial code of each pump
+    position: np.ndarray  # position of each serial code among the pumps, -1 for other pumps
+    reading: np.ndarray  # per entry: index of the reading in the timeline
+    pump: np.ndarray  # per entry: position of its pump
+    day: np.ndarray
+    hours: np.ndarray  # pump hours
+    first: np.ndarray  # per pump: its first entry
+    count: np.ndarray  # per pump: how many entries
+
+    @classmethod
+    def of(cls, timeline: Timeline, serials: Sequence[str], use: np.ndarray | None) -> "PumpReadings":
+        codes = timeline.pump_codes(serials)
+        position = np.full(len(timeline.serial_index), -1, dtype=np.int64)
+        position[codes] = np.arange(len(serials))
+        pump_of = position[timeline.serial]
+        reading = np.flatnonzero(pump_of >= 0 if use is None else (pump_of >= 0) & use)
+        reading = reading[in_order(pump_of[reading], timeline.day[reading], timeline.meter[reading])]
+        count = np.bincount(pump_of[reading], minlength=len(serials))
+        first = np.r_[0, np.cumsum(count)[:-1]]
+        return cls(codes, position, reading, pump_of[reading], timeline.day[reading], timeline.hours[reading],
+                   first, count)  # fmt: skip
+
+    @property
+    def pumps(self) -> int:
+        return len(self.codes)
+
+    def last_hours_and_day(self) -> tuple[np.ndarray, np.ndarray]:
+        """Per pump: the most pump hours of its readings (NaN for none) and the day of its newest (-1)."""
+        has = self.count > 0
+        hours, day = np.full(self.pumps, np.nan), np.full(self.pumps, -1, dtype=np.int64)
+        if len(self.reading):
+            hours[has] = np.maximum.reduceat(self.hours, self.first[has])
+            day[has] = self.day[self.first[has] + self.count[has] - 1]
+        return hours, day
 
 
-def reading_pump_hours(reading: Reading, history: PumpHistory) -> float:
-    """Pump hours at a reading; the machine meter itself when no fitment covers the day."""
-    hrs = pump_hours(reading.machine_hours, reading.taken_on, history.fitments, history.events)
-    return float(reading.machine_hours) if hrs is None else hrs
+@dataclass(slots=True)
+class SegmentStarts:
+    """The event that starts each pump's current segment of each kind, and its pump hours."""
+
+    events: list[Event]  # the pumps' events that reset some kind
+    day: np.ndarray  # per event
+    hours: np.ndarray  # per event: pump hours (NaN where unknown or not a start)
+    start: np.ndarray  # (pumps, kinds): index into ``events``, -1 for no start
+
+    @classmethod
+    def of(cls, timeline: Timeline, pumps: PumpReadings, use: np.ndarray | None) -> "SegmentStarts":
+        order = [i for i, e in enumerate(timeline.events) if e.serial is not None and e.kind in SEGMENT_RESETS]
+        events = [timeline.events[i] for i in order]
+        index = timeline.serial_index
+        pump = np.array([pumps.position[index[e.serial]] if e.serial in index else -1 for e in events], dtype=np.int64)
+        day = ordinals([e.happened_on for e in events])
+        ids = np.array([e.id or 0 for e in events], dtype=np.int64)
+        kind = np.array([list(SEGMENT_RESETS).index(e.kind) for e in events], dtype=np.int64)
+        start = np.full((pumps.pumps, KINDS), -1, dtype=np.int64)
+        for k in range(KINDS):
+            mine = np.flatnonzero((pump >= 0) & RESETS[k][kind]) if events else np.zeros(0, dtype=np.int64)
+            last = mine[last_of_each(pump[mine], np.array(order, dtype=np.int64)[mine], ids[mine], day[mine])]
+            start[pump[last], k] = last
+        hours = np.full(len(events), np.nan)
+        wanted = np.unique(start[start >= 0])
+        hours[wanted] = timeline.event_pump_hours([events[j] for j in wanted.tolist()], use)
+        return cls(events, day, hours, start)
+
+    def after_start(self, timeline: Timeline, pumps: PumpReadings, entries: np.ndarray, k: int) -> np.ndarray:
+        """Which of the readings ``entries`` (positions in ``pumps``) were taken after their segment's start
+        of kind ``k`` (True where the pump has no start)."""
+        after = np.ones(len(entries), dtype=bool)
+        with_start = np.flatnonzero(self.start[pumps.pump[entries], k] >= 0)
+        event = self.start[pumps.pump[entries[with_start]], k]
+        read_day, event_day, event_hours = pumps.day[entries[with_start]], self.day[event], self.hours[event]
+        later, same_day = read_day > event_day, read_day == event_day
+        if same_day.any():
+            by_meter = same_day & np.array([self.events[j].hours is not None for j in event.tolist()], dtype=bool)
+            by_meter &= ~np.isnan(event_hours)
+            later = np.where(by_meter, pumps.hours[entries[with_start]] >= event_hours, later)
+            for q in np.flatnonzero(same_day & ~by_meter).tolist():  # no meter reading: who was entered first
+                r, ev = timeline.readings[pumps.reading[entries[with_start[q]]]], self.events[event[q]]
+                later[q] = r.entered_at >= ev.entered_at if r.entered_at is not None and ev.entered_at is not None else True
+        after[with_start] = later
+        return after
+
+    def origins(self, row_lowest: np.ndarray, row_has: np.ndarray) -> np.ndarray:
+        """Per row (pump x kind): pump hours that x counts from, given each row's lowest pump hours."""
+        row_start = self.start.reshape(-1)
+        start_hours = np.where(row_start >= 0, self.hours[np.maximum(row_start, 0)] if self.events else np.nan, np.nan)
+        origin = np.where(np.isnan(start_hours), np.where(row_has, row_lowest, 0.0), start_hours)
+        origin = np.where(row_start < 0, 0.0, origin)
+        return np.where((row_start >= 0) & row_has, np.minimum(origin, row_lowest), origin)
 
 
-def _known_points(history: PumpHistory, hours_of: dict[int, float]) -> list[tuple[date, float]]:
-    pts = [(f.fitted_on, f.pump_hours_at_fit) for f in history.fitments]
-    for f in history.fitments:
-        if f.removed_on is not None and f.machine_hours_at_removal is not None:
-            h = pump_hours(f.machine_hours_at_removal, f.removed_on, [f], history.events)
-            if h is not None:
-                pts.append((f.removed_on, h))
-    pts += [(r.taken_on, hours_of[i]) for i, r in enumerate(history.readings)]
-    return pts
-
-
-def event_pump_hours(event: Event, history: PumpHistory, hours_of: dict[int, float]) -> float | None:
-    """Pump hours at an event: from its meter reading when the pump was fitted, else interpolated by date."""
-    if event.hours is not None:
-        fit = fitment_on(history.fitments, event.happened_on)
-        if fit is not None and (event.machine is None or event.machine == fit.machine):
-            return pump_hours(event.hours, event.happened_on, history.fitments, history.events)
-    return pump_hours_by_date(event.happened_on, _known_points(history, hours_of))
-
-
-def _reading_after(reading: Reading, hours: float, event: Event, event_hours: float | None) -> bool:
-    if reading.taken_on != event.happened_on:
-        return reading.taken_on > event.happened_on
-    if event.hours is not None and event_hours is not None:
-        return hours >= event_hours
-    if reading.entered_at is not None and event.entered_at is not None:
-        return reading.entered_at >= event.entered_at
-    return True  # same day, no way to tell: taken as the check after the work
-
-
-def build_series(history: PumpHistory, kind: Kind, hours_of: dict[int, float] | None = None) -> Series:
-    """Current-segment series of ``kind`` for one pump (x from the segment start, y normalized)."""
-    if hours_of is None:
-        hours_of = {i: reading_pump_hours(r, history) for i, r in enumerate(history.readings)}
-    start = segment_start(kind, history)
-    start_hours = event_pump_hours(start, history, hours_of) if start is not None else None
-    xs, ys, raws, dates, phs = [], [], [], [], []
-    before = 0
-    for i, r in enumerate(history.readings):
-        raw = r.value(kind)
-        if raw is None:
-            continue
-        h = hours_of[i]
-        if start is not None and not _reading_after(r, h, start, start_hours):
-            before += 1
-            continue
-        xs.append(h)
-        ys.append(normalized_value(r, kind, history.model))
-        raws.append(float(raw))
-        dates.append(r.taken_on)
-        phs.append(h)
-    origin = 0.0 if start is None else (start_hours if start_hours is not None else (min(xs) if xs else 0.0))
-    if start is not None and xs:
-        origin = min(origin, min(xs))
-    return Series(
-        kind=kind,
-        start=start,
-        start_on=start.happened_on if start is not None else (dates[0] if dates else None),
-        start_hours=origin,
-        x_hours=tuple(h - origin for h in xs),
-        y_value=tuple(ys),
-        raw=tuple(raws),
-        dates=tuple(dates),
-        pump_hours=tuple(phs),
-        readings_before=before,
-    )
-
-
-__all__ = ["Series", "build_series", "continuous_hours", "event_pump_hours", "reading_pump_hours", "segment_start"]
+def last_of_each(group: np.ndarray, *keys: np.ndarray) -> np.ndarray:
+    """Index of the last element of each group in the order of ``keys`` (most significant last)."""
+    order = np.lexsort(keys + (group,))
+    return order[np.r_[group[order][1:] != group[order][:-1], True]] if len(order) else order

@@ -1,14 +1,23 @@
-"""A pump's urgency in plain words, each with a symbol so that it never rests on colour alone."""
+"""Step of the engine: each pump's status in plain words (with a symbol, so that it never rests on colour
+alone), the kind closest to its limit, and the one most-urgent-first order of pumps.
+
+Status of one kind: past its limit -> over limit; a step flagged -> step change;
+a crossing whose P10 date (or P10 hours at the machine's utilisation) is within
+``due_days`` -> overhaul due, whose P50 within ``plan_days`` -> plan overhaul, else
+steady; no crossing within the horizon -> steady, unless its P10 date is near; too few
+readings; no limit -> steady; no readings. A pump takes its most urgent kind's status,
+but "too few" only when no kind has a usable forecast.
+"""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date, timedelta
+from datetime import date
 
-from logbook.analysis.results import FLAG_STEP, KindForecast, Outcome, PumpForecast
+from logbook.analysis.results import Outcome, PumpForecast
 
 OVER_LIMIT = "✖ over limit"
-STEP_CHANGE = "⚠ step change - inspect"
+STEP_CHANGE = "↯ step change - inspect"  # not ⚠: that sign marks safety lines only (logbook.cautions)
 OVERHAUL_DUE = "▲ overhaul due"
 PLAN_OVERHAUL = "△ plan overhaul"
 STEADY = "✓ steady"
@@ -27,55 +36,12 @@ class StatusThresholds:
     plan_days: int = 365  # P50 date within this: plan the overhaul
 
 
-def _within(d: date | None, today: date, days: int) -> bool:
-    return d is not None and d <= today + timedelta(days=days)
-
-
-def _hours_within(hours: float | None, per_day: float | None, days: int) -> bool:
-    return hours is not None and per_day is not None and hours <= per_day * days
-
-
-def kind_status(kf: KindForecast, today: date, per_day: float | None, th: StatusThresholds) -> str:
-    """Status words of one reading kind."""
-    if kf.outcome is Outcome.PAST_LIMIT:
-        return OVER_LIMIT
-    if FLAG_STEP in kf.flags:
-        return STEP_CHANGE
-    if kf.outcome is Outcome.CROSSING:
-        if _within(kf.p10_date, today, th.due_days) or _hours_within(kf.p10_hours, per_day, th.due_days):
-            return OVERHAUL_DUE
-        if _within(kf.p50_date, today, th.plan_days) or _hours_within(kf.p50_hours, per_day, th.plan_days):
-            return PLAN_OVERHAUL
-        return STEADY
-    if kf.outcome is Outcome.NO_CROSSING:
-        if _within(kf.p10_date, today, th.due_days):
-            return OVERHAUL_DUE
-        return STEADY
-    if kf.outcome is Outcome.TOO_FEW:
-        return TOO_FEW
-    if kf.outcome is Outcome.NO_LIMIT:
-        return STEADY
-    return NO_READINGS
-
-
-def pump_status(pf: PumpForecast, today: date, thresholds: StatusThresholds | None = None) -> str:
-    """The most urgent status over the pump's reading kinds."""
-    th = thresholds or StatusThresholds()
-    words = [kind_status(k, today, pf.hours_per_day, th) for k in pf.kinds]
-    if not words:
-        return NO_READINGS
-    # a pump with a usable forecast on some kind is not "too few" overall
-    if TOO_FEW in words and any(w in (STEADY, PLAN_OVERHAUL, OVERHAUL_DUE) for w in words):
-        words = [w for w in words if w != TOO_FEW]
-    return min(words, key=STATUS_ORDER.index)
-
-
 def pump_statuses(
     outcome, step, p10_day, p50_day, p10_hours, p50_hours, per_day, today: date,
     thresholds: StatusThresholds | None = None,
 ) -> list[str]:  # fmt: skip
-    """``pump_status`` of many pumps at once from (P, K) numpy arrays: outcome (Outcome values as strings),
-    step flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day (NaN for none)."""
+    """The status of many pumps at once (module docstring) from (P, K) numpy arrays: outcome (Outcome
+    values as strings), step flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day."""
     import numpy as np  # here, so that the views can import this module without numpy
 
     th = thresholds or StatusThresholds()
@@ -136,3 +102,26 @@ def urgency_key(pf: PumpForecast) -> tuple:
 def most_urgent_first(pumps) -> list[PumpForecast]:
     """``pumps`` sorted by ``urgency_key``."""
     return sorted(pumps, key=urgency_key)
+
+
+def worst_kinds(code: np.ndarray, candidate: np.ndarray, progress: np.ndarray, p50_days: np.ndarray,
+                p50_hours: np.ndarray, past: int, crossing: int) -> list[int]:  # fmt: skip
+    """Per pump, the kind closest to its limit (-1 for none) among the (P, K) ``candidate`` kinds (those
+    with a limit and readings): past limit first, then the earliest P50 (days ahead, -1 for none, else hours),
+    then the furthest along toward its limit (``progress``: latest value over limit, inverted for a lower
+    limit); the first such kind on a tie. ``code``: forecast outcome codes, ``past``/``crossing`` two of them."""
+    import numpy as np
+
+    n_pumps, kinds = candidate.shape
+    is_past, is_crossing = code == past, code == crossing
+    rank = np.where(is_past, 0, np.where(is_crossing, 1, 2)).astype(float)
+    when = np.where(is_past, 0.0, np.where(is_crossing, np.where(p50_days >= 0, p50_days, np.inf), -progress))
+    hours = np.where(is_crossing, np.nan_to_num(p50_hours, nan=0.0), 0.0)
+    best = np.where(candidate[:, 0], 0, -1)
+    rows = np.arange(n_pumps)
+    for j in range(1, kinds):
+        b = np.maximum(best, 0)
+        r0, w0, h0 = rank[rows, b], when[rows, b], hours[rows, b]
+        less = (rank[:, j] < r0) | ((rank[:, j] == r0) & ((when[:, j] < w0) | ((when[:, j] == w0) & (hours[:, j] < h0))))
+        best = np.where(candidate[:, j] & ((best < 0) | less), j, best)
+    return best.tolist()

@@ -1,10 +1,14 @@
-"""Machine utilisation (hours per day) of many machines at once, as ``calendar.hours_per_day`` defines it.
+"""Step of the engine: machine utilisation (operating hours per calendar day), and hours turned into dates.
 
-The points per machine are those of ``calendar.machine_hour_points`` (fitments,
-removals, readings taken while a pump sat in the machine, event meter readings), on
-the continuous scale. Theil-Sen slopes (Sen, JASA 1968: the median of pairwise
-slopes) are taken for all machines with the same number of points in one array
-step; a machine whose points are not all finite goes through ``hours_per_day``.
+A machine's points are its continuous hours (``timeline``) at fittings, removals,
+readings taken while a pump sat in it and events with a meter reading. Utilisation is
+the Theil-Sen slope (Sen, JASA 1968: the median of pairwise slopes) of those hours
+against date over the last ``window_days``, so that a long gap, a meter typo or a quiet
+month does not swing it; with too little recent history (under two points or
+``min_span_days``) the whole history; with two or more points on fewer days than that,
+the straight line from the first to the last day; clipped to 0-24 h a day. Points
+that are not finite numbers are left out. Machines with the same number of points
+are done in one array step.
 """
 
 from __future__ import annotations
@@ -14,17 +18,19 @@ from datetime import date
 
 import numpy as np
 
-from logbook.analysis.arrays import (
+from logbook.analysis.timeline import (
     DAY_BITS,
     NEVER,
     FitmentTable,
     MeterTable,
+    Timeline,
     codes,
     floats,
     ordinals,
 )
-from logbook.analysis.calendar import MAX_HOURS_PER_DAY, hours_per_day
 from logbook.model import Event, EventKind
+
+MAX_HOURS_PER_DAY = 24.0
 
 
 def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Event], machine_index: dict[str, int],
@@ -74,12 +80,12 @@ def _median_slopes(days: np.ndarray, hours: np.ndarray) -> np.ndarray:
 
 def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted: Sequence[int], today: date,
                 window_days: int = 365, min_span_days: int = 28) -> dict[int, float | None]:  # fmt: skip
-    """Hours per day of the ``wanted`` machine codes (None where ``hours_per_day`` gives None)."""
+    """Hours per day of the ``wanted`` machine codes (None where the points give none: see the module docstring)."""
     out: dict[int, float | None] = {m: None for m in wanted}
     t = today.toordinal()
     want = np.zeros(max([*wanted, int(machine.max(initial=-1))]) + 2, dtype=bool)
     want[list(wanted)] = True
-    keep = want[machine] & (day <= t)
+    keep = want[machine] & (day <= t) & np.isfinite(hours)
     m, d, h = machine[keep], day[keep], hours[keep]
     order = np.argsort((m << DAY_BITS) + d, kind="stable")  # by machine, then day
     m, d, h = m[order], d[order].astype(float), h[order]
@@ -87,7 +93,6 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
         return out
     starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
     ends = np.r_[starts[1:], len(m)]
-    bad = np.logical_or.reduceat(~(np.isfinite(h) & np.isfinite(d)), starts)
     recent = d >= t - window_days
     n_rec = np.add.reduceat(recent.astype(np.int64), starts)
     first_rec = starts + (ends - starts - n_rec)  # points are in day order: the recent ones come last
@@ -99,13 +104,13 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
     count = ends - lo
     codes_ = m[starts]
     slope = np.full(len(starts), np.nan)
-    theil = (use_rec | use_all) & ~bad
+    theil = use_rec | use_all
     for n in np.unique(count[theil]).tolist():
         rows = np.flatnonzero(theil & (count == n))
         cols = lo[rows, None] + np.arange(n)[None, :]
         slope[rows] = _median_slopes(d[cols], h[cols])
     slope = np.clip(slope, 0.0, MAX_HOURS_PER_DAY)
-    few = ~theil & ~bad & (ends - starts >= 2) & (span_all > 0)
+    few = ~theil & (ends - starts >= 2) & (span_all > 0)
     group = np.repeat(np.arange(len(starts)), ends - starts)
     h_last = np.maximum.reduceat(np.where(d == d[ends - 1][group], h, -np.inf), starts)  # in (day, hours) order
     h_first = np.minimum.reduceat(np.where(d == d[starts][group], h, np.inf), starts)
@@ -113,9 +118,25 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
         straight = np.clip((h_last - h_first) / span_all, 0.0, MAX_HOURS_PER_DAY)
     slope = np.where(few, straight, slope)
     for g, code in enumerate(codes_.tolist()):
-        if bad[g]:  # not all finite: the one-machine definition
-            pts = [(date.fromordinal(int(x)), y) for x, y in zip(d[starts[g] : ends[g]], h[starts[g] : ends[g]].tolist())]
-            out[code] = hours_per_day(pts, today, window_days, min_span_days)
-        elif theil[g] or few[g]:
+        if theil[g] or few[g]:
             out[code] = float(slope[g])
     return out
+
+
+def machine_utilisation(timeline: Timeline, machines: Sequence[str], today: date) -> dict[str, float | None]:
+    """Hours per day of the named machines (None where the points give none)."""
+    points = machine_points(timeline.fits, timeline.meters, timeline.events, timeline.machine_index, timeline.fit,
+                            timeline.day, timeline.meter, timeline.cont)  # fmt: skip
+    wanted = sorted({timeline.machine_index.setdefault(m, len(timeline.machine_index)) for m in machines})
+    names = {c: m for m, c in timeline.machine_index.items()}
+    return {names[c]: v for c, v in utilisation(*points, wanted, today).items()}
+
+
+def days_ahead(remaining: np.ndarray, per_day: np.ndarray) -> np.ndarray:
+    """Whole days from today until (S, Q) remaining hours (NaN = none) have run at ``per_day`` (S,) hours
+    a day, rounded up; -1 for no date (no hours, no utilisation, or beyond 200 years)."""
+    with np.errstate(invalid="ignore", divide="ignore"):
+        days = remaining / per_day[:, None]
+        ok = np.isfinite(remaining) & (per_day[:, None] > 0) & ~(days > 366 * 200)
+        step = np.ceil(np.where(ok, days, 0.0) - 1e-9)
+    return np.where(ok, step, -1).astype(np.int64)

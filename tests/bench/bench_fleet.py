@@ -26,7 +26,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # the repository, 
 from logbook.analysis import fleet as fleet_module
 from logbook.analysis.fit import fit_batch
 from logbook.analysis.forecast import forecast_batch
-from tests.reference_pack import (
+from tests.reference.forecast import (
     reference_fleet_batch,
     reference_forecast_fleet,
 )

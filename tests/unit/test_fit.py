@@ -6,7 +6,7 @@ import statsmodels.api as sm
 
 from logbook.analysis.batch import FALLING, RISING, TrendBatch, ols_line
 from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_STEP, EXPONENTIAL, LINEAR, FitOptions, fit_batch
-from logbook.analysis.fleet import fit_detail
+from tests.reference.forecast import fit_detail
 from logbook.analysis.forecast import forecast_batch, t_cdf_fast
 
 # NIST StRD Linear Least Squares "Norris" (itl.nist.gov/div898/strd/lls/data/Norris.shtml), (y, x)

@@ -21,7 +21,7 @@ import pytest
 import demo_fleet
 from logbook.analysis.fit import FitOptions
 from logbook.analysis.fleet import forecast_fleet, forecast_histories, forecast_in_fleet
-from tests.reference_pack import (
+from tests.reference.forecast import (
     reference_forecast_fleet,
     reference_forecast_histories,
     reference_utilisation,

@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from logbook.analysis.calendar import date_after_hours, hours_per_day, machine_hour_points
-from logbook.analysis.hours import continuous_hours, pump_hours
-from logbook.analysis.segments import build_series, segment_start
 from logbook.model import Event, EventKind, Fitment, Kind, Limit, Pump, PumpHistory, PumpModel, Reading
+from tests.reference.calendar import date_after_hours, hours_per_day, machine_hour_points
+from tests.reference.hours import continuous_hours, pump_hours
+from tests.reference.segments import build_series, segment_start
 
 D = date(2024, 1, 1)
 REPLACE = Event(id=1, kind=EventKind.METER_REPLACED, happened_on=D + timedelta(days=100), machine="EX-1",

@@ -41,7 +41,7 @@ def _ctx() -> Context:
 
 
 def _table_serials(table) -> list[str]:
-    return list(table.columns[0]._cells)
+    return [str(cell) for cell in table.columns[0]._cells]  # plain text of each cell
 
 
 def _by_hand(pumps) -> list[str]:

@@ -1,21 +1,25 @@
-"""A fleet's records as numpy columns, and pump hours for many readings at once.
+"""Step 1 of the engine, the timeline: fitments, hour meters and readings as numpy columns.
 
-The same rules as ``logbook.meter`` (which stays the one-record definition): the
-fitment that held on a day is the newest one fitted by then and not yet removed;
-continuous machine hours add up the hours lost at each meter replacement before the
-day (on the replacement day itself, the nearer meter decides); pump hours are the
-pump's hours at fitting plus the continuous machine hours run since.
+Rules (``logbook.meter`` words them for the record checks; the same-day meter rule is
+its ``read_on_new_meter``): the fitment that held a pump on a day is the newest one
+fitted by then and not yet removed; continuous machine hours add up the hours lost at
+each meter replacement before the day (on the replacement day itself, the nearer meter
+decides); pump hours are the pump's hours at fitting plus the continuous machine hours
+run since; a reading outside every fitment counts the meter itself. Pump hours at an
+event come from its meter reading when the pump sat in that machine, else by date
+between the pump's known points (fittings, removals, readings), never running back.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from datetime import date
+from operator import attrgetter
 
 import numpy as np
 
 from logbook.meter import read_on_new_meter
-from logbook.model import Event, EventKind, Fitment
+from logbook.model import Event, EventKind, Fitment, Reading
 
 DAY_BITS = 21  # day ordinals (to year 5741) fit below 2**21: key = index * 2**21 + day
 NEVER = (1 << DAY_BITS) - 1  # removed_on of a fitment still in place
@@ -152,3 +156,108 @@ class FitmentTable:
         ok = (self.removed != NEVER) & np.isfinite(self.meter_at_removal) & (self.fitted <= self.removed)
         hours, _ = self.pump_hours(np.arange(len(self.items)), np.where(ok, self.removed, self.fitted), self.meter_at_removal)
         return np.where(ok, hours, np.nan)
+
+
+VALUE_FIELDS = ("case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar")  # in ALL_KINDS order
+_NUMBERS = ("machine_hours", *VALUE_FIELDS, "oil_temp_c", "test_pressure_bar", "oil_grade", "oil_vi", "superseded_by")
+
+
+class Timeline:
+    """Fitments, meter replacements and readings of a fleet as columns, and the pump hours of every reading."""
+
+    def __init__(self, fitments: Sequence[Fitment], readings: Sequence[Reading], events: Sequence[Event]):
+        self.serial_index: dict[str, int] = {}
+        self.machine_index: dict[str, int] = {}
+        self.events = events
+        self.meters = MeterTable(events, self.machine_index)
+        self.fits = FitmentTable(fitments, self.serial_index, self.machine_index, self.meters)
+        self.readings = readings
+        self._read_columns(readings)
+        self.fit = self.fits.on(self.serial, self.day)
+        hours, self.cont = self.fits.pump_hours(self.fit, self.day, self.meter)
+        self.hours = np.where(self.fit >= 0, hours, self.meter)  # the meter itself where no fitment held
+        self._by_pump: tuple[np.ndarray, np.ndarray] | None = None
+        self._removal: np.ndarray | None = None
+
+    def _read_columns(self, readings: Sequence[Reading]) -> None:
+        n = len(readings)
+        serials = list(map(attrgetter("serial"), readings))
+        for s in set(serials).difference(self.serial_index):
+            self.serial_index[s] = len(self.serial_index)
+        self.serial = np.fromiter(map(self.serial_index.__getitem__, serials), dtype=np.int64, count=n)
+        self.day = np.fromiter(map(date.toordinal, map(attrgetter("taken_on"), readings)), dtype=np.int64, count=n)
+        rows = list(map(attrgetter(*_NUMBERS), readings))  # one pass over the records for all the numbers
+        table = np.array(rows, dtype=float).reshape(n, len(_NUMBERS))
+        self.meter, self.temp, self.dp, self.grade, self.vi = (table[:, i].copy() for i in (0, 4, 5, 6, 7))
+        self.values = [table[:, 1 + k].copy() for k in range(3)]
+        self.latest = np.isnan(table[:, 8])  # not superseded by a correction (ids are never NaN)
+        self.given = [~np.isnan(v) for v in self.values]
+        row, col = np.nonzero(np.isnan(table[:, 1:4]))
+        if len(row):  # a value given as NaN (not None) is a reading all the same
+            given = np.fromiter((rows[i][1 + k] is not None for i, k in zip(row.tolist(), col.tolist())), bool,
+                                count=len(row))  # fmt: skip
+            for i, k in zip(row[given].tolist(), col[given].tolist()):
+                self.given[k][i] = True
+
+    def pump_codes(self, serials: Sequence[str]) -> list[int]:
+        """Code of each serial (new codes for serials without records)."""
+        return [self.serial_index.setdefault(serial, len(self.serial_index)) for serial in serials]
+
+    def event_pump_hours(self, events: Sequence[Event], use: np.ndarray | None = None) -> np.ndarray:
+        """Pump hours at each event (NaN where unknown): from its meter reading when the pump sat in the
+        event's machine that day, else by date between the pump's known points (readings where ``use``)."""
+        if not events:
+            return np.zeros(0)
+        fits = self.fits
+        serial = np.array([self.serial_index.get(e.serial, -1) for e in events], dtype=np.int64)
+        day = ordinals([e.happened_on for e in events])
+        meter = floats([e.hours for e in events])
+        fit = fits.on(serial, day)
+        machine = codes([e.machine for e in events], self.machine_index)
+        direct = ~np.isnan(meter) & (fit >= 0) & ((machine < 0) | (machine == fits.machine_of(fit)))
+        hours, _ = fits.pump_hours(fit, day, np.nan_to_num(meter))
+        out = np.where(direct, hours, np.nan)
+        for j in np.flatnonzero(~direct & (serial >= 0)).tolist():  # rare: interpolate by date
+            out[j] = self._hours_by_date(int(serial[j]), int(day[j]), use)
+        return out
+
+    def highest_pump_hours(self, use: np.ndarray | None = None) -> np.ndarray:
+        """Per serial code: the most pump hours known (readings where ``use``, fittings, removals with a
+        meter reading); NaN for none."""
+        out = np.full(len(self.serial_index), -np.inf)
+        reads = np.ones(len(self.serial), dtype=bool) if use is None else use
+        np.maximum.at(out, self.serial[reads], self.hours[reads])
+        np.maximum.at(out, self.fits.serial, self.fits.pump_at_fit)
+        removal = self._removal_hours()
+        known = ~np.isnan(removal)
+        np.maximum.at(out, self.fits.serial[known], removal[known])
+        return np.where(np.isneginf(out), np.nan, out)
+
+    def _removal_hours(self) -> np.ndarray:
+        if self._removal is None:
+            self._removal = self.fits.removal_pump_hours()
+        return self._removal
+
+    def _hours_by_date(self, serial: int, day: int, use: np.ndarray | None) -> float:
+        """Pump hours of pump ``serial`` on ``day`` by straight-line interpolation between its known points
+        (fittings, removals with a meter reading, readings), their hours made non-decreasing in date order."""
+        fits = self.fits
+        mine = np.flatnonzero(fits.serial == serial)
+        removal = self._removal_hours()[mine]
+        reads = self._readings_of(serial)
+        if use is not None:
+            reads = reads[use[reads]]
+        days = np.concatenate([fits.fitted[mine], fits.removed[mine][~np.isnan(removal)], self.day[reads]])
+        hours = np.concatenate([fits.pump_at_fit[mine], removal[~np.isnan(removal)], self.hours[reads]])
+        if not len(days):
+            return np.nan
+        order = np.lexsort((hours, days))
+        return float(np.interp(day, days[order].astype(float), np.maximum.accumulate(hours[order])))
+
+    def _readings_of(self, serial: int) -> np.ndarray:
+        if self._by_pump is None:
+            order = np.argsort(self.serial, kind="stable")
+            self._by_pump = order, self.serial[order]
+        order, sorted_serial = self._by_pump
+        lo, hi = np.searchsorted(sorted_serial, [serial, serial + 1])
+        return order[lo:hi]

@@ -1,9 +1,9 @@
-"""Machine utilisation (operating hours per calendar day) and hours turned into dates.
+"""Reference: machine utilisation (operating hours per calendar day) and hours turned into dates, one machine at a time.
 
 Utilisation is the Theil-Sen slope (median of pairwise slopes; Sen, JASA 1968) of
 continuous machine hours against date over the last ``window_days``, so that a long
 gap, a meter typo or a quiet month does not swing it; with too little recent history
-the whole history is used. ``utilisation`` computes the same for many machines at once.
+the whole history is used. Points that are not finite numbers are left out.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ from datetime import date, timedelta
 import numpy as np
 from scipy import stats
 
-from logbook.analysis.hours import continuous_hours, fitment_on
+from tests.reference.hours import continuous_hours, fitment_on
 from logbook.model import Event, EventKind, Fitment, Reading
 
 MAX_HOURS_PER_DAY = 24.0
@@ -59,7 +59,7 @@ def hours_per_day(
     points: Iterable[tuple[date, float]], today: date, window_days: int = 365, min_span_days: int = 28
 ) -> float | None:
     """Robust utilisation, hours/day (0-24), from (date, continuous hours) points; None if under 2 days apart."""
-    pts = sorted(p for p in points if p[0] <= today)
+    pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
     if len(pts) < 2:
         return None
     days = np.array([d.toordinal() for d, _ in pts], dtype=float)

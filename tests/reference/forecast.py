@@ -1,10 +1,10 @@
-"""Reference forecast of a fleet: the simple per-pump packing, kept only as a yardstick for tests.
+"""Reference forecast of a fleet, one pump at a time: the specification of the engine's array steps.
 
-This is the forecast as it was before the array packing of ``fleet.py``: one
-``PumpHistory`` per pump, ``build_series`` per pump and kind, ``TrendBatch.pack``, and
-one ``KindForecast`` at a time. Slow (milliseconds a pump) but easy to read; the test
-``tests/unit/test_fleet_equivalence.py`` checks the fast path against it. Not for use
-outside the tests and the benchmark.
+One ``PumpHistory`` per pump, ``segments.build_series`` per pump and kind, the batch
+fit and forecast of the engine (``TrendBatch.pack``, ``fit_batch``, ``forecast_batch``:
+the core both share), then one ``KindForecast`` at a time with this package's
+utilisation, dates, worst kind and status. ``tests/unit/test_fleet_equivalence.py``
+checks the engine against it.
 """
 
 from __future__ import annotations
@@ -15,30 +15,38 @@ from datetime import date
 import numpy as np
 
 from logbook.analysis.batch import FALLING, RISING, TrendBatch
-from logbook.analysis.calendar import (
-    date_after_hours,
-    hours_per_day,
-    machine_hour_points,
-)
 from logbook.analysis.fit import (
+    B_JUMP,
+    B_OUTLIER,
+    B_POOLED,
+    B_STEP,
     PATH_NAMES,
     BatchFit,
     FitOptions,
     fit_batch,
 )
-from logbook.analysis.fleet import _FLAGS, _OUTCOMES, DEFAULT_HORIZON_HOURS, fit_detail
+from logbook.analysis.fleet import DEFAULT_HORIZON_HOURS
 from logbook.analysis.forecast import BatchForecast, forecast_batch
 from logbook.analysis.results import (
+    FLAG_JUMP,
+    FLAG_OUTLIER,
+    FLAG_POOLED,
+    FLAG_STEP,
     FitDetail,
     FleetForecast,
     KindForecast,
     Outcome,
     PumpForecast,
 )
-from logbook.analysis.segments import Series, build_series, reading_pump_hours
-from logbook.analysis.status import StatusThresholds, pump_status
+from logbook.analysis.status import StatusThresholds
 from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
+from tests.reference.calendar import date_after_hours, hours_per_day, machine_hour_points
+from tests.reference.segments import Series, build_series, reading_pump_hours
+from tests.reference.status import pump_status
 
+#: forecast.O_* codes in order, and the fit's flag bits with their names
+OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
+FLAGS = ((B_OUTLIER, FLAG_OUTLIER), (B_STEP, FLAG_STEP), (B_POOLED, FLAG_POOLED), (B_JUMP, FLAG_JUMP))
 
 
 @dataclass
@@ -57,6 +65,7 @@ def _histories(fleet: Fleet, model: str | None = None) -> list[PumpHistory]:
 
 
 def _direction(kind: Kind, limit: Limit | None) -> int:
+    """Toward a lower limit the value falls; without a limit servo pressure falls, the others rise."""
     if limit is not None:
         return FALLING if limit.direction == "below" else RISING
     return FALLING if kind is Kind.SERVO_PRESSURE else RISING
@@ -155,10 +164,10 @@ def _last_overhaul_hours(row: _Row) -> float:
 
 def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day):
     s = row.series
-    outcome = _OUTCOMES[int(fc.outcome[i])]
+    outcome = OUTCOMES[int(fc.outcome[i])]
     if outcome is Outcome.NO_DATA and s.readings_before:
         outcome = Outcome.TOO_FEW
-    flags = frozenset(name for bit, name in _FLAGS if fit.flags[i] & bit)
+    flags = frozenset(name for bit, name in FLAGS if fit.flags[i] & bit)
     rem = [None if not np.isfinite(v) else float(v) for v in fc.remaining[i]]
     if outcome not in (Outcome.CROSSING, Outcome.NO_CROSSING):
         rem = [None, None, None]
@@ -190,6 +199,28 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
 
 def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:
     return fit_detail(fit, i, s.x_hours, s.y_value)
+
+
+def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
+    """The chosen path of one batch row as a FitDetail (for charts); None without a fitted line."""
+    if fit.path[row] == 0 or not np.isfinite(fit.b[row]):
+        return None
+    n = len(x_hours)
+    order = np.argsort(np.asarray(x_hours, dtype=float), kind="stable")  # batch columns are in x order
+    used = np.zeros(n, dtype=bool)
+    used[order] = fit.used[row, :n]
+    sigma = float(fit.sigma[row]) if np.isfinite(fit.sigma[row]) else 0.0
+    c00, c01, c11 = float(fit.c00[row]), float(fit.c01[row]), float(fit.c11[row])
+    return FitDetail(
+        x_hours=tuple(float(v) for v in x_hours),
+        y_value=tuple(float(v) for v in y_value),
+        used=tuple(bool(u) for u in used),
+        path=PATH_NAMES[int(fit.path[row])],
+        params=(float(fit.a[row]), float(fit.b[row])),
+        cov=((c00, c01), (c01, c11)),
+        sigma=sigma,
+        dof=int(min(fit.dof[row], 10**6)),
+    )
 
 
 def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
@@ -242,4 +273,4 @@ def _site(pf: PumpForecast, site: str) -> PumpForecast:
     return replace(pf, site=site)
 
 
-__all__ = ["reference_fleet_batch", "reference_forecast_fleet", "reference_forecast_histories", "reference_pack", "reference_utilisation"]
+__all__ = ["fit_detail", "reference_fleet_batch", "reference_forecast_fleet", "reference_forecast_histories", "reference_pack", "reference_utilisation"]

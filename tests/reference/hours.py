@@ -1,4 +1,4 @@
-"""Pump operating hours from machine hour meters, fitments and meter replacements.
+"""Reference: pump operating hours from machine hour meters, fitments and meter replacements, one record at a time.
 
 A machine's meter may be replaced: ``Event.hours`` is the old meter's last reading and
 ``Event.to_hours`` the new meter's first. Continuous machine hours add up the jumps,
