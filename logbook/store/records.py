@@ -47,22 +47,22 @@ def _values(r: Reading) -> tuple:
             r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.iso4406)
 
 
-@dataclasses.dataclass(frozen=True)
-class _Stored:
-    """A stored reading or event that a new row may repeat."""
-
-    id: int
-    values: tuple  # with the key, its identity: measured values (readings), where a move went (events)
-    texts: tuple[str, str]  # technician, note: free text, not part of the identity
-    machine: str | None
-    kept: str | None  # None while current; "corrected" or "removed" for a kept original
+# A stored reading or event that a new row may repeat, kept as the tuple it is read in (big files
+# bring one for every stored row of their pumps): (key..., id, values..., technician, note, machine, kept).
+# ``values`` make its identity with the key: measured values (readings), where it went (events);
+# technician and note are free text; ``kept`` is None while current, else "corrected" or "removed".
+#: Where the id sits in that tuple.
+_ID_AT = {"readings": 3, "events": 0}
 
 
-def _same_record(stored: Sequence[_Stored], values: tuple, texts: tuple[str, str], machine: str | None) -> _Stored | None:
+def _same_record(stored: Sequence[tuple], at: int, values: tuple, texts: tuple[str, str], machine: str | None
+                 ) -> tuple | None:
     """The stored record a new row repeats (same key and values, and the machine if the row names one):
     a current one with the same text first, then a kept original with the same text, then one whose text differs."""
-    same = [s for s in stored if s.values == values and machine in (None, s.machine)]
-    return min(same, key=lambda s: (s.texts != texts, s.kept is not None), default=None)
+    same = [s for s in stored if s[at + 1:-4] == values and machine in (None, s[-2])]
+    if len(same) == 1:
+        return same[0]
+    return min(same, key=lambda s: (s[-4:-2] != texts, s[-1] is not None), default=None)
 
 
 _DESTINATION = ("to_machine", "to_position", "to_hours")
@@ -92,19 +92,20 @@ class RecordsMixin:
     that record was corrected or removed since, so a re-import never undoes either.
     Technician and note are free text: a difference is reported, the stored text stays."""
 
-    def _repeats(self, table: str, stored: Sequence[_Stored], values: tuple, texts: tuple[str, str], machine: str | None,
+    def _repeats(self, table: str, stored: Sequence[tuple], values: tuple, texts: tuple[str, str], machine: str | None,
                  line: int | None, given: str, notes: list[str]) -> bool:
         """Whether a new row repeats a stored record (then it is already present); adds to ``notes``
         what to tell about it: a kept original, a technician or note that differs."""
-        s = _same_record(stored, values, texts, machine)
+        s = _same_record(stored, _ID_AT[table], values, texts, machine)
         if s is None:
             return False
-        diffs = [f"{name} differs: stored {old!r}, {given} {new!r}"
-                 for name, old, new in zip(("technician", "note"), s.texts, texts) if old != new]
-        if s.kept is not None or diffs:
-            text = "already present" + (f" ({self._kept_since(table, s.id, s.kept)})" if s.kept else "")
+        kept = s[-1]
+        if kept is not None or s[-4:-2] != texts:
+            diffs = [f"{name} differs: stored {old!r}, {given} {new!r}"
+                     for name, old, new in zip(("technician", "note"), s[-4:-2], texts) if old != new]
+            text = "already present" + (f" ({self._kept_since(table, s[_ID_AT[table]], kept)})" if kept else "")
             text += "".join(f"; {d}" for d in diffs)
-            text += " - " + ", ".join(what for what, why in (("not added again", s.kept), ("not changed", diffs)) if why)
+            text += " - " + ", ".join(what for what, why in (("not added again", kept), ("not changed", diffs)) if why)
             notes.append(_where(line, text))
         return True
 
@@ -139,19 +140,21 @@ class RecordsMixin:
         def write(checked: Checked) -> None:
             ids.extend(self._write_readings(checked.items, source))
 
-        checked, _ = self._check_then_write(lambda: self._check_readings(readings, today, lines, from_file=source is not None), write, dry_run=dry_run)
+        checked, _ = self._check_then_write(lambda: self._check_readings(readings, today, lines, from_file=source is not None),
+                                            write, dry_run=dry_run)
         added = 0 if checked.problems else len(checked.items)
         return ImportReport("readings", added=added, already_present=checked.present, problems=checked.problems,
                             flagged=checked.notes, dry_run=dry_run, ids=ids)
 
     def _stored_readings(self, readings: Sequence[Reading], without: Sequence[int] = (), *, kept: bool = False
-                         ) -> dict[tuple, list[_Stored]]:
+                         ) -> dict[tuple, tuple[tuple, ...]]:
         """(serial, date text, machine_hours) -> the stored readings with that key among the pumps
         of ``readings``: the current ones and, with ``kept``, corrected and removed ones too
         (looked up key by key for a few readings). ``without``: ids left out."""
         skip = set(without)
-        select = (f"SELECT id, serial, taken_on, machine_hours, {', '.join(_VALUE_FIELDS)}, technician, note, machine, "
-                  "superseded_by, removed_reason FROM readings WHERE ")
+        select = (f"SELECT serial, taken_on, machine_hours, id, {', '.join(_VALUE_FIELDS)}, technician, note, machine, "
+                  "CASE WHEN superseded_by IS NOT NULL THEN 'corrected' WHEN removed_reason IS NOT NULL THEN 'removed' END "
+                  "FROM readings WHERE ")
         current = "" if kept else " AND superseded_by IS NULL AND removed_reason IS NULL"
         if len(readings) <= 20:
             keys = {(r.serial, r.taken_on.isoformat(), r.machine_hours) for r in readings}
@@ -160,14 +163,12 @@ class RecordsMixin:
         else:
             rows = self.conn.execute(select + "serial IN (SELECT value FROM json_each(?))" + current,
                                      (json.dumps(sorted({r.serial for r in readings})),))
-        found: dict[tuple, list[_Stored]] = defaultdict(list)
-        n = len(_VALUE_FIELDS)
+        found: dict[tuple, tuple] = {}
+        get = found.get
         for row in rows:
-            if row[0] in skip:
-                continue
-            superseded, removed = row[-2:]
-            state = "corrected" if superseded is not None else "removed" if removed is not None else None
-            found[row[1:4]].append(_Stored(row[0], tuple(row[4:4 + n]), (row[4 + n], row[5 + n]), row[6 + n], state))
+            if row[3] not in skip:
+                key = row[:3]
+                found[key] = get(key, ()) + (row,)
         return found
 
     def _check_readings(
@@ -198,15 +199,16 @@ class RecordsMixin:
             if self._repeats("readings", here, _values(r), (r.technician, r.note), r.machine, line, given, notes):
                 present += 1  # recorded before: nothing to check, nothing to write
                 continue
-            clash = next((s for s in here if s.kept is None), None)
+            clash = next((s for s in here if s[-1] is None), None)
             if clash is not None:
+                clash_id = clash[_ID_AT["readings"]]
                 differ = ", ".join(f"{name} stored {_shown(old)}, {given} {_shown(new)}"
-                                   for name, old, new in zip(_VALUE_FIELDS, clash.values, _values(r)) if old != new)
+                                   for name, old, new in zip(_VALUE_FIELDS, clash[4:-4], _values(r)) if old != new)
                 problems.append(Problem(
                     "serial/date/machine_hours", f"{r.serial} {r.taken_on} {r.machine_hours:g}",
-                    f"a reading with other values is already recorded (id {clash.id}: "
-                    f"{differ or f'machine stored {clash.machine}, {given} {r.machine}'}); "
-                    f"correct it with `logbook correct {clash.id}` so the original is kept", line=line,
+                    f"a reading with other values is already recorded (id {clash_id}: "
+                    f"{differ or f'machine stored {clash[-2]}, {given} {r.machine}'}); "
+                    f"correct it with `logbook correct {clash_id}` so the original is kept", line=line,
                 ))
                 continue
             row_problems: list[Problem] = []
@@ -315,13 +317,13 @@ class RecordsMixin:
         return ImportReport("events", added=added, already_present=checked.present, problems=checked.problems,
                             flagged=checked.notes, dry_run=dry_run, ids=ids)
 
-    def _stored_events(self, *, kept: bool) -> dict[tuple, list[_Stored]]:
+    def _stored_events(self, *, kept: bool) -> dict[tuple, list[tuple]]:
         """(kind, date, serial, hours) -> the stored events with that key: the current ones and,
         with ``kept``, removed ones too."""
-        found: dict[tuple, list[_Stored]] = defaultdict(list)
+        found: dict[tuple, list[tuple]] = defaultdict(list)
         for e in self.events(include_removed=kept):
-            found[(e.kind, e.happened_on, e.serial, e.hours)].append(_Stored(
-                e.id, _destination(e), (e.technician, e.note), e.machine, "removed" if e.removed_reason is not None else None))
+            found[(e.kind, e.happened_on, e.serial, e.hours)].append(
+                (e.id, *_destination(e), e.technician, e.note, e.machine, "removed" if e.removed_reason is not None else None))
         return found
 
     def _check_events(self, events: Sequence[Event], today: date, lines: Sequence[int] | None, *,
@@ -353,13 +355,13 @@ class RecordsMixin:
             if self._repeats("events", here, _destination(e), (e.technician, e.note), e.machine, line, given, notes):
                 present += 1  # recorded before: nothing to check, nothing to write
                 continue
-            clash = next((s for s in here if s.kept is None and e.machine in (None, s.machine)), None)
+            clash = next((s for s in here if s[-1] is None and e.machine in (None, s[-2])), None)
             if clash is not None:
-                name, old, new = next((n, a, b) for n, a, b in zip(_DESTINATION, clash.values, _destination(e)) if a != b)
+                name, old, new = next((n, a, b) for n, a, b in zip(_DESTINATION, clash[1:-4], _destination(e)) if a != b)
                 problems.append(Problem(
                     name, new if new is not None else "",
-                    f"a {e.kind.value} with other values is already recorded (event {clash.id}: {name} stored {_shown(old)}); "
-                    f"to record it otherwise, remove that one with `logbook remove event {clash.id} --reason ...` first",
+                    f"a {e.kind.value} with other values is already recorded (event {clash[0]}: {name} stored {_shown(old)}); "
+                    f"to record it otherwise, remove that one with `logbook remove event {clash[0]} --reason ...` first",
                     line=line,
                 ))
                 continue
