@@ -16,10 +16,6 @@ import numpy as np
 
 from logbook.analysis.batch import FALLING, RISING, TrendBatch
 from logbook.analysis.fit import (
-    B_JUMP,
-    B_OUTLIER,
-    B_POOLED,
-    B_STEP,
     PATH_NAMES,
     BatchFit,
     FitOptions,
@@ -27,11 +23,8 @@ from logbook.analysis.fit import (
 )
 from logbook.analysis.fleet import DEFAULT_HORIZON_HOURS
 from logbook.analysis.forecast import BatchForecast, forecast_batch
+from logbook.analysis.records import FLAGS, OUTCOMES  # tables of names for the batch's codes, not rules
 from logbook.analysis.results import (
-    FLAG_JUMP,
-    FLAG_OUTLIER,
-    FLAG_POOLED,
-    FLAG_STEP,
     FitDetail,
     FleetForecast,
     KindForecast,
@@ -43,10 +36,6 @@ from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
 from tests.reference.calendar import date_after_hours, hours_per_day, machine_hour_points
 from tests.reference.segments import Series, build_series, reading_pump_hours
 from tests.reference.status import pump_status
-
-#: forecast.O_* codes in order, and the fit's flag bits with their names
-OUTCOMES = [Outcome.NO_DATA, Outcome.NO_LIMIT, Outcome.PAST_LIMIT, Outcome.TOO_FEW, Outcome.CROSSING, Outcome.NO_CROSSING]
-FLAGS = ((B_OUTLIER, FLAG_OUTLIER), (B_STEP, FLAG_STEP), (B_POOLED, FLAG_POOLED), (B_JUMP, FLAG_JUMP))
 
 
 @dataclass

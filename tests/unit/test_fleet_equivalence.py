@@ -1,8 +1,8 @@
-"""The array packing of forecast_fleet gives the same forecasts as the per-pump packing it replaced.
+"""The array engine gives the forecasts that its specification, written one pump at a time, gives.
 
-Reference: ``logbook.analysis.reference_pack`` keeps the per-pump code as it was before
-the array packing (one PumpHistory, build_series and KindForecast at a time), and this
-test computes the expected forecasts with it, in the test, on the same fleet: the demo
+Reference: ``tests/reference/`` writes the rules out per pump (one PumpHistory,
+build_series and KindForecast at a time; utilisation, dates, status per machine and
+pump), and this test computes the expected forecasts with it, on the same fleet: the demo
 fleet and invented fleets full of the awkward cases (overhauls with and without a meter
 reading, same-day readings and events, neutral resets, moves, meter replacements,
 corrections, other oils, readings while not fitted). Every field must match: dates,
@@ -20,7 +20,8 @@ import pytest
 
 import demo_fleet
 from logbook.analysis.fit import FitOptions
-from logbook.analysis.fleet import forecast_fleet, forecast_histories, forecast_in_fleet
+from logbook.analysis.fleet import forecast_fleet, forecast_histories, forecast_in_fleet, forecast_pump
+from tests.reference.calendar import hours_per_day, machine_hour_points
 from tests.reference.forecast import (
     reference_forecast_fleet,
     reference_forecast_histories,
@@ -241,6 +242,22 @@ def test_forecast_histories_and_one_pump_in_its_fleet():
     want = reference_forecast_fleet(fleet, TODAY)
     for serial in ("P004", "P017"):
         assert_same(forecast_in_fleet(fleet, serial, TODAY).kinds, want.pump(serial).kinds)
+
+
+@pytest.mark.parametrize("seed", [1, 9])
+def test_one_pump_is_the_engine_on_arrays_of_length_one(seed):
+    fleet = edge_fleet(seed, pumps=40)
+    checked = 0
+    for history in fleet.histories():
+        current = next((f for f in history.fitments if f.removed_on is None), None)
+        if current is None or not history.readings:
+            continue
+        points = machine_hour_points(history.fitments, history.readings, history.events).get(current.machine, [])
+        util = {current.machine: hours_per_day(points, TODAY)}
+        (want,) = reference_forecast_histories([history], TODAY, util, options=FitOptions(pool=False))
+        assert_same(forecast_pump(history, TODAY), want, history.pump.serial)
+        checked += 1
+    assert checked > 20
 
 
 def test_the_cases_are_present():
