@@ -290,8 +290,12 @@ class RecordsMixin:
         if report.problems:
             raise InputRejected(report.problems)
         if report.already_present:
-            raise InputRejected([Problem("reading", f"{reading.serial} {reading.taken_on}", "is already recorded with the same values"
-                                         + _text_hint(report.flagged, "change it with `logbook correct ID --technician/--note`"))])
+            hint = ""
+            if report.flagged:  # the text differs: say how to change the stored reading's
+                (stored,) = self._stored_readings([reading]).values()
+                hint = _text_hint(report.flagged, f"change it with `logbook correct {stored[0][_ID_AT['readings']]}`")
+            raise InputRejected([Problem("reading", f"{reading.serial} {reading.taken_on}",
+                                         "is already recorded with the same values" + hint)])
         return self.reading(report.ids[0])
 
     # -- events --------------------------------------------------------------------

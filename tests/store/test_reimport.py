@@ -159,6 +159,6 @@ def test_an_events_file_with_a_move_imports_again_as_already_present(store):
 def test_a_reading_typed_again_with_other_text_says_what_differs(store):
     r = store.readings("S-200")[0]
     again = dataclasses.replace(r, id=None, machine=None, entered_by="", entered_at=None, technician="B. Ben")
-    with pytest.raises(InputRejected, match=r"technician differs: stored 'Ben', given 'B. Ben'.*logbook correct"):
+    with pytest.raises(InputRejected, match=rf"technician differs: stored 'Ben', given 'B. Ben'.*`logbook correct {r.id}`"):
         store.add_reading(again, today=TODAY)
     assert store.readings("S-200") == [r]
