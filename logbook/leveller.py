@@ -61,8 +61,9 @@ def choice_allowed(job: Job, month: int, limits: ShopLimits) -> bool:
 
 
 def spare_months(month: int, limits: ShopLimits) -> range:
-    """Months in which a job done in ``month`` keeps an exchange pump out of the pool."""
-    return range(month, min(month + max(limits.turnaround, 1), limits.months))
+    """Months in which a job done in ``month`` keeps an exchange pump out of the pool (none for a
+    turnaround of 0: the rebuilt pump is back as a spare within the month, as in the greedy pass)."""
+    return range(month, min(month + limits.turnaround, limits.months))
 
 
 def _penalty(jobs: Sequence[Job]) -> float:

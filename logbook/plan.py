@@ -27,16 +27,16 @@ three given quantiles are reproduced exactly.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from datetime import date, timedelta
-from statistics import NormalDist
 
 from logbook.analysis.results import FleetForecast, KindForecast, Outcome, PumpForecast
 from logbook.analysis.status import urgency_key
+from logbook.costing import Candidate, CostedPlan, PlanCosts, cost_plan, job_days
+from logbook.economics import split_lognormal_chance
+from logbook.leveller import ShopLimits
 from logbook.model import InputRejected, Kind, Problem
 
-_Z90 = NormalDist().inv_cdf(0.9)  # 1.2815515655446004
 
 #: What is done when each reading reaches its limit (common practice, no published source).
 ACTION_WORDS = {
@@ -91,20 +91,23 @@ def crossing_probability(kf: KindForecast, today: date, by: date) -> float | Non
     """
     if kf.outcome is Outcome.PAST_LIMIT:
         return 1.0
+    days = _p_days(kf, today)
+    if days is None:
+        return None
+    ahead = (by - today).days
+    if ahead <= 0:
+        return 0.0
+    return float(split_lognormal_chance(*days)(ahead))
+
+
+def _p_days(kf: KindForecast, today: date) -> tuple[float, float, float | None] | None:
+    """Days from ``today`` to the P10, P50 and P90 dates (P90 may be None)."""
     if kf.outcome is not Outcome.CROSSING or kf.p10_date is None or kf.p50_date is None:
         return None
-    days = (by - today).days
-    if days <= 0:
-        return 0.0
     d10 = max((kf.p10_date - today).days, 0.5)
     d50 = max((kf.p50_date - today).days, d10)
-    d90 = (kf.p90_date - today).days if kf.p90_date is not None else None
-    low_spread = (math.log(d50) - math.log(d10)) / _Z90
-    high_spread = (math.log(d90) - math.log(d50)) / _Z90 if d90 is not None and d90 > d50 else low_spread
-    spread = low_spread if days < d50 else high_spread
-    if spread <= 0:
-        return 1.0 if days >= d50 else 0.0
-    return NormalDist().cdf((math.log(days) - math.log(d50)) / spread)
+    d90 = float((kf.p90_date - today).days) if kf.p90_date is not None else None
+    return float(d10), float(d50), d90
 
 
 # ----------------------------------------------------------------- records
@@ -176,6 +179,9 @@ class PlanLine:
     shop: bool  # uses shop room and an exchange pump
     also_due: tuple[Kind, ...] = ()  # other readings likely to cross in the horizon
     note: str = ""
+    expected_cost: float | None = None  # of the planned month (None without costs)
+    cost_month_earlier: float | None = None  # expected cost had the job gone one month earlier
+    cost_month_later: float | None = None  # ... one month later (or after the horizon)
 
     @property
     def months_early(self) -> int | None:
@@ -213,6 +219,18 @@ class Plan:
     shop_load: dict[date, int]  # shop jobs per month
     site_load: dict[tuple[date, str], int]
     spares_out: dict[tuple[date, str], int]  # exchange pumps out of the pool per (month, model)
+    costs: CostedPlan | None = None  # money, when costs were given for every shop job
+    currency: str = ""
+    placement: str = "greedy"  # "greedy" (no costs) or "least expected cost" (the integer program)
+    placement_note: str = ""  # why the greedy pass placed the pumps although costs were given
+
+    def spend_per_month(self) -> dict[date, float]:
+        """Expected spend of the planned shop jobs per month (empty without costs)."""
+        out: dict[date, float] = {}
+        for line in self.lines:
+            if line.month is not None and line.expected_cost is not None and line.shop:
+                out[line.month] = out.get(line.month, 0.0) + line.expected_cost
+        return out
 
     def month_lines(self, month: date) -> tuple[PlanLine, ...]:
         return tuple(line for line in self.lines if line.month == month)
@@ -246,7 +264,8 @@ def _urgency(kf: KindForecast) -> tuple:
     return (1, kf.p10_date or date.max, kf.p50_date or date.max, 0.0)
 
 
-def _line(pf: PumpForecast, kf: KindForecast, due: list[KindForecast], today, month, target, shop, note) -> PlanLine:
+def _line(pf: PumpForecast, kf: KindForecast, due: list[KindForecast], today, month, target, shop, note,
+          expected_cost=None, cost_earlier=None, cost_later=None) -> PlanLine:
     start = month or target
     return PlanLine(
         serial=pf.serial,
@@ -270,6 +289,9 @@ def _line(pf: PumpForecast, kf: KindForecast, due: list[KindForecast], today, mo
         shop=shop,
         also_due=tuple(k.kind for k in due if k is not kf),
         note=note,
+        expected_cost=expected_cost,
+        cost_month_earlier=cost_earlier,
+        cost_month_later=cost_later,
     )
 
 
@@ -327,15 +349,8 @@ def _target(kf: KindForecast, settings: PlanSettings) -> date:
     return month_start(kf.p10_date)
 
 
-def make_plan(forecast: FleetForecast, settings: PlanSettings) -> Plan:
-    """Level the due pumps of ``forecast`` into the months of ``settings``.
-
-    Pass 1 takes pumps most urgent first, so the riskiest get room and the rest
-    overflow. Pass 2 re-places the pumps that fitted least urgent first, so that of
-    two pumps competing for a month the more urgent one is pulled forward; if pass 2
-    cannot place them all (spares and sites can make order matter) pass 1 stands.
-    """
-    today = forecast.today
+def _candidates(forecast: FleetForecast, settings: PlanSettings) -> list[tuple]:
+    """(urgency, serial, pump, driving kind, due kinds, needs the shop) for every due pump, most urgent first."""
     candidates = []
     for pf in forecast.pumps:
         due = sorted((k for k in pf.kinds if _is_due(k, settings.end_day)), key=_urgency)
@@ -345,22 +360,31 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings) -> Plan:
         driver = (shop_due or due)[0]
         candidates.append((urgency_key(pf), pf.serial, pf, driver, due, bool(shop_due)))
     candidates.sort(key=lambda c: c[0])  # the engine's one most-urgent-first order
+    return candidates
 
+
+def _greedy(candidates: list[tuple], settings: PlanSettings, today: date):
+    """The greedy passes: months per serial, the unplaced lines, the shop loads.
+
+    Pass 1 takes pumps most urgent first, so the riskiest get room and the rest
+    overflow. Pass 2 re-places the pumps that fitted least urgent first, so that of
+    two pumps competing for a month the more urgent one is pulled forward; if pass 2
+    cannot place them all (spares and sites can make order matter) pass 1 stands.
+    """
     first = _Shop(settings)
     months: dict[str, date] = {}
-    unplaced: list[PlanLine] = []
+    unplaced: dict[str, str] = {}
     in_shop = []
     for _, serial, pf, kf, due, shop in candidates:
         target = _target(kf, settings)
         if kf.outcome is Outcome.CROSSING and kf.p10_date is None:
-            note = "no machine utilisation to turn hours into a date"
-            unplaced.append(_line(pf, kf, due, today, None, target, shop, note))
+            unplaced[serial] = "no machine utilisation to turn hours into a date"
         elif not shop:
             months[serial] = target
         else:
             month, why = first.place(pf, target)
             if month is None:
-                unplaced.append(_line(pf, kf, due, today, None, target, True, why))
+                unplaced[serial] = why
             else:
                 months[serial] = month
                 in_shop.append((serial, pf, target))
@@ -376,30 +400,94 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings) -> Plan:
     if len(second_months) == len(in_shop):
         months.update(second_months)
         shop = second
+    return months, unplaced, shop
 
-    placed = []
+
+def _least_cost(candidates, settings: PlanSettings, today: date, costs: PlanCosts, greedy: dict[str, date]):
+    """The integer program's months for the shop jobs (None when some shop job has no costs)."""
+    shop_jobs = [c for c in candidates if c[5] and not (c[3].outcome is Outcome.CROSSING and c[3].p10_date is None)]
+    missing = [c[1] for c in shop_jobs if c[1] not in costs.pumps]
+    if missing:
+        return None, f"no costs for {len(missing)} pump(s) (e.g. {missing[0]}): placed by the greedy pass"
+    index = {m: i for i, m in enumerate(settings.months)}
+    cands = []
+    for _, serial, pf, kf, _due, _shop in shop_jobs:
+        days = (0.5, 1.0, 2.0) if kf.outcome is Outcome.PAST_LIMIT else _p_days(kf, today)
+        cands.append(Candidate(serial, pf.site or NO_SITE, pf.model, index[_target(kf, settings)], days,
+                               pf.hours_per_day or 0.0))
+    limits = ShopLimits(settings.horizon_months, settings.capacity_per_month, dict(settings.site_capacity),
+                        dict(settings.exchange_on_hand), settings.turnaround_months)
+    days = job_days(today, settings.months, add_months(settings.start_month, settings.horizon_months))
+    greedy_index = {c.serial: index.get(greedy[c.serial]) if c.serial in greedy else None for c in cands}
+    return cost_plan(cands, costs, limits, days, greedy_index), ""
+
+
+def make_plan(forecast: FleetForecast, settings: PlanSettings, costs: PlanCosts | None = None) -> Plan:
+    """Level the due pumps of ``forecast`` into the months of ``settings``.
+
+    Without ``costs`` (or when a shop job has none) the greedy passes place the pumps
+    (``_greedy``); with costs for every shop job the integer program of
+    ``logbook.leveller`` places them at least expected cost within the same limits and
+    P10 deadlines (``logbook.costing``), and every line carries its expected cost.
+    """
+    today = forecast.today
+    candidates = _candidates(forecast, settings)
+    months, unplaced, shop = _greedy(candidates, settings, today)
+    costed, placement_note = (None, "") if costs is None else _least_cost(candidates, settings, today, costs, months)
+    if costed is not None:
+        shop = _Shop(settings)
+        for _, serial, pf, kf, _due, in_the_shop in candidates:
+            if serial in costed.months:
+                index = costed.months[serial]
+                unplaced.pop(serial, None)
+                months.pop(serial, None)
+                if index is None:
+                    unplaced[serial] = ("no room up to " + month_label(_target(kf, settings)) if serial in costed.left_over
+                                        else "least cost after the horizon")
+                else:
+                    months[serial] = settings.months[index]
+                    shop.take(months[serial], pf)
+
+    placed, left = [], []
     for _, serial, pf, kf, due, in_the_shop in candidates:
-        if serial not in months:
+        target = _target(kf, settings)
+        money = _money(costed, serial, months.get(serial), settings)
+        if serial in unplaced:
+            left.append(_line(pf, kf, due, today, None, target, in_the_shop, unplaced[serial], *money))
             continue
-        month, target = months[serial], _target(kf, settings)
+        month = months[serial]
         notes = ["on the machine"] if not in_the_shop else []
-        if month != target:
+        if month < target:
             notes.append(f"pulled forward {months_between(month, target)} month(s)")
+        elif month > target:
+            notes.append(f"{months_between(target, month)} month(s) after its P10 month")
         if kf.p10_date is not None and kf.p10_date < settings.start_month:
             notes.append(f"P10 date {kf.p10_date.isoformat()} is before the plan starts")
-        note = "; ".join(notes)
-        placed.append(_line(pf, kf, due, today, month, target, in_the_shop, note))
+        placed.append(_line(pf, kf, due, today, month, target, in_the_shop, "; ".join(notes), *money))
     order = {c[1]: i for i, c in enumerate(candidates)}
     placed.sort(key=lambda line: (line.month, order[line.serial]))
     return Plan(
         settings=settings,
         today=today,
         lines=tuple(placed),
-        unplaced=tuple(unplaced),
+        unplaced=tuple(left),
         shop_load=shop.shop_load,
         site_load=shop.site_load,
         spares_out=shop.spares_out,
+        costs=costed,
+        currency=costs.currency if costs is not None else "",
+        placement="least expected cost" if costed is not None else "greedy",
+        placement_note=placement_note,
     )
+
+
+def _money(costed: CostedPlan | None, serial: str, month: date | None, settings: PlanSettings):
+    """(expected cost of the chosen month, of one month earlier, of one month later) or Nones."""
+    if costed is None or serial not in costed.by_month:
+        return None, None, None
+    expected = costed.by_month[serial].expected
+    i = settings.months.index(month) if month in settings.months else len(expected) - 1
+    return expected[i], (expected[i - 1] if i > 0 else None), (expected[i + 1] if i + 1 < len(expected) else None)
 
 
 __all__ = [

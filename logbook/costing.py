@@ -1,0 +1,117 @@
+"""Money in the monthly plan (pure): each candidate pump's expected cost month by month, the
+least-cost placement by the integer program of ``logbook.leveller``, and the plan's cost
+against the other policies on the same fleet.
+
+Per pump the choices are the horizon's months and "after the horizon". A job in month m
+is taken to happen mid-month (day 15). Its expected cost comes from
+``economics.month_costs`` on the pump's crossing distribution (the split lognormal through
+its P10/P50/P90 dates), its model's job costs with its machine's downtime, and the cost
+per operating hour of the model's renewal cycle (the value of an hour of life given up).
+
+Policies compared on the same candidates:
+- run to failure: every candidate fails in service (Cf each, no life given up);
+- at P10: the months the greedy pass gives (each pump no later than its P10 month);
+- cost-optimal: the integer program's months, within the same capacities and deadlines.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from datetime import date, timedelta
+
+from logbook.economics import JobCosts, MonthCosts, month_costs, split_lognormal_chance
+from logbook.leveller import Job, ShopLimits, cost_of, level
+
+JOB_DAY = 14  # a job in a month is costed on its 15th
+
+
+@dataclass(frozen=True)
+class PumpCosts:
+    """What one pump's job costs: its model's job costs with its machine's downtime, and the
+    cost per operating hour of its model's renewal cycle."""
+
+    costs: JobCosts
+    cost_per_operating_hour: float
+
+
+@dataclass(frozen=True)
+class PlanCosts:
+    """Costs handed to the plan: per pump serial, in one currency."""
+
+    currency: str
+    pumps: dict[str, PumpCosts]
+    allow_late: bool = False  # may the cost-optimal plan go past a pump's P10 month
+    ratio_factors: tuple[float, ...] = (0.5, 2.0)  # sensitivity: failure-to-planned cost ratio times these
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One shop job the plan must place, as the costing sees it."""
+
+    serial: str
+    site: str
+    model: str
+    deadline: int | None  # month index of its P10 month (None: beyond the horizon)
+    p_days: tuple[float, float, float | None]  # P10, P50, P90 of days from today to the crossing
+    hours_per_day: float
+
+
+@dataclass(frozen=True)
+class CostedPlan:
+    months: dict[str, int | None]  # serial -> month index (None: after the horizon)
+    by_month: dict[str, MonthCosts]  # serial -> expected cost of every choice
+    policies: dict[str, float]  # run_to_failure, at_p10, cost_optimal
+    left_over: tuple[str, ...]
+    sensitivity: tuple[tuple[str, float, int | None, int | None], ...] = field(default=())
+    # (serial, ratio factor, month at the base ratio, month at that factor) where the month moves
+
+
+def job_days(today: date, month_starts: Sequence[date], after: date) -> list[int]:
+    """Days from ``today`` to the costed day of each month, then to the first month after the horizon."""
+    return [max((m + timedelta(days=JOB_DAY) - today).days, 0) for m in (*month_starts, after)]
+
+
+def _month_costs(c: Candidate, pc: PumpCosts, days: list[int]) -> MonthCosts:
+    chance = split_lognormal_chance(*c.p_days)
+    return month_costs(chance, days, pc.costs, pc.cost_per_operating_hour, c.hours_per_day)
+
+
+def _jobs(cands: Sequence[Candidate], costed: dict[str, MonthCosts]) -> list[Job]:
+    return [Job(c.serial, c.site, c.model, c.deadline, costed[c.serial].expected) for c in cands]
+
+
+def cost_plan(
+    cands: Sequence[Candidate],
+    plan_costs: PlanCosts,
+    limits: ShopLimits,
+    days: list[int],
+    greedy_months: dict[str, int | None],
+) -> CostedPlan:
+    """Least expected cost placement of ``cands`` (all must have costs), and the policies' costs."""
+    costed = {c.serial: _month_costs(c, plan_costs.pumps[c.serial], days) for c in cands}
+    jobs = _jobs(cands, costed)
+    limits = ShopLimits(limits.months, limits.capacity, limits.site_capacity, limits.spares, limits.turnaround,
+                        plan_costs.allow_late)
+    best = level(jobs, limits)
+    months = {c.serial: m for c, m in zip(cands, best.months)}
+    greedy = [greedy_months.get(c.serial) for c in cands]
+    policies = {
+        "run_to_failure": sum(plan_costs.pumps[c.serial].costs.failure for c in cands),
+        "at_p10": cost_of(jobs, greedy, limits),
+        "cost_optimal": best.total_cost,
+    }
+    sensitivity = []
+    for factor in plan_costs.ratio_factors:
+        scaled = {}
+        for c in cands:
+            pc = plan_costs.pumps[c.serial]
+            failure = factor * pc.costs.failure  # Cf/Cp times the factor
+            scaled[c.serial] = _month_costs(c, PumpCosts(JobCosts(pc.costs.planned, failure),
+                                                         pc.cost_per_operating_hour), days)
+        moved = level(_jobs(cands, scaled), limits)
+        for c, m in zip(cands, moved.months):
+            if m != months[c.serial]:
+                sensitivity.append((c.serial, factor, months[c.serial], m))
+    left = tuple(cands[j].serial for j in best.left_over)
+    return CostedPlan(months, costed, policies, left, tuple(sensitivity))
