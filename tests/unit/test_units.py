@@ -43,3 +43,24 @@ def test_theoretical_flow_handbook_identity():
 @pytest.mark.parametrize("text,expected", [("psi", "psi"), ("PSI", "psi"), ("bar", "bar"), ("", "bar"), ("kPa", None)])
 def test_pressure_unit_aliases(text, expected):
     assert units.resolve_unit(units.PRESSURE, text) == expected
+
+
+@pytest.mark.parametrize(
+    "text,expected",
+    [
+        ("4.2gpm", ("4.2", "gpm")),
+        (" 61 psi ", ("61", "psi")),
+        ("24", ("24", "")),
+        ("-1.5e3 bar", ("-1.5e3", "bar")),
+        ("120°F", ("120", "°F")),
+        ("4_2gpm", None),  # float("4_2") is 42 (PEP 515 underscores): not a reading
+        ("\u0664.\u0662gpm", None),  # 4.2 in Arabic-Indic digits
+        ("\uff14.\uff12 gpm", None),  # 4.2 in full-width digits
+        ("\u096a.\u0968", None),  # 4.2 in Devanagari digits
+        ("1.2.3", None),
+        ("nan", None),
+        ("", None),
+    ],
+)
+def test_a_value_with_a_unit_is_split_only_when_the_number_is_in_ascii_digits(text, expected):
+    assert units.split_value_unit(text) == expected
