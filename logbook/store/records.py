@@ -500,5 +500,5 @@ class RecordsMixin:
             raise InputRejected(report.problems)
         if report.already_present:
             raise InputRejected([Problem("event", f"{event.kind.value} {event.happened_on}", "is already recorded"
-                                         + _text_hint(report.flagged, "events are not edited; remove it and enter it again"))])
+                                         + _text_hint(report.flagged, "events are not edited: remove it with `logbook remove event` and record it again"))])
         return next(e for e in self.events() if e.id == report.ids[0])
