@@ -161,3 +161,16 @@ def test_a_reading_typed_again_with_other_text_says_what_differs(store):
     with pytest.raises(InputRejected, match=rf"technician differs: stored 'Ben', given 'B. Ben'.*`logbook correct {r.id}`"):
         store.add_reading(again, today=TODAY)
     assert store.readings("S-200") == [r]
+
+
+def test_a_removed_record_may_be_typed_in_again_on_purpose(store):
+    """Only a file is kept from undoing a removal: a person entering the record again means it."""
+    r = store.readings("S-200")[0]
+    store.remove_reading(r.id, reason="removed by mistake")
+    again = store.add_reading(dataclasses.replace(r, id=None, machine=None, entered_by="", entered_at=None), today=TODAY)
+    assert again.id != r.id and [x.id for x in store.readings("S-200")] == [again.id]
+    assert _imp(store, "events", EVENTS).added == 2
+    oil = store.events("S-100")[0]
+    store.remove_event(oil.id, reason="removed by mistake")
+    back = store.add_event(dataclasses.replace(oil, id=None, removed_reason=None, entered_by="", entered_at=None), today=TODAY)
+    assert back.id != oil.id and [e.id for e in store.events("S-100")] == [back.id]
