@@ -122,6 +122,10 @@ _PLAIN_NUMBER = re.compile(r"-[0-9]+(?:\.[0-9]+)?")
 #: Characters that make a file need the csv module: quotes, NUL, and line breaks that
 #: str.splitlines() would split on but csv.reader would not.
 _NOT_PLAIN = ('"', "\x00", "\v", "\f", "\x1c", "\x1d", "\x1e", "\x85", "\u2028", "\u2029")
+#: A row whose first cell starts with this is a comment (e.g. the round sheet's safety lines):
+#: skipped before the header always, and after it unless the first column is free text,
+#: where "#" is text (no other column's value can start with it).
+COMMENT = "#"
 _CACHE_LIMIT = 50_000  # distinct cell texts remembered per column
 _INF = float("inf")
 
@@ -251,15 +255,20 @@ def _open(table: str, data: bytes):
     reader = csv.reader(io.StringIO(text, newline=""))
     try:
         header = next(reader)
+        while header and header[0].startswith(COMMENT):
+            header = next(reader)
+    except StopIteration:
+        return None, [], [Problem("file", "", "has only comment rows: expected a header row and data rows")], text
     except csv.Error as exc:
-        return None, [], [Problem("file", "", f"is not readable CSV ({exc})", line=1)], text
+        return None, [], [Problem("file", "", f"is not readable CSV ({exc})", line=reader.line_num)], text
+    at = reader.line_num  # the header's line: comment rows may come before it
     problems: list[Problem] = []
     fields: list[tuple[str, str | None]] = []
     for cell in header:
         m = _HEADER_RE.match(cell)
         name = m.group(1).lower() if m else None
         if name not in columns:
-            problems.append(Problem("header", cell, f"is not a {table} column; allowed: {', '.join(columns)}", line=1))
+            problems.append(Problem("header", cell, f"is not a {table} column; allowed: {', '.join(columns)}", line=at))
             fields.append(("", None))
             continue
         col, unit_text = columns[name], m.group(2)
@@ -270,15 +279,15 @@ def _open(table: str, data: bytes):
             if unit is None:
                 problems.append(
                     Problem("header", cell, f"the unit in brackets is not allowed for {name}; allowed: "
-                            f"{units.allowed_units(quantity) or 'no unit'}", line=1)
+                            f"{units.allowed_units(quantity) or 'no unit'}", line=at)
                 )
         if name in (f for f, _ in fields):
-            problems.append(Problem("header", cell, "appears twice", line=1))
+            problems.append(Problem("header", cell, "appears twice", line=at))
         fields.append((name, unit))
     present = {f for f, _ in fields}
     for name, col in columns.items():
         if col.required and name not in present:
-            problems.append(Problem("header", name, "required column is missing", line=1))
+            problems.append(Problem("header", name, "required column is missing", line=at))
     return reader, fields, problems, text
 
 
@@ -295,10 +304,13 @@ def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[i
     required = [name for name, col in columns.items() if col.required]
     measured = table == "readings"
     width = len(fields)
+    comments = columns[names[0]].kind != "text"
     rows, lines, blank = [], [], 0
     try:
         for record in reader:
             line = reader.line_num
+            if comments and record and record[0].startswith(COMMENT):
+                continue
             if len(record) != width:
                 if not "".join(record).strip():
                     continue
@@ -340,8 +352,9 @@ def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list],
     irregular row, so the caller falls back to ``read_table``."""
     try:
         reader, fields, problems, text = _open(table, data)
-        if problems:
-            return None
+        if problems or text.startswith(COMMENT) or f"\n{COMMENT}" in text or f"\r{COMMENT}" in text \
+                or f'"{COMMENT}' in text:
+            return None  # comment rows: read_table skips them
         width = len(fields)
         if not any(ch in text for ch in _NOT_PLAIN):
             # No quoting and only \n, \r\n or \r line ends: every record is one line of

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from logbook import validate
+from logbook.cautions import SAFETY
 from logbook.model import Event, EventKind, InputRejected
 
 
@@ -28,6 +29,7 @@ def register(sub) -> None:
 
 
 def run(args, ctx) -> int:
+    ctx.err.print(SAFETY.text(), markup=False, highlight=False)  # as `logbook record`: stdout keeps only the result
     problems = []
 
     def take(result):

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from logbook import fmt, units, validate
-from logbook.cautions import CAUTIONS
+from logbook.cautions import SAFETY
 from logbook.model import InputRejected, Kind, Problem, Reading
 
 # option -> (field spec name, quantity default unit attribute of UnitPrefs)
@@ -98,8 +98,7 @@ def build_reading(args, ctx) -> Reading:
 
 
 def run(args, ctx) -> int:
-    for line in CAUTIONS:
-        ctx.err.print(f"[dim]caution:[/dim] {line}")
+    ctx.err.print(SAFETY.text(), markup=False, highlight=False)  # stderr: stdout keeps only the result
     reading = build_reading(args, ctx)
     with ctx.open_store() as store:
         if args.dry_run:

@@ -70,6 +70,9 @@ def run(args, ctx) -> int:
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = plan_round(fleet, forecast, ctx.today, site=args.site, within_days=args.within, everyone=args.everyone)
     if args.format == "text":
+        from logbook.cautions import SAFETY
+
+        ctx.console.print(SAFETY.text() + "\n", markup=False, highlight=False)  # first, as on every round sheet
         if not tests:
             where = f" at {args.site}" if args.site else ""
             ctx.console.print(f"No pump{where} is due for a reading within {args.within} days.", markup=False)

@@ -14,7 +14,7 @@ from datetime import date
 
 from logbook.analysis.life import LifeFigures
 from logbook.analysis.results import FleetForecast
-from logbook.cautions import CAUTIONS
+from logbook.cautions import SAFETY, Safety
 from logbook.model import Limit, PumpModel
 from logbook.plan import Plan
 
@@ -28,12 +28,12 @@ PROBABILITY_NOTE = (
 
 @dataclass(frozen=True)
 class Provenance:
-    """Where an export came from: database, date made, limits used, cautions."""
+    """Where an export came from: database, date made, limits used; and the safety list."""
 
     database: str
     made_on: date
     limits: dict[str, tuple[Limit, ...]]  # pump model code -> its limits
-    cautions: tuple[str, ...] = CAUTIONS
+    safety: Safety = SAFETY
     program: str = "logbook"
 
     @classmethod
@@ -62,7 +62,7 @@ class Provenance:
                 ]
                 for model in sorted(self.limits)
             },
-            "cautions": list(self.cautions),
+            "safety": self.safety.as_dict(),
         }
 
 

@@ -2,7 +2,7 @@
 
 Decisions: a UTF-8 byte-order mark so spreadsheet programs pick the right encoding;
 ISO dates; a period as the decimal mark; CRLF line ends (RFC 4180). Provenance and
-cautions come first as rows whose first cell starts with "#" (skip them with
+the safety list come first as rows whose first cell starts with "#" (skip them with
 ``comment="#"`` in most CSV readers).
 
 Formula injection (OWASP "CSV Injection"): every cell goes through
@@ -34,7 +34,7 @@ def render_csv(report) -> bytes:
         ("# forecast date", report.forecast.today.isoformat()),
     ]
     meta += [(f"# limits {model}", words) for model, words in p.limit_lines()]
-    meta += [("# caution", text) for text in p.cautions]
+    meta += [("# safety", line) for line in (p.safety.title, *p.safety.lines())]
     meta += [("# note", PROBABILITY_NOTE)]
     meta += [("# note", text) for text in report.notes]
     for key, value in meta:

@@ -4,8 +4,7 @@ from __future__ import annotations
 
 from html import escape
 
-from logbook.cautions import CAUTIONS_TITLE
-from logbook.exports import PROBABILITY_NOTE
+from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.charts import kind_chart_svg
 from logbook.exports.common import (
     PLAN_BRIEF,
@@ -28,7 +27,6 @@ table { border-collapse: collapse; margin: .5em 0; font-size: 12px; }
 th, td { border: 1px solid #d0d0d0; padding: 2px 6px; text-align: left; vertical-align: top; }
 th { background: #f0f0f0; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
-.cautions { border: 2px solid #b35900; background: #fff6eb; padding: .3em 1em; }
 .provenance li { margin: 0; }
 figure { margin: 1em 0; break-inside: avoid; } figcaption { font-size: 12px; color: #444; }
 svg { max-width: 100%; height: auto; }
@@ -84,7 +82,7 @@ def render_html(report) -> str:
         '<meta charset="utf-8">',
         "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; style-src 'unsafe-inline'\">",
         f"<title>Overhaul forecast {escape(made)}</title>",
-        f"<style>{_CSS}</style>",
+        f"<style>{_CSS}{safety.CSS}\n</style>",
         "</head>",
         "<body>",
         f"<h1>Overhaul forecast, made {escape(made)}</h1>",
@@ -95,9 +93,7 @@ def render_html(report) -> str:
     ]
     out += [f"<li>Limits used, {escape(model)}: {escape(words)}</li>" for model, words in p.limit_lines()]
     out += [f"<li>{escape(n)}</li>" for n in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
-    out += ["</ul>", '<section class="cautions">', f"<h2>{escape(CAUTIONS_TITLE)}</h2>", "<ul>"]
-    out += [f"<li>{escape(text)}</li>" for text in p.cautions]
-    out += ["</ul>", "</section>", "<section>", "<h2>Summary</h2>"]
+    out += ["</ul>", *safety.html_lines(p.safety), "<section>", "<h2>Summary</h2>"]
     out += _table(["figure", "value"], [list(r) for r in summary(report)])
     out += ["</section>", '<section id="plan">', "<h2>Plan</h2>"]
     if report.plan.lines:

@@ -1,11 +1,10 @@
-"""Markdown export: provenance, cautions, summary, plan, what does not fit, fleet life, all pumps."""
+"""Markdown export: provenance, safety, summary, plan, what does not fit, fleet life, all pumps."""
 
 from __future__ import annotations
 
 import re
 
-from logbook.cautions import CAUTIONS_TITLE
-from logbook.exports import PROBABILITY_NOTE
+from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.common import (
     PLAN_BRIEF,
     PLAN_COLUMNS,
@@ -40,7 +39,7 @@ def render_md(report) -> str:
               f"- Program: {esc(p.program)}"]
     lines += [f"- Limits used, {esc(model)}: {esc(words)}" for model, words in p.limit_lines()]
     lines += [f"- {esc(note)}" for note in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
-    lines += ["", f"## {CAUTIONS_TITLE}", ""] + [f"- {esc(text)}" for text in p.cautions]
+    lines += safety.md_lines(esc, p.safety)
     lines += ["", "## Summary", ""] + table(["figure", "value"], [list(row) for row in summary(report)])
 
     lines += ["", "## Plan", ""]

@@ -1,7 +1,8 @@
 """Round sheets: the pumps to test at one site, grouped by machine, as md, html or csv.
 
-md and html are for paper: cautions first, then per pump the test conditions, the last
-values and limits, and blank cells to fill in. csv has exactly the readings-import
+md and html are for paper: the safety list first, then per pump the test conditions, the last
+values and limits, and blank cells to fill in. csv starts with the safety list as comment rows
+(first cell starting with "#", which the importer skips), then has exactly the readings-import
 columns (logbook.imports), prefilled with serial, machine, test pressure and test speed,
 so the filled-in file goes straight back with ``logbook import readings FILE``.
 """
@@ -17,8 +18,9 @@ from html import escape
 
 from logbook import fmt, units
 from logbook.analysis.results import FleetForecast
-from logbook.cautions import CAUTIONS, CAUTIONS_TITLE
+from logbook.cautions import SAFETY, Safety
 from logbook.csvread import quote_formula
+from logbook.exports import safety
 from logbook.imports import COLUMNS
 from logbook.model import ALL_KINDS, Fleet, Kind, PumpModel, Reading
 from logbook.rounds import NextTest
@@ -48,7 +50,7 @@ class RoundSheet:
     stops: tuple[Stop, ...]
     machines: dict[str, str]  # unit -> description
     units: UnitPrefs = UnitPrefs()
-    cautions: tuple[str, ...] = CAUTIONS
+    safety: Safety = SAFETY
 
     def by_machine(self) -> list[tuple[str, list[Stop]]]:
         groups: dict[str, list[Stop]] = {}
@@ -105,6 +107,8 @@ def render_csv(sheet: RoundSheet) -> str:
     header = [f"{name} [{_unit_of(name, prefs)}]" if _unit_of(name, prefs) else name for name in CSV_COLUMNS]
     buf = io.StringIO(newline="")
     writer = csv.writer(buf, lineterminator="\r\n")
+    for line in safety.comment_lines(sheet.safety):
+        writer.writerow([quote_formula(line)])
     writer.writerow([quote_formula(cell) for cell in header])
     for stop in sheet.stops:
         row = dict.fromkeys(CSV_COLUMNS, "")
@@ -202,7 +206,7 @@ def _md_table(headers: list[str], rows: list[list[str]]) -> list[str]:
 def render_md(sheet: RoundSheet) -> str:
     title, facts = _heading(sheet)
     lines = [f"# {md_escape(title)}", ""] + [f"- {md_escape(f)}" for f in facts]
-    lines += ["", f"## {CAUTIONS_TITLE}", ""] + [f"- {md_escape(c)}" for c in sheet.cautions]
+    lines += safety.md_lines(md_escape, sheet.safety)
     if not sheet.stops:
         lines += ["", "No pump at this site is due for a reading in this period."]
     for machine, stops in sheet.by_machine():
@@ -218,17 +222,16 @@ def render_md(sheet: RoundSheet) -> str:
 # -- html --------------------------------------------------------------------------------
 _CSS = """body{font-family:sans-serif;margin:1.5em;max-width:60em}
 table{border-collapse:collapse;margin:.4em 0 1.2em}th,td{border:1px solid #666;padding:.25em .5em;text-align:left}
-td.fill{min-width:10em}.cautions{border:2px solid #000;padding:.3em 1em;margin:1em 0}
+td.fill{min-width:10em}
 section.pump{break-inside:avoid}@media print{body{margin:0}}"""
 
 
 def render_html(sheet: RoundSheet) -> str:
     title, facts = _heading(sheet)
     out = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">', f"<title>{escape(title)}</title>",
-           f"<style>{_CSS}</style></head><body>", f"<h1>{escape(title)}</h1>", "<ul>"]
+           f"<style>{_CSS}\n{safety.CSS}</style></head><body>", f"<h1>{escape(title)}</h1>", "<ul>"]
     out += [f"<li>{escape(f)}</li>" for f in facts] + ["</ul>"]
-    out += ['<section class="cautions">', f"<h2>{escape(CAUTIONS_TITLE)}</h2>", "<ul>"]
-    out += [f"<li>{escape(c)}</li>" for c in sheet.cautions] + ["</ul>", "</section>"]
+    out += safety.html_lines(sheet.safety)
     if not sheet.stops:
         out.append("<p>No pump at this site is due for a reading in this period.</p>")
     for machine, stops in sheet.by_machine():

@@ -1,4 +1,4 @@
-"""Exports: each format parses back, carries provenance and cautions, and is byte-identical."""
+"""Exports: each format parses back, carries provenance and the safety list, and is byte-identical."""
 
 from __future__ import annotations
 
@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 
 from logbook.analysis.life import life_figures
-from logbook.cautions import CAUTIONS
+from logbook.cautions import SAFETY
 from logbook.exports import FORMATS, Provenance, Report, render
 from logbook.exports.common import PLAN_COLUMNS
 from logbook.csvread import quote_formula
@@ -66,8 +66,15 @@ def provenance_present(text: str, database: str = "/data/fleet|`x`.db") -> None:
     assert database in text
     assert MADE_ON.isoformat() in text
     assert "case drain above 8.00 L/min" in text and "servo pressure below 18.00 bar" in text
-    for caution in CAUTIONS:
-        assert caution.split(".")[0] in text
+    safety_present(text)
+
+
+def safety_present(text: str) -> None:
+    """The safety list in its structure: title, the warning first and marked, items, deferral."""
+    firsts = [line.split(".")[0].split(":")[0] for line in (SAFETY.warning, *SAFETY.items, SAFETY.deferral)]
+    at = [text.index(first) for first in firsts]
+    assert at == sorted(at), "the warning first, then the items, then the deferral"
+    assert text.rindex(SAFETY.title, 0, at[0]) < text.rindex(f"{SAFETY.warning_label}:", 0, at[0]) < at[0]
 
 
 @pytest.mark.parametrize("fmt", FORMATS)
@@ -103,8 +110,9 @@ def test_csv_parses_back_with_provenance_and_one_row_per_pump(report, outputs):
     meta = [r for r in rows if r and r[0].startswith("#")]
     table = [r for r in rows if r and not r[0].startswith("#")]
     keys = {r[0] for r in meta}
-    assert {"# database", "# made on", "# limits AX90", "# limits KV40", "# caution"} <= keys
-    assert [r[1] for r in meta if r[0] == "# caution"] == list(CAUTIONS)
+    assert {"# database", "# made on", "# limits AX90", "# limits KV40", "# safety"} <= keys
+    assert [r[1] for r in meta if r[0] == "# safety"] == [SAFETY.title, *SAFETY.lines()]
+    assert SAFETY.lines()[0] == f"⚠ WARNING: {SAFETY.warning}"
     assert dict((r[0], r[1]) for r in meta)["# made on"] == "2026-03-11"
     assert table[0] == [h for _, h in PLAN_COLUMNS]
     body = table[1:]
@@ -134,7 +142,8 @@ def test_json_parses_back_with_every_pump_and_kind(report, outputs):
     doc = json.loads(outputs["json"].decode("utf-8"))
     assert doc["provenance"]["made_on"] == "2026-03-11"
     assert doc["provenance"]["database"] == "/data/fleet|`x`.db"
-    assert doc["provenance"]["cautions"] == list(CAUTIONS)
+    assert doc["provenance"]["safety"] == {"title": "Safety", "warning": SAFETY.warning,
+                                           "items": list(SAFETY.items), "deferral": SAFETY.deferral}
     assert {lim["kind"] for lim in doc["provenance"]["limits"]["AX90"]} == {k.value for k in ALL_KINDS}
     records = doc["forecasts"]
     assert len(records) == len(report.forecast.pumps) * 3

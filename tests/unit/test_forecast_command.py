@@ -11,7 +11,7 @@ from datetime import date
 
 import pytest
 
-from logbook.cautions import CAUTIONS
+from logbook.cautions import SAFETY
 from logbook.cli import main
 
 TODAY = "2026-03-02"
@@ -35,7 +35,7 @@ def test_json_to_stdout_in_a_pipe_has_no_progress_noise(demo_db):
     assert done.returncode == 0, done.stderr
     assert done.stderr == b""  # no progress display and no chatter when not on a terminal
     doc = json.loads(done.stdout)  # parses back (standard library json)
-    assert doc["provenance"]["made_on"] == TODAY and doc["provenance"]["cautions"] == list(CAUTIONS)
+    assert doc["provenance"]["made_on"] == TODAY and doc["provenance"]["safety"] == SAFETY.as_dict()
     assert doc["provenance"]["database"] == str(demo_db)
     months = [line["month"] for line in doc["plan"]["lines"] if line["work"] == "shop"]
     assert all(months.count(m) <= 2 for m in months)

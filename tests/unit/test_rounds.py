@@ -17,7 +17,7 @@ import pytest
 
 from logbook import rounds
 from logbook.analysis.results import FLAG_JUMP
-from logbook.cautions import CAUTIONS
+from logbook.cautions import SAFETY
 from logbook.csvread import quote_formula, unquote_formula
 from logbook.exports import round_sheet
 from logbook.imports import COLUMNS, read_table
@@ -179,8 +179,10 @@ def test_csv_sheet_has_exactly_the_import_columns_and_imports_back():
     tests = rounds.plan_round(fleet, None, today, within_days=30)
     sheet = round_sheet.build_sheet(fleet, None, tests, site="North Yard", made_on=today, test_by=today)
     rows = list(csv.reader(io.StringIO(round_sheet.render_csv(sheet))))
-    assert rows[0] == list(COLUMNS["readings"])
-    assert [r[0] for r in rows[1:]] == ["P-1", "P-2"]
+    comments = 2 + len(SAFETY.items) + 1  # title, warning, items, deferral
+    assert all(len(r) == 1 and r[0].startswith("# ") for r in rows[:comments])
+    assert rows[comments] == list(COLUMNS["readings"])
+    assert [r[0] for r in rows[comments + 1:]] == ["P-1", "P-2"]
     parsed, lines, problems, blank = read_table("readings", round_sheet.render_csv(sheet).encode(), today)
     assert (parsed, problems, blank) == ([], [], 2)  # untouched sheet: every row blank, none rejected
 
@@ -191,7 +193,7 @@ def test_us_units_go_into_the_headers_and_convert_back():
     tests = rounds.plan_round(fleet, None, today, within_days=30)
     sheet = round_sheet.build_sheet(fleet, None, tests, site="North Yard", made_on=today, test_by=today, units=UnitPrefs.us())
     text = round_sheet.render_csv(sheet)
-    assert "test_pressure [psi]" in text.splitlines()[0]
+    assert "test_pressure [psi]" in next(line for line in text.splitlines() if line.startswith("serial"))
     filled = text.replace(",,M-1,,,,,", ",2026-03-20,M-1,1600,,380,,", 1)  # servo pressure 380 psi
     parsed, _, problems, _ = read_table("readings", filled.encode(), today)
     assert problems == []
@@ -260,14 +262,14 @@ def test_quote_formula_and_unquote_formula_are_inverse(cell):
 
 
 @pytest.mark.parametrize("fmt", ["md", "html"])
-def test_paper_sheets_show_cautions_conditions_and_blanks(fmt):
+def test_paper_sheets_show_safety_conditions_and_blanks(fmt):
     fleet = _fleet(replace(MODEL, reading_interval_days=30))
     today = date(2026, 3, 20)
     tests = rounds.plan_round(fleet, None, today, within_days=30)
     text = round_sheet.render(round_sheet.build_sheet(fleet, None, tests, site="North Yard", made_on=today,
                                                       test_by=today), fmt).decode()
     first_pump = text.index("P-1")
-    shown = [html.escape(c) if fmt == "html" else c for c in CAUTIONS]
+    shown = [html.escape(c) if fmt == "html" else c for c in (SAFETY.title, SAFETY.warning, *SAFETY.items, SAFETY.deferral)]
     assert all(0 <= text.index(c) < first_pump for c in shown)
     assert "speed 2000 rpm" in text and "400.0 bar" in text and "40 C to 60 C" in text
     assert "below 18.00 bar" in text and "Machine M-1" in text

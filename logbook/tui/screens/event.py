@@ -1,5 +1,7 @@
 """Event entry: overhaul, exchange, neutral re-set, control repair, oil change, move,
-hour-meter replacement; checked by the store as you type, like a reading."""
+hour-meter replacement; checked by the store as you type, like a reading. The safety
+warning is on screen (with the running-machine point for a neutral re-set or control
+repair); F6 shows the whole safety list."""
 
 from __future__ import annotations
 
@@ -9,15 +11,22 @@ from textual.containers import Container, Horizontal, VerticalScroll
 from textual.widgets import Footer, Label, Select, Static
 
 from logbook import fmt
+from logbook.cautions import RUNNING_MACHINE
 from logbook.model import Event, EventKind, Problem, SEGMENT_RESETS
 from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
+from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
 
 
-class EventScreen(EntryScreen):
+#: Events whose work is done with the engine running: the short safety box adds that point.
+RUNNING_WORK = (EventKind.NEUTRAL_RESET, EventKind.CONTROL_REPAIR)
+
+
+class EventScreen(SafetyKey, EntryScreen):
     """Record one event for pump ``serial`` (a meter replacement is for its machine)."""
 
     HELP_TITLE = "Event entry"
+    BINDINGS = [SAFETY_BINDING]
 
     def __init__(self, serial: str, kind: EventKind = EventKind.OVERHAUL) -> None:
         super().__init__()
@@ -29,6 +38,7 @@ class EventScreen(EntryScreen):
         yield Static(f"New event · pump {self.serial}", id="title")
         with VerticalScroll(classes="form", id="form"):
             yield Static("", id="pump-line", classes="form-hint")
+            yield SafetyBox(self._safety_extra())
             with Horizontal(classes="field-row", id="kind-row"):
                 yield Label("Event", classes="field-label")
                 yield Select([(words, k.value) for k, words in forms.EVENT_KIND_WORDS.items()], value=self.kind.value,
@@ -40,6 +50,9 @@ class EventScreen(EntryScreen):
             yield Static("Fill in the event; the logbook checks it as you type.", id="check")
             yield Static("", id="result")
         yield Footer(compact=True)
+
+    def _safety_extra(self) -> tuple[str, ...]:
+        return (RUNNING_MACHINE,) if self.kind in RUNNING_WORK else ()
 
     def _prefill(self) -> dict[str, str]:
         return {"date": self.app.today.isoformat()}
@@ -72,6 +85,7 @@ class EventScreen(EntryScreen):
         elif self.kind is EventKind.MOVE:
             hint = "Moves the pump: hour meter of the machine it leaves, then the target machine, position and its meter."
         self.query_one("#kind-hint", Static).update(hint)
+        self.query_one(SafetyBox).set_extra(self._safety_extra())
 
     @on(Select.Changed, "#kind")
     def _kind_changed(self, event: Select.Changed) -> None:

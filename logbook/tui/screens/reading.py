@@ -1,6 +1,6 @@
 """Reading entry: a form prefilled from the pump, checked by the store as you type,
-with the cautions on screen, a comparison with the limit and the previous reading
-on save, and a quick way on to the next pump of the round."""
+with the safety warning on screen (F6: the whole safety list), a comparison with the
+limit and the previous reading on save, and a quick way on to the next pump of the round."""
 
 from __future__ import annotations
 
@@ -10,13 +10,13 @@ from textual.containers import Container, VerticalScroll
 from textual.widgets import Footer, Static
 
 from logbook import fmt
-from logbook.cautions import CAUTIONS, CAUTIONS_TITLE
 from logbook.model import ALL_KINDS, Problem, Reading
 from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
+from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
 
 
-class ReadingScreen(EntryScreen):
+class ReadingScreen(SafetyKey, EntryScreen):
     """``following``: the serials after this one in the fleet view (the round's order)."""
 
     HELP_TITLE = "Reading entry"
@@ -25,6 +25,7 @@ class ReadingScreen(EntryScreen):
                 id="reading.save_next"),
         Binding("f4", "next_pump", "Skip pump", key_display="F4", tooltip="the next pump without saving this one",
                 id="reading.skip"),
+        SAFETY_BINDING,
     ]
 
     def __init__(self, serial: str, following: list[str] | None = None) -> None:
@@ -39,9 +40,7 @@ class ReadingScreen(EntryScreen):
         with VerticalScroll(classes="form", id="form"):
             yield Static("", id="saved-line")
             yield Static("", id="pump-line", classes="form-hint")
-            caution = Static("\n".join(f"⚠ {c}" for c in CAUTIONS), id="cautions")
-            caution.border_title = CAUTIONS_TITLE
-            yield caution
+            yield SafetyBox()
             with Container(classes="fields"):
                 for d in forms.reading_fields(self.app.units, self.app.today):
                     yield self.make_field(d)
