@@ -212,31 +212,60 @@ class _RowFits:
     latest: np.ndarray
 
 
+@dataclass
+class _Block:
+    """A block of rows in the readings stage: the readings (0 for padding), their logs, the weights
+    and flags as the stage sets them, and the linear fit of what is still used."""
+
+    x0: np.ndarray
+    y0: np.ndarray
+    ly: np.ndarray  # log y: 0 for padding; -inf / NaN where a reading is not positive
+    w: np.ndarray
+    all_pos: np.ndarray  # the exponential path needs every reading above 0
+    flags: np.ndarray
+    step_at: np.ndarray
+    changed: np.ndarray
+    lin: LineStats | None = None
+
+    @classmethod
+    def of(cls, x: np.ndarray, y: np.ndarray) -> "_Block":
+        s = x.shape[0]
+        valid = ~np.isnan(y)
+        w = valid.astype(float)
+        y0, x0 = np.where(valid, y, 0.0), np.where(valid, x, 0.0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            ly = 1.0 - w
+            ly += y0
+            np.log(ly, out=ly)
+        block = cls(x0, y0, ly, w, np.isfinite(_rowsum(ly)), np.zeros(s, dtype=np.int64), np.full(s, -1, dtype=np.int64),
+                    np.zeros(s, dtype=bool))  # fmt: skip
+        block.lin = ols_rows(x0, y0, w)
+        return block
+
+    def refit(self, rows: np.ndarray) -> None:
+        self.changed[rows] = True
+        self.lin.put(rows, ols_rows(self.x0[rows], self.y0[rows], self.w[rows]))
+
+
 def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
     """Steps, wild readings and the two least-squares lines for a block of rows."""
-    s, width = x.shape
-    valid = ~np.isnan(y)
-    w = valid.astype(float)
-    y0 = np.where(valid, y, 0.0)
-    x0 = np.where(valid, x, 0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        ly = 1.0 - w
-        ly += y0
-        np.log(ly, out=ly)  # 0 for padding; -inf / NaN where a reading is not positive
-    n_valid = _rowsum(w)
-    all_pos = np.isfinite(_rowsum(ly))  # the exponential path needs every reading above 0
-    crit_t2, crit_f = _crit_tables(width, opt.alpha_outlier, opt.alpha_step, opt.min_step_side)
-    flags = np.zeros(s, dtype=np.int64)
-    step_at = np.full(s, -1, dtype=np.int64)
-    changed = np.zeros(s, dtype=bool)
+    block = _Block.of(x, y)
+    n_valid = _rowsum(block.w)
+    crit_t2, crit_f = _crit_tables(x.shape[1], opt.alpha_outlier, opt.alpha_step, opt.min_step_side)
+    _drop_before_step(block, crit_t2, crit_f, opt)
+    last_col = n_valid.astype(np.int64) - 1
+    _drop_wild(block, crit_t2, last_col, opt)
+    lg = _both_paths(block)
+    return _RowFits(block.lin, lg, block.w, block.flags, block.step_at, n_valid, block.all_pos, _latest(y, last_col))
 
-    lin = ols_rows(x0, y0, w)
 
-    # 1. step change: keep only the readings after it
+def _drop_before_step(block: _Block, crit_t2: np.ndarray, crit_f: np.ndarray, opt: FitOptions) -> None:
+    """1. A step change: keep only the readings after it."""
+    lin, w, x0, y0 = block.lin, block.w, block.x0, block.y0
     found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True)
-    cand = np.flatnonzero(found & all_pos)
+    cand = np.flatnonzero(found & block.all_pos)
     if cand.size:  # not a step if the exponential path explains it
-        f_log, c_log = _confirm_log(cand, ly, x0, w, _step_scan, crit_f, opt, left_aligned=True)  # w untouched yet
+        f_log, c_log = _confirm_log(cand, block.ly, x0, w, _step_scan, crit_f, opt, left_aligned=True)  # w untouched yet
         found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
     cand = np.flatnonzero(found)
     if cand.size:  # nor if it rests on one reading: drop the most extreme one and look again
@@ -247,42 +276,44 @@ def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
         found[cand] = f_rob & (np.abs(c_rob - col[cand]) <= 1)
     rows = np.flatnonzero(found)
     if rows.size:
-        step_at[rows] = col[rows]
-        flags[rows] |= B_STEP
-        changed[rows] = True
-        w[rows] = w[rows] * (np.arange(width)[None, :] >= col[rows][:, None])
-        lin.put(rows, ols_rows(x0[rows], y0[rows], w[rows]))
+        block.step_at[rows] = col[rows]
+        block.flags[rows] |= B_STEP
+        w[rows] = w[rows] * (np.arange(w.shape[1])[None, :] >= col[rows][:, None])
+        block.refit(rows)
 
-    # 2. wild readings: drop the worst one if it fails the test on both scales
-    last_col = n_valid.astype(np.int64) - 1
-    check = np.arange(s)
+
+def _drop_wild(block: _Block, crit_t2: np.ndarray, last_col: np.ndarray, opt: FitOptions) -> None:
+    """2. Wild readings: drop the worst one if it fails the test on both scales (up to ``max_drops``)."""
+    w, x0, y0 = block.w, block.x0, block.y0
+    check = np.arange(len(w))
     for _ in range(opt.max_drops):
-        sub = lin if _ == 0 else ols_rows(x0[check], y0[check], w[check])
+        sub = block.lin if _ == 0 else ols_rows(x0[check], y0[check], w[check])
         found, col = _outlier_scan(sub, crit_t2, opt.min_outlier_points)
-        cand = np.flatnonzero(found & all_pos[check])
+        cand = np.flatnonzero(found & block.all_pos[check])
         if cand.size:
-            f_log, c_log = _confirm_log(check[cand], ly, x0, w, _outlier_scan, crit_t2, opt.min_outlier_points)
+            f_log, c_log = _confirm_log(check[cand], block.ly, x0, w, _outlier_scan, crit_t2, opt.min_outlier_points)
             found[cand] = f_log & (c_log == col[cand])
         check, col = check[found], col[found]
         if not check.size:
             break
         w[check, col] = 0.0
-        flags[check] |= B_OUTLIER
-        flags[check[col == last_col[check]]] |= B_JUMP
-        changed[check] = True
-        lin.put(check, ols_rows(x0[check], y0[check], w[check]))
+        block.flags[check] |= B_OUTLIER
+        block.flags[check[col == last_col[check]]] |= B_JUMP
+        block.refit(check)
 
-    # 3. linear and exponential paths, weighed by AICc on the readings' scale
-    rows = np.flatnonzero(changed)
+
+def _both_paths(block: _Block) -> LineStats:
+    """3. The exponential (log-linear) line beside the linear one, on the readings still used."""
+    rows = np.flatnonzero(block.changed)
     if rows.size:  # zero what is no longer used, so that raw moments see only used readings
-        wr = w[rows]
-        x0[rows] *= wr
+        wr = block.w[rows]
+        block.x0[rows] *= wr
         with np.errstate(invalid="ignore"):  # log of a non-positive reading: that row has no log path (all_pos)
-            ly[rows] *= wr
-    lg = _log_line(x0, ly, lin)
-    all_pos &= np.isfinite(lg.b)
-    lin.dx = lin.r = None
-    return _RowFits(lin, lg, w, flags, step_at, n_valid, all_pos, _latest(y, last_col))
+            block.ly[rows] *= wr
+    lg = _log_line(block.x0, block.ly, block.lin)
+    block.all_pos &= np.isfinite(lg.b)
+    block.lin.dx = block.lin.r = None
+    return lg
 
 
 def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
