@@ -9,6 +9,8 @@ from textual.containers import VerticalScroll
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Footer, Static
 
+from logbook.analysis.status import STATUS_ORDER
+
 KEY_NAMES = {
     "escape": "Esc", "enter": "Enter", "slash": "/", "question_mark": "?", "tab": "Tab", "shift+tab": "Shift+Tab",
     "up": "Up", "down": "Down", "left": "Left", "right": "Right", "pageup": "PgUp", "pagedown": "PgDn",
@@ -106,7 +108,8 @@ class HelpScreen(ModalScreen):
             box.border_subtitle = "Esc closes"
             yield Static(table, id="help-text")
             yield Static(
-                "\nStatus words come with a symbol (✖ ⚠ ▲ △ … ✓ -) so they read without colour. "
+                f"\nStatus words come with a symbol ({' '.join(w.split()[0] for w in STATUS_ORDER)}) so they read "
+                "without colour. "
                 "P10/P50/P90: the limit is crossed by then with 10/50/90 % probability. "
                 "The trend arrow shows whether the value rises (↑) or falls (↓); → steady.",
                 id="help-notes",
