@@ -59,11 +59,14 @@ class Context:
     units: UnitPrefs
     console: Console = field(default_factory=lambda: Console(highlight=False, width=None if sys.stdout.isatty() else 160))
     err: Console = field(default_factory=lambda: Console(stderr=True, highlight=False))
+    stores: list = field(default_factory=list)  # every store opened, to tell what was saved when a run stops
 
     def open_store(self, *, create: bool = False):
         from logbook.store import Store
 
-        return Store(self.db_path, create=create, user=self.user)
+        store = Store(self.db_path, create=create, user=self.user)
+        self.stores.append(store)
+        return store
 
 
 def whole_number(text: str) -> int:
@@ -183,12 +186,18 @@ def main(argv: list[str] | None = None) -> int:
 
             return run(args, ctx)
         return int(args.func(args, ctx) or 0)
-    except SQLiteError as exc:
-        ctx.err.print(f"logbook: the database {ctx.db_path} failed: {exc}. Nothing half-written (each change is one "
-                      "transaction); `logbook check` tells more, and a damaged file is restored from a backup.", markup=False)
+    except SQLiteError as exc:  # a read that failed (writes raise StoreError): damaged, read-only, disk full...
+        from logbook.store import explain
+
+        told, saved = explain(exc, ctx.db_path), _saved(ctx)
+        ctx.err.print(f"logbook: {told}" if told else f"logbook: the database {ctx.db_path} failed: {exc}. "
+                      f"{f'Before that, {saved}' if saved else 'Nothing was written'}; `logbook check` tells more.",
+                      markup=False)
         return 1
     except KeyboardInterrupt:
-        ctx.err.print("interrupted; nothing half-written (each change is one transaction)")
+        saved = _saved(ctx)
+        ctx.err.print(f"interrupted after {saved}" if saved else "interrupted before saving: nothing was written",
+                      markup=False)
         return 130
     except BrokenPipeError:
         return 0
@@ -202,6 +211,13 @@ def main(argv: list[str] | None = None) -> int:
             ctx.err.print(f"logbook: {exc}", markup=False)
             return 1
         raise
+
+
+def _saved(ctx: Context) -> str | None:
+    """What this run committed, in every store it opened ("the import was saved: 3
+    rows are in (r.csv)"); None when it wrote nothing."""
+    saved = [commit.describe() for store in ctx.stores for commit in store.commits]
+    return "; ".join(saved) or None
 
 
 def _raised_as(exc: Exception, module: str, name: str) -> bool:

@@ -16,7 +16,7 @@ def register(sub) -> None:
 def run(args, ctx) -> int:
     with ctx.open_store() as store:
         findings = store.check()
-        counts = store.counts()
+        counts = store.counts() if not findings else None  # a damaged file may not read through
     if not findings:
         ctx.console.print(
             f"{ctx.db_path}: no problems found ({counts['pumps']} pumps, {counts['readings']} readings, "

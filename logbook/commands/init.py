@@ -11,8 +11,11 @@ def register(sub) -> None:
 def run(args, ctx) -> int:
     existed = ctx.db_path.exists()
     with ctx.open_store(create=True) as store:
+        store.ready_to_write()  # a damaged or read-only file is refused here, as any write to it would be
         counts = store.counts()
         version = store.schema_version()
     state = "opened existing" if existed else "created"
-    ctx.console.print(f"{state} {ctx.db_path} (schema {version}; {counts['pumps']} pumps, {counts['readings']} readings)", markup=False)
+    checked = "; quick check ok" if existed else ""
+    ctx.console.print(f"{state} {ctx.db_path} (schema {version}{checked}; {counts['pumps']} pumps, "
+                      f"{counts['readings']} readings)", markup=False)
     return 0

@@ -8,6 +8,8 @@
     store.remove_reading(7, reason="wrong pump"); store.remove_event(3, reason="...")
     store.pump_trail("S-100")            # who changed what, when, before -> after
     store.backup("copy.db"); store.check()   # online backup; integrity and domain checks
+    store.ready_to_write()               # DatabaseReadOnly / DatabaseDamaged (quick check), once per open
+    store.commits                        # what this store committed (the CLI tells it after Ctrl-C)
 """
 
 from __future__ import annotations
@@ -15,7 +17,10 @@ from __future__ import annotations
 from sqlite3 import DatabaseError as SQLiteError  # any failure of SQLite itself (damaged file, disk full...)
 
 from logbook.store.bulk import BulkMixin
-from logbook.store.core import DatabaseBusy, DatabaseMissing, DatabaseTooNew, StoreCore, StoreError
+from logbook.store.core import (
+    NEW_FILE_MODE, Commit, DatabaseBusy, DatabaseDamaged, DatabaseMissing, DatabaseReadOnly, DatabaseTooNew, DiskFull,
+    StoreCore, StoreError, explain,
+)
 from logbook.store.corrections import CORRECTABLE, CorrectionsMixin
 from logbook.store.maintenance import BackupResult, Finding, MaintenanceMixin
 from logbook.store.reads import ReadMixin
@@ -31,10 +36,16 @@ class Store(CorrectionsMixin, MaintenanceMixin, TrailMixin, BulkMixin, RecordsMi
     Shared use: any number of processes may open one file. Writes take SQLite's write
     lock with bounded retry (``DatabaseBusy`` when it stays held); reads run in WAL
     snapshots and never wait for a writer. ``change_count()`` rises with every commit
-    from any process: poll it to notice another user's changes."""
+    from any process: poll it to notice another user's changes.
+
+    A file this user cannot write opens for reading (``read_only`` says why); a file
+    SQLite's quick check finds damaged is never written. Either is refused at the first
+    write with a ``StoreError`` that says so; ``explain(exc, path)`` tells any other
+    failure of SQLite itself (damaged, read-only, disk full) the same way."""
 
 
 __all__ = [
-    "Store", "StoreError", "SQLiteError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy",
+    "Store", "StoreError", "SQLiteError", "DatabaseMissing", "DatabaseTooNew", "DatabaseBusy", "DatabaseDamaged",
+    "DatabaseReadOnly", "DiskFull", "Commit", "NEW_FILE_MODE", "explain",
     "TrailEntry", "Finding", "BackupResult", "CORRECTABLE",
 ]

@@ -1,4 +1,5 @@
-"""Opening the database: connection settings, migrations, transactions, audit rows."""
+"""Opening the database: connection settings, migrations, transactions, audit rows,
+and what a failure of the file itself (damaged, read-only, disk full) is told as."""
 
 from __future__ import annotations
 
@@ -7,10 +8,14 @@ import getpass
 import json
 import os
 import sqlite3
+import stat
 import time
+from collections import Counter
+from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable, Iterator, TypeVar
+from urllib.parse import quote
 
 import sqlite_utils
 
@@ -18,6 +23,17 @@ from logbook.store.schema import MIGRATIONS, SCHEMA_VERSION
 
 T = TypeVar("T")
 R = TypeVar("R")
+
+#: A new database file is readable and writable by its owner and its group, whatever
+#: the umask (a umask of 022 or 077 would take the group's write away and leave a
+#: second planner unable to write); never by others. SQLite gives the -wal and -shm
+#: files it creates beside the database the database file's own mode.
+NEW_FILE_MODE = 0o660
+
+# SQLite's primary result codes (https://www.sqlite.org/rescode.html)
+_READONLY, _IOERR, _CORRUPT, _FULL, _CANTOPEN, _NOTADB = 8, 10, 11, 13, 14, 26
+
+READS_STILL_WORK = "Reading still works (`logbook pumps`, `show`, `forecast`, `check`)."
 
 
 class StoreError(Exception):
@@ -36,6 +52,18 @@ class DatabaseBusy(StoreError):
     pass
 
 
+class DatabaseDamaged(StoreError):
+    """The file fails SQLite's own checks: nothing is written to it."""
+
+
+class DatabaseReadOnly(StoreError):
+    """This user may read the database but not write it (file, folder or file system)."""
+
+
+class DiskFull(StoreError):
+    pass
+
+
 def default_user() -> str:
     try:
         return getpass.getuser()
@@ -45,6 +73,123 @@ def default_user() -> str:
 
 def utc_now() -> datetime:
     return datetime.now(timezone.utc).replace(microsecond=0)
+
+
+# -- telling what went wrong with the file -------------------------------------------
+def _names(st: os.stat_result) -> tuple[str, str]:
+    import grp
+    import pwd
+
+    try:
+        owner = pwd.getpwuid(st.st_uid).pw_name
+    except KeyError:
+        owner = str(st.st_uid)
+    try:
+        group = grp.getgrgid(st.st_gid).gr_name
+    except KeyError:
+        group = str(st.st_gid)
+    return owner, group
+
+
+def _described(path: Path) -> str:
+    st = path.stat()
+    owner, group = _names(st)
+    return f"owner {owner}, group {group}, mode {stat.filemode(st.st_mode)[1:]}"
+
+
+def read_only_reason(path: str | Path) -> str | None:
+    """Why the login user cannot write the database at ``path`` (None: nothing found).
+    SQLite in WAL mode writes three files: the database, its -wal and its -shm, the last
+    two created in the database's folder when they do not exist."""
+    file = Path(path).absolute()
+    folder = file.parent
+    who = default_user()
+    try:
+        if os.statvfs(folder).f_flag & os.ST_RDONLY:
+            return f"{file} is on a read-only file system (nothing can be written to it there)"
+        if file.exists() and not os.access(file, os.W_OK):
+            st = file.stat()
+            return (f"the database file {file} is read-only for {who} ({_described(file)}); to write, its owner can "
+                    f"give the group write access (`chmod g+w {file}`) with {who} in the group {_names(st)[1]}")
+        for side in (Path(f"{file}-wal"), Path(f"{file}-shm")):
+            if side.exists() and not os.access(side, os.W_OK):
+                return (f"{side}, which SQLite writes with every change, is read-only for {who} ({_described(side)}); "
+                        f"its owner can give the group write access (`chmod g+w {side}`)")
+        if not os.access(folder, os.W_OK | os.X_OK):
+            return (f"the folder {folder} is not writable for {who} ({_described(folder)}), and SQLite must create "
+                    f"{file.name}-wal and {file.name}-shm in it to write; give {who} write access to the folder "
+                    "(README: Where the database lives)")
+    except OSError:
+        return None
+    return None
+
+
+def _disk_full(path: str | Path) -> bool:
+    try:
+        fs = os.statvfs(Path(path).absolute().parent)
+    except OSError:
+        return False
+    return fs.f_bavail * fs.f_frsize < 64 * 1024  # less than a few pages left
+
+
+def integrity_summary(found: list[str], shown: int = 2) -> str:
+    """SQLite's integrity or quick check rows in a few words: the first problems, and how many more."""
+    lines = [" ".join(line.split()) for row in found for line in row.splitlines()]
+    lines = [line for line in lines if line and not line.startswith("*** in database")]
+    more = f" (and {len(lines) - shown} more)" if len(lines) > shown else ""
+    return "; ".join(lines[:shown]) + more
+
+
+RESTORE = "restore the database from a backup (`logbook backup DEST` makes one; docs/shared-use.md says how to put one back)"
+
+
+def damaged_message(path: str | Path, detail: str, *, opens: bool = True) -> str:
+    look = (f"Run `logbook check --db {path}` to see what is wrong, and {RESTORE}." if opens else
+            f"SQLite cannot open it, so `logbook check` cannot look into it either: {RESTORE}.")
+    return f"{path} is damaged ({detail}): nothing was written, and the logbook writes nothing to a damaged file. {look}"
+
+
+def explain(exc: BaseException, path: str | Path, *, opening: bool = False) -> StoreError | None:
+    """A failure of SQLite itself told for a person: the disk is full, the file is
+    read-only for this user, or it is damaged. None for anything else."""
+    if not isinstance(exc, sqlite3.Error):
+        return None
+    code = getattr(exc, "sqlite_errorcode", None)
+    primary = code & 0xFF if isinstance(code, int) else None
+    if primary == _FULL or (primary == _IOERR and _disk_full(path)):
+        return DiskFull(f"the disk holding {Path(path).absolute().parent} is full: nothing was written (the change "
+                        f"was rolled back). Free some space there and try again. {READS_STILL_WORK}")
+    if primary == _READONLY or (primary == _CANTOPEN and read_only_reason(path)):
+        why = read_only_reason(path) or f"SQLite says: {exc}"
+        return DatabaseReadOnly(f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}")
+    if primary == _NOTADB:
+        return DatabaseDamaged(f"{path} is not a usable logbook database: {exc} (a damaged file, or not a logbook "
+                               f"database at all); nothing was written. If it is your logbook, {RESTORE}; "
+                               "`logbook check` cannot look into a file SQLite does not recognize.")
+    if primary == _CORRUPT:
+        return DatabaseDamaged(damaged_message(path, f"SQLite says: {exc}", opens=not opening))
+    if primary == _IOERR:
+        return StoreError(f"the disk failed while reading or writing {path} ({exc}): nothing was written; "
+                          f"run `logbook check --db {path}`")
+    return None
+
+
+@dataclass(frozen=True)
+class Commit:
+    """One committed write transaction, counted from the audit rows it wrote."""
+
+    changes: tuple[tuple[str, str, int], ...]  # (action, table, rows)
+    imported: tuple[str, int] | None = None  # (file name, rows) of an import
+    label: str | None = None  # a commit that writes no audit rows (schema set-up)
+
+    _VERBS = {"insert": "added", "correct": "corrected", "remove": "removed", "update": "updated"}
+
+    def describe(self) -> str:
+        if self.imported is not None:
+            return f"the import was saved: {self.imported[1]} rows are in ({self.imported[0]})"
+        parts = [f"{n} {table} row{'s' if n != 1 else ''} {self._VERBS.get(action, action)}"
+                 for action, table, n in self.changes if action != "import"]
+        return "the change was saved: " + (", ".join(parts) if parts else (self.label or "no rows"))
 
 
 class StoreCore:
@@ -67,6 +212,15 @@ class StoreCore:
             raise StoreError(f"--as {user[:40]!r}: a name must be 1-64 characters on one line")
         self.user = user.strip() if user else default_user()
         self.clock = clock
+        #: Why this store can only read (opened read-only because SQLite could not
+        #: create its -wal/-shm files); None when it may write.
+        self.read_only: str | None = None
+        #: Write transactions this store committed, oldest first.
+        self.commits: list[Commit] = []
+        self._writable = False  # checked once (quick check, permissions) before the first write
+        self._pending: Counter = Counter()
+        self._pending_import: tuple[str, int] | None = None
+        self._pending_label: str | None = None
         memory = self.path == ":memory:"
         if not memory:
             file = Path(self.path)
@@ -76,26 +230,79 @@ class StoreCore:
                         f"no logbook database at {self.path}: create one with `logbook init` "
                         "(or `logbook demo` for the demo fleet), or give --db PATH"
                     )
-                file.parent.mkdir(parents=True, exist_ok=True)
-                # Readable and writable by owner and group only.
-                try:
-                    fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o660)
-                    os.close(fd)
-                except FileExistsError:
-                    pass  # another process created it a moment ago; its migration is serialized below
+                self._create_file(file)
             elif not os.access(self.path, os.R_OK):
-                raise StoreError(f"cannot read the logbook database at {self.path}: permission denied")
+                raise StoreError(f"cannot read the logbook database at {self.path}: permission denied for "
+                                 f"{default_user()} ({_described(file)})")
         try:
-            conn = sqlite3.connect(self.path, timeout=self.BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False)
-            self.db = sqlite_utils.Database(conn, execute_plugins=False)
-            conn.execute(f"PRAGMA busy_timeout = {self.BUSY_TIMEOUT_MS}")
-            conn.execute("PRAGMA foreign_keys = ON")
-            if not memory:
-                conn.execute("PRAGMA journal_mode = WAL")
-                conn.execute("PRAGMA synchronous = NORMAL")
+            self.db = sqlite_utils.Database(self._connect(memory), execute_plugins=False)
             self._migrate()
         except sqlite3.DatabaseError as exc:
-            raise StoreError(f"{self.path} is not a usable logbook database: {exc}") from exc
+            raise explain(exc, self.path, opening=True) or StoreError(
+                f"{self.path} is not a usable logbook database: {exc}") from exc
+
+    def _create_file(self, file: Path) -> None:
+        try:
+            file.parent.mkdir(parents=True, exist_ok=True)
+            try:
+                fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, NEW_FILE_MODE)
+            except FileExistsError:
+                return  # another process created it a moment ago; its migration is serialized below
+            try:
+                os.fchmod(fd, NEW_FILE_MODE)  # the mode asked for, not narrowed by the umask
+            finally:
+                os.close(fd)
+        except OSError as exc:
+            if _disk_full(file):
+                raise DiskFull(f"cannot create {file}: the disk holding it is full; nothing was written") from exc
+            raise StoreError(f"cannot create the logbook database {file}: {exc.strerror or exc}"
+                             + (f" ({read_only_reason(file)})" if read_only_reason(file) else "")) from exc
+
+    def _connect(self, memory: bool) -> sqlite3.Connection:
+        conn = sqlite3.connect(self.path, timeout=self.BUSY_TIMEOUT_MS / 1000, isolation_level=None, check_same_thread=False)
+        try:
+            self._configure(conn, wal=not memory)
+            return conn
+        except sqlite3.OperationalError as exc:
+            code = (getattr(exc, "sqlite_errorcode", 0) or 0) & 0xFF
+            if memory or code not in (_READONLY, _CANTOPEN):
+                conn.close()
+                raise
+            conn.close()
+            return self._connect_read_only(exc)
+
+    def _configure(self, conn: sqlite3.Connection, *, wal: bool) -> None:
+        conn.execute(f"PRAGMA busy_timeout = {self.BUSY_TIMEOUT_MS}")
+        conn.execute("PRAGMA foreign_keys = ON")
+        if wal:  # WAL itself is set by the first write (ready_to_write): setting it writes to the file
+            conn.execute("PRAGMA synchronous = NORMAL")
+        conn.execute("SELECT count(*) FROM sqlite_master").fetchone()  # the first read: opens the file
+
+    def _connect_read_only(self, first: sqlite3.OperationalError) -> sqlite3.Connection:
+        """Read a database this user cannot write, so that looking still works: first
+        as an ordinary read-only connection, then, when SQLite cannot create the -wal
+        and -shm files (a read-only folder), as an unchanging file, which is only
+        sound while no -wal holds changes not yet in the database file."""
+        uri = f"file:{quote(os.path.abspath(self.path))}?mode=ro"
+        wal = Path(f"{self.path}-wal")
+        attempts = [uri]
+        if not wal.exists() or wal.stat().st_size == 0:
+            attempts.append(uri + "&immutable=1")
+        why = read_only_reason(self.path) or f"SQLite says: {first}"
+        for target in attempts:
+            conn = sqlite3.connect(target, uri=True, timeout=self.BUSY_TIMEOUT_MS / 1000, isolation_level=None,
+                                   check_same_thread=False)
+            try:
+                self._configure(conn, wal=False)
+            except sqlite3.OperationalError:
+                conn.close()
+                continue
+            self.read_only = f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}"
+            return conn
+        raise StoreError(
+            f"cannot open {self.path}: {why}. It cannot even be read, because {wal.name} holds changes not yet "
+            "folded into the database file and SQLite needs to create its -shm file beside it to read them; "
+            "anyone who can write the folder can fold them in by running `logbook check` once") from first
 
     @property
     def conn(self) -> sqlite3.Connection:
@@ -131,12 +338,39 @@ class StoreCore:
                     if statement.strip():
                         self.conn.execute(statement)
                 self.conn.execute(f"PRAGMA user_version = {number + 1}")
+            self._pending_label = f"the database was set up (schema {SCHEMA_VERSION})"
+
+    # -- before the first write -------------------------------------------------
+    def ready_to_write(self) -> None:
+        """Refuse to write when this user cannot write the file or SQLite's quick check
+        finds it damaged (``DatabaseReadOnly``, ``DatabaseDamaged``). Checked once per
+        open store, before its first write; reads are never refused by it, so a planner
+        can still look and run ``logbook check``."""
+        if self._writable or self.path == ":memory:":
+            return
+        if self.read_only:
+            raise DatabaseReadOnly(self.read_only)
+        why = read_only_reason(self.path) if not os.access(self.path, os.W_OK) else None
+        if why:
+            raise DatabaseReadOnly(f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}")
+        try:
+            found = [row[0] for row in self.conn.execute("PRAGMA quick_check(4)").fetchall()]
+        except sqlite3.DatabaseError as exc:  # too damaged for the check to get through
+            found = [str(exc)]
+        if found != ["ok"]:
+            raise DatabaseDamaged(damaged_message(self.path, f"SQLite's quick check: {integrity_summary(found)}"))
+        if self.conn.execute("PRAGMA journal_mode").fetchone()[0] != "wal":
+            self.conn.execute("PRAGMA journal_mode = WAL")  # readers never wait for a writer, nor it for them
+        self._writable = True
 
     # -- transactions -----------------------------------------------------------
     @contextlib.contextmanager
     def transaction(self) -> Iterator[sqlite3.Connection]:
         """One write transaction (BEGIN IMMEDIATE), retried a bounded number of
-        times while another process holds the write lock."""
+        times while another process holds the write lock. A failure of the file
+        itself (damaged, read-only, disk full) is raised as a ``StoreError`` saying so;
+        every commit is remembered in ``commits``."""
+        self.ready_to_write()
         delay = 0.05
         for attempt in range(self.WRITE_ATTEMPTS):
             try:
@@ -144,26 +378,48 @@ class StoreCore:
                 break
             except sqlite3.OperationalError as exc:
                 if "locked" not in str(exc) and "busy" not in str(exc):
-                    raise
+                    raise explain(exc, self.path) or exc
                 if attempt == self.WRITE_ATTEMPTS - 1:
                     raise DatabaseBusy(
                         f"the logbook database {self.path} stayed locked by another user; nothing was written, try again"
                     ) from exc
                 time.sleep(delay)
                 delay = min(delay * 2, 1.0)
+        self._pending, self._pending_import, self._pending_label = Counter(), None, None
         try:
             yield self.conn
+        except BaseException as exc:
+            self._roll_back()
+            better = explain(exc, self.path)
+            if better is None:
+                raise
+            raise better from exc
+        try:
             self.conn.execute("COMMIT")
-        except BaseException:
-            if self.conn.in_transaction:
-                self.conn.execute("ROLLBACK")
+        except BaseException as exc:
+            if isinstance(exc, sqlite3.Error) or self.conn.in_transaction:
+                self._roll_back()  # COMMIT failed (disk full, ...): nothing of it is in
+                raise explain(exc, self.path) or exc
+            self._committed()  # interrupted just after COMMIT returned: it is in
             raise
+        self._committed()
+
+    def _roll_back(self) -> None:
+        if self.conn.in_transaction:
+            with contextlib.suppress(sqlite3.Error):
+                self.conn.execute("ROLLBACK")
+
+    def _committed(self) -> None:
+        changes = tuple((action, table, n) for (action, table), n in self._pending.items())
+        self.commits.append(Commit(changes, self._pending_import, self._pending_label))
 
     def _check_then_write(self, check: Callable[[], T], write: Callable[[T], R], *, dry_run: bool = False) -> tuple[T, R | None]:
         """Validate without holding the write lock, then write under it. ``check`` returns
         something with ``.problems`` and ``.items``; when another connection committed in
         between, the check runs again inside the write transaction, so a write never rests
         on stale reads (two cron jobs importing one file: the second finds it all present)."""
+        if not dry_run:
+            self.ready_to_write()  # a damaged file could make the check itself read wrong things
         version = self.data_version()
         checked = check()
         if checked.problems or dry_run or not checked.items:
@@ -210,3 +466,6 @@ class StoreCore:
                 reason,
             ),
         )
+        self._pending[(action, table)] += 1
+        if action == "import" and after is not None:
+            self._pending_import = (str(after.get("file")), int(after.get("rows") or 0))

@@ -10,7 +10,7 @@ from datetime import date
 from pathlib import Path
 
 from logbook import meter
-from logbook.store.core import StoreError
+from logbook.store.core import StoreError, integrity_summary
 
 BACKUP_MODE = 0o660
 MAX_LISTED = 20  # findings listed per check before "... and N more"
@@ -89,7 +89,13 @@ class MaintenanceMixin:
         except sqlite3.DatabaseError as exc:  # a damaged file can fail the checks themselves
             if self.conn.in_transaction:
                 self.conn.execute("ROLLBACK")
-            return [Finding("integrity", f"the file cannot be read through: {exc}; restore a backup (`logbook backup`)")]
+            try:  # the quick check skips what stopped the full one, and may still say where
+                found = [row[0] for row in self.conn.execute("PRAGMA quick_check(20)").fetchall()]
+            except sqlite3.DatabaseError:
+                found = []
+            where = f": {integrity_summary(found, MAX_LISTED)}" if found and found != ["ok"] else ""
+            return [Finding("integrity", f"SQLite cannot read the file through ({exc}){where}. Nothing will be "
+                            "written to it; restore the database from a backup (docs/shared-use.md says how)")]
 
     def _check(self) -> list[Finding]:
         findings: list[Finding] = []

@@ -172,4 +172,4 @@ def test_check_reports_a_damaged_file(tmp_path, store):
             findings = damaged.check()
         assert findings and findings[0].check == "integrity"
     except StoreError as exc:  # or refused on opening, with a message
-        assert "not a usable logbook database" in str(exc)
+        assert "damaged" in str(exc) and "backup" in str(exc)
