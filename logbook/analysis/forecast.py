@@ -153,32 +153,42 @@ def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizo
     hi = np.minimum(np.maximum(q_lin, q_exp).ravel(), cap)
     f_lin = _PathCdf(fit.lin, rows, lim, sign, with_noise)
     f_exp = _PathCdf(fit.exp, rows, log_lim, sign, with_noise)
+    out, f_lo, f_hi = _bracket_ends(f_lin, f_exp, w_exp, q, lo, hi, cap, np.repeat(x_now[mix], nq))
+    # accuracy of the t approximation: a CDF error of 1e-3 is worth about 1e-3 of the bracket
+    tol = np.maximum(tol_hours, 2e-3 * np.where(np.isfinite(hi - lo), hi - lo, 0.0))
+    active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > tol))
+    x = (1 - w_exp[active]) * np.ravel(q_lin)[active] + w_exp[active] * np.ravel(q_exp)[active]
+    _newton(out, active, x, lo, hi, q, w_exp, tol, f_lin, f_exp)
+    out = np.where(out >= cap, np.inf, out)
+    return out.reshape(mix.size, nq)
 
-    def excess(x):
-        (fl, dl), (fe, de) = f_lin(x), f_exp(x)
-        return (1 - w_exp) * fl + w_exp * fe - q, (1 - w_exp) * dl + w_exp * de
 
+def _bracket_ends(f_lin, f_exp, w_exp, q, lo, hi, cap, x_now):
+    """Start values of the mixture quantiles: ``lo`` where the mixture already reaches q there, inf where
+    it does not by ``cap``, else ``hi``; and the excess (mixture CDF - q) at both ends (-1, 1 unchecked)."""
     out = np.where(np.isfinite(lo), hi, np.inf)
     # the bracket ends need checking only where they are the ends of the search range
     f_lo, f_hi = np.full(lo.size, -1.0), np.ones(lo.size)
-    for f_end, end, where in ((f_lo, lo, lo <= np.repeat(x_now[mix], nq)), (f_hi, hi, hi >= cap)):
+    for f_end, end, where in ((f_lo, lo, lo <= x_now), (f_hi, hi, hi >= cap)):
         idx = np.flatnonzero(where)
         if idx.size:
             part_lin, part_exp = f_lin.subset(idx)(end[idx])[0], f_exp.subset(idx)(end[idx])[0]
             f_end[idx] = (1 - w_exp[idx]) * part_lin + w_exp[idx] * part_exp - q[idx]
-    out = np.where(f_lo >= 0, lo, np.where(f_hi < 0, np.inf, out))
-    # accuracy of the t approximation: a CDF error of 1e-3 is worth about 1e-3 of the bracket
-    tol = np.maximum(tol_hours, 2e-3 * np.where(np.isfinite(hi - lo), hi - lo, 0.0))
-    active = np.flatnonzero((f_lo < 0) & (f_hi >= 0) & (hi - lo > tol))
+    return np.where(f_lo >= 0, lo, np.where(f_hi < 0, np.inf, out)), f_lo, f_hi
+
+
+def _newton(out, active, x, lo, hi, q, w_exp, tol, f_lin, f_exp):
+    """Safeguarded Newton steps on the mixture CDF for the ``active`` items from ``x``, kept inside the
+    bracket (lo, hi) by bisection; writes the roots into ``out``."""
     lo, hi, q, w_exp, tol = (v[active] for v in (lo, hi, q, w_exp, tol))
     f_lin.take(active)
     f_exp.take(active)
-    x = (1 - w_exp) * np.ravel(q_lin)[active] + w_exp * np.ravel(q_exp)[active]
     x = np.where(np.isfinite(x) & (x > lo) & (x < hi), x, 0.5 * (lo + hi))
     for _ in range(60):
         if not active.size:
             break
-        e, slope = excess(x)
+        (fl, dl), (fe, de) = f_lin(x), f_exp(x)
+        e, slope = (1 - w_exp) * fl + w_exp * fe - q, (1 - w_exp) * dl + w_exp * de
         up = e >= 0
         hi, lo = np.where(up, x, hi), np.where(up, lo, x)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -193,8 +203,6 @@ def _mixture_quantiles(fit, mix, q_lin, q_exp, lim, log_lim, sign, x_now, horizo
             lo, hi, q, w_exp, tol, x = np.stack([lo, hi, q, w_exp, tol, x])[:, keep]
             f_lin.take(keep)
             f_exp.take(keep)
-    out = np.where(out >= cap, np.inf, out)
-    return out.reshape(mix.size, nq)
 
 
 def t_cdf_fast(t, dof):
@@ -249,17 +257,35 @@ def forecast_batch(
     Multimodel Inference, 2002, ch. 4), whose quantiles are solved by safeguarded Newton
     steps. Remaining hours beyond ``horizon_hours`` come back as inf.
     """
-    s = batch.size
+    lim = batch.limit
+    sign = batch.direction.astype(float)
+    x_now = np.maximum(batch.x_now, 0.0)
+    cross, go = _crossings(batch, fit, x_now, horizon_hours, quantiles, with_noise, min_weight)
+    rem = cross - x_now[:, None]
+    rem[rem > horizon_hours] = np.inf
+    expo = fit.path == EXPONENTIAL
+
+    # newest used reading and the slope of the path today
+    latest = fit.latest
+    with np.errstate(invalid="ignore", over="ignore"):
+        rate = np.where(expo, fit.b * np.exp(fit.a + fit.b * x_now), fit.b)
+    mid = rem[:, quantiles.index(0.5)] if 0.5 in quantiles else rem[:, len(quantiles) // 2]
+    outcome = _outcomes(fit.n_valid > 0, lim, sign * (latest - lim) >= 0, go, mid)
+    return BatchForecast(remaining=rem, outcome=outcome.astype(np.int8), latest=latest, rate_per_hour=rate)
+
+
+def _crossings(batch: TrendBatch, fit: BatchFit, x_now, horizon_hours, quantiles, with_noise, min_weight):
+    """(S, Q) crossing hours (absolute x, inf for never) of the path or the mixture of both paths, and
+    which rows have a path toward a limit at all."""
     lim = batch.limit
     sign = batch.direction.astype(float)
     with np.errstate(invalid="ignore", divide="ignore"):
         log_lim = np.log(np.where(lim > 0, lim, np.nan))
-    x_now = np.maximum(batch.x_now, 0.0)
     w_exp = fit.w_exp
     use_lin = fit.lin.ok & np.isfinite(lim) & (w_exp < 1 - min_weight) & (fit.path != 0)
     use_exp = fit.exp.ok & np.isfinite(log_lim) & (w_exp > min_weight) & (fit.path != 0)
     lin_rows, exp_rows = np.flatnonzero(use_lin), np.flatnonzero(use_exp)
-    cross = np.full((s, len(quantiles)), np.inf)
+    cross = np.full((batch.size, len(quantiles)), np.inf)
     q_lin = _path_quantiles(fit.lin, lin_rows, lim, sign, x_now, with_noise, quantiles)
     q_exp = _path_quantiles(fit.exp, exp_rows, log_lim, sign, x_now, with_noise, quantiles)
     cross[lin_rows] = q_lin
@@ -270,25 +296,16 @@ def forecast_batch(
         cross[mix] = _mixture_quantiles(
             fit, mix, q_lin[pos_l], q_exp[pos_e], lim, log_lim, sign, x_now, horizon_hours, with_noise, quantiles
         )
-    rem = cross - x_now[:, None]
-    rem[rem > horizon_hours] = np.inf
-    go = use_lin | use_exp
-    expo = fit.path == EXPONENTIAL
+    return cross, use_lin | use_exp
 
-    # newest used reading and the slope of the path today
-    latest = fit.latest
-    with np.errstate(invalid="ignore", over="ignore"):
-        rate = np.where(expo, fit.b * np.exp(fit.a + fit.b * x_now), fit.b)
 
-    has_data = fit.n_valid > 0
-    past = sign * (latest - lim) >= 0
-    mid = rem[:, quantiles.index(0.5)] if 0.5 in quantiles else rem[:, len(quantiles) // 2]
-    outcome = np.where(
+def _outcomes(has_data, lim, past, go, mid):
+    """Outcome code per row: no data, no limit, past the limit, too few for a path, crossing or not."""
+    return np.where(
         ~has_data, O_NO_DATA,
         np.where(~np.isfinite(lim), O_NO_LIMIT,
                  np.where(past, O_PAST_LIMIT,
                           np.where(~go, O_TOO_FEW,
                                    np.where(np.isfinite(mid), O_CROSSING, O_NO_CROSSING)))),
     )  # fmt: skip
-    return BatchForecast(remaining=rem, outcome=outcome.astype(np.int8), latest=latest, rate_per_hour=rate)
 
