@@ -16,6 +16,7 @@ Fewer than ``MIN_FAILURES`` failures give no fit, with the reason in words.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -254,6 +255,27 @@ class _Bucket:
                          tuple(self.skipped))  # fmt: skip
 
 
+def _pump_intervals(bucket: _Bucket, serial: str, ends: Sequence[Event], at_end: dict[int, float], entry: float,
+                    age_now: float | None, latest: float) -> None:  # fmt: skip
+    """One pump's intervals between its overhauls/exchanges ``ends`` (pump hours ``at_end`` by event id()),
+    then the open one, censored at ``age_now`` or else the ``latest`` pump hours (NaN: unknown)."""
+    start: float | None = 0.0
+    for event in ends:
+        at = at_end[id(event)]
+        if at != at:
+            bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on}: pump hours unknown")
+            start = None  # the next interval's start is unknown
+            continue
+        if start is not None and at - start > entry:
+            bucket.add(serial, at - start, True, entry)
+        elif start is not None:
+            bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on} is not after the last")
+        start, entry = at, 0.0
+    age = age_now if age_now is not None else (latest - start if latest == latest and start is not None else None)
+    if age is not None and age > entry:
+        bucket.add(serial, age, False, entry)
+
+
 def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dict[str, Intervals]:
     """Per pump model: intervals between overhaul/exchange events in pump operating hours.
 
@@ -279,23 +301,9 @@ def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dic
     found: dict[str, _Bucket] = {}
     for serial in sorted(s for s in fleet.pumps if s in first_fit):
         bucket = found.setdefault(fleet.models[fleet.pumps[serial].model].code, _Bucket())
-        start: float | None = 0.0
-        entry = float(first_fit[serial].pump_hours_at_fit)
-        for event in own.get(serial, ()):
-            at = at_end[id(event)]
-            if at != at:
-                bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on}: pump hours unknown")
-                start = None  # the next interval's start is unknown
-                continue
-            if start is not None and at - start > entry:
-                bucket.add(serial, at - start, True, entry)
-            elif start is not None:
-                bucket.skipped.append(f"{serial}: {event.kind.value} on {event.happened_on} is not after the last")
-            start, entry = at, 0.0
-        latest = highest[timeline.serial_index[serial]]
-        age = ages_now[serial] if serial in ages_now else (latest - start if latest == latest and start is not None else None)
-        if age is not None and age > entry:
-            bucket.add(serial, age, False, entry)
+        latest = float(highest[timeline.serial_index[serial]])
+        _pump_intervals(bucket, serial, own.get(serial, ()), at_end, float(first_fit[serial].pump_hours_at_fit),
+                        ages_now.get(serial), latest)  # fmt: skip
     return {model: b.intervals(model) for model, b in sorted(found.items())}
 
 

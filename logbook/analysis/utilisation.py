@@ -93,7 +93,20 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
         return out
     starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
     ends = np.r_[starts[1:], len(m)]
-    recent = d >= t - window_days
+    codes_ = m[starts]
+    slope, theil = _window_slopes(d, h, starts, ends, t - window_days, min_span_days)
+    few = ~theil & (ends - starts >= 2) & (d[ends - 1] - d[starts] > 0)
+    slope = np.where(few, _straight_slopes(d, h, starts, ends), slope)
+    for g, code in enumerate(codes_.tolist()):
+        if theil[g] or few[g]:
+            out[code] = float(slope[g])
+    return out
+
+
+def _window_slopes(d, h, starts, ends, since: int, min_span_days: int) -> tuple[np.ndarray, np.ndarray]:
+    """Theil-Sen slope of each machine's points (rows starts:ends, in day order) since ``since``, or of
+    all its points when those are under two or span under ``min_span_days``; and which machines have one."""
+    recent = d >= since
     n_rec = np.add.reduceat(recent.astype(np.int64), starts)
     first_rec = starts + (ends - starts - n_rec)  # points are in day order: the recent ones come last
     span_rec = np.where(n_rec > 0, d[ends - 1] - d[np.minimum(first_rec, ends - 1)], 0.0)
@@ -102,25 +115,22 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
     use_all = ~use_rec & (ends - starts >= 2) & (span_all >= min_span_days)
     lo = np.where(use_rec, first_rec, starts)
     count = ends - lo
-    codes_ = m[starts]
     slope = np.full(len(starts), np.nan)
     theil = use_rec | use_all
-    for n in np.unique(count[theil]).tolist():
+    for n in np.unique(count[theil]).tolist():  # machines with the same number of points at once
         rows = np.flatnonzero(theil & (count == n))
         cols = lo[rows, None] + np.arange(n)[None, :]
         slope[rows] = _median_slopes(d[cols], h[cols])
-    slope = np.clip(slope, 0.0, MAX_HOURS_PER_DAY)
-    few = ~theil & (ends - starts >= 2) & (span_all > 0)
+    return np.clip(slope, 0.0, MAX_HOURS_PER_DAY), theil
+
+
+def _straight_slopes(d, h, starts, ends) -> np.ndarray:
+    """Slope of the straight line from each machine's first day (its lowest hours) to its last (highest)."""
     group = np.repeat(np.arange(len(starts)), ends - starts)
-    h_last = np.maximum.reduceat(np.where(d == d[ends - 1][group], h, -np.inf), starts)  # in (day, hours) order
+    h_last = np.maximum.reduceat(np.where(d == d[ends - 1][group], h, -np.inf), starts)
     h_first = np.minimum.reduceat(np.where(d == d[starts][group], h, np.inf), starts)
     with np.errstate(invalid="ignore", divide="ignore"):
-        straight = np.clip((h_last - h_first) / span_all, 0.0, MAX_HOURS_PER_DAY)
-    slope = np.where(few, straight, slope)
-    for g, code in enumerate(codes_.tolist()):
-        if theil[g] or few[g]:
-            out[code] = float(slope[g])
-    return out
+        return np.clip((h_last - h_first) / (d[ends - 1] - d[starts]), 0.0, MAX_HOURS_PER_DAY)
 
 
 def machine_utilisation(timeline: Timeline, machines: Sequence[str], today: date) -> dict[str, float | None]:
