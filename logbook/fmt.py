@@ -1,12 +1,52 @@
-"""Formatting values for people, in their preferred units (pure)."""
+"""Formatting values for people, in their preferred units (pure); and the one way user
+text reaches a terminal or a screen (``visible``, ``text``, ``cells``)."""
 
 from __future__ import annotations
 
+import re
 from datetime import date
+from typing import TYPE_CHECKING
 
 from logbook import units
 from logbook.model import Kind
 from logbook.units import UnitPrefs
+
+if TYPE_CHECKING:
+    from rich.text import Text
+
+#: Characters that steer a terminal or the reading order instead of being shown: the C0
+#: controls (ESC starts colour, cursor and link sequences; CR, BS and NUL overwrite), DEL,
+#: the C1 controls (U+009B is a one-byte CSI to some terminals), the Unicode line and
+#: paragraph separators and the bidirectional embeddings, overrides and isolates
+#: (Unicode Standard Annex #9, "Unicode Bidirectional Algorithm").
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+
+
+def _escape(match: re.Match) -> str:
+    return repr(match[0])[1:-1]  # \x1b, \r, \t, \u202e: Python's own escapes
+
+
+def visible(value: object) -> str:
+    """User text as a terminal or a screen shows it: every character as typed, except that
+    control characters are written as their escapes (ESC as ``\\x1b``, CR as ``\\r``), so
+    that a stored text cannot move the cursor, recolour or clear the screen or open a link.
+    Only the display changes: the store keeps the text as it was entered. None is ''."""
+    shown = "" if value is None else str(value)
+    return shown if shown.isprintable() else _CONTROL.sub(_escape, shown)
+
+
+def text(*lines: object, style: str = "") -> Text:
+    """The one way text goes to a terminal (rich) or a screen (Textual): a rich ``Text`` of
+    ``lines`` (one argument a line), each made ``visible`` and never read as markup, so that
+    ``[/]``, ``x[/b]``, ``Ann [night shift]`` or ``[link=...]`` show exactly as typed."""
+    from rich.text import Text
+
+    return Text("\n".join(visible(line) for line in lines), style=style, end="")
+
+
+def cells(*values: object) -> list[Text]:
+    """One table row (rich Table or Textual DataTable): each value as ``text`` makes it."""
+    return [text(v) for v in values]
 
 
 def unit_for(kind: Kind, prefs: UnitPrefs) -> str:

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from rich.table import Table
 
+from logbook import fmt
+
 _NOISE = {"id", "entered_at", "entered_by", "import_id"}
 _KEY_FIELDS = {
     "readings": ("taken_on", "machine_hours", "case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar"),
@@ -63,12 +65,12 @@ def run(args, ctx) -> int:
         trail = store.pump_trail(args.serial)
     if args.last is not None:
         trail = trail[-max(args.last, 0):] if args.last > 0 else []
-    table = Table(title=f"history of {args.serial}", box=None, title_justify="left", header_style="bold")
+    table = Table(title=fmt.text(f"history of {args.serial}"), box=None, title_justify="left", header_style="bold")
     for col in ("when (UTC)", "who", "what", "before -> after", "reason"):
         table.add_column(col, overflow="fold")
     for entry in trail:
         what, change = describe(entry)
-        table.add_row(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or "")
+        table.add_row(*fmt.cells(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or ""))
     ctx.console.print(table)
     if not trail:
         ctx.console.print("(no recorded changes)")

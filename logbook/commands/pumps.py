@@ -34,7 +34,7 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
     rows.sort(key=urgency_key)  # the engine's one most-urgent-first order
     for p in rows[:limit]:
         w = p.worst
-        table.add_row(
+        table.add_row(*fmt.cells(
             p.serial,
             f"{p.machine or 'shelf'}/{p.position or '-'}",
             p.model,
@@ -44,7 +44,7 @@ def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None
             fmt.day(w.p50_date) if w else "-",
             p.status,
             *([tests[p.serial].words(ctx.today) if p.serial in tests else "-"] if tests is not None else []),
-        )
+        ))
     return table
 
 

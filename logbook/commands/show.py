@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from rich.table import Table
+from rich.text import Text
 
 from logbook import fmt
 from logbook.analysis.results import OUTCOME_WORDS
@@ -30,41 +31,41 @@ def run(args, ctx) -> int:
     forecast = forecast_in_fleet(fleet, args.serial, ctx.today)
     u, c = ctx.units, ctx.console
     m = history.model
-    c.print(f"[bold]{args.serial}[/bold]  model {m.code} ({m.displacement_cc:g} cm3/rev, {fmt.pressure(m.rated_pressure_bar, u)} rated)  "
-            f"status: {forecast.status}")
+    c.print(Text.assemble(fmt.text(args.serial, style="bold"), fmt.text(
+        f"  model {m.code} ({m.displacement_cc:g} cm3/rev, {fmt.pressure(m.rated_pressure_bar, u)} rated)  status: {forecast.status}")))
     t = Table(title="fitted in", box=None, title_justify="left", header_style="bold")
     for col in ("machine", "position", "from", "until", "meter at fit", "pump h at fit"):
         t.add_column(col)
     for f in history.fitments:
-        t.add_row(f.machine, f.position, fmt.day(f.fitted_on), fmt.day(f.removed_on) if f.removed_on else "now",
-                  fmt.hours(f.machine_hours_at_fit), fmt.hours(f.pump_hours_at_fit))
+        t.add_row(*fmt.cells(f.machine, f.position, fmt.day(f.fitted_on), fmt.day(f.removed_on) if f.removed_on else "now",
+                             fmt.hours(f.machine_hours_at_fit), fmt.hours(f.pump_hours_at_fit)))
     c.print(t)
     if history.events:
         t = Table(title="events", box=None, title_justify="left", header_style="bold")
         for col in ("date", "event", "machine", "hours", "note"):
             t.add_column(col)
         for e in history.events:
-            t.add_row(fmt.day(e.happened_on), e.kind.value, e.machine or "", fmt.hours(e.hours), e.note)
+            t.add_row(*fmt.cells(fmt.day(e.happened_on), e.kind.value, e.machine or "", fmt.hours(e.hours), e.note))
         c.print(t)
     t = Table(title="readings (as measured)", box=None, title_justify="left", header_style="bold")
     for col in ("id", "date", "machine", "meter", "case drain", "servo", "drift", "oil", "test p", "by"):
         t.add_column(col)
     for r in all_readings:
-        t.add_row(
+        t.add_row(*fmt.cells(
             str(r.id) + (" (corrected)" if r.superseded_by else " (removed)" if r.removed_reason else ""), fmt.day(r.taken_on), r.machine or "", fmt.hours(r.machine_hours),
             fmt.value(ALL_KINDS[0], r.case_drain_lpm, u), fmt.value(ALL_KINDS[1], r.servo_pressure_bar, u),
             fmt.value(ALL_KINDS[2], r.neutral_drift_bar, u), fmt.temperature(r.oil_temp_c, u), fmt.pressure(r.test_pressure_bar, u),
             r.technician or r.entered_by,
-        )
+        ))
     c.print(t)
     t = Table(title="forecast (normalized to reference conditions)", box=None, title_justify="left", header_style="bold")
     for col in ("reading", "latest", "limit", "path", "P10", "P50", "P90", "outcome", "flags"):
         t.add_column(col)
     for kf in forecast.kinds:
-        t.add_row(
+        t.add_row(*fmt.cells(
             kf.kind.label, fmt.value(kf.kind, kf.latest_value, u), fmt.value(kf.kind, kf.limit.value, u) if kf.limit else "-",
             kf.path, fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), OUTCOME_WORDS[kf.outcome],
             ", ".join(sorted(kf.flags)).replace("_", " "),
-        )
+        ))
     c.print(t)
     return 0

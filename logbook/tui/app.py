@@ -192,7 +192,9 @@ class LogbookApp(App):
         self.trouble = message.text
         self.refreshing = False
         self.data_generation += 1  # screens show the trouble line
-        self.notify(message.text, title="Cannot read the logbook", severity="error", timeout=8)
+        from logbook.fmt import visible  # a message can quote a file name: shown as typed, never as markup
+
+        self.notify(visible(message.text), title="Cannot read the logbook", severity="error", timeout=8, markup=False)
 
     def reload(self, reason: str = "", saved=None) -> None:
         """Read and forecast again; ``saved`` (a record just written) gets its pump's forecast first."""

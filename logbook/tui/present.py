@@ -120,7 +120,7 @@ def is_reading_due(tests, serial: str, today: date) -> bool:
 
 def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | None = None) -> tuple[Column, ...]:
     """The columns of ``layout.fleet_columns`` (what fits ``width``) with how each cell
-    is worded, clipped to its column; ``tests`` (serial -> rounds.NextTest, None while
+    is worded (user text made ``fmt.visible``), clipped to its column; ``tests`` (serial -> rounds.NextTest, None while
     not computed) words the next-reading column as of ``today``."""
     spec = fleet_columns(width, serial_width)
     day = fmt.day if spec.full_dates else _month
@@ -138,7 +138,7 @@ def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | No
         "next": (lambda p: "") if tests is None or today is None else (lambda p: next_cell(tests.get(p.serial), today)),
     }
     return tuple(
-        Column(c.key, c.label, c.width, (lambda cell, w: lambda p: clip(cell(p), w))(cells[c.key], c.width))
+        Column(c.key, c.label, c.width, (lambda cell, w: lambda p: clip(fmt.visible(cell(p)), w))(cells[c.key], c.width))
         for c in spec.columns
     )
 

@@ -9,6 +9,9 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Footer, Label, Select, Static
 
+from logbook import fmt
+from logbook.tui.widgets.plain import Plain
+
 FILTERS = (("site", "Site", "All sites"), ("model", "Model", "All models"), ("status", "Status", "All statuses"),
            ("due", "Next reading", "Any date"))
 
@@ -38,9 +41,9 @@ class FilterScreen(ModalScreen[dict]):
                     yield Label(label, classes="field-label")
                     values = self.options.get(name, [])
                     current = self.chosen.get(name)
-                    yield Select([(v, v) for v in values], prompt=prompt, compact=True, id=name,
+                    yield Select([(fmt.text(v), v) for v in values], prompt=prompt, compact=True, id=name,
                                  value=current if current in values else Select.NULL)
-            yield Static("", id="filter-count")
+            yield Plain("", id="filter-count")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:

@@ -20,6 +20,7 @@ from textual.screen import ModalScreen, Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from logbook.tui.layout import ColumnSpec, fleet_columns
+from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import Cell, OpenTable
 
 
@@ -75,13 +76,13 @@ class FleetScreen(Screen):
 
     def compose(self) -> ComposeResult:
         source = Path(self.app.gate.path).name if self.app.gate.path else "logbook"
-        yield Static(f"Fleet on {self.app.today.isoformat()} · {source}", id="title")
+        yield Plain(f"Fleet on {self.app.today.isoformat()} · {source}", id="title")
         with Horizontal(id="filters"):
-            yield Static(self._filter_words(), id="filter-summary")
+            yield Plain(self._filter_words(), id="filter-summary")
             yield Input(placeholder="serial…", id="find", compact=True, select_on_focus=False)
         table = OpenTable(id="fleet-table", cursor_type="row", zebra_stripes=True, cell_padding=0)
         yield table
-        yield Static("Reading the logbook…", id="status-line")
+        yield Plain("Reading the logbook…", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:

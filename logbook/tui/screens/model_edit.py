@@ -6,10 +6,11 @@ from textual.app import ComposeResult
 from textual.containers import Container, VerticalScroll
 from textual.widgets import Footer, Static
 
-from logbook import units, validate
+from logbook import fmt, units, validate
 from logbook.model import ALL_KINDS, Kind, Limit, Problem, PumpModel
 from logbook.tui.forms import FieldDef, _free, _number, _oil_grade
 from logbook.tui.screens.entry import EntryScreen
+from logbook.tui.widgets.plain import Plain
 
 LIMIT_FIELDS = {Kind.CASE_DRAIN: "case_drain_limit", Kind.SERVO_PRESSURE: "servo_pressure_limit",
                 Kind.NEUTRAL_DRIFT: "neutral_drift_limit"}
@@ -75,13 +76,13 @@ class ModelEditScreen(EntryScreen):
     def compose(self) -> ComposeResult:
         model = self.app.fleet.models[self.code]
         prefill = model_prefill(model, self.app.units)
-        yield Static(f"Model {self.code} · limits apply to readings normalized to the reference conditions", id="title")
+        yield Plain(f"Model {self.code} · limits apply to readings normalized to the reference conditions", id="title")
         with VerticalScroll(classes="form", id="form"):
             with Container(classes="fields"):
                 for d in model_fields(self.app.units):
                     yield self.make_field(d, prefill.get(d.name, ""))
-            yield Static("Change what you need; F2 saves, Esc goes back without saving.", id="check")
-            yield Static("", id="result")
+            yield Plain("Change what you need; F2 saves, Esc goes back without saving.", id="check")
+            yield Plain("", id="result")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -114,7 +115,7 @@ class ModelEditScreen(EntryScreen):
 
     def saved(self, model: PumpModel) -> None:
         box = self.query_one("#result", Static)
-        box.border_title = f"Saved model {model.code}"
+        box.border_title = fmt.text(f"Saved model {model.code}")
         box.update("The forecast of every pump of this model is being updated. Esc goes back.")
         box.add_class("-shown")
         self.query_one("#check", Static).update(f"✓ Saved model {model.code}.")

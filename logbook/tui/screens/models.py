@@ -10,6 +10,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from logbook import fmt
 from logbook.model import ALL_KINDS
+from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import EditTable
 
 
@@ -22,7 +23,7 @@ class ModelsScreen(Screen):
     def compose(self) -> ComposeResult:
         yield Static("Pump models: reference conditions and limits (limits apply at reference)", id="title")
         yield EditTable(id="models-table", cursor_type="row", zebra_stripes=True)
-        yield Static("", id="status-line")
+        yield Plain("", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -50,11 +51,11 @@ class ModelsScreen(Screen):
                 x for x in (f"{m.reading_interval_hours:g} h" if m.reading_interval_hours else "",
                             f"{m.reading_interval_days} d" if m.reading_interval_days else "") if x
             ) or "-"
-            table.add_row(
+            table.add_row(*fmt.cells(
                 code, *limits, fmt.temperature(m.ref_temp_c, u), fmt.pressure(m.ref_pressure_bar, u),
                 f"VG {m.oil_grade} VI {m.oil_vi:g}", f"{m.test_speed_rpm:g} rpm",
                 f"{fmt.temperature(m.test_temp_min_c, u)}-{fmt.temperature(m.test_temp_max_c, u)}", interval,
-                str(in_use.get(code, 0)), m.description, key=code,
+                str(in_use.get(code, 0)), m.description), key=code,
             )
         if row is not None and 0 <= row < table.row_count:
             table.move_cursor(row=row, animate=False)

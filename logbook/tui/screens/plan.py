@@ -14,6 +14,7 @@ from textual.widgets import DataTable, Footer, Static
 from logbook import fmt
 from logbook.tui import present
 from logbook.tui.gate import trouble_text
+from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import OpenTable
 
 HORIZONS = (6, 12, 24)
@@ -45,7 +46,7 @@ class PlanScreen(Screen):
     def compose(self) -> ComposeResult:
         yield Static("Overhaul plan", id="title")
         yield OpenTable(id="plan-table", cursor_type="row", zebra_stripes=True)
-        yield Static("", id="status-line")
+        yield Plain("", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -75,7 +76,7 @@ class PlanScreen(Screen):
             shop = sum(1 for line in lines if line.shop)
             label = month_label(month)
             if not lines:
-                table.add_row(label, "-", "nothing due", "", "", "", "", "", "")
+                table.add_row(*fmt.cells(label, "-", "nothing due", "", "", "", "", "", ""))
                 self.serials.append(None)
                 continue
             for i, line in enumerate(lines):
@@ -96,8 +97,8 @@ class PlanScreen(Screen):
         note = line.note or line.action
         if line.month is None:
             note = line.note
-        table.add_row(month_text, line.serial, where, present.KIND_SHORT[line.kind], chance, fmt.day(line.p10_date),
-                      fmt.day(line.p50_date), line.site or "-", note)
+        table.add_row(*fmt.cells(month_text, line.serial, where, present.KIND_SHORT[line.kind], chance, fmt.day(line.p10_date),
+                                 fmt.day(line.p50_date), line.site or "-", note))
         self.serials.append(line.serial)
 
     @on(DataTable.RowSelected)
@@ -148,8 +149,8 @@ class PlanScreen(Screen):
         line = self.query_one("#status-line", Static)
         if message.text:
             line.update(f"Not exported: {message.text}")
-            self.notify(message.text, title="Export failed", severity="error")
+            self.notify(fmt.visible(message.text), title="Export failed", severity="error", markup=False)
             return
         where = " and ".join(str(p) for p in message.paths)
         line.update(f"Plan written to {where}")
-        self.notify(f"Plan written to {where}", title="Exported", timeout=8)
+        self.notify(fmt.visible(f"Plan written to {where}"), title="Exported", timeout=8, markup=False)

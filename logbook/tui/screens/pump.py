@@ -14,6 +14,7 @@ from logbook.analysis.results import OUTCOME_WORDS
 from logbook.model import ALL_KINDS, Kind
 from logbook.tui import present
 from logbook.tui.widgets.chart import TrendChart
+from logbook.tui.widgets.plain import Plain
 
 TABS = ("trends", "readings", "events", "fitted")
 EVENT_WORDS = {
@@ -48,17 +49,17 @@ class PumpScreen(Screen):
         self._model = None
 
     def compose(self) -> ComposeResult:
-        yield Static(f"Pump {self.serial}", id="title")
-        yield Static("", id="identity")
+        yield Plain(f"Pump {self.serial}", id="title")
+        yield Plain("", id="identity")
         with TabbedContent(id="pump-tabs", initial="trends"):
             with TabPane("Trends", id="trends"):
                 yield DataTable(id="kind-table", cursor_type="row", cell_padding=1)
-                yield Static("", id="kind-summary")
+                yield Plain("", id="kind-summary")
                 yield TrendChart(self.app.units, id="chart")
             with TabPane("Readings", id="readings"):
-                yield Static("", id="readings-note", classes="form-hint")
+                yield Plain("", id="readings-note", classes="form-hint")
                 yield DataTable(id="readings-table", cursor_type="row", zebra_stripes=True)
-                yield Static("", id="reading-detail", classes="form-hint")
+                yield Plain("", id="reading-detail", classes="form-hint")
             with TabPane("Events", id="events"):
                 yield DataTable(id="events-table", cursor_type="row", zebra_stripes=True)
             with TabPane("Fitted in", id="fitted"):
@@ -114,14 +115,14 @@ class PumpScreen(Screen):
         for kind in ALL_KINDS:
             kf = kinds.get(kind)
             if kf is None:
-                table.add_row(present.KIND_SHORT[kind], "-", "-", "", "", "", "", "", "", key=kind.value)
+                table.add_row(*fmt.cells(present.KIND_SHORT[kind], "-", "-", "", "", "", "", "", ""), key=kind.value)
                 continue
             share = fmt.limit_use(kind, kf.latest_value, kf.limit, u)
             table.add_row(
-                present.KIND_SHORT[kind], fmt.value(kind, kf.latest_value, u),
-                fmt.value(kind, kf.limit.value, u) if kf.limit else "none", share,
-                fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date),
-                kf.path if kf.path != "none" else "-", str(kf.n_readings), key=kind.value,
+                *fmt.cells(present.KIND_SHORT[kind], fmt.value(kind, kf.latest_value, u),
+                           fmt.value(kind, kf.limit.value, u) if kf.limit else "none", share,
+                           fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date),
+                           kf.path if kf.path != "none" else "-", str(kf.n_readings)), key=kind.value,
             )
         if self.kind is None:
             self.kind = pf.worst.kind if pf and pf.worst else Kind.CASE_DRAIN
@@ -163,13 +164,13 @@ class PumpScreen(Screen):
         for r in reversed(history.readings):
             at_ref = normalized_value(r, Kind.CASE_DRAIN, m) if r.case_drain_lpm is not None else None
             at_ref = None if at_ref is not None and at_ref != at_ref else at_ref  # NaN: conditions missing
-            table.add_row(
+            table.add_row(*fmt.cells(
                 fmt.day(r.taken_on), r.machine or "", fmt.hours(r.machine_hours),
                 fmt.value(Kind.CASE_DRAIN, r.case_drain_lpm, u), fmt.value(Kind.CASE_DRAIN, at_ref, u),
                 fmt.value(Kind.SERVO_PRESSURE, r.servo_pressure_bar, u), fmt.value(Kind.NEUTRAL_DRIFT, r.neutral_drift_bar, u),
                 fmt.temperature(r.oil_temp_c, u), fmt.pressure(r.test_pressure_bar, u),
                 f"{r.test_speed_rpm:g}" if r.test_speed_rpm else "-", r.iso4406 or "-", r.technician or "-",
-                r.entered_by or "-", key=str(r.id),
+                r.entered_by or "-"), key=str(r.id),
             )
         self.query_one("#readings-note", Static).update(
             f"{len(history.readings)} readings, newest first. 'at ref.' = case drain normalized to {fmt.temperature(m.ref_temp_c, u)}, "
@@ -184,10 +185,10 @@ class PumpScreen(Screen):
         table.clear()
         for e in reversed(history.events):
             to = f"{e.to_machine} {e.to_position or ''}".strip() if e.to_machine else (fmt.hours(e.to_hours) if e.to_hours is not None else "")
-            table.add_row(fmt.day(e.happened_on), EVENT_WORDS.get(e.kind.value, e.kind.value), e.machine or "",
-                          fmt.hours(e.hours), to, e.technician or "-", e.note or "", e.entered_by or "-")
+            table.add_row(*fmt.cells(fmt.day(e.happened_on), EVENT_WORDS.get(e.kind.value, e.kind.value), e.machine or "",
+                                     fmt.hours(e.hours), to, e.technician or "-", e.note or "", e.entered_by or "-"))
         if not history.events:
-            table.add_row("-", "no events recorded", "", "", "", "", "", "")
+            table.add_row(*fmt.cells("-", "no events recorded", "", "", "", "", "", ""))
 
     def _show_fitted(self, history, fleet) -> None:
         table = self.query_one("#fitted-table", DataTable)
@@ -197,9 +198,9 @@ class PumpScreen(Screen):
         table.clear()
         for f in reversed(history.fitments):
             machine = fleet.machines.get(f.machine)
-            table.add_row(f.machine, f.position, machine.site if machine else "-", fmt.day(f.fitted_on),
-                          fmt.day(f.removed_on) if f.removed_on else "now", fmt.hours(f.machine_hours_at_fit),
-                          fmt.hours(f.pump_hours_at_fit))
+            table.add_row(*fmt.cells(f.machine, f.position, machine.site if machine else "-", fmt.day(f.fitted_on),
+                                     fmt.day(f.removed_on) if f.removed_on else "now", fmt.hours(f.machine_hours_at_fit),
+                                     fmt.hours(f.pump_hours_at_fit)))
 
     # -- events ----------------------------------------------------------------------------
     @on(DataTable.RowHighlighted, "#readings-table")

@@ -13,7 +13,9 @@ from textual.containers import Horizontal
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Select, Static
 
+from logbook import fmt
 from logbook.rounds import NextTest, plan_round
+from logbook.tui.widgets.plain import Plain
 
 WITHIN_STEP_DAYS = 7
 DONE, TODO = "✓", "·"
@@ -46,13 +48,13 @@ class RoundScreen(Screen):
         self._planned_for: tuple | None = None
 
     def compose(self) -> ComposeResult:
-        yield Static("Reading round", id="title")
+        yield Plain("Reading round", id="title")
         with Horizontal(id="round-bar"):
             yield Select([], prompt="Choose a site", id="round-site", compact=True)
-            yield Static("", id="round-period")
+            yield Plain("", id="round-period")
         yield DataTable(id="round-table", cursor_type="row", zebra_stripes=True)
-        yield Static("", id="round-why")
-        yield Static("Reading the logbook…", id="status-line")
+        yield Plain("", id="round-why")
+        yield Plain("Reading the logbook…", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -70,7 +72,7 @@ class RoundScreen(Screen):
         sites = sorted({m.site for m in fleet.machines.values()})
         select = self.query_one("#round-site", Select)
         with select.prevent(Select.Changed):
-            select.set_options([(s, s) for s in sites])
+            select.set_options([(fmt.text(s), s) for s in sites])
             if self.site in sites:
                 select.value = self.site
             elif len(sites) == 1:
@@ -106,8 +108,9 @@ class RoundScreen(Screen):
         done = self.done()
         table.clear()
         for t in self.stops:
-            table.add_row(DONE if t.serial in done else TODO, f"{t.machine}/{t.position}", t.serial, t.model,
-                          t.last_reading_on.isoformat() if t.last_reading_on else "never", t.words(self.app.today),
+            table.add_row(DONE if t.serial in done else TODO,  # the mark: the program's own sign
+                          *fmt.cells(f"{t.machine}/{t.position}", t.serial, t.model,
+                                     t.last_reading_on.isoformat() if t.last_reading_on else "never", t.words(self.app.today)),
                           key=t.serial)
         if self.stops:
             table.move_cursor(row=min(keep or 0, len(self.stops) - 1), animate=False)

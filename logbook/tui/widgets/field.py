@@ -10,6 +10,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label, Static
 
 from logbook.model import Problem
+from logbook.tui.widgets.plain import Plain
 
 Parser = Callable[[str], tuple[object, Problem | None]]
 
@@ -44,7 +45,7 @@ class FormField(Vertical):
             yield Label(self.label_text, classes="field-label")
             yield self._input
             yield Static(self.unit, classes="field-unit")
-        yield Static("", classes="field-message")
+        yield Plain("", classes="field-message")
 
     @property
     def input(self) -> Input:
