@@ -1,7 +1,8 @@
-"""Pure trend engine: normalize readings, fit wear paths, forecast limit crossings (numpy/scipy only).
+"""Pure trend engine on arrays: normalize readings, fit wear paths, forecast limit crossings (numpy/scipy only).
 
-Entry points: ``logbook.analysis.fleet.forecast_fleet`` and ``forecast_pump``; the
-array core is ``batch.TrendBatch`` -> ``fit.fit_batch`` -> ``forecast.forecast_batch``.
+Entry points: ``logbook.analysis.fleet.forecast_fleet`` and ``forecast_pump`` (a fleet
+of one); the steps are listed in ``fleet``'s docstring; the array core is
+``batch.TrendBatch`` -> ``fit.fit_batch`` -> ``forecast.forecast_batch``.
 Submodules are imported on first use so that ``results`` stays cheap to import.
 """
 

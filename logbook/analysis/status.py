@@ -120,8 +120,9 @@ def worst_kinds(code: np.ndarray, candidate: np.ndarray, progress: np.ndarray, p
     best = np.where(candidate[:, 0], 0, -1)
     rows = np.arange(n_pumps)
     for j in range(1, kinds):
-        b = np.maximum(best, 0)
-        r0, w0, h0 = rank[rows, b], when[rows, b], hours[rows, b]
-        less = (rank[:, j] < r0) | ((rank[:, j] == r0) & ((when[:, j] < w0) | ((when[:, j] == w0) & (hours[:, j] < h0))))
+        held = np.maximum(best, 0)
+        best_rank, best_when, best_hours = rank[rows, held], when[rows, held], hours[rows, held]
+        less = (rank[:, j] < best_rank) | ((rank[:, j] == best_rank) & (
+            (when[:, j] < best_when) | ((when[:, j] == best_when) & (hours[:, j] < best_hours))))
         best = np.where(candidate[:, j] & ((best < 0) | less), j, best)
     return best.tolist()

@@ -5,8 +5,8 @@ each, with overhauls, exchanges, neutral resets, control repairs, moves between
 machines, meter replacements, corrected readings and readings in other oils, are
 forecast by ``forecast_fleet``. Baselines measured in the same run:
   core = ``fit_batch`` + ``forecast_batch`` on the very arrays the forecast fits;
-  old  = the per-pump packing kept in ``tests/reference_pack.py`` (the code before
-         the array packing), on the same fleet.
+  old  = the engine's specification written one pump at a time (``tests/reference/``),
+         on the same fleet.
 Prints seconds, microseconds per pump, the ratios forecast/core and old/forecast, and
 what is left after three times the core, per reading record: reading a Python record's
 dozen fields into arrays is a cost per reading that no array step removes.
@@ -21,7 +21,7 @@ import time
 from pathlib import Path
 from datetime import date, timedelta
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # the repository, for tests.reference_pack
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # the repository, for tests.reference
 
 from logbook.analysis import fleet as fleet_module
 from logbook.analysis.fit import fit_batch
