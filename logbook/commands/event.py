@@ -29,7 +29,8 @@ def register(sub) -> None:
 
 
 def run(args, ctx) -> int:
-    ctx.err.print(SAFETY.text(), markup=False, highlight=False)  # as `logbook record`: stdout keeps only the result
+    # first, to stderr as `logbook record` does: stdout keeps only the result
+    ctx.err.print(SAFETY.text(), markup=False, highlight=False, soft_wrap=True)
     problems = []
 
     def take(result):

@@ -98,7 +98,8 @@ def build_reading(args, ctx) -> Reading:
 
 
 def run(args, ctx) -> int:
-    ctx.err.print(SAFETY.text(), markup=False, highlight=False)  # stderr: stdout keeps only the result
+    # first, to stderr (as `logbook event`): stdout keeps only the result
+    ctx.err.print(SAFETY.text(), markup=False, highlight=False, soft_wrap=True)
     reading = build_reading(args, ctx)
     with ctx.open_store() as store:
         if args.dry_run:
