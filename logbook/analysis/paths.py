@@ -1,0 +1,432 @@
+"""Wear paths as a family of straight lines on Box-Cox scales, mixed by how well each predicts.
+
+A path is a straight line in z = (y^lam - 1) / lam (log y at lam = 0; Box and Cox,
+"An analysis of transformations", JRSS B 26, 1964) against operating hours:
+- lam = 1: steady wear, a straight line;
+- lam = 1/2 and 1/3: convex power laws. Laminar leakage through a clearance grows with
+  the cube of the gap (Q = pi D c^3 dp / (12 mu L), Hagen-Poiseuille annulus), so a gap
+  opening at a steady rate gives Q = Q0 (1 + h/tau)^3, a straight line in Q^(1/3);
+- lam = 0: exponential growth (or proportional decay);
+- lam < 0: faster than exponential, running away at a finite age, as crack growth under
+  the Paris law does (da/dN = C dK^m, dK ~ sqrt(a): a^(1 - m/2) falls linearly, so
+  lam = 1 - m/2; Paris and Erdogan, J. Basic Eng. 85, 1963; Lu and Meeker,
+  Technometrics 35, 1993). Rising readings use lam in RISING, falling ones in FALLING.
+
+Per path and series: the least-squares line with its posterior spread (flat prior; the
+residual variance combined with the model fleet's median at PRIOR_DOF readings' worth,
+so that two or three readings lying almost on a line cannot claim a tiny spread; the
+slope borrowed from the fleet only where a series has none of its own).
+
+The paths are mixed per series. Each pump model's fleet (a pooling group) gets weights
+that maximize the summed one-step-ahead log predictive density of its series' own
+readings (leave-future-out: each reading from the 4th on predicted from those before it;
+Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020), found by stacking
+(Yao, Vehtari, Simpson and Gelman, "Using stacking to average Bayesian predictive
+distributions", Bayesian Analysis 13, 2018). A series' own predictive record then
+updates its group's weights (Bayes' rule on the path), with a floor so that no path is
+ever ruled out. Series with fewer than four readings take their group's weights.
+
+The crossing of the limit by the true condition is the first hour at which the mixture
+puts the path past the limit: P(T <= x) = sum_k w_k P(line_k(x) past z_k(limit)), each
+term a Student t probability (a line crosses a level at most once, so the event "past
+the limit at x" is the event "crossed by x").
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from logbook.analysis.batch import ols_rows
+
+RISING = (1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)
+FALLING = (1.0, 0.0, 2.0)
+LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)  # every path, in a fixed order
+PATH_WORDS = {2.0: "falling faster", 1.0: "linear", 0.5: "power law (square)", 1.0 / 3.0: "power law (cube)",
+              0.0: "exponential", -0.5: "runaway (crack-like)", -1.0: "runaway (fast)"}
+PRIOR_DOF = 4.0  # readings' worth of the fleet's residual variance in each series' own
+WEIGHT_FLOOR = 0.02  # share of a series' mixture spread evenly over its allowed paths
+MIN_STACK_SERIES = 3  # series with a predictive record a group needs for weights of its own
+
+
+def box_cox(y: np.ndarray, lam: float) -> np.ndarray:
+    """(y^lam - 1) / lam, log y at lam = 0; NaN where y <= 0 (lam != 1)."""
+    if lam == 1.0:
+        return y - 1.0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        pos = np.where(y > 0, y, np.nan)
+        return np.log(pos) if lam == 0.0 else (np.power(pos, lam) - 1.0) / lam
+
+
+def log_jacobian(y: np.ndarray, lam: float) -> np.ndarray:
+    """log |dz/dy| = (lam - 1) log y: puts densities on z scales back on the reading's scale."""
+    if lam == 1.0:
+        return np.zeros_like(y)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return (lam - 1.0) * np.log(np.where(y > 0, y, np.nan))
+
+
+def _group_median(values: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int, min_count: int) -> np.ndarray:
+    out = np.full(n_groups, np.nan)
+    for g in np.unique(group[ok & (group >= 0)]):
+        sel = ok & (group == g)
+        if sel.sum() >= min_count:
+            out[g] = np.median(values[sel])
+    return out
+
+
+def _slope_prior(b: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per group: median slope and a robust spread (the larger of the MAD and the 10-90 % range / 2.563)."""
+    mu, tau2 = np.full(n_groups, np.nan), np.full(n_groups, np.nan)
+    for g in np.unique(group[ok & (group >= 0)]):
+        bs = b[ok & (group == g)]
+        if bs.size >= 3:
+            mu[g] = np.median(bs)
+            lo, hi = np.percentile(bs, [10, 90])
+            spread = max(1.4826 * np.median(np.abs(bs - mu[g])), (hi - lo) / 2.563, 0.1 * abs(mu[g]))
+            tau2[g] = spread**2
+    return mu, tau2
+
+
+def _per_row(values: np.ndarray, group: np.ndarray) -> np.ndarray:
+    """A per-group value for each series (NaN outside any group)."""
+    if values.size == 0:
+        return np.full(group.shape, np.nan)
+    return np.where(group >= 0, values[np.clip(group, 0, values.size - 1)], np.nan)
+
+
+@dataclass
+class PathLine:
+    """One path's line per series on its z scale: z(x) ~ t_nu(z0 + b (x - xbar), sqrt(var_a + (x - xbar)^2 var_b))."""
+
+    lam: float
+    xbar: np.ndarray
+    z0: np.ndarray
+    b: np.ndarray
+    var_a: np.ndarray
+    var_b: np.ndarray
+    s2: np.ndarray  # residual (reading-to-reading) variance on the z scale
+    nu: np.ndarray  # degrees of freedom of s2
+    ok: np.ndarray  # the path exists for the series (every used reading on its scale, a spread)
+
+    @classmethod
+    def fit(cls, x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lam: float) -> "PathLine":
+        z = box_cox(y, lam)
+        on_scale = (np.isfinite(z) | (w <= 0)).all(axis=1)
+        ww = np.where(np.isfinite(z), w, 0.0)
+        st = ols_rows(np.where(ww > 0, x, 0.0), np.where(ww > 0, z, 0.0), ww, keep=False)
+        own = st.n - 2
+        with np.errstate(invalid="ignore", divide="ignore"):
+            s2_own = np.where(own > 0, st.rss / np.maximum(own, 1), np.nan)
+        s2_fleet = _per_row(_group_median(s2_own, own >= 1, group, n_groups, 2), group)
+        has_fleet = np.isfinite(s2_fleet)
+        nu = np.maximum(own, 0) + np.where(has_fleet, PRIOR_DOF, 0.0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            s2 = (np.where(own > 0, st.rss, 0.0) + np.where(has_fleet, PRIOR_DOF * s2_fleet, 0.0)) / nu
+        has_slope = (st.sxx > 0) & np.isfinite(st.b)
+        mu, tau2 = _slope_prior(st.b, has_slope & (st.n >= 3), group, n_groups)
+        mu_r, tau2_r = _per_row(mu, group), _per_row(tau2, group)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            b = np.where(has_slope, st.b, mu_r)
+            var_b = np.where(has_slope, s2 / st.sxx, tau2_r)
+            var_a = s2 / np.maximum(st.n, 1)
+        ok = on_scale & (st.n >= 1) & (nu >= 1) & np.isfinite(s2) & np.isfinite(b) & np.isfinite(var_b)
+        return cls(lam, st.xbar, st.ybar, b, var_a, var_b, s2, nu, ok)
+
+    def at(self, x: np.ndarray, rows) -> tuple[np.ndarray, np.ndarray]:
+        """Location and scale of the line at hours ``x`` ((R, k) for the R ``rows``)."""
+        d = x - self.xbar[rows][:, None]
+        loc = self.z0[rows][:, None] + self.b[rows][:, None] * d
+        return loc, np.sqrt(self.var_a[rows][:, None] + d * d * self.var_b[rows][:, None])
+
+
+def _prefix(values: np.ndarray) -> np.ndarray:
+    """Sums over the columns before each column (exclusive prefix sums along rows)."""
+    out = np.zeros_like(values)
+    np.cumsum(values[:, :-1], axis=1, out=out[:, 1:])
+    return out
+
+
+def one_step_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, lam: float, min_fit: int = 3):
+    """Per series: summed log predictive density (reading scale) of each used reading from a line through
+    the used readings before it (at least ``min_fit``), and how many readings were scored."""
+    z = box_cox(y, lam)
+    used = (w > 0) & np.isfinite(z)
+    first = np.argmax(used, axis=1)
+    rows = np.arange(x.shape[0])
+    xs = np.where(used, x - x[rows, first][:, None], 0.0)  # shifted: sums of squares keep their digits
+    zs = np.where(used, z - np.nan_to_num(z[rows, first])[:, None], 0.0)
+    u = used.astype(float)
+    n, sx, sz = _prefix(u), _prefix(xs * u), _prefix(zs * u)
+    sxx, sxz, szz = _prefix(xs * xs * u), _prefix(xs * zs * u), _prefix(zs * zs * u)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cxx, cxz, czz = sxx - sx * sx / n, sxz - sx * sz / n, szz - sz * sz / n
+        b = cxz / cxx
+        dof = n - 2
+        s2 = (czz - b * cxz) / dof
+        dx = xs - sx / n
+        var = s2 * (1.0 + 1.0 / n + dx * dx / cxx)
+        t = (zs - sz / n - b * dx) / np.sqrt(var)
+        dens = (special.gammaln((dof + 1) / 2) - special.gammaln(dof / 2) - 0.5 * np.log(dof * np.pi * var)
+                - (dof + 1) / 2 * np.log1p(t * t / dof)) + log_jacobian(y, lam)
+    scored = used & (n >= min_fit) & (cxx > 0) & (s2 > 0)
+    bad = scored & ~np.isfinite(dens)
+    total = np.where(scored & np.isfinite(dens), dens, 0.0).sum(axis=1)
+    return np.where(bad.any(axis=1), -np.inf, total), scored.sum(axis=1)
+
+
+def stacking_weights(scores: np.ndarray, comparable: np.ndarray, group: np.ndarray, n_groups: int,
+                     iterations: int = 200) -> np.ndarray:
+    """(G, K) weights per group maximizing sum_series log sum_k w_k exp(score_k): EM for mixture weights
+    (each series' predictive density under path k is exp(score_k)); uniform for groups without enough series."""
+    k = scores.shape[1]
+    weights = np.full((max(n_groups, 1), k), 1.0 / k)
+    for g in range(n_groups):
+        sel = comparable & (group == g)
+        if sel.sum() < MIN_STACK_SERIES:
+            continue
+        dens = np.exp(scores[sel] - scores[sel].max(axis=1, keepdims=True))  # exp(-inf) = 0: a path not allowed
+        wg = np.full(k, 1.0 / k)
+        for _ in range(iterations):
+            r = dens * wg
+            r /= r.sum(axis=1, keepdims=True)
+            wg = r.mean(axis=0)
+        weights[g] = wg
+    return weights
+
+
+def series_weights(scores: np.ndarray, allowed: np.ndarray, group_weights: np.ndarray, group: np.ndarray) -> np.ndarray:
+    """(S, K): the group's weights updated by the series' own predictive record, floored, on allowed paths."""
+    prior = np.where(allowed, group_weights[np.maximum(group, 0)], 0.0)
+    prior = np.where((group >= 0)[:, None], prior, allowed.astype(float))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logw = np.where(allowed & (prior > 0), np.log(prior) + np.where(np.isfinite(scores), scores, -np.inf), -np.inf)
+        top = np.max(logw, axis=1, keepdims=True)
+        w = np.where(np.isfinite(logw), np.exp(logw - np.where(np.isfinite(top), top, 0.0)), 0.0)
+    total = w.sum(axis=1, keepdims=True)
+    w = np.where(total > 0, w / np.where(total > 0, total, 1.0), prior / np.maximum(prior.sum(axis=1, keepdims=True), 1e-300))
+    n_allowed = np.maximum(allowed.sum(axis=1, keepdims=True), 1)
+    return np.where(allowed, (1 - WEIGHT_FLOOR) * w + WEIGHT_FLOOR / n_allowed, 0.0)
+
+
+class PathMixture:
+    """The mixture of paths per series, and the crossing distribution of the true condition."""
+
+    def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
+                 group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None):
+        s = x.shape[0]
+        n_groups = int(group.max(initial=-1)) + 1
+        x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
+        self.sign = np.where(direction < 0, -1.0, 1.0)
+        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam) for lam in LAMBDAS]
+        family = np.array([[lam in (RISING if d > 0 else FALLING) for lam in LAMBDAS] for d in (1, -1)])
+        allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
+        raw = [one_step_scores(x, y, w, lam) for lam in LAMBDAS]
+        scores = np.where(allowed, np.stack([r[0] for r in raw], axis=1), -np.inf)
+        counted = np.where(allowed, np.stack([r[1] for r in raw], axis=1), 0)
+        top = counted.max(axis=1)
+        comparable = (top > 0) & (np.where(allowed, counted, top[:, None]) == top[:, None]).all(axis=1)
+        comparable &= np.isfinite(np.where(allowed, scores, 0.0)).all(axis=1)
+        group_w = stacking_weights(scores, comparable, group, n_groups)
+        own = np.where(comparable[:, None], scores, 0.0)
+        self.weights = series_weights(own, allowed, group_w, group)
+        self.limit_z = np.stack([box_cox(limit, lam) for lam in LAMBDAS], axis=1)
+        self.ok = allowed.any(axis=1) & np.isfinite(limit)
+        self.spread = spread if spread is not None else (np.ones(s), np.ones(s))
+        self.size = s
+
+    def dominant(self) -> np.ndarray:
+        """Index into LAMBDAS of each series' heaviest path."""
+        return np.argmax(self.weights, axis=1)
+
+    def crossed_by(self, x: np.ndarray, rows: np.ndarray) -> np.ndarray:
+        """P(the true condition is past the limit at hours ``x``) for ``rows`` (x shaped (R, k))."""
+        out = np.zeros(np.shape(x))
+        sign = self.sign[rows][:, None]
+        fast, slow = self.spread[0][rows][:, None], self.spread[1][rows][:, None]
+        for k, line in enumerate(self.lines):
+            wk = self.weights[rows, k][:, None]
+            if not wk.any():
+                continue
+            loc, scale = line.at(x, rows)
+            gap = sign * (loc - self.limit_z[rows, k][:, None])  # < 0: the line is short of the limit
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t = gap / (scale * np.where(gap < 0, fast, slow))
+            out += np.where(wk > 0, wk * special.stdtr(line.nu[rows][:, None], np.nan_to_num(t, nan=-np.inf)), 0.0)
+        return out
+
+    def crossing_hours(self, x_now: np.ndarray, quantiles, horizon: float, iterations: int = 36) -> np.ndarray:
+        """(S, Q) hours since the segment start at which P(crossed) reaches each quantile: x_now when it
+        already does, inf when not within ``horizon`` hours; NaN for series without a path."""
+        rows = np.flatnonzero(self.ok)
+        q = np.asarray(quantiles, dtype=float)[None, :]
+        now = np.repeat(np.maximum(x_now[rows], 0.0)[:, None], q.shape[1], axis=1)
+        lo, hi = np.zeros_like(now), np.full_like(now, np.log1p(horizon))
+        for _ in range(iterations):  # bisection on log(1 + hours ahead)
+            mid = 0.5 * (lo + hi)
+            up = self.crossed_by(now + np.expm1(mid), rows) >= q
+            hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
+        ahead = np.expm1(0.5 * (lo + hi))
+        ahead = np.where(self.crossed_by(now, rows) >= q, 0.0, ahead)
+        ahead = np.where(self.crossed_by(now + horizon, rows) < q, np.inf, ahead)
+        out = np.full((self.size, q.shape[1]), np.nan)
+        out[rows] = now + ahead
+        return out
+
+    def value_bands(self, x: np.ndarray, rows: np.ndarray, quantiles=(0.1, 0.5, 0.9), iterations: int = 40) -> np.ndarray:
+        """(R, k, Q) quantiles of the true condition's value at hours ``x`` ((R, k)), on the reading's scale:
+        what a chart draws as the mixture's path and band."""
+        lo_y = np.full(np.shape(x), 1e-9)
+        hi_y = np.full(np.shape(x), 1.0)
+        while True:  # an upper bracket: the value below which the mixture puts almost everything
+            below = self._value_cdf(hi_y, x, rows)
+            if (below >= 0.999).all() or (hi_y > 1e9).any():
+                break
+            hi_y = np.where(below < 0.999, hi_y * 4.0, hi_y)
+        out = np.empty(np.shape(x) + (len(quantiles),))
+        for j, qq in enumerate(quantiles):
+            lo, hi = np.log(lo_y), np.log(hi_y)
+            for _ in range(iterations):
+                mid = 0.5 * (lo + hi)
+                up = self._value_cdf(np.exp(mid), x, rows) >= qq
+                hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
+            out[..., j] = np.exp(0.5 * (lo + hi))
+        return out
+
+    def _value_cdf(self, value: np.ndarray, x: np.ndarray, rows: np.ndarray) -> np.ndarray:
+        out = np.zeros(np.shape(x))
+        for k, line in enumerate(self.lines):
+            wk = self.weights[rows, k][:, None]
+            if not wk.any():
+                continue
+            loc, scale = line.at(x, rows)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t = (box_cox(value, line.lam) - loc) / scale
+            out += np.where(wk > 0, wk * special.stdtr(line.nu[rows][:, None], np.nan_to_num(t)), 0.0)
+        return out
+
+
+# ------------------------------------------------------------------ calibration on the fleet's own later readings
+
+ORIGINS = (0.4, 0.55, 0.7, 0.85)  # forecast origins, as shares of each series' used readings
+MIN_SCORES = 30  # later readings a group needs before its bands are calibrated
+SPREAD_RANGE = (0.2, 50.0)
+
+
+@dataclass
+class Calibration:
+    """Spread factors per series for the path uncertainty toward faster wear and toward slower wear,
+    and how many later readings of its group (its own left out) they rest on (0: uncalibrated, factor 1)."""
+
+    fast: np.ndarray
+    slow: np.ndarray
+    n_scores: np.ndarray
+
+    @classmethod
+    def none(cls, size: int) -> "Calibration":
+        return cls(np.ones(size), np.ones(size), np.zeros(size, dtype=np.int64))
+
+
+def _reading_cdf(mix: PathMixture, rows: np.ndarray, cols: np.ndarray, x: np.ndarray, y: np.ndarray,
+                 factor: np.ndarray) -> np.ndarray:
+    """P(a new reading <= y) at the cells (rows, cols) with the path spread times ``factor``, plus the noise."""
+    out = np.zeros(rows.size)
+    for k, line in enumerate(mix.lines):
+        wk = mix.weights[rows, k]
+        if not wk.any():
+            continue
+        d = x - line.xbar[rows]
+        var_path = line.var_a[rows] + d * d * line.var_b[rows]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            t = (box_cox(y, line.lam) - line.z0[rows] - line.b[rows] * d) / np.sqrt(factor**2 * var_path + line.s2[rows])
+        out += np.where(wk > 0, wk * special.ndtr(np.nan_to_num(t)), 0.0)
+    return out
+
+
+def _required_spread(mix, rows, cols, x, y, tail: float, iterations: int = 22) -> tuple[np.ndarray, np.ndarray]:
+    """Per later reading: which side of the mixture it lies on (True: toward wear) and the smallest spread
+    factor that puts it inside the central band of the mixture's predictive (its conformity score)."""
+    worn_sign = mix.sign[rows]
+    p = _reading_cdf(mix, rows, cols, x, y, np.ones(rows.size))
+    worn = np.where(worn_sign > 0, p > 0.5, p < 0.5)
+    lo, hi = np.full(rows.size, np.log(SPREAD_RANGE[0])), np.full(rows.size, np.log(SPREAD_RANGE[1]))
+
+    def inside(log_factor):
+        q = _reading_cdf(mix, rows, cols, x, y, np.exp(log_factor))
+        beyond = np.where(worn_sign > 0, q, 1 - q)  # P(less worn than this reading)
+        return np.where(worn, beyond <= 1 - tail, beyond >= tail)
+
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        ok = inside(mid)
+        hi, lo = np.where(ok, mid, hi), np.where(ok, lo, mid)
+    score = np.exp(hi)
+    score = np.where(inside(np.full(rows.size, np.log(SPREAD_RANGE[0]))), SPREAD_RANGE[0], score)
+    return worn, score
+
+
+def _leave_out_quantile(scores: np.ndarray, owner: np.ndarray, rows: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
+    """For each of ``rows``: the split-conformal quantile, the ceil((n + 1) level)-th smallest of the n
+    scores of everyone else (Vovk, Gammerman and Shafer, Algorithmic Learning in a Random World, 2005;
+    Lei et al., JASA 113, 2018), and n. Among the sorted scores, the k-th smallest that is not the
+    row's own lies at the first index j >= k - 1 where j + 1 - (own scores up to j) reaches k."""
+    order = np.argsort(scores, kind="stable")
+    ranked = scores[order]
+    position = np.empty(order.size, dtype=np.int64)
+    position[order] = np.arange(order.size)
+    by_owner = np.lexsort((position, owner))
+    owners_sorted, positions_sorted = owner[by_owner], position[by_owner]
+    starts = np.searchsorted(owners_sorted, rows, side="left")
+    ends = np.searchsorted(owners_sorted, rows, side="right")
+    out, counts = np.ones(rows.size), np.zeros(rows.size, dtype=np.int64)
+    for i in range(rows.size):
+        own = positions_sorted[starts[i]:ends[i]]
+        n = ranked.size - own.size
+        k = int(np.ceil((n + 1) * level))
+        if n < MIN_SCORES or k > n:
+            continue
+        candidates = k - 1 + np.arange(own.size + 1)
+        reached = candidates + 1 - np.searchsorted(own, candidates, side="right") >= k
+        out[i], counts[i] = ranked[candidates[np.argmax(reached)]], n
+    return out, counts
+
+
+def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
+              group: np.ndarray, tail: float = 0.1) -> Calibration:
+    """Spread factors from forecasts of each series made at earlier origins of its own readings and
+    scored on its later ones, per group, each side apart, the series itself left out."""
+    x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
+    used = w > 0
+    n_used = used.sum(axis=1)
+    position = np.cumsum(used, axis=1)
+    cells = []  # (row, worn side, score)
+    for share in ORIGINS:
+        cut = np.maximum(np.floor(share * n_used), 3)
+        train = used & (position <= cut[:, None])
+        later = used & (position > cut[:, None])
+        rows = np.flatnonzero(later.any(axis=1) & (cut < n_used))
+        if not rows.size:
+            continue
+        mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows])
+        r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
+        if not r_local.size:
+            continue
+        worn, score = _required_spread(mix, r_local, cols, x[rows][r_local, cols], y[rows][r_local, cols], tail)
+        cells.append((rows[r_local], worn, score))
+    cal = Calibration.none(x.shape[0])
+    if not cells:
+        return cal
+    owner = np.concatenate([c[0] for c in cells])
+    worn = np.concatenate([c[1] for c in cells])
+    score = np.concatenate([c[2] for c in cells])
+    for g in np.unique(group[group >= 0]):
+        members = np.flatnonzero(group == g)
+        in_group = group[owner] == g
+        for side, is_worn in (("fast", True), ("slow", False)):
+            side_score = np.where(worn[in_group] == is_worn, score[in_group], SPREAD_RANGE[0])
+            factor, n = _leave_out_quantile(side_score, owner[in_group], members, 1 - tail)
+            getattr(cal, side)[members] = factor
+            cal.n_scores[members] = n
+    return cal

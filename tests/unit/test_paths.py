@@ -1,0 +1,148 @@
+"""The path family and its mixture against reference libraries and direct computation."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+from scipy import optimize, stats
+
+from logbook.analysis import paths as P
+
+
+def test_box_cox_is_scipys():
+    # reference: scipy.stats.boxcox with a fixed lambda
+    y = np.array([0.5, 1.0, 2.7, 9.0])
+    for lam in P.LAMBDAS:
+        assert P.box_cox(y, lam) == pytest.approx(stats.boxcox(y, lmbda=lam))
+
+
+def _one_series(x, y):
+    x, y = np.atleast_2d(np.asarray(x, float)), np.atleast_2d(np.asarray(y, float))
+    return x, y, np.ones_like(x), np.array([-1])
+
+
+def test_straight_path_band_is_the_ols_confidence_band():
+    # reference: statsmodels OLS get_prediction(...).summary_frame: mean_ci_lower/upper at 80 %
+    rng = np.random.default_rng(3)
+    xs = np.sort(rng.uniform(0, 5000, 9))
+    ys = 2.0 + 4e-4 * xs + rng.normal(0, 0.1, xs.size)
+    x, y, w, group = _one_series(xs, ys)
+    line = P.PathLine.fit(x, y, w, group, 0, 1.0)
+    grid = np.array([[1000.0, 6000.0, 9000.0]])
+    loc, scale = line.at(grid, np.array([0]))
+    ols = sm.OLS(ys, sm.add_constant(xs)).fit()
+    frame = ols.get_prediction(sm.add_constant(grid[0], has_constant="add")).summary_frame(alpha=0.2)
+    t = stats.t.ppf(0.9, xs.size - 2)
+    assert loc[0] + 1.0 == pytest.approx(frame["mean"].to_numpy())  # z = y - 1 on the straight path
+    assert (loc[0] + 1.0 + t * scale[0]) == pytest.approx(frame["mean_ci_upper"].to_numpy())
+    assert line.nu[0] == xs.size - 2
+
+
+def test_short_series_borrow_the_fleets_residual_variance():
+    # two readings lie exactly on a line: their own spread is undefined, the fleet's median is used
+    rng = np.random.default_rng(5)
+    x = np.tile(np.linspace(0, 4000, 6), (8, 1))
+    y = 2.0 + 3e-4 * x + rng.normal(0, 0.05, x.shape)
+    w = np.ones_like(x)
+    w[0, 2:] = 0.0  # series 0 has two readings
+    group = np.zeros(8, dtype=int)
+    line = P.PathLine.fit(x, y, w, group, 1, 1.0)
+    own = [np.var(y[i] - np.polyval(np.polyfit(x[i], y[i], 1), x[i]), ddof=2) for i in range(1, 8)]
+    assert line.s2[0] == pytest.approx(np.median(own))  # PRIOR_DOF readings of the fleet, none of its own
+    assert line.nu[0] == P.PRIOR_DOF
+    assert line.ok[0]
+
+
+def test_one_step_scores_match_a_direct_loop():
+    # reference: each reading's Student t predictive log density from an OLS fit on the readings
+    # before it (statsmodels), with the Box-Cox Jacobian (lam - 1) log y
+    rng = np.random.default_rng(11)
+    xs = np.sort(rng.uniform(0, 8000, 10))
+    ys = 1.5 * (1 + xs / 9000) ** 3 * np.exp(rng.normal(0, 0.04, xs.size))
+    for lam in (1.0, 1.0 / 3.0, 0.0, -0.5):
+        x, y, w, _ = _one_series(xs, ys)
+        score, counted = P.one_step_scores(x, y, w, lam)
+        z = stats.boxcox(ys, lmbda=lam)
+        expected = 0.0
+        for k in range(3, xs.size):
+            fit = sm.OLS(z[:k], sm.add_constant(xs[:k])).fit()
+            pred = fit.get_prediction(np.array([[1.0, xs[k]]])).summary_frame(alpha=0.1)
+            se = math.sqrt(float(pred["mean_se"].iloc[0]) ** 2 + fit.scale)
+            expected += stats.t.logpdf(z[k], k - 2, loc=float(pred["mean"].iloc[0]), scale=se) + (lam - 1) * math.log(ys[k])
+        assert counted[0] == xs.size - 3
+        assert score[0] == pytest.approx(expected, rel=1e-9)
+
+
+def test_stacking_weights_maximize_the_summed_log_score():
+    # reference: the same objective maximized over the simplex by scipy.optimize.minimize (SLSQP)
+    rng = np.random.default_rng(2)
+    scores = rng.normal(0, 2, (40, 4)) + np.array([0.0, 1.0, 0.5, -1.0])
+    group = np.zeros(40, dtype=int)
+    ours = P.stacking_weights(scores, np.ones(40, bool), group, 1, iterations=2000)[0]
+
+    def loss(v):
+        wv = np.abs(v) / np.abs(v).sum()
+        return -np.log(np.exp(scores) @ wv).sum()
+
+    res = optimize.minimize(loss, np.full(4, 0.25), method="SLSQP", bounds=[(1e-9, 1)] * 4,
+                            constraints=[{"type": "eq", "fun": lambda v: v.sum() - 1}], options={"ftol": 1e-12})
+    assert loss(ours) <= res.fun + 1e-6
+    assert ours == pytest.approx(np.abs(res.x) / np.abs(res.x).sum(), abs=2e-3)
+
+
+def test_noise_free_straight_wear_crosses_where_the_line_does():
+    xs = np.linspace(0, 4000, 8)
+    x, y, w, group = _one_series(xs, 2.0 + 5e-4 * xs + np.tile([1e-6, -1e-6], 4))
+    mix = P.PathMixture(x, y, w, np.array([6.0]), np.array([1]), group)
+    q = mix.crossing_hours(np.array([4000.0]), (0.1, 0.5, 0.9), 20000.0)
+    assert q[0, 1] == pytest.approx(8000.0, rel=2e-3)  # (6 - 2) / 5e-4
+    assert q[0, 0] <= q[0, 1] <= q[0, 2]
+
+
+def test_falling_pressure_crosses_its_lower_limit():
+    xs = np.linspace(0, 3000, 7)
+    x, y, w, group = _one_series(xs, 28.0 - 2e-3 * xs + np.tile([0.05, -0.05, 0.0, 0.02, -0.02, 0.01, -0.01], 1))
+    mix = P.PathMixture(x, y, w, np.array([18.0]), np.array([-1]), group)
+    q = mix.crossing_hours(np.array([3000.0]), (0.1, 0.5, 0.9), 20000.0)
+    assert q[0, 1] == pytest.approx(5000.0, rel=0.05)  # (28 - 18) / 2e-3
+    assert P.LAMBDAS[mix.dominant()[0]] in P.FALLING
+
+
+def test_leave_out_conformal_quantile_matches_sorting_the_others():
+    # reference: the ceil((n + 1)(1 - alpha))-th smallest of the other rows' scores, by sorting them
+    rng = np.random.default_rng(8)
+    scores = rng.gamma(2.0, 1.0, 300)
+    owner = rng.integers(0, 12, 300)
+    rows = np.arange(12)
+    got, n = P._leave_out_quantile(scores, owner, rows, 0.9)
+    for i in rows:
+        others = np.sort(scores[owner != i])
+        k = math.ceil((others.size + 1) * 0.9)
+        assert got[i] == others[k - 1]
+        assert n[i] == others.size
+
+
+def test_calibration_leaves_well_specified_bands_about_as_they_are():
+    # series drawn from the straight path itself: the factors should stay near 1
+    rng = np.random.default_rng(21)
+    s, n = 200, 12
+    x = np.sort(rng.uniform(0, 6000, (s, n)), axis=1)
+    y = 2.0 + rng.uniform(2e-4, 6e-4, (s, 1)) * x + rng.normal(0, 0.08, (s, n))
+    cal = P.calibrate(x, y, np.ones((s, n)), np.full(s, 9.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
+    assert (cal.n_scores > P.MIN_SCORES).all()
+    assert 0.5 < np.median(cal.fast) < 2.0 and 0.5 < np.median(cal.slow) < 2.0
+
+
+def test_calibration_widens_bands_that_are_too_narrow():
+    # the same fleet, but each series' wear rate wanders (a random walk on top of the line): the
+    # straight path's band of the mean is too narrow for what comes later, so the factor grows
+    rng = np.random.default_rng(22)
+    s, n = 200, 12
+    x = np.tile(np.linspace(0, 6000, n), (s, 1))
+    walk = np.cumsum(rng.normal(0, 0.25, (s, n)), axis=1)
+    y = 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
+    cal = P.calibrate(x, y, np.ones((s, n)), np.full(s, 30.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
+    assert np.median(cal.fast) > 1.5 and np.median(cal.slow) > 1.5
