@@ -154,3 +154,16 @@ def test_without_comment_rows_the_column_wise_lane_still_takes_a_clean_file():
     data = b"serial,date,machine_hours,case_drain\nP-1,2026-03-01,10,2\n"
     columns, numbers = read_columns("readings", data, TODAY)
     assert columns["case_drain"] == [2.0] and numbers == [2]
+
+
+def test_the_readme_shows_the_same_list_in_the_same_structure():
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    section = readme.split("\n## Safety\n", 1)[1].split("\n## ", 1)[0]
+    flat = " ".join(section.split())
+    at = [flat.index(f"**{SAFETY.sign} {SAFETY.warning_label}:** {SAFETY.warning}")]
+    at += [flat.index(f"- {item}") for item in SAFETY.items]
+    at.append(flat.index(SAFETY.deferral))
+    assert at == sorted(at)
+    assert "## Cautions" not in readme
