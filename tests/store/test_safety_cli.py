@@ -4,31 +4,15 @@
 
 from __future__ import annotations
 
-import shutil
-
 import pytest
 
 from logbook.cautions import SAFETY
 from logbook.cli import main
 from logbook.model import EventKind
 from logbook.store import Store
+from tests.store.test_cli import TODAY, demo, demo_master  # noqa: F401  (the demo fleet fixtures)
 
-TODAY = "2026-12-01"
 SERIAL = "C-28412"  # a fitted demo pump
-
-
-@pytest.fixture(scope="module")
-def demo_master(tmp_path_factory):
-    path = tmp_path_factory.mktemp("safety") / "demo.db"
-    assert main(["demo", "--no-ui", "--db", str(path), "--today", TODAY]) == 0
-    return path
-
-
-@pytest.fixture
-def demo(demo_master, tmp_path):
-    path = tmp_path / "demo.db"
-    shutil.copy(demo_master, path)
-    return path
 
 
 def assert_safety_first(text: str) -> None:

@@ -25,16 +25,21 @@ def words(text: str) -> str:
     return " ".join(text.replace("│", " ").split())
 
 
+async def opened(app, pilot, key: str, screen):
+    """The form ``key`` opens at 80x24, checked to show the short box: the title and the warning."""
+    await settle(app, pilot)
+    form = await open_form(app, pilot, crossing_pump(app).serial, key)
+    assert isinstance(form, screen)
+    assert form.query_one(SafetyBox).border_title == "Safety"
+    assert shown(form) == SAFETY.warning_line  # short: the warning only
+    assert SAFETY.warning_line in words(screen_text(app))
+    return form
+
+
 async def test_the_reading_form_shows_the_warning_and_the_whole_list_on_f6(demo_app):
     app = demo_app
     async with app.run_test(size=(80, 24)) as pilot:
-        await settle(app, pilot)
-        form = await open_form(app, pilot, crossing_pump(app).serial, "r")
-        assert isinstance(form, ReadingScreen)
-        box = form.query_one(SafetyBox)
-        assert box.border_title == "Safety"
-        assert shown(form) == SAFETY.warning_line  # short: the warning only
-        assert SAFETY.warning_line in words(screen_text(app))
+        form = await opened(app, pilot, "r", ReadingScreen)
         await pilot.press("f6")
         await pilot.pause()
         text = shown(form)
@@ -48,12 +53,7 @@ async def test_the_reading_form_shows_the_warning_and_the_whole_list_on_f6(demo_
 async def test_the_event_form_shows_the_warning_and_adds_the_running_point_for_neutral_work(demo_app):
     app = demo_app
     async with app.run_test(size=(80, 24)) as pilot:
-        await settle(app, pilot)
-        form = await open_form(app, pilot, crossing_pump(app).serial, "e")
-        assert isinstance(form, EventScreen)
-        assert form.query_one(SafetyBox).border_title == "Safety"
-        assert shown(form) == SAFETY.warning_line
-        assert SAFETY.warning_line in words(screen_text(app))
+        form = await opened(app, pilot, "e", EventScreen)
         for kind in ("neutral_reset", "control_repair"):
             form.query_one("#kind", Select).value = kind
             await pilot.pause()

@@ -66,6 +66,13 @@ def test_the_warning_sign_means_safety_only():
     assert status.STEP_CHANGE.startswith("↯ ")
     symbols = [word.split()[0] for word in status.STATUS_ORDER]
     assert SAFETY.sign not in symbols and len(set(symbols)) == len(symbols)
+    from pathlib import Path
+
+    package = Path(__file__).resolve().parents[2] / "logbook"
+    elsewhere = [f"{path.name}:{n}" for path in package.rglob("*.py") if path.name != "cautions.py"
+                 for n, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1)
+                 if SAFETY.sign in line.split("#", 1)[0]]
+    assert elsewhere == []  # screens and messages show it only through logbook.cautions
 
 
 # -- round sheets --------------------------------------------------------------------------
