@@ -7,10 +7,6 @@ on stderr. A progress display appears only when stderr is a terminal.
 
 from __future__ import annotations
 
-import contextlib
-import os
-import sys
-import tempfile
 from pathlib import Path
 
 from logbook.model import InputRejected, Problem
@@ -77,11 +73,19 @@ def _check_args(args) -> list[Problem]:
         problems.append(Problem("--max-charts", args.max_charts, "zero or more charts"))
     if not 0 <= args.turnaround <= 24:
         problems.append(Problem("--turnaround", args.turnaround, "0 to 24 months"))
-    if args.out != "-":
-        parent = Path(args.out).expanduser().resolve().parent
-        if not parent.is_dir():
-            problems.append(Problem("--out", args.out, "a file in an existing folder, or - for stdout"))
     return problems
+
+
+def _check_out(args, ctx) -> list[Problem]:
+    """The --out target is looked at before any work: never the database or its sidecar
+    files, never a folder (``logbook.outfile``)."""
+    from logbook.outfile import OutputRefused, resolve
+
+    try:
+        resolve(args.out, protect=[ctx.db_path], label="--out")
+    except OutputRefused as exc:
+        return [Problem("--out", args.out, exc.why)]
+    return []
 
 
 #: Months a plan may start before and after this month: a later start is beyond any
@@ -97,25 +101,6 @@ def _month_in_range(start, this_month, text: str) -> list[Problem]:
         return []
     return [Problem("--month", text, f"a month from {month_label(first)} to {month_label(last)} "
                     f"({MONTHS_BACK // 12} years before to {MONTHS_AHEAD // 12} years after this month)")]
-
-
-def _write(data: bytes, out: str) -> None:
-    """Write to stdout, or to a file atomically (a half-written plan is never left behind)."""
-    if out == "-":
-        sys.stdout.buffer.write(data)
-        sys.stdout.buffer.flush()
-        return
-    target = Path(out).expanduser()
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.resolve().parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, target)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
 
 
 class _Steps:
@@ -147,7 +132,7 @@ def run(args, ctx) -> int:
     from logbook.plan import PlanSettings, add_months, month_start, parse_month
 
     fmt = _format(args)
-    problems = _check_args(args)
+    problems = _check_args(args) + _check_out(args, ctx)
     start = month_start(ctx.today)
     if args.month is not None and not args.month.isascii():  # parse_month's isdigit() takes Unicode digits
         problems.append(Problem("--month", args.month, "a month written YYYY-MM with the digits 0-9, e.g. 2026-04"))
@@ -199,11 +184,13 @@ def run(args, ctx) -> int:
         report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts)
         data = render(report, fmt)
         steps.step("saving")
-        try:
-            _write(data, args.out)
-        except OSError as exc:
-            ctx.err.print(f"logbook forecast: cannot write {args.out}: {exc.strerror or exc}", markup=False, soft_wrap=True)
-            return 1
+        from logbook.outfile import OutputError, OutputRefused, write_bytes
+
+        try:  # stdout, a device or pipe written through, or a file replaced atomically
+            write_bytes(args.out, data, protect=[ctx.db_path, fleet.source], label="--out")
+        except OutputError as exc:
+            ctx.err.print(f"logbook forecast: {exc}", markup=False, soft_wrap=True)
+            return 2 if isinstance(exc, OutputRefused) else 1
     if args.out != "-" and ctx.err.is_terminal:
         ctx.err.print(
             f"wrote {args.out}: {len(plan.lines)} planned, {len(plan.unplaced)} do not fit", markup=False, soft_wrap=True

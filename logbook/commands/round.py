@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from datetime import timedelta
-from pathlib import Path
 
 from rich.table import Table
 
@@ -24,7 +23,7 @@ def register(sub) -> None:
                    help="include pumps due within DAYS days from today (default 7; 0 = due today or overdue)")
     p.add_argument("--all", dest="everyone", action="store_true", help="include every fitted pump, due or not")
     p.add_argument("--format", choices=FORMATS, default="text", help="text (terminal list, default), md, html or csv")
-    p.add_argument("--out", type=Path, default=None, metavar="FILE", help="write the sheet to FILE instead of the terminal")
+    p.add_argument("--out", default=None, metavar="FILE", help="write the sheet to FILE instead of the terminal (- for stdout)")
     p.set_defaults(func=run)
 
 
@@ -67,6 +66,15 @@ def run(args, ctx) -> int:
     if problem:
         ctx.err.print(f"logbook round: {problem}", markup=False)
         return 2
+    from logbook.outfile import OutputError, OutputRefused, resolve, write_bytes
+
+    target = None
+    if args.out is not None:
+        try:  # looked at before any work: never the database or its sidecar files (logbook.outfile)
+            target = resolve(args.out, protect=[ctx.db_path, fleet.source], label="--out")
+        except OutputRefused as exc:
+            ctx.err.print(f"logbook round: {exc}", markup=False, soft_wrap=True)
+            return 2
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = plan_round(fleet, forecast, ctx.today, site=args.site, within_days=args.within, everyone=args.everyone)
     if args.format == "text":
@@ -85,13 +93,14 @@ def run(args, ctx) -> int:
     sheet = build_sheet(fleet, forecast, tests, site=args.site, made_on=ctx.today,
                         test_by=ctx.today + timedelta(days=args.within), units=ctx.units)
     data = render(sheet, args.format)
-    if args.out is None:
+    if target is None:
         ctx.console.file.write(data.decode("utf-8"))
         return 0
-    try:
-        args.out.write_bytes(data)
-    except OSError as exc:
-        ctx.err.print(f"logbook round: cannot write {args.out}: {exc.strerror}", markup=False)
-        return 2
-    ctx.console.print(f"{args.out}: round sheet for {args.site}, {len(tests)} pump(s)", markup=False)
+    try:  # stdout, a device or pipe written through, or a file replaced atomically
+        write_bytes(target, data, label="--out")
+    except OutputError as exc:
+        ctx.err.print(f"logbook round: {exc}", markup=False, soft_wrap=True)
+        return 1
+    if not target.stdout:
+        ctx.console.print(f"{args.out}: round sheet for {args.site}, {len(tests)} pump(s)", markup=False)
     return 0

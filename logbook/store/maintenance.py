@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import os
 import sqlite3
 from collections import defaultdict
 from dataclasses import dataclass
@@ -31,11 +30,7 @@ class BackupResult:
     integrity: str
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    try:
-        return a.exists() and b.exists() and os.path.samefile(a, b)
-    except OSError:
-        return False
+COUNTED = ("models", "machines", "pumps", "fitments", "readings", "events", "audit")
 
 
 class MaintenanceMixin:
@@ -44,42 +39,64 @@ class MaintenanceMixin:
     def backup(self, dest: str | Path, *, force: bool = False) -> BackupResult:
         """Copy the database to ``dest`` as one consistent snapshot, even while others
         write (one backup step under a read transaction; WAL lets writers go on).
-        The copy is written beside ``dest`` and renamed into place, so ``dest`` is never
-        half-written; it is readable and writable by owner and group only."""
+
+        Nothing at ``dest`` changes until a good copy exists: the source is checked first
+        (SQLite's quick check), the copy is written to a hidden file beside ``dest``
+        (``logbook.outfile``), checked with ``integrity_check`` and only then renamed over
+        ``dest``. A damaged source or a failed copy leaves ``dest`` as it was. ``dest`` may
+        not be the database or one of its -wal, -shm, -journal files, under any name. A new
+        copy is readable and writable by owner and group only; a replaced one keeps its mode."""
+        from logbook.outfile import OutputError, OutputRefused, replace, resolve
+
         dest = Path(dest)
-        if dest.is_dir():
-            raise StoreError(f"backup destination {dest} is a directory: give a file name, e.g. {dest / 'logbook-backup.db'}")
-        if not dest.parent.is_dir():
-            raise StoreError(f"backup destination folder {dest.parent} does not exist")
-        if self.path != ":memory:" and _same_file(dest, Path(self.path)):
-            raise StoreError(f"backup destination {dest} is the database itself")
-        if dest.exists() and not force:
-            raise StoreError(f"backup destination {dest} already exists; give --force to replace it")
-        partial = dest.with_name(f".{dest.name}.{os.getpid()}.partial")
+        label = "backup destination"
         try:
-            fd = os.open(partial, os.O_CREAT | os.O_EXCL | os.O_WRONLY, BACKUP_MODE)
-            os.close(fd)
-            os.chmod(partial, BACKUP_MODE)
-            target = sqlite3.connect(partial, isolation_level=None)
-            try:
-                self.conn.backup(target)  # pages=-1: all pages in one step, one snapshot
-                target.execute("PRAGMA journal_mode = DELETE")  # a single self-contained file
-                integrity = target.execute("PRAGMA integrity_check").fetchone()[0]
-                counts = {
-                    t: target.execute(f"SELECT count(*) FROM {t}").fetchone()[0]  # t from the constant list below
-                    for t in ("models", "machines", "pumps", "fitments", "readings", "events", "audit")
-                }
-            finally:
-                target.close()
-            os.replace(partial, dest)
-        except OSError as exc:
-            raise StoreError(f"cannot write the backup {dest}: {exc.strerror or exc}") from exc
+            target = resolve(dest, protect=[self.path], label=label, streams=False)
+        except OutputRefused as exc:
+            raise StoreError(str(exc)) from exc
+        if target.exists and not force:
+            raise StoreError(f"backup destination {dest} already exists; give --force to replace it")
+        kept = f"{dest} was left as it was" if target.exists else "no backup was written"
+        self._source_sound(kept)
+        try:
+            counts = replace(target, lambda fd, tmp: self._copy_checked(tmp, kept), label=label, new_mode=BACKUP_MODE)
+        except OutputError as exc:
+            raise StoreError(str(exc)) from exc
         except sqlite3.Error as exc:
-            raise StoreError(f"backup to {dest} failed: {exc}; nothing was replaced") from exc
+            raise StoreError(f"backup to {dest} failed: {exc}; {kept}") from exc
+        return BackupResult(dest, counts, "ok")
+
+    def _source_sound(self, kept: str) -> None:
+        """Refuse to back up a file SQLite's quick check finds damaged: the copy would carry
+        the damage, and replacing a good earlier backup with it would lose that backup."""
+        from logbook.store.core import RESTORE
+
+        try:
+            found = [row[0] for row in self.conn.execute("PRAGMA quick_check(4)").fetchall()]
+        except sqlite3.DatabaseError as exc:  # too damaged for the check to get through
+            found = [str(exc)]
+        if found != ["ok"]:
+            raise StoreError(
+                f"{self.path} is damaged (SQLite's quick check: {integrity_summary(found)}): {kept}. Run "
+                f"`logbook check --db {self.path}` to see what is wrong, and {RESTORE}. To keep the damaged file "
+                "as it is for a closer look, copy it with cp while nobody writes."
+            )
+
+    def _copy_checked(self, tmp: Path, kept: str) -> dict[str, int]:
+        """The online backup into ``tmp`` (an empty file), made self-contained and checked;
+        the row counts of the copy. Raises, leaving ``tmp`` to be removed, when the copy
+        fails ``integrity_check``."""
+        target = sqlite3.connect(tmp, isolation_level=None)
+        try:
+            self.conn.backup(target)  # pages=-1: all pages in one step, one snapshot
+            target.execute("PRAGMA journal_mode = DELETE")  # a single self-contained file
+            found = [row[0] for row in target.execute("PRAGMA integrity_check").fetchall()]
+            if found != ["ok"]:
+                raise StoreError(f"the copy failed SQLite's integrity check ({integrity_summary(found)}): {kept}; "
+                                 f"run `logbook check --db {self.path}`")
+            return {t: target.execute(f"SELECT count(*) FROM {t}").fetchone()[0] for t in COUNTED}  # constant names
         finally:
-            for leftover in (partial, Path(f"{partial}-journal"), Path(f"{partial}-wal"), Path(f"{partial}-shm")):
-                leftover.unlink(missing_ok=True)
-        return BackupResult(dest, counts, integrity)
+            target.close()
 
     def check(self) -> list[Finding]:
         """Every problem found by SQLite's own checks and the logbook's domain rules,

@@ -134,14 +134,18 @@ class PlanScreen(Screen):
             life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
             provenance = Provenance.from_models(str(fleet.source), forecast.today, fleet.models)
             report = Report(forecast, plan, life, provenance, charts=False)
+            from logbook.outfile import write_bytes
+
             folder = Path(getattr(self.app, "export_dir", None) or Path.cwd())
             paths = []
-            for kind in ("md", "csv"):
+            for kind in ("md", "csv"):  # atomic, never over the database (logbook.outfile)
                 path = folder / f"logbook-plan-{forecast.today.isoformat()}.{kind}"
-                path.write_bytes(render(report, kind))
+                write_bytes(path, render(report, kind), protect=[self.app.gate.path, fleet.source], label="plan export")
                 paths.append(path.resolve())
         except Exception as exc:
-            self.post_message(self.Exported([], trouble_text(exc)))
+            from logbook.outfile import OutputError  # its message names the file and why
+
+            self.post_message(self.Exported([], str(exc) if isinstance(exc, OutputError) else trouble_text(exc)))
             return
         self.post_message(self.Exported(paths))
 
