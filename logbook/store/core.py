@@ -5,8 +5,10 @@ from __future__ import annotations
 
 import contextlib
 import getpass
+import grp
 import json
 import os
+import pwd
 import sqlite3
 import stat
 import time
@@ -76,10 +78,15 @@ def utc_now() -> datetime:
 
 
 # -- telling what went wrong with the file -------------------------------------------
-def _names(st: os.stat_result) -> tuple[str, str]:
-    import grp
-    import pwd
+def _account() -> str:
+    """The account this process acts as (the login name in the environment can differ: sudo -u, cron)."""
+    try:
+        return pwd.getpwuid(os.geteuid()).pw_name
+    except KeyError:
+        return f"user {os.geteuid()}"
 
+
+def _names(st: os.stat_result) -> tuple[str, str]:
     try:
         owner = pwd.getpwuid(st.st_uid).pw_name
     except KeyError:
@@ -103,7 +110,7 @@ def read_only_reason(path: str | Path) -> str | None:
     two created in the database's folder when they do not exist."""
     file = Path(path).absolute()
     folder = file.parent
-    who = default_user()
+    who = _account()
     try:
         if os.statvfs(folder).f_flag & os.ST_RDONLY:
             return f"{file} is on a read-only file system (nothing can be written to it there)"
@@ -186,7 +193,8 @@ class Commit:
 
     def describe(self) -> str:
         if self.imported is not None:
-            return f"the import was saved: {self.imported[1]} rows are in ({self.imported[0]})"
+            rows = self.imported[1]
+            return f"the import was saved: {rows} row{' is' if rows == 1 else 's are'} in ({self.imported[0]})"
         parts = [f"{n} {table} row{'s' if n != 1 else ''} {self._VERBS.get(action, action)}"
                  for action, table, n in self.changes if action != "import"]
         return "the change was saved: " + (", ".join(parts) if parts else (self.label or "no rows"))
@@ -212,9 +220,10 @@ class StoreCore:
             raise StoreError(f"--as {user[:40]!r}: a name must be 1-64 characters on one line")
         self.user = user.strip() if user else default_user()
         self.clock = clock
-        #: Why this store can only read (opened read-only because SQLite could not
-        #: create its -wal/-shm files); None when it may write.
+        #: Why this store can only read (opened read-only because SQLite could not create
+        #: its -wal/-shm files: a read-only folder, a full disk); None when it may write.
         self.read_only: str | None = None
+        self._refusal: type[StoreError] = DatabaseReadOnly
         #: Write transactions this store committed, oldest first.
         self.commits: list[Commit] = []
         self._writable = False  # checked once (quick check, permissions) before the first write
@@ -222,6 +231,7 @@ class StoreCore:
         self._pending_import: tuple[str, int] | None = None
         self._pending_label: str | None = None
         memory = self.path == ":memory:"
+        created = False
         if not memory:
             file = Path(self.path)
             if not file.exists():
@@ -230,28 +240,44 @@ class StoreCore:
                         f"no logbook database at {self.path}: create one with `logbook init` "
                         "(or `logbook demo` for the demo fleet), or give --db PATH"
                     )
-                self._create_file(file)
+                created = self._create_file(file)
             elif not os.access(self.path, os.R_OK):
                 raise StoreError(f"cannot read the logbook database at {self.path}: permission denied for "
-                                 f"{default_user()} ({_described(file)})")
+                                 f"{_account()} ({_described(file)})")
         try:
             self.db = sqlite_utils.Database(self._connect(memory), execute_plugins=False)
             self._migrate()
-        except sqlite3.DatabaseError as exc:
-            raise explain(exc, self.path, opening=True) or StoreError(
-                f"{self.path} is not a usable logbook database: {exc}") from exc
+        except BaseException as exc:
+            if created:  # a file made here and left empty (a full disk) would read as a database later
+                self._remove_if_empty()
+            if isinstance(exc, sqlite3.DatabaseError):
+                raise explain(exc, self.path, opening=True) or StoreError(
+                    f"{self.path} is not a usable logbook database: {exc}") from exc
+            raise
 
-    def _create_file(self, file: Path) -> None:
+    def _remove_if_empty(self) -> None:
+        with contextlib.suppress(Exception):
+            self.db.close()
+        with contextlib.suppress(OSError):
+            if os.stat(self.path).st_size == 0:
+                for name in (self.path, f"{self.path}-wal", f"{self.path}-shm"):
+                    with contextlib.suppress(FileNotFoundError):
+                        os.unlink(name)
+
+    def _create_file(self, file: Path) -> bool:
+        """Create the empty database file with NEW_FILE_MODE; False when another
+        process created it first."""
         try:
             file.parent.mkdir(parents=True, exist_ok=True)
             try:
                 fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, NEW_FILE_MODE)
             except FileExistsError:
-                return  # another process created it a moment ago; its migration is serialized below
+                return False  # another process created it a moment ago; its migration is serialized below
             try:
                 os.fchmod(fd, NEW_FILE_MODE)  # the mode asked for, not narrowed by the umask
             finally:
                 os.close(fd)
+            return True
         except OSError as exc:
             if _disk_full(file):
                 raise DiskFull(f"cannot create {file}: the disk holding it is full; nothing was written") from exc
@@ -264,11 +290,9 @@ class StoreCore:
             self._configure(conn, wal=not memory)
             return conn
         except sqlite3.OperationalError as exc:
-            code = (getattr(exc, "sqlite_errorcode", 0) or 0) & 0xFF
-            if memory or code not in (_READONLY, _CANTOPEN):
-                conn.close()
-                raise
             conn.close()
+            if memory:
+                raise
             return self._connect_read_only(exc)
 
     def _configure(self, conn: sqlite3.Connection, *, wal: bool) -> None:
@@ -279,16 +303,19 @@ class StoreCore:
         conn.execute("SELECT count(*) FROM sqlite_master").fetchone()  # the first read: opens the file
 
     def _connect_read_only(self, first: sqlite3.OperationalError) -> sqlite3.Connection:
-        """Read a database this user cannot write, so that looking still works: first
-        as an ordinary read-only connection, then, when SQLite cannot create the -wal
-        and -shm files (a read-only folder), as an unchanging file, which is only
-        sound while no -wal holds changes not yet in the database file."""
+        """Read a database that cannot be written now, so that looking still works: when
+        this user may not write it, or SQLite cannot create its -wal and -shm files (a
+        read-only folder, a full disk). First as an ordinary read-only connection, then as
+        an unchanging file, which is only sound while no -wal holds changes not yet in
+        the database file."""
+        told = explain(first, self.path)
+        if not isinstance(told, (DatabaseReadOnly, DiskFull)):
+            raise first  # not a matter of permissions or space: told as it is
         uri = f"file:{quote(os.path.abspath(self.path))}?mode=ro"
         wal = Path(f"{self.path}-wal")
         attempts = [uri]
         if not wal.exists() or wal.stat().st_size == 0:
             attempts.append(uri + "&immutable=1")
-        why = read_only_reason(self.path) or f"SQLite says: {first}"
         for target in attempts:
             conn = sqlite3.connect(target, uri=True, timeout=self.BUSY_TIMEOUT_MS / 1000, isolation_level=None,
                                    check_same_thread=False)
@@ -297,12 +324,14 @@ class StoreCore:
             except sqlite3.OperationalError:
                 conn.close()
                 continue
-            self.read_only = f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}"
+            self.read_only, self._refusal = str(told), type(told)
             return conn
-        raise StoreError(
-            f"cannot open {self.path}: {why}. It cannot even be read, because {wal.name} holds changes not yet "
-            "folded into the database file and SQLite needs to create its -shm file beside it to read them; "
-            "anyone who can write the folder can fold them in by running `logbook check` once") from first
+        if len(attempts) == 1:
+            raise StoreError(
+                f"{told} It cannot even be read now: {wal.name} holds changes not yet folded into the database "
+                "file, and SQLite must create its -shm file beside it to read them. Anyone who can write there "
+                "folds them in by running `logbook check` once.") from first
+        raise told from first
 
     @property
     def conn(self) -> sqlite3.Connection:
@@ -349,7 +378,7 @@ class StoreCore:
         if self._writable or self.path == ":memory:":
             return
         if self.read_only:
-            raise DatabaseReadOnly(self.read_only)
+            raise self._refusal(self.read_only)
         why = read_only_reason(self.path) if not os.access(self.path, os.W_OK) else None
         if why:
             raise DatabaseReadOnly(f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}")
