@@ -186,17 +186,18 @@ class Timeline:
             self.serial_index[s] = len(self.serial_index)
         self.serial = np.fromiter(map(self.serial_index.__getitem__, serials), dtype=np.int64, count=n)
         self.day = np.fromiter(map(date.toordinal, map(attrgetter("taken_on"), readings)), dtype=np.int64, count=n)
-        # a column at a time: lists of floats hold no objects the cycle collector tracks
-        column = {name: list(map(attrgetter(name), readings)) for name in _NUMBERS}
-        number = {name: np.array(values, dtype=float) for name, values in column.items()}
-        self.meter, self.temp, self.dp = number["machine_hours"], number["oil_temp_c"], number["test_pressure_bar"]
-        self.grade, self.vi = number["oil_grade"], number["oil_vi"]
-        self.values = [number[name] for name in VALUE_FIELDS]
-        self.latest = np.isnan(number["superseded_by"])  # not superseded by a correction (ids are never NaN)
+        rows = list(map(attrgetter(*_NUMBERS), readings))  # one pass over the records for all the numbers
+        table = np.array(rows, dtype=float).reshape(n, len(_NUMBERS))
+        self.meter, self.temp, self.dp, self.grade, self.vi = (table[:, i].copy() for i in (0, 4, 5, 6, 7))
+        self.values = [table[:, 1 + k].copy() for k in range(3)]
+        self.latest = np.isnan(table[:, 8])  # not superseded by a correction (ids are never NaN)
         self.given = [~np.isnan(v) for v in self.values]
-        for k, name in enumerate(VALUE_FIELDS):  # a value given as NaN (not None) is a reading all the same
-            blank, values = np.flatnonzero(~self.given[k]), column[name]
-            self.given[k][blank] = np.array([values[i] is not None for i in blank.tolist()], dtype=bool)
+        row, col = np.nonzero(np.isnan(table[:, 1:4]))
+        if len(row):  # a value given as NaN (not None) is a reading all the same
+            given = np.fromiter((rows[i][1 + k] is not None for i, k in zip(row.tolist(), col.tolist())), bool,
+                                count=len(row))  # fmt: skip
+            for i, k in zip(row[given].tolist(), col[given].tolist()):
+                self.given[k][i] = True
 
     def pump_codes(self, serials: Sequence[str]) -> list[int]:
         """Code of each serial (new codes for serials without records)."""
