@@ -219,19 +219,10 @@ def next_tests(
                     site=machine.site if machine else "", last_reading_on=last.taken_on if last else None)
         restart = _baseline_event(fleet.events, serial, last)
         if last is None or restart is not None:
-            since = restart.happened_on if restart is not None else current.fitted_on
-            why = (f"no reading since the {restart.kind.value} on {since.isoformat()}: take a new baseline"
-                   if restart is not None else f"no reading since fitted on {since.isoformat()}: take a baseline")
-            out[serial] = NextTest(**base, hours_since_reading=None,
-                                   days_since_reading=(today - last.taken_on).days if last else None,
-                                   interval_due_on=since, test_on=since, reason=why)
+            out[serial] = _baseline_test(base, restart, last, current.fitted_on, today)
             continue
         rate = per_day[current.machine]
-        now_machine = clocks.hours_now(current.machine, rate)
-        hours_since = None
-        if now_machine is not None and timeline.fit[last_index] >= 0:  # pump hours of the last reading are known
-            now = current.pump_hours_at_fit + (now_machine - float(timeline.fits.cont_at_fit[fit]))
-            hours_since = max(now - float(timeline.hours[last_index]), 0.0)
+        hours_since = _hours_since(timeline, clocks, fit, last_index, rate)
         due_on, why = interval_due(model, last.taken_on, hours_since, rate, today)
         early_on, early_why, asap = forecast_test_date(pf, today, due_on, rules)
         test_on, reason = (early_on, early_why) if early_on is not None else (due_on, why)
@@ -239,6 +230,26 @@ def next_tests(
                                interval_due_on=due_on, test_on=test_on, reason=reason,
                                earlier=early_on is not None, asap=asap)
     return out
+
+
+def _baseline_test(base: dict, restart: Event | None, last: Reading | None, fitted_on: date, today: date) -> NextTest:
+    """A pump never read, or overhauled since its last reading: test on the day of the work."""
+    since = restart.happened_on if restart is not None else fitted_on
+    why = (f"no reading since the {restart.kind.value} on {since.isoformat()}: take a new baseline"
+           if restart is not None else f"no reading since fitted on {since.isoformat()}: take a baseline")
+    return NextTest(**base, hours_since_reading=None, days_since_reading=(today - last.taken_on).days if last else None,
+                    interval_due_on=since, test_on=since, reason=why)
+
+
+def _hours_since(timeline, clocks: MachineClocks, fit: int, last: int, per_day: float | None) -> float | None:
+    """Pump operating hours from reading ``last`` to today while fitment ``fit`` holds: the machine's
+    continuous hours now less at the fitting, on top of the pump's hours then, less the reading's."""
+    current = timeline.fits.items[fit]
+    now_machine = clocks.hours_now(current.machine, per_day)
+    if now_machine is None or timeline.fit[last] < 0:  # no record on the machine, or the reading's hours unknown
+        return None
+    now = current.pump_hours_at_fit + (now_machine - float(timeline.fits.cont_at_fit[fit]))
+    return max(now - float(timeline.hours[last]), 0.0)
 
 
 def _fitted_today(timeline, serials: list[str], today: date) -> dict[str, int]:
@@ -330,16 +341,21 @@ def second_look(
             lo, _, hi = (float(v[0]) for v in kf.fit.band([x], coverage=coverage))
             if lo <= value <= hi:
                 continue
-            side = "above" if value > hi else "below"
-            since = start_on.isoformat() if start_on else "with its first reading"
-            unit = kf.kind.unit
-            at_ref = " at reference conditions" if kf.kind is Kind.CASE_DRAIN else ""
-            lines.append(
-                f"{r.serial} {r.taken_on.isoformat()} {kf.kind.label} {value:.2f} {unit}{at_ref} is {side} its trend's "
-                f"P{low_q:g}-P{high_q:g} band {lo:.2f}-{hi:.2f} {unit} at {x:,.0f} h into the trend begun {since}: "
-                f"check the entry and the test conditions, or test again"
-            )
+            lines.append(_look_line(r, kf.kind, value, (lo, hi), (low_q, high_q), x, start_on))
     return lines
+
+
+def _look_line(r: Reading, kind: Kind, value: float, band, quantiles, x: float, start_on: date | None) -> str:
+    (lo, hi), (low_q, high_q) = band, quantiles
+    side = "above" if value > hi else "below"
+    since = start_on.isoformat() if start_on else "with its first reading"
+    unit = kind.unit
+    at_ref = " at reference conditions" if kind is Kind.CASE_DRAIN else ""
+    return (
+        f"{r.serial} {r.taken_on.isoformat()} {kind.label} {value:.2f} {unit}{at_ref} is {side} its trend's "
+        f"P{low_q:g}-P{high_q:g} band {lo:.2f}-{hi:.2f} {unit} at {x:,.0f} h into the trend begun {since}: "
+        f"check the entry and the test conditions, or test again"
+    )
 
 
 def new_readings(before: Fleet, after: Fleet) -> list[Reading]:
