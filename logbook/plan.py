@@ -70,7 +70,7 @@ def months_between(first: date, second: date) -> int:
 def parse_month(text: str, field_name: str = "month") -> date:
     """Parse "YYYY-MM" into the month's first day; InputRejected names what is wrong."""
     parts = text.strip().split("-")
-    if len(parts) == 2 and all(p.isdigit() for p in parts) and len(parts[0]) == 4:
+    if len(parts) == 2 and all(p.isascii() and p.isdigit() for p in parts) and len(parts[0]) == 4:
         year, mon = int(parts[0]), int(parts[1])
         if 1 <= mon <= 12 and year >= 1900:
             return date(year, mon, 1)

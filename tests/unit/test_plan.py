@@ -56,6 +56,9 @@ def test_parse_month_accepts_iso_and_names_bad_field():
     with pytest.raises(InputRejected) as err:
         parse_month("2026-13", "--month")
     assert "--month" in str(err.value) and "2026-13" in str(err.value) and "YYYY-MM" in str(err.value)
+    for unicode_digits in ("\u0968\u0966\u0968\u096c-\u0966\u096a", "\uff12\uff10\uff12\uff16-\uff10\uff14"):  # Devanagari, full-width
+        with pytest.raises(InputRejected):
+            parse_month(unicode_digits)
 
 
 def test_settings_reject_bad_values_with_field_names():
