@@ -326,12 +326,13 @@ class StoreCore:
                 continue
             self.read_only, self._refusal = str(told), type(told)
             return conn
+        why = (read_only_reason(self.path) if isinstance(told, DatabaseReadOnly) else None) or str(told).rstrip(".")
         if len(attempts) == 1:
             raise StoreError(
-                f"{told} It cannot even be read now: {wal.name} holds changes not yet folded into the database "
-                "file, and SQLite must create its -shm file beside it to read them. Anyone who can write there "
-                "folds them in by running `logbook check` once.") from first
-        raise told from first
+                f"cannot read {self.path} now: {why}; and {wal.name} holds changes not yet folded into the database "
+                f"file, which SQLite can only read with {Path(self.path).name}-shm beside it. Anyone who can write "
+                "that folder folds them in by running `logbook check` once. Nothing was written.") from first
+        raise StoreError(f"cannot read {self.path}: {why}. Nothing was written.") from first
 
     @property
     def conn(self) -> sqlite3.Connection:
@@ -384,12 +385,18 @@ class StoreCore:
             raise DatabaseReadOnly(f"cannot write the logbook database: {why}. Nothing was written. {READS_STILL_WORK}")
         try:
             found = [row[0] for row in self.conn.execute("PRAGMA quick_check(4)").fetchall()]
-        except sqlite3.DatabaseError as exc:  # too damaged for the check to get through
-            found = [str(exc)]
+        except sqlite3.DatabaseError as exc:
+            told = explain(exc, self.path)
+            if not isinstance(told, DatabaseDamaged):
+                raise told or exc  # locked, read-only, disk full: told as such
+            found = [str(exc)]  # too damaged for the check to get through
         if found != ["ok"]:
             raise DatabaseDamaged(damaged_message(self.path, f"SQLite's quick check: {integrity_summary(found)}"))
-        if self.conn.execute("PRAGMA journal_mode").fetchone()[0] != "wal":
-            self.conn.execute("PRAGMA journal_mode = WAL")  # readers never wait for a writer, nor it for them
+        try:
+            if self.conn.execute("PRAGMA journal_mode").fetchone()[0] != "wal":
+                self.conn.execute("PRAGMA journal_mode = WAL")  # readers never wait for a writer, nor it for them
+        except sqlite3.DatabaseError as exc:
+            raise explain(exc, self.path) or exc
         self._writable = True
 
     # -- transactions -----------------------------------------------------------

@@ -159,6 +159,42 @@ def test_a_store_on_a_read_only_folder_says_so_before_its_first_write(shared):
     assert refused == why
 
 
+def test_a_read_only_folder_with_changes_still_in_the_wal_says_who_can_fold_them_in(shared):
+    """A -wal left holding committed changes (its writer died) and no -shm: SQLite can
+    read it only with a -shm it cannot create in a read-only folder. Reading the bare
+    file would miss those changes, so the reader is told why it cannot read, and who
+    can fix it; once a writer has opened and closed the database, reading works."""
+    live = shared.parent / "live"
+    live.mkdir()
+    writer = sqlite3.connect(live / "fleet.db", isolation_level=None)
+    shutil.copy(shared, live / "fleet.db")
+    writer.execute("PRAGMA wal_autocheckpoint = 0")
+    writer.execute("INSERT INTO machines (unit, site, description) VALUES ('M-9', 'North Yard', 'new loader')")
+    shutil.copy(live / "fleet.db", shared)  # the writer "dies" here: the file and its -wal as they are
+    shutil.copy(live / "fleet.db-wal", f"{shared}-wal")
+    writer.close()
+    shutil.rmtree(live)
+    for path in (shared, Path(f"{shared}-wal")):
+        _give_away(path, 0o644)
+    _give_away(shared.parent, 0o555)
+    before = _digest(shared)
+    [(code, out, err)] = _as_unprivileged(shared, [["pumps"]])
+    assert code == 1 and "fleet.db-wal holds changes not yet folded into the database file" in err, err
+    assert f"the folder {shared.parent} is not writable for" in err and "logbook check" in err
+    assert "Traceback" not in err and _digest(shared) == before
+    os.chmod(shared.parent, 0o755)  # someone who may write the folder opens it once
+    assert _cli(shared, ["check"])[0] == 0
+    os.chmod(shared.parent, 0o555)
+    [(code, out, err)] = _as_unprivileged(shared, [["pumps"]])
+    assert code == 0, err
+
+    def units():
+        with Store(shared, create=False) as s:
+            return sorted(s.machines())
+
+    assert _unprivileged(units) == ["M-1", "M-2", "M-9"]  # the change that was in the -wal
+
+
 # -- a full disk -------------------------------------------------------------------
 @pytest.fixture
 def full_disk(monkeypatch):
