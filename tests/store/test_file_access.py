@@ -248,33 +248,28 @@ def test_a_full_disk_in_the_store(store, tmp_path):
 NEW_READING = b"serial,date,machine_hours,servo_pressure,technician\nS-200,2025-06-01,5600,25.5,Ben\n"
 
 
-def test_ctrl_c_after_the_import_was_saved_says_so(store, tmp_path, monkeypatch, capsys):
+@pytest.mark.parametrize("moment, said, readings", [
+    # the look at the new readings, after the commit
+    ("after", "interrupted after the import was saved: 1 row is in (new.csv)", 4),
+    # inside the write transaction, before COMMIT
+    ("before", "interrupted before saving: nothing was written", 3),
+])
+def test_ctrl_c_says_whether_the_import_was_saved(store, tmp_path, monkeypatch, capsys, moment, said, readings):
     import logbook.rounds
 
-    def interrupted(*args, **kwargs):  # the look at the new readings, after the commit
+    def interrupted(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(logbook.rounds, "import_second_look", interrupted)
+    if moment == "after":
+        monkeypatch.setattr(logbook.rounds, "import_second_look", interrupted)
+    else:
+        monkeypatch.setattr(store_core.StoreCore, "_audit", interrupted)
     csv = tmp_path / "new.csv"
     csv.write_bytes(NEW_READING)
     assert main(["--db", store.path, "--today", TODAY.isoformat(), "import", "readings", str(csv)]) == 130
     err = " ".join(capsys.readouterr().err.split())
-    assert "interrupted after the import was saved: 1 row is in (new.csv)" in err
-    assert "nothing" not in err
-    assert store.counts()["readings"] == 4
-
-
-def test_ctrl_c_before_saving_says_nothing_was_written(store, tmp_path, monkeypatch, capsys):
-    def interrupted(*args, **kwargs):  # inside the write transaction, before COMMIT
-        raise KeyboardInterrupt
-
-    monkeypatch.setattr(store_core.StoreCore, "_audit", interrupted)
-    csv = tmp_path / "new.csv"
-    csv.write_bytes(NEW_READING)
-    assert main(["--db", store.path, "--today", TODAY.isoformat(), "import", "readings", str(csv)]) == 130
-    err = " ".join(capsys.readouterr().err.split())
-    assert "interrupted before saving: nothing was written" in err
-    assert store.counts()["readings"] == 3
+    assert said in err and "half-written" not in err
+    assert store.counts()["readings"] == readings
 
 
 def test_ctrl_c_the_moment_commit_returns_counts_the_change_as_saved(store):
