@@ -1,5 +1,6 @@
 """Round sheet CSV out, filled in, imported back: readings present, blanks skipped, a bad row
-rejected with its line number and nothing written."""
+rejected with its line number (the file's own, the safety comment rows counted) and nothing
+written."""
 
 from __future__ import annotations
 
@@ -10,9 +11,13 @@ from datetime import date
 import pytest
 
 from logbook import rounds
+from logbook.cautions import SAFETY
 from logbook.exports.round_sheet import build_sheet, render_csv
 from logbook.imports import import_bytes
 from tests.store.conftest import TODAY
+
+#: The sheet's comment rows before its header: the safety title, the warning, items, deferral.
+COMMENTS = 1 + len(SAFETY.lines())
 
 
 def _sheet(store) -> list[list[str]]:
@@ -26,8 +31,9 @@ def _sheet(store) -> list[list[str]]:
 
 
 def _fill(rows: list[list[str]], serial: str, **values) -> None:
-    col = {name: i for i, name in enumerate(rows[0])}
-    row = next(r for r in rows[1:] if r[col["serial"]] == serial)
+    assert all(r[0].startswith("# ") for r in rows[:COMMENTS])
+    col = {name: i for i, name in enumerate(rows[COMMENTS])}
+    row = next(r for r in rows[COMMENTS + 1:] if r[col["serial"]] == serial)
     for name, value in values.items():
         row[col[name]] = str(value)
 
@@ -40,7 +46,7 @@ def _bytes(rows: list[list[str]]) -> bytes:
 
 def test_filled_sheet_imports_and_blank_rows_are_skipped(store):
     rows = _sheet(store)
-    assert rows[1][:4] == ["S-100", "", "M-1", ""]  # date and meter left for the technician
+    assert rows[COMMENTS + 1][:4] == ["S-100", "", "M-1", ""]  # date and meter left for the technician
     _fill(rows, "S-100", date="2026-11-30", machine_hours=2900, case_drain=4.4, servo_pressure=24.8,
           neutral_drift=-1.9, oil_temp=52, technician="Ana")
     before = store.counts()
@@ -63,7 +69,7 @@ def test_a_bad_row_is_rejected_with_its_line_and_nothing_is_written(store):
     before, readings = store.counts(), store.readings()
     report = import_bytes(store, "readings", _bytes(rows), name="round.csv", today=TODAY)
     assert report.added == 0
-    assert [(p.line, p.field) for p in report.problems] == [(3, "machine_hours")]
+    assert [(p.line, p.field) for p in report.problems] == [(COMMENTS + 3, "machine_hours")]  # S-200's line
     assert "runs backwards" in str(report.problems[0])
     assert store.counts() == before and store.readings() == readings
 
@@ -72,7 +78,7 @@ def test_a_pump_moved_since_the_sheet_was_made_is_rejected(store):
     rows = _sheet(store)
     _fill(rows, "S-200", machine="M-1", date="2026-11-30", machine_hours=5900, servo_pressure=25.0)
     report = import_bytes(store, "readings", _bytes(rows), name="round.csv", today=TODAY)
-    assert [(p.line, p.field) for p in report.problems] == [(3, "machine")]
+    assert [(p.line, p.field) for p in report.problems] == [(COMMENTS + 3, "machine")]
 
 
 @pytest.mark.parametrize("blank_values", [{}, {"date": "2026-11-30"}, {"date": "2026-11-30", "machine_hours": 2900}])
