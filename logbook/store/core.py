@@ -105,7 +105,8 @@ def _described(path: Path) -> str:
 
 
 def read_only_reason(path: str | Path) -> str | None:
-    """Why the login user cannot write the database at ``path`` (None: nothing found).
+    """Why the account this process runs as cannot write the database at ``path`` (None:
+    nothing found).
     SQLite in WAL mode writes three files: the database, its -wal and its -shm, the last
     two created in the database's folder when they do not exist."""
     file = Path(path).absolute()
@@ -116,8 +117,9 @@ def read_only_reason(path: str | Path) -> str | None:
             return f"{file} is on a read-only file system (nothing can be written to it there)"
         if file.exists() and not os.access(file, os.W_OK):
             st = file.stat()
-            return (f"the database file {file} is read-only for {who} ({_described(file)}); to write, its owner can "
-                    f"give the group write access (`chmod g+w {file}`) with {who} in the group {_names(st)[1]}")
+            fix = ("`chmod u+w` gives its owner write access back" if st.st_uid == os.geteuid() else
+                   f"its owner can give the group write access (`chmod g+w`) with {who} in the group {_names(st)[1]}")
+            return f"the database file {file} is read-only for {who} ({_described(file)}); to write, {fix}"
         for side in (Path(f"{file}-wal"), Path(f"{file}-shm")):
             if side.exists() and not os.access(side, os.W_OK):
                 return (f"{side}, which SQLite writes with every change, is read-only for {who} ({_described(side)}); "
@@ -195,7 +197,7 @@ class Commit:
         if self.imported is not None:
             rows = self.imported[1]
             return f"the import was saved: {rows} row{' is' if rows == 1 else 's are'} in ({self.imported[0]})"
-        parts = [f"{n} {table} row{'s' if n != 1 else ''} {self._VERBS.get(action, action)}"
+        parts = [f"{n} {'row' if n == 1 else 'rows'} of {table} {self._VERBS.get(action, action)}"
                  for action, table, n in self.changes if action != "import"]
         return "the change was saved: " + (", ".join(parts) if parts else (self.label or "no rows"))
 
@@ -368,7 +370,7 @@ class StoreCore:
                     if statement.strip():
                         self.conn.execute(statement)
                 self.conn.execute(f"PRAGMA user_version = {number + 1}")
-            self._pending_label = f"the database was set up (schema {SCHEMA_VERSION})"
+            self._pending_label = f"the database schema was brought to version {SCHEMA_VERSION}"
 
     # -- before the first write -------------------------------------------------
     def ready_to_write(self) -> None:

@@ -292,5 +292,5 @@ def test_ctrl_c_the_moment_commit_returns_counts_the_change_as_saved(store):
         with pytest.raises(KeyboardInterrupt):
             s.remove_reading(1, reason="wrong pump")
         s.db.conn = real
-        assert [c.describe() for c in s.commits] == ["the change was saved: 1 readings row removed"]
+        assert [c.describe() for c in s.commits] == ["the change was saved: 1 row of readings removed"]
     assert store.counts()["readings"] == 3 and [r.id for r in store.readings("S-100")] == [2]
