@@ -44,7 +44,8 @@ def _name(name: str, required: bool = False) -> Parser:
 
 
 def _free(text: str):
-    return text.strip(), None
+    """Free text is stored exactly as typed (spaces included), as on every other path."""
+    return text, None
 
 
 def _oil_grade(text: str):
@@ -70,7 +71,7 @@ def reading_fields(prefs: UnitPrefs, today: date) -> tuple[FieldDef, ...]:
         FieldDef("oil_vi", "Oil VI", _number("oil_vi", ""), ""),
         FieldDef("charge_pressure", "Charge pressure", _number("charge_pressure", p), p, "optional"),
         FieldDef("iso4406", "ISO 4406", _iso4406, "", "e.g. 18/16/13"),
-        FieldDef("technician", "Technician", _name("technician"), ""),
+        FieldDef("technician", "Technician", _free, ""),
         FieldDef("note", "Note", _free, ""),
     )
 
@@ -149,7 +150,7 @@ def event_fields(today: date, kind: EventKind) -> tuple[FieldDef, ...]:
         FieldDef("to_machine", "To machine", _name("to_machine"), ""),
         FieldDef("to_position", "To position", _name("to_position"), ""),
         FieldDef("to_hours", to_hours_label, _number("to_hours", "h", specs=validate.HOURS_FIELDS), "h"),
-        FieldDef("technician", "Technician", _name("technician"), ""),
+        FieldDef("technician", "Technician", _free, ""),
         FieldDef("note", "Note", _free, ""),
     )
 

@@ -216,3 +216,25 @@ async def test_a_reading_typed_in_us_units_is_stored_in_bar_and_litres(demo_stor
         # 1 psi = 6894.757 Pa and 1 bar = 1e5 Pa (NIST SP 811, via scipy.constants)
         assert len(saved) == 1 and abs(saved[0].servo_pressure_bar - 362.6 * constants.psi / constants.bar) < 1e-9
         assert abs(saved[0].servo_pressure_bar - 25.0) < 0.01
+
+
+async def test_free_text_on_the_form_is_stored_exactly_as_typed(demo_app, demo_store):
+    app = demo_app
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        model = app.fleet.models[pf.model]
+        form = await open_form(app, pilot, pf.serial, "r")
+        typed_by, typed_note = "  Ann [night shift] ", " seals checked,  [/b] left as found "
+        fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain="2.5",
+             oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
+             test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}",
+             technician=typed_by, note=typed_note)
+        await pilot.pause(0.5)
+        await settle(app, pilot)
+        assert "accepts" in text(form.query_one("#check")), [(n, f._own_problem, f._store_problem) for n, f in form.fields.items() if f._own_problem or f._store_problem]
+        await pilot.press("f2")
+        await settle(app, pilot)
+        saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
+        assert len(saved) == 1
+        assert saved[0].technician == typed_by and saved[0].note == typed_note
