@@ -124,11 +124,17 @@ def interval_due(
             back = math.floor(-left / per_day) if per_day else 0
             due = max(today - timedelta(days=back), last_on)
         elif per_day:
-            due = today + timedelta(days=math.ceil(left / per_day))
+            from logbook.analysis.utilisation import days_until  # the engine's hours-to-date rule
+
+            ahead = int(days_until(left, per_day))
+            due = today + timedelta(days=ahead) if ahead >= 0 else None
         if due is not None:
             options.append((due, f"every {model.reading_interval_hours:g} h: about {hours_since:,.0f} h run "
                                  f"since the last reading"))
     if not options:
+        if model.reading_interval_hours and hours_since is not None:
+            return None, (f"every {model.reading_interval_hours:g} h: about {hours_since:,.0f} h run since the last "
+                          f"reading; no date for the rest: the machine's hours per day are unknown or too few")
         if model.reading_interval_hours:
             return None, f"every {model.reading_interval_hours:g} h, but the hours run since the last reading are unknown"
         return None, "no reading interval set for the model"

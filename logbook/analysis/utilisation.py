@@ -142,11 +142,17 @@ def machine_utilisation(timeline: Timeline, machines: Sequence[str], today: date
     return {names[c]: v for c, v in utilisation(*points, wanted, today).items()}
 
 
-def days_ahead(remaining: np.ndarray, per_day: np.ndarray) -> np.ndarray:
-    """Whole days from today until (S, Q) remaining hours (NaN = none) have run at ``per_day`` (S,) hours
-    a day, rounded up; -1 for no date (no hours, no utilisation, or beyond 200 years)."""
+def days_until(remaining, per_day):
+    """Whole days (rounded up) until ``remaining`` hours have run at ``per_day`` hours a day, on scalars or
+    broadcasting arrays; -1 for no date (NaN or infinite hours, no utilisation, or beyond 200 years)."""
+    remaining, per_day = np.asarray(remaining, dtype=float), np.asarray(per_day, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        days = remaining / per_day[:, None]
-        ok = np.isfinite(remaining) & (per_day[:, None] > 0) & ~(days > 366 * 200)
+        days = remaining / per_day
+        ok = np.isfinite(remaining) & (per_day > 0) & ~(days > 366 * 200)
         step = np.ceil(np.where(ok, days, 0.0) - 1e-9)
     return np.where(ok, step, -1).astype(np.int64)
+
+
+def days_ahead(remaining: np.ndarray, per_day: np.ndarray) -> np.ndarray:
+    """``days_until`` for (S, Q) remaining hours at (S,) hours a day."""
+    return days_until(remaining, per_day[:, None])

@@ -100,6 +100,14 @@ def test_interval_due_date_ahead_comes_from_utilisation():
     assert due == date(2026, 3, 10)
 
 
+def test_a_machine_that_hardly_runs_gets_no_date_rather_than_a_crash():
+    # 290 h left at 1e-7 h a day is about 8,000 million years: beyond any calendar (the engine's
+    # hours-to-date rule gives no date past 200 years), and no utilisation at all gives none either
+    for per_day in (1e-7, None):
+        due, why = rounds.interval_due(MODEL, date(2026, 1, 1), 10.0, per_day, date(2026, 1, 2))
+        assert due is None and "about 10 h run" in why and "no date" in why
+
+
 def test_a_pump_never_read_or_overhauled_since_needs_a_baseline():
     fleet = _fleet()
     fleet = replace(fleet, readings=tuple(r for r in fleet.readings if r.serial != "P-2"))
