@@ -101,7 +101,7 @@ def test_interval_due_date_ahead_comes_from_utilisation():
 
 
 def test_a_machine_that_hardly_runs_gets_no_date_rather_than_a_crash():
-    # 290 h left at 1e-7 h a day is about 8,000 million years: beyond any calendar (the engine's
+    # 290 h left at 1e-7 h a day is about 8 million years: beyond any calendar (the engine's
     # hours-to-date rule gives no date past 200 years), and no utilisation at all gives none either
     for per_day in (1e-7, None):
         due, why = rounds.interval_due(MODEL, date(2026, 1, 1), 10.0, per_day, date(2026, 1, 2))
