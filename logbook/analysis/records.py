@@ -68,7 +68,7 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
                  today: date) -> list[KindForecast]:  # fmt: skip
     """One KindForecast per row."""
     base = today.toordinal()
-    when = [[date.fromordinal(base + d) if d >= 0 else None for d in col] for col in rows.days.T.tolist()]
+    when = [_dates([base + d if d >= 0 else -1 for d in col]) for col in rows.days.T.tolist()]
     hours = [[None if v != v else v for v in col] for col in rows.remaining.T.tolist()]
     with np.errstate(invalid="ignore"):
         rate = np.where(rows.detail & np.isfinite(fc.rate_per_hour), fc.rate_per_hour * 1000.0, np.nan).tolist()
@@ -77,6 +77,7 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
     last = np.maximum(pk.bounds[1:] - 1, 0)
     latest_y, latest_raw, latest_day = ([None] * len(seen),) * 3 if not len(pk.y) else (
         pk.y[last].tolist(), pk.raw[last].tolist(), pk.day[last].tolist())  # fmt: skip
+    latest_on = _dates([d if s else -1 for d, s in zip(latest_day, seen)])
     details = fit_details(pk, fit, rows.detail)
     flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
     path = [PATH_NAMES[c] if d else "none" for c, d in zip(fit.path.tolist(), rows.detail.tolist())]
@@ -86,14 +87,20 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
         KindForecast(
             serial=serial, kind=ALL_KINDS[i % KINDS], limit=pk.limits[i], outcome=outcome[i],
             latest_value=latest_y[i] if seen[i] else None, latest_raw=latest_raw[i] if seen[i] else None,
-            latest_on=date.fromordinal(latest_day[i]) if seen[i] else None, n_readings=counts[i],
+            latest_on=latest_on[i] if seen[i] else None, n_readings=counts[i],
             segment_start=pk.start_on[i], hours_in_segment=x_now[i], path=path[i],
             p10_hours=hours[0][i], p50_hours=hours[1][i], p90_hours=hours[2][i],
             p10_date=when[0][i], p50_date=when[1][i], p90_date=when[2][i], flags=flags[i],
             fit=details[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
         )
-        for i, serial in enumerate(np.repeat(serials, KINDS).tolist() if serials else [])
+        for i, serial in enumerate(serial for serial in serials for _ in range(KINDS))
     ]  # fmt: skip
+
+
+def _dates(ordinals: list[int]) -> list[date | None]:
+    """The date of each day ordinal (None for -1), one date object per distinct day."""
+    made: dict[int, date | None] = {-1: None}
+    return [made[d] if d in made else made.setdefault(d, date.fromordinal(d)) for d in ordinals]
 
 
 def pump_records(serials: list[str], models: list[PumpModel], pk: FleetPack, fit: BatchFit, rows: RowFigures,

@@ -72,6 +72,7 @@ class SegmentStarts:
 
     events: list[Event]  # the pumps' events that reset some kind
     day: np.ndarray  # per event
+    with_meter: np.ndarray  # per event: it has a meter reading
     hours: np.ndarray  # per event: pump hours (NaN where unknown or not a start)
     start: np.ndarray  # (pumps, kinds): index into ``events``, -1 for no start
 
@@ -92,7 +93,7 @@ class SegmentStarts:
         hours = np.full(len(events), np.nan)
         wanted = np.unique(start[start >= 0])
         hours[wanted] = timeline.event_pump_hours([events[j] for j in wanted.tolist()], use)
-        return cls(events, day, hours, start)
+        return cls(events, day, np.array([e.hours is not None for e in events], dtype=bool), hours, start)
 
     def after_start(self, timeline: Timeline, pumps: PumpReadings, entries: np.ndarray, k: int) -> np.ndarray:
         """Which of the readings ``entries`` (positions in ``pumps``) were taken after their segment's start
@@ -103,8 +104,7 @@ class SegmentStarts:
         read_day, event_day, event_hours = pumps.day[entries[with_start]], self.day[event], self.hours[event]
         later, same_day = read_day > event_day, read_day == event_day
         if same_day.any():
-            by_meter = same_day & np.array([self.events[j].hours is not None for j in event.tolist()], dtype=bool)
-            by_meter &= ~np.isnan(event_hours)
+            by_meter = same_day & self.with_meter[event] & ~np.isnan(event_hours)
             later = np.where(by_meter, pumps.hours[entries[with_start]] >= event_hours, later)
             for q in np.flatnonzero(same_day & ~by_meter).tolist():  # no meter reading: who was entered first
                 r, ev = timeline.readings[pumps.reading[entries[with_start[q]]]], self.events[event[q]]
