@@ -96,6 +96,22 @@ def test_check_still_reads_a_damaged_file(sound, kind, capsys):
     assert "backup" in text
 
 
+@pytest.mark.parametrize("kind", KINDS)
+@pytest.mark.parametrize("argv", [["pumps"], ["show", "S-100"], ["history", "S-100"]], ids=" ".join)
+def test_reading_a_damaged_file_shows_what_reads_or_says_it_is_damaged(sound, kind, argv, capsys):
+    KINDS[kind](sound)
+    before = _fingerprint(sound)
+    code = main(["--db", str(sound), "--today", TODAY.isoformat(), *argv])
+    captured = capsys.readouterr()
+    err = " ".join(captured.err.split())
+    assert "Traceback" not in err and "half-written" not in err
+    if code == 0:
+        assert "S-100" in captured.out  # what SQLite could still read
+    else:
+        assert code == 1 and "damaged" in err and "backup" in err, err
+    assert _fingerprint(sound) == before
+
+
 def test_the_quick_check_runs_once_per_open_store(sound):
     """Before the first write only: later writes of the same store do not repeat it."""
     with Store(sound, create=False, user="tester") as s:
