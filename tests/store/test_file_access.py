@@ -86,10 +86,12 @@ def shared(store):
     temporary folder (the unprivileged account must reach it). Every command is run
     once on a writable copy first: that loads every module it needs."""
     warm = Path(tempfile.mkdtemp(prefix="logbook-warm-"))
-    store.backup(warm / "warm.db")
-    for argv in READS + WRITES:
-        assert _cli(warm / "warm.db", argv)[0] == 0
-    shutil.rmtree(warm)
+    try:
+        store.backup(warm / "warm.db")
+        for argv in READS + WRITES:
+            assert _cli(warm / "warm.db", argv)[0] == 0
+    finally:
+        shutil.rmtree(warm)
     folder = Path(tempfile.mkdtemp(prefix="logbook-access-"))
     db = folder / "fleet.db"
     store.backup(db)
