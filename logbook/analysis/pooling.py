@@ -72,14 +72,20 @@ def group_prior(
         swr = gsum(wr)
         mu = gsum(wr * bs) / swr
         var_mu = 1.0 / swr
-        has_dof = (dof > 0) & (group >= 0) & eligible
-        rss_g = np.bincount(group[has_dof], weights=rss[has_dof], minlength=ng)
-        dof_g = np.bincount(group[has_dof], weights=dof[has_dof], minlength=ng)
-        sigma2 = rss_g / dof_g
+    sigma2, dof_g = _pooled_noise(group, eligible, rss, dof, ng)
     few = k < min_series
     for arr in (mu, tau2, var_mu):
         arr[few] = np.nan
     return GroupPrior(mu=mu, tau2=tau2, var_mu=var_mu, n_series=k, sigma2=sigma2, dof=dof_g)
+
+
+def _pooled_noise(group, eligible, rss, dof, groups: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per group: residual variance pooled over its eligible rows (sum of RSS over sum of dof), and that dof."""
+    has_dof = (dof > 0) & (group >= 0) & eligible
+    rss_g = np.bincount(group[has_dof], weights=rss[has_dof], minlength=groups)
+    dof_g = np.bincount(group[has_dof], weights=dof[has_dof], minlength=groups)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return rss_g / dof_g, dof_g
 
 
 def shrink_slope(
