@@ -196,13 +196,7 @@ def life_figures(
     if fit.failures < FEW_FAILURES:
         caution = f"only {fit.failures} overhauls recorded: the bounds are wide"
     ages = np.asarray(ages_hours, float)
-    ahead = np.broadcast_to(np.asarray(horizon_hours, float), ages.shape) if ages.size else np.zeros(0)
-    expected = sd = horizon = None
-    if ages.size:
-        chance = fit.chance_within(ages, ahead)
-        expected = float(chance.sum())
-        sd = float(math.sqrt(np.sum(chance * (1 - chance))))
-        horizon = float(np.mean(ahead))
+    expected, sd, horizon = _expected_overhauls(fit, ages, horizon_hours)
     return LifeFigures(
         **base,
         fit=fit,
@@ -217,6 +211,16 @@ def life_figures(
         expected_overhauls=expected,
         expected_sd=sd,
     )
+
+
+def _expected_overhauls(fit: WeibullFit, ages: np.ndarray, horizon_hours) -> tuple[float | None, ...]:
+    """(expected overhauls, their sd, mean horizon) of running pumps aged ``ages`` within their horizons:
+    the sum of each one's chance and the sd of that sum of independent Bernoulli trials; None for no pumps."""
+    if not ages.size:
+        return None, None, None
+    ahead = np.broadcast_to(np.asarray(horizon_hours, float), ages.shape)
+    chance = fit.chance_within(ages, ahead)
+    return float(chance.sum()), float(math.sqrt(np.sum(chance * (1 - chance)))), float(np.mean(ahead))
 
 
 # ----------------------------------------------------------------- from the fleet
