@@ -36,6 +36,7 @@ COMMAND_MODULES = (
     "check",
     "correct",
     "remove",
+    "costs",
 )
 
 
@@ -49,6 +50,20 @@ def default_db_path() -> Path:
     return Path(user_data_dir("logbook", appauthor=False)) / "logbook.db"
 
 
+class TextConsole(Console):
+    """The commands' console: a plain string it prints (a message, a table cell) shows its
+    control characters as escapes (``fmt.visible``), so that a file name or a name quoted
+    in a message cannot drive the terminal. Text that may hold markup-like brackets goes
+    in as ``fmt.text`` (never read as markup) or with ``markup=False``."""
+
+    def render_str(self, text: str, **kwargs):
+        if not text.isprintable():
+            from logbook.fmt import visible  # not before a command needs it (the fleet view starts light)
+
+            text = "\n".join(visible(line) for line in text.split("\n"))
+        return super().render_str(text, **kwargs)
+
+
 @dataclass
 class Context:
     """What every command gets: where the database is, who is acting, today, output."""
@@ -57,8 +72,8 @@ class Context:
     user: str | None
     today: date
     units: UnitPrefs
-    console: Console = field(default_factory=lambda: Console(highlight=False, width=None if sys.stdout.isatty() else 160))
-    err: Console = field(default_factory=lambda: Console(stderr=True, highlight=False))
+    console: Console = field(default_factory=lambda: TextConsole(highlight=False, width=None if sys.stdout.isatty() else 160))
+    err: Console = field(default_factory=lambda: TextConsole(stderr=True, highlight=False))
     stores: list = field(default_factory=list)  # every store opened, to tell what was saved when a run stops
 
     def open_store(self, *, create: bool = False):

@@ -16,12 +16,14 @@ Policies compared on the same candidates:
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 
-from logbook.economics import JobCosts, MonthCosts, month_costs, split_lognormal_chance
+from logbook.economics import AgeOptimum, JobCosts, MonthCosts, cost_rate, month_costs, optimal_age, split_lognormal_chance
 from logbook.leveller import Job, ShopLimits, cost_of, level
+from logbook.model import CostBook
 
 JOB_DAY = 14  # a job in a month is costed on its 15th
 
@@ -115,3 +117,69 @@ def cost_plan(
                 sensitivity.append((c.serial, factor, months[c.serial], m))
     left = tuple(cands[j].serial for j in best.left_over)
     return CostedPlan(months, costed, policies, left, tuple(sensitivity))
+
+
+# ------------------------------------------------------------------ from the cost book and the fleet's life
+
+
+@dataclass(frozen=True)
+class ModelEconomy:
+    """One model's costs as used, its Weibull life and the cost-optimal overhaul age (Barlow and
+    Proschan), so anyone can recompute it; ``optimum`` is None without a Weibull fit."""
+
+    model: str
+    planned: float
+    failure: float
+    shape: float | None
+    scale_hours: float | None
+    optimum: AgeOptimum | None
+    note: str  # why there is no optimum, or what the costs mean ("" otherwise)
+
+
+def model_economies(book: CostBook, life: Sequence) -> dict[str, ModelEconomy]:
+    """Per model with costs: the age-replacement optimum on its fleet-life Weibull (``life``: LifeFigures).
+    Job costs here exclude downtime, which differs per machine; see ``pump_costs``."""
+    fits = {f.model: f.fit for f in life}
+    out = {}
+    for code, mc in sorted(book.models.items()):
+        fit = fits.get(code)
+        notes = [] if mc.failure > mc.planned else ["run to failure is cheapest for this model (a failure costs no "
+                                                     "more than a planned job)"]
+        optimum = None
+        if fit is None:
+            notes.append("no fleet-life Weibull fit yet: no optimal age")
+        else:
+            optimum = optimal_age(fit.shape, fit.scale_hours, JobCosts(mc.planned, mc.failure))
+            if optimum.reason and mc.failure > mc.planned:
+                notes.append(optimum.reason)
+        out[code] = ModelEconomy(code, mc.planned, mc.failure, fit.shape if fit else None,
+                                 fit.scale_hours if fit else None, optimum, "; ".join(notes))
+    return out
+
+
+def pump_costs(book: CostBook, forecast, economies: dict[str, ModelEconomy]) -> PlanCosts | None:
+    """Per pump of ``forecast``: its model's job costs plus its machine's (or site's) downtime, and the
+    cost per operating hour of its renewal cycle (the model's optimal-age cost rate; without a Weibull
+    fit, the planned job over the pump's expected cycle: hours since overhaul plus P50 hours left).
+    None when no model has costs."""
+    if book.empty:
+        return None
+    pumps = {}
+    for pf in forecast.pumps:
+        mc = book.models.get(pf.model)
+        if mc is None:
+            continue
+        dt = book.downtime(pf.machine, pf.site)
+        costs = JobCosts.with_downtime(mc.planned, mc.failure, dt.cost_per_hour, dt.planned_hours, dt.failure_hours) \
+            if dt is not None else JobCosts(mc.planned, mc.failure)
+        eco = economies.get(pf.model)
+        rate = None
+        if eco is not None and eco.optimum is not None and eco.shape is not None:
+            rate = float(cost_rate(eco.optimum.age_hours, eco.shape, eco.scale_hours, costs)) \
+                if eco.optimum.age_hours is not None else costs.failure / (eco.scale_hours * math.gamma(1 + 1 / eco.shape))
+        if rate is None:
+            left = pf.worst.p50_hours if pf.worst is not None and pf.worst.p50_hours is not None else None
+            cycle = (pf.hours_since_overhaul or 0.0) + (left or 0.0)
+            rate = costs.planned / cycle if cycle > 0 else 0.0
+        pumps[pf.serial] = PumpCosts(costs, rate)
+    return PlanCosts(book.currency, pumps)

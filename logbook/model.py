@@ -287,3 +287,48 @@ class ImportReport:
     flagged: list[str] = field(default_factory=list)  # accepted, but worth a second look
     dry_run: bool = False
     ids: list[int] = field(default_factory=list)  # ids of the rows written (readings, events)
+
+
+# ------------------------------------------------------------------ money (user's currency, no rates)
+
+
+@dataclass(frozen=True)
+class ModelCosts:
+    """What one pump model's jobs cost: a planned overhaul or exchange (parts and shop labour)
+    and an in-service failure (parts, secondary damage, circuit flush)."""
+
+    model: str
+    planned: float
+    failure: float
+
+
+@dataclass(frozen=True)
+class Downtime:
+    """A site's or a machine's downtime: cost per hour and the hours a planned job and a
+    failure keep it standing (a machine's own figures win over its site's)."""
+
+    scope: str  # "site" or "machine"
+    name: str
+    cost_per_hour: float
+    planned_hours: float
+    failure_hours: float
+
+
+@dataclass(frozen=True)
+class CostBook:
+    """Every cost entered, in one currency (an ISO 4217 code such as EUR; no exchange rates)."""
+
+    currency: str = ""
+    models: dict[str, ModelCosts] = field(default_factory=dict)
+    sites: dict[str, Downtime] = field(default_factory=dict)
+    machines: dict[str, Downtime] = field(default_factory=dict)
+
+    def downtime(self, machine: str | None, site: str | None) -> Downtime | None:
+        """The machine's own downtime figures, else its site's, else None."""
+        if machine is not None and machine in self.machines:
+            return self.machines[machine]
+        return self.sites.get(site) if site is not None else None
+
+    @property
+    def empty(self) -> bool:
+        return not self.models

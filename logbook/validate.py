@@ -37,7 +37,12 @@ class FieldSpec:
         lo = units.from_canonical(self.minimum, unit)
         hi = units.from_canonical(self.maximum, unit)
         u = f" {unit}" if unit else ""
-        return f"a number from {lo:g} to {hi:g}{u}"
+        return f"a number from {_plain(lo)} to {_plain(hi)}{u}"
+
+
+def _plain(x: float) -> str:
+    """A bound as a person writes it: 500000 and 1,000,000,000 rather than 5e+05 and 1e+09."""
+    return f"{x:,.12g}" if abs(x) >= 1e6 else f"{x:g}"
 
 
 # Plausible domains of every numeric field (canonical units). Wide enough for any
@@ -77,6 +82,15 @@ HOURS_FIELDS: dict[str, FieldSpec] = {
     "to_hours": FieldSpec("to_hours", units.HOURS, 0, 500_000),
     "machine_hours_at_fit": FieldSpec("machine_hours_at_fit", units.HOURS, 0, 500_000),
     "pump_hours_at_fit": FieldSpec("pump_hours_at_fit", units.HOURS, 0, 500_000),
+}
+
+#: Money (the user's currency) and downtime hours; wide bounds, zero allowed.
+COST_FIELDS: dict[str, FieldSpec] = {
+    "planned": FieldSpec("--planned", units.NONE, 0, 1e9, help="planned overhaul or exchange cost"),
+    "failure": FieldSpec("--failure", units.NONE, 0, 1e9, help="in-service failure cost"),
+    "per_hour": FieldSpec("--per-hour", units.NONE, 0, 1e7, help="downtime cost per hour"),
+    "planned_hours": FieldSpec("--planned-hours", units.HOURS, 0, 10_000, help="downtime of a planned job"),
+    "failure_hours": FieldSpec("--failure-hours", units.HOURS, 0, 10_000, help="downtime of a failure"),
 }
 
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")

@@ -137,4 +137,25 @@ MIGRATIONS: list[str] = [
     """,
 ]
 
+MIGRATIONS.append(
+    # 3: money and settings. Costs per pump model (planned job, in-service failure) and
+    # downtime per site or machine, all in the one currency held in settings.
+    """
+    CREATE TABLE costs (
+        scope TEXT NOT NULL CHECK (scope IN ('model', 'site', 'machine')),
+        name TEXT NOT NULL,
+        planned_cost REAL CHECK (planned_cost IS NULL OR planned_cost >= 0),
+        failure_cost REAL CHECK (failure_cost IS NULL OR failure_cost >= 0),
+        downtime_cost_per_hour REAL CHECK (downtime_cost_per_hour IS NULL OR downtime_cost_per_hour >= 0),
+        planned_downtime_hours REAL CHECK (planned_downtime_hours IS NULL OR planned_downtime_hours >= 0),
+        failure_downtime_hours REAL CHECK (failure_downtime_hours IS NULL OR failure_downtime_hours >= 0),
+        PRIMARY KEY (scope, name)
+    );
+    CREATE TABLE settings (
+        key TEXT PRIMARY KEY,
+        value TEXT NOT NULL
+    );
+    """
+)
+
 SCHEMA_VERSION = len(MIGRATIONS)

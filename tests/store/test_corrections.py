@@ -128,10 +128,11 @@ def test_a_version_1_database_is_migrated_forward_with_its_data(tmp_path):
     conn.commit()
     conn.close()
     with Store(path) as s:
-        assert s.schema_version() == SCHEMA_VERSION == 2
+        assert s.schema_version() == SCHEMA_VERSION == 3
         assert list(s.models()) == ["M1"]
         cols = {r[1] for r in s.conn.execute("PRAGMA table_info(readings)")}
         assert "removed_reason" in cols
+        assert s.costs().models == {}  # migration 3: the costs and settings tables
 
 
 def test_cli_correct_remove_history_and_who(tmp_path, capsys):

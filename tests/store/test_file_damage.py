@@ -12,6 +12,7 @@ import pytest
 
 from logbook.cli import main
 from logbook.store import DatabaseDamaged, Store
+from logbook.store.schema import SCHEMA_VERSION
 
 from .conftest import TODAY
 from .damaged import KINDS
@@ -136,7 +137,7 @@ def test_the_quick_check_runs_once_per_open_store(sound):
 def test_a_store_opened_on_a_damaged_file_refuses_writes_but_reads(sound):
     KINDS["scribbled"](sound)
     with Store(sound, create=False, user="tester") as s:
-        assert s.schema_version() == 2  # page 1 is intact: the store opens and reads
+        assert s.schema_version() == SCHEMA_VERSION  # page 1 is intact: the store opens and reads
         with pytest.raises(DatabaseDamaged, match="quick check"):
             s.ready_to_write()
         with pytest.raises(DatabaseDamaged):

@@ -15,6 +15,7 @@ import pytest
 from logbook.model import Reading
 from logbook.store import DatabaseBusy, Store
 from logbook.store.bulk import _Declined
+from logbook.store.schema import SCHEMA_VERSION
 
 from .conftest import MODELS, READINGS, TODAY, load
 
@@ -146,7 +147,7 @@ def test_two_stores_creating_one_new_file_at_once(tmp_path):
     outs = [p.communicate(timeout=60) for p in procs]
     assert all(out.strip() == "ok" and err == "" for out, err in outs), outs
     with Store(path) as s:
-        assert s.schema_version() == 2 and s.check() == []
+        assert s.schema_version() == SCHEMA_VERSION and s.check() == []
 
 
 def test_an_import_writes_one_audit_row_for_the_file(store):
