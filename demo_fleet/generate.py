@@ -171,12 +171,24 @@ def load(store, today: date, seed: int = 7, workdir: Path | None = None) -> dict
 
     def run(folder: Path) -> dict:
         paths = write_csvs(folder, today, seed)
-        return {table: import_csv(store, table, paths[table], today=today, user="demo") for table in IMPORT_ORDER}
+        reports = {table: import_csv(store, table, paths[table], today=today, user="demo") for table in IMPORT_ORDER}
+        load_costs(store)
+        return reports
 
     if workdir is not None:
         return run(Path(workdir))
     with tempfile.TemporaryDirectory(prefix="demo-fleet-") as folder:
         return run(Path(folder))
+
+
+def load_costs(store) -> None:
+    """The demo operator's invented costs, entered through the store like anyone's."""
+    store.set_currency(sc.CURRENCY)
+    for code, (planned, failure) in sc.MODEL_COSTS.items():
+        store.set_model_costs(code, planned=planned, failure=failure)
+    for scope, table in (("site", sc.SITE_DOWNTIME), ("machine", sc.MACHINE_DOWNTIME)):
+        for name, (per_hour, planned_h, failure_h) in table.items():
+            store.set_downtime(scope, name, cost_per_hour=per_hour, planned_hours=planned_h, failure_hours=failure_h)
 
 
 def main(argv: list[str] | None = None) -> int:

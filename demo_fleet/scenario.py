@@ -179,3 +179,15 @@ SCENARIOS = (
 )
 SCENARIO_BY_SERIAL = {s.serial: s for s in SCENARIOS}
 SCENARIO_BY_NAME = {s.name: s for s in SCENARIOS}
+
+# Money of the invented operator (invented figures, in euros): per model a planned
+# rebuild or exchange and an in-service failure (parts, secondary damage, flushing
+# the circuit); downtime per site, with one machine whose standing costs more.
+CURRENCY = "EUR"
+MODEL_COSTS = {"TQ-55": (3_800, 14_500), "TQ-90": (5_200, 21_000), "TQ-145": (7_900, 33_000), "TQ-250": (12_500, 52_000)}
+SITE_DOWNTIME = {  # cost per hour, hours standing for a planned job, hours for a failure
+    "Greyfen Quarry": (140, 8, 36),
+    "Lowmarsh Pit": (180, 8, 40),
+    "Saltbrook Cut": (220, 10, 48),
+}
+MACHINE_DOWNTIME = {OIL_CHANGE_MACHINE: (350, 10, 56)}  # the site's main loading shovel

@@ -83,7 +83,7 @@ def _print(ctx, book, fleet) -> None:
 
         economies = model_economies(book, fleet_life(fleet))
         table = Table(box=None, header_style="bold", title="per pump model (downtime not included)", title_justify="left")
-        for col in ("model", "planned", "failure", "Weibull k", "scale h", "best age h", "cost/h", "run-to-fail/h"):
+        for col in ("model", "planned", "failure", "shape", "scale h", "best age h", "per h", "run-out per h"):
             table.add_column(col, justify="left" if col == "model" else "right")
         for eco in economies.values():
             opt = eco.optimum
