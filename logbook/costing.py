@@ -21,6 +21,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 
+import numpy as np
+
 from logbook.economics import AgeOptimum, JobCosts, MonthCosts, cost_rate, month_costs, optimal_age, split_lognormal_chance
 from logbook.leveller import Job, ShopLimits, cost_of, level
 from logbook.model import CostBook
@@ -55,7 +57,7 @@ class Candidate:
     site: str
     model: str
     deadline: int | None  # month index of its P10 month (None: beyond the horizon)
-    p_days: tuple[float, float, float | None]  # P10, P50, P90 of days from today to the crossing
+    p_days: tuple[float, float, float | None] | None  # P10, P50, P90 of days to the crossing; None: past the limit
     hours_per_day: float
 
 
@@ -75,7 +77,15 @@ def job_days(today: date, month_starts: Sequence[date], after: date) -> list[int
 
 
 def _month_costs(c: Candidate, pc: PumpCosts, days: list[int]) -> MonthCosts:
-    chance = split_lognormal_chance(*c.p_days)
+    """Expected cost of each choice. A pump already past its limit is taken to fail in service if its job
+    waits past the first month (no data says how long it would last; the plan's own rule, not a forecast)."""
+    if c.p_days is None:
+        first = days[0]
+
+        def chance(t):
+            return (np.asarray(t, dtype=float) > first).astype(float)
+    else:
+        chance = split_lognormal_chance(*c.p_days)
     return month_costs(chance, days, pc.costs, pc.cost_per_operating_hour, c.hours_per_day)
 
 

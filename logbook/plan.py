@@ -412,7 +412,7 @@ def _least_cost(candidates, settings: PlanSettings, today: date, costs: PlanCost
     index = {m: i for i, m in enumerate(settings.months)}
     cands = []
     for _, serial, pf, kf, _due, _shop in shop_jobs:
-        days = (0.5, 1.0, 2.0) if kf.outcome is Outcome.PAST_LIMIT else _p_days(kf, today)
+        days = None if kf.outcome is Outcome.PAST_LIMIT else _p_days(kf, today)
         cands.append(Candidate(serial, pf.site or NO_SITE, pf.model, index[_target(kf, settings)], days,
                                pf.hours_per_day or 0.0))
     limits = ShopLimits(settings.horizon_months, settings.capacity_per_month, dict(settings.site_capacity),

@@ -7,6 +7,7 @@ on stderr. A progress display appears only when stderr is a terminal.
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 from logbook.model import InputRejected, Problem
@@ -31,6 +32,10 @@ def register(sub) -> None:
     p.add_argument("--format", choices=("csv", "md", "html", "json"), default=None,
                    help="output format (default: from the --out suffix, else md)")
     p.add_argument("--out", default="-", metavar="FILE", help="file to write, or - for stdout (default -)")
+    p.add_argument("--no-costs", action="store_true",
+                   help="place pumps by the greedy pass even when costs are set (logbook costs), for comparison")
+    p.add_argument("--allow-late", action="store_true",
+                   help="with costs: the least-cost plan may put a pump after the month of its P10 date")
     p.add_argument("--no-charts", action="store_true", help="html: leave out the trend charts")
     p.add_argument("--max-charts", type=int, default=200, metavar="N",
                    help="html: chart at most the first N planned pumps (default 200)")
@@ -150,6 +155,7 @@ def run(args, ctx) -> int:
         steps.step("reading the database")
         with ctx.open_store() as store:
             fleet = store.fleet()
+            book = store.costs()
         sites = {m.site for m in fleet.machines.values()}
         site_capacity, bad_sites = _pairs(args.site_capacity, "--site-capacity", sites, "the site")
         exchange, bad_models = _pairs(args.exchange, "--exchange", set(fleet.models), "the model")
@@ -178,10 +184,17 @@ def run(args, ctx) -> int:
         horizon_days = (add_months(start, args.horizon) - ctx.today).days
         life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
         steps.step("planning")
-        plan = make_plan(forecast, settings)
+        from logbook.costing import model_economies, pump_costs
+
+        economies = model_economies(book, life)
+        costs = None if args.no_costs else pump_costs(book, forecast, economies)
+        if costs is not None and args.allow_late:
+            costs = dataclasses.replace(costs, allow_late=True)
+        plan = make_plan(forecast, settings, costs)
         steps.step(f"writing {fmt}")
         provenance = Provenance.from_models(str(fleet.source or ctx.db_path), ctx.today, fleet.models)
-        report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts)
+        report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts,
+                        economies=economies)
         data = render(report, fmt)
         steps.step("saving")
         from logbook.outfile import OutputError, OutputRefused, write_bytes

@@ -77,6 +77,7 @@ class Report:
     charts: bool = True  # html only: one chart per planned pump ...
     max_charts: int = 200  # ... for the first this many planned pumps (plan order); the page says so
     notes: tuple[str, ...] = field(default_factory=tuple)
+    economies: dict = field(default_factory=dict)  # model -> costing.ModelEconomy, when costs are set
 
 
 def render(report: Report, fmt: str) -> bytes:

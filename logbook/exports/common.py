@@ -32,6 +32,9 @@ PLAN_COLUMNS = (
     ("chance_by_month_start", "chance crossed by month start"),
     ("chance_by_month_end", "chance crossed by month end"),
     ("months_early", "months early"),
+    ("expected_cost", "expected cost"),
+    ("cost_month_earlier", "expected cost one month earlier"),
+    ("cost_month_later", "expected cost one month later"),
     ("also_due", "also due"),
     ("action", "action"),
     ("reason", "why"),
@@ -105,6 +108,9 @@ def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
         "chance_by_month_start": num(line.chance_by_month_start, 3),
         "chance_by_month_end": num(line.chance_by_month_end, 3),
         "months_early": "" if line.months_early is None else str(line.months_early),
+        "expected_cost": num(line.expected_cost, 0),
+        "cost_month_earlier": num(line.cost_month_earlier, 0),
+        "cost_month_later": num(line.cost_month_later, 0),
         "also_due": ", ".join(k.label for k in line.also_due),
         "action": line.action,
         "reason": line.reason,
@@ -144,7 +150,60 @@ def summary(report) -> list[tuple[str, str]]:
         rows.append(("exchange turnaround", f"{s.turnaround_months} month(s)"))
     for month in s.months:
         rows.append((f"shop jobs {month_label(month)}", str(plan.shop_load.get(month, 0))))
+    return rows + cost_summary(plan)
+
+
+POLICY_WORDS = {
+    "run_to_failure": "run every due pump to failure",
+    "at_p10": "each pump at its P10 month (greedy pass)",
+    "cost_optimal": "least expected cost within capacity (this plan)",
+}
+
+
+def money(value: float | None, currency: str) -> str:
+    return "" if value is None or not math.isfinite(value) else f"{value:,.0f} {currency}".strip()
+
+
+def cost_summary(plan) -> list[tuple[str, str]]:
+    """How the pumps were placed and, with costs, what the plan costs against the other policies."""
+    rows = [("placed by", plan.placement + (f" ({plan.placement_note})" if plan.placement_note else ""))]
+    if plan.costs is None:
+        return rows
+    for key, words in POLICY_WORDS.items():
+        rows.append((f"expected cost: {words}", money(plan.costs.policies[key], plan.currency)))
+    for month, spend in sorted(plan.spend_per_month().items()):
+        rows.append((f"expected spend {month_label(month)}", money(spend, plan.currency)))
     return rows
+
+
+def sensitivity_rows(plan) -> list[dict[str, str]]:
+    """Pumps whose cost-optimal month moves when the failure-to-planned cost ratio is halved or doubled."""
+    if plan.costs is None:
+        return []
+    label = {i: month_label(m) for i, m in enumerate(plan.settings.months)}
+    return [{"serial": serial, "ratio": f"x{factor:g}", "month": label.get(base, "after the horizon") if base is not None
+             else "after the horizon", "moves to": label.get(moved, "after the horizon") if moved is not None
+             else "after the horizon"} for serial, factor, base, moved in plan.costs.sensitivity]
+
+
+def economy_rows(report) -> list[dict[str, str]]:
+    """Per model with costs: the costs used, its Weibull and the cost-optimal overhaul age."""
+    cur = report.plan.currency
+    out = []
+    for eco in report.economies.values():
+        opt = eco.optimum
+        out.append({
+            "model": eco.model,
+            "planned cost": money(eco.planned, cur),
+            "failure cost": money(eco.failure, cur),
+            "shape": num(eco.shape, 3),
+            "scale hours": num(eco.scale_hours, 0),
+            "cost-optimal age hours": num(opt.age_hours, 0) if opt else "",
+            "cost per hour at that age": num(opt.cost_per_hour, 3) if opt else "",
+            "run to failure per hour": num(opt.run_to_failure_cost_per_hour, 3) if opt else "",
+            "note": eco.note,
+        })
+    return out
 
 
 def life_rows(report) -> list[dict[str, str]]:

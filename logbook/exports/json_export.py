@@ -47,6 +47,9 @@ def _line(line: PlanLine) -> dict:
         "chance_by_month_start": _f(line.chance_by_month_start),
         "chance_by_month_end": _f(line.chance_by_month_end),
         "months_early": line.months_early,
+        "expected_cost": _f(line.expected_cost, 2),
+        "expected_cost_month_earlier": _f(line.cost_month_earlier, 2),
+        "expected_cost_month_later": _f(line.cost_month_later, 2),
         "also_due": [k.value for k in line.also_due],
         "action": line.action,
         "reason": line.reason,
@@ -112,6 +115,37 @@ def _life(fig) -> dict:
     }
 
 
+def _economy(eco) -> dict:
+    opt = eco.optimum
+    return {
+        "model": eco.model,
+        "planned_cost": _f(eco.planned, 2),
+        "failure_cost": _f(eco.failure, 2),
+        "weibull_shape": _f(eco.shape, 6),
+        "weibull_scale_hours": _f(eco.scale_hours, 3),
+        "optimal_age_hours": _f(opt.age_hours, 1) if opt else None,
+        "cost_per_hour_at_optimal_age": _f(opt.cost_per_hour, 6) if opt else None,
+        "run_to_failure_cost_per_hour": _f(opt.run_to_failure_cost_per_hour, 6) if opt else None,
+        "method": "age replacement, C(T) = [Cp R(T) + Cf F(T)] / integral_0^T R (Barlow and Proschan 1965); "
+                  "job costs without downtime",
+        "note": eco.note,
+    }
+
+
+def _costs(report) -> dict:
+    plan = report.plan
+    out = {"currency": plan.currency or None, "placement": plan.placement, "placement_note": plan.placement_note,
+           "models": [_economy(e) for e in report.economies.values()]}
+    if plan.costs is not None:
+        labels = {i: month_label(m) for i, m in enumerate(plan.settings.months)}
+        out["policies"] = {k: _f(v, 2) for k, v in plan.costs.policies.items()}
+        out["spend_per_month"] = {month_label(m): _f(v, 2) for m, v in sorted(plan.spend_per_month().items())}
+        out["sensitivity"] = [{"serial": s, "ratio_factor": f, "month": labels.get(b) if b is not None else None,
+                               "moves_to": labels.get(m) if m is not None else None}
+                              for s, f, b, m in plan.costs.sensitivity]
+    return out
+
+
 def report_dict(report) -> dict:
     plan = report.plan
     s = plan.settings
@@ -134,6 +168,7 @@ def report_dict(report) -> dict:
             "does_not_fit": [_line(line) for line in plan.unplaced],
         },
         "life": [_life(fig) for fig in report.life],
+        "costs": _costs(report),
         "forecasts": [_kind(pf, kf, by_serial.get(pf.serial)) for pf in report.forecast.pumps for kf in pf.kinds],
     }
 
