@@ -23,7 +23,7 @@ from datetime import date, timedelta
 
 import numpy as np
 
-from logbook.economics import AgeOptimum, JobCosts, MonthCosts, cost_rate, month_costs, optimal_age, split_lognormal_chance
+from logbook.economics import AgeOptimum, JobCosts, MonthCosts, SplitLognormal, cost_rate, month_costs, optimal_age
 from logbook.leveller import Job, ShopLimits, cost_of, level
 from logbook.model import CostBook
 
@@ -84,9 +84,13 @@ def _month_costs(c: Candidate, pc: PumpCosts, days: list[int]) -> MonthCosts:
 
         def chance(t):
             return (np.asarray(t, dtype=float) > first).astype(float)
+
+        def left(t):
+            return np.maximum(first - np.asarray(t, dtype=float), 0.0)
     else:
-        chance = split_lognormal_chance(*c.p_days)
-    return month_costs(chance, days, pc.costs, pc.cost_per_operating_hour, c.hours_per_day)
+        dist = SplitLognormal.through(*c.p_days)
+        chance, left = dist.cdf, dist.days_left
+    return month_costs(chance, days, pc.costs, pc.cost_per_operating_hour, c.hours_per_day, days_left=left)
 
 
 def _jobs(cands: Sequence[Candidate], costed: dict[str, MonthCosts]) -> list[Job]:

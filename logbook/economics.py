@@ -144,38 +144,65 @@ def month_costs(
     hours_per_day: float,
     *,
     tail_days: int = 3650,
+    days_left: Callable[[np.ndarray], np.ndarray] | None = None,
 ) -> MonthCosts:
     """Expected cost of the job on each of ``job_days`` (days from today).
 
     ``chance(days)`` is P(the limit is crossed within ``days``), vectorized. The hours given up
-    by a job on day d are hours_per_day * integral_d^inf (1 - chance(t)) dt, integrated by the
-    trapezoid rule on a daily grid out to ``tail_days`` past the last job day.
+    by a job on day d are hours_per_day * E[(T - d)+] = hours_per_day * integral_d^inf (1 - chance(t)) dt:
+    from ``days_left(d)`` when the distribution gives it in closed form, else by the trapezoid rule on
+    a daily grid out to ``tail_days`` past the last job day.
     """
     job = np.asarray(job_days, dtype=float)
-    grid = np.arange(0.0, float(job.max()) + tail_days + 1.0)
-    survive = 1.0 - np.clip(chance(grid), 0.0, 1.0)
-    # integral from each grid day to the end: reversed cumulative trapezoid
-    pieces = 0.5 * (survive[1:] + survive[:-1])
-    after = np.concatenate([np.cumsum(pieces[::-1])[::-1], [0.0]])
-    left = np.interp(job, grid, after) * hours_per_day
+    if days_left is not None:
+        left = days_left(job) * hours_per_day
+    else:
+        grid = np.arange(0.0, float(job.max()) + tail_days + 1.0)
+        survive = 1.0 - np.clip(chance(grid), 0.0, 1.0)
+        pieces = 0.5 * (survive[1:] + survive[:-1])  # integral from each grid day on: reversed cumulative trapezoid
+        after = np.concatenate([np.cumsum(pieces[::-1])[::-1], [0.0]])
+        left = np.interp(job, grid, after) * hours_per_day
     failed = np.clip(chance(job), 0.0, 1.0)
     expected = failed * costs.failure + (1.0 - failed) * costs.planned + cost_per_operating_hour * left
     return MonthCosts(tuple(int(d) for d in job), tuple(map(float, expected)), tuple(map(float, failed)),
                       tuple(map(float, left)))
 
 
+@dataclass(frozen=True)
+class SplitLognormal:
+    """Days to the crossing as a split (two-piece) lognormal through a P10/P50/P90 of days ahead: ln t is
+    normal around ln d50 with the spread below the median set by d10 and above it by d90 (the three
+    quantiles are reproduced; each half is half of an ordinary lognormal)."""
+
+    d50: float
+    low: float  # sd of ln t below the median
+    high: float  # ... above it
+
+    @classmethod
+    def through(cls, d10: float, d50: float, d90: float | None) -> "SplitLognormal":
+        z90 = float(special.ndtri(0.9))
+        d10 = max(d10, 0.5)
+        d50 = max(d50, d10 * (1 + 1e-9))
+        low = (math.log(d50) - math.log(d10)) / z90
+        high = (math.log(d90) - math.log(d50)) / z90 if d90 is not None and d90 > d50 else low
+        return cls(d50, low, high)
+
+    def cdf(self, days: np.ndarray) -> np.ndarray:
+        z = np.log(np.maximum(np.asarray(days, dtype=float), 1e-9) / self.d50)
+        return special.ndtr(z / np.where(z < 0, self.low, self.high))
+
+    def days_left(self, days: np.ndarray) -> np.ndarray:
+        """E[(T - d)+] in closed form: the partial expectations of the two lognormal halves,
+        E[T; T > d] = exp(mu + s^2/2) Phi((mu + s^2 - ln d) / s) (any text on the lognormal), less d P(T > d)."""
+        d = np.maximum(np.asarray(days, dtype=float), 1e-9)
+        mu, lo, hi = math.log(self.d50), self.low, self.high
+        upper_half = math.exp(mu + hi * hi / 2)  # times Phi(...) gives the high lognormal's partial expectation
+        above = np.where(d >= self.d50, upper_half * special.ndtr((mu + hi * hi - np.log(d)) / hi),
+                         upper_half * special.ndtr(hi)
+                         + math.exp(mu + lo * lo / 2) * (special.ndtr((mu + lo * lo - np.log(d)) / lo) - special.ndtr(lo)))
+        return np.maximum(above - d * (1.0 - self.cdf(d)), 0.0)
+
+
 def split_lognormal_chance(d10: float, d50: float, d90: float | None) -> Callable[[np.ndarray], np.ndarray]:
-    """P(crossed within t days) from a P10/P50/P90 of days ahead: ln t normal around ln d50 with the
-    spread below the median set by d10 and above it by d90 (the three quantiles are reproduced)."""
-    z90 = special.ndtri(0.9)
-    d10 = max(d10, 0.5)
-    d50 = max(d50, d10 * (1 + 1e-9))
-    low = (math.log(d50) - math.log(d10)) / z90
-    high = (math.log(d90) - math.log(d50)) / z90 if d90 is not None and d90 > d50 else low
-
-    def chance(days: np.ndarray) -> np.ndarray:
-        t = np.maximum(np.asarray(days, dtype=float), 1e-9)
-        z = np.log(t / d50)
-        return special.ndtr(z / np.where(z < 0, low, high))
-
-    return chance
+    """P(crossed within t days) of the ``SplitLognormal`` through a P10/P50/P90 of days ahead."""
+    return SplitLognormal.through(d10, d50, d90).cdf

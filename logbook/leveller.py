@@ -115,29 +115,36 @@ def level(jobs: Sequence[Job], limits: ShopLimits, *, time_limit: float = 60.0) 
         if job.deadline is not None and job.deadline < limits.months:
             cost[j * width + limits.months] += penalty  # left over although due inside the horizon
 
-    rows, cols, lower_b, upper_b = [], [], [], []
+    blocks: list[tuple[np.ndarray, np.ndarray]] = []  # (constraint row of each cell, variable of each cell)
+    lower_b: list[float] = []
+    upper_b: list[float] = []
 
-    def constraint(cells: list[int], lo: float, hi: float) -> None:
-        r = len(lower_b)
-        rows.extend([r] * len(cells))
-        cols.extend(cells)
-        lower_b.append(lo)
-        upper_b.append(hi)
+    def constraints(cells: np.ndarray, count: int, lo: float, hi: float) -> None:
+        """``count`` constraints; ``cells`` is (count, k) variable indices, -1 for none."""
+        r = np.repeat(np.arange(len(lower_b), len(lower_b) + count), cells.shape[1]).reshape(cells.shape)
+        keep = cells >= 0
+        blocks.append((r[keep], cells[keep]))
+        lower_b.extend([lo] * count)
+        upper_b.extend([hi] * count)
 
-    for j in range(n):
-        constraint([j * width + m for m in range(width)], 1.0, 1.0)
-    for m in range(limits.months):
-        if limits.capacity is not None:
-            constraint([j * width + m for j in range(n)], 0.0, float(limits.capacity))
-        for site, cap in limits.site_capacity.items():
-            cells = [j * width + m for j, job in enumerate(jobs) if job.site == site]
-            if cells:
-                constraint(cells, 0.0, float(cap))
-        for model, pool in limits.spares.items():
-            cells = [j * width + start for j, job in enumerate(jobs) if job.model == model
-                     for start in range(limits.months) if m in spare_months(start, limits)]
-            if cells:
-                constraint(cells, 0.0, float(pool))
+    every = np.arange(n)[:, None] * width
+    constraints(every + np.arange(width)[None, :], n, 1.0, 1.0)  # each job once
+    months = np.arange(limits.months)
+    if limits.capacity is not None:
+        constraints((every + months[None, :]).T, limits.months, 0.0, float(limits.capacity))
+    for site, cap in limits.site_capacity.items():
+        at = np.flatnonzero([job.site == site for job in jobs])
+        if at.size:
+            constraints((at[:, None] * width + months[None, :]).T, limits.months, 0.0, float(cap))
+    for model, pool in limits.spares.items():
+        of = np.flatnonzero([job.model == model for job in jobs])
+        if not of.size or limits.turnaround <= 0:
+            continue
+        for m in months:  # a job started in m - turnaround + 1 .. m still holds a spare in m
+            starts = np.arange(max(0, m - limits.turnaround + 1), m + 1)
+            constraints((of[:, None] * width + starts[None, :]).reshape(1, -1), 1, 0.0, float(pool))
+    rows = np.concatenate([b[0] for b in blocks])
+    cols = np.concatenate([b[1] for b in blocks])
     matrix = sparse.csr_array((np.ones(len(rows)), (rows, cols)), shape=(len(lower_b), n * width))
     result = optimize.milp(
         cost,

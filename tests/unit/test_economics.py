@@ -116,3 +116,14 @@ def test_month_costs_trade_off_has_an_interior_best_month():
 def test_split_lognormal_chance_reproduces_its_quantiles():
     chance = split_lognormal_chance(40.0, 100.0, 300.0)
     assert chance(np.array([40.0, 100.0, 300.0])) == pytest.approx([0.1, 0.5, 0.9])
+
+
+@pytest.mark.parametrize("quantiles", [(40.0, 100.0, 300.0), (10.0, 90.0, 120.0), (200.0, 210.0, None)])
+def test_split_lognormal_days_left_in_closed_form_matches_the_integral(quantiles):
+    # reference: E[(T - d)+] = integral_d^inf (1 - F(t)) dt by scipy.integrate.quad
+    from logbook.economics import SplitLognormal
+
+    dist = SplitLognormal.through(*quantiles)
+    for d in (0.0, 5.0, 60.0, 100.0, 150.0, 400.0):
+        expected, _ = integrate.quad(lambda t: 1.0 - float(dist.cdf(np.array([t]))[0]), d, np.inf, limit=400)
+        assert float(dist.days_left(np.array([d]))[0]) == pytest.approx(expected, rel=1e-5, abs=1e-6)

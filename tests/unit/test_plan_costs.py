@@ -64,10 +64,12 @@ def test_least_cost_plan_is_never_costlier_than_the_greedy_plan(specs, capacity,
     assert plan.placement == "least expected cost"
     _check_limits(plan, s)
     _check_limits(greedy, s)
-    # as many pumps placed as the greedy pass manages (leaving a due pump over costs a penalty)
+    # as many pumps placed as the greedy pass manages (leaving a due pump over costs a penalty), and on
+    # the same number placed never a higher expected cost
     assert len(plan.unplaced) <= len(greedy.unplaced)
     policies = plan.costs.policies
-    assert policies["cost_optimal"] <= policies["at_p10"] + 1e-6 * (1 + abs(policies["at_p10"]))
+    if len(plan.unplaced) == len(greedy.unplaced):
+        assert policies["cost_optimal"] <= policies["at_p10"] + 1e-6 * (1 + abs(policies["at_p10"]))
     # the greedy figure is the expected cost of the greedy plan's months, line by line
     if len(plan.unplaced) == len(greedy.unplaced) == 0:
         at_p10 = 0.0
