@@ -48,6 +48,17 @@ PLAN_BRIEF = ("month", "serial", "model", "machine", "site", "reading", "latest"
               "p10_hours", "chance_by_month_end", "note")
 
 
+def plan_brief_keys(plan) -> tuple[str, ...]:
+    """Columns of the short plan table (md, html): the brief set, the costs when the plan has them, why."""
+    money = ("expected_cost", "cost_month_earlier", "cost_month_later") if plan.costs is not None else ()
+    return PLAN_BRIEF + money + ("reason",)
+
+
+COST_NOTE = ("Cost-optimal age: overhaul at that age or at failure, whichever comes first, minimizes the cost per "
+             "operating hour C(T) = [Cp R(T) + Cf F(T)] / integral of R from 0 to T (Barlow and Proschan, 1965), on "
+             "the model's fleet-life Weibull; job costs without downtime.")
+
+
 def num(value: float | None, digits: int = 2) -> str:
     if value is None or not math.isfinite(value):
         return ""

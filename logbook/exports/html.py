@@ -2,23 +2,33 @@
 
 from __future__ import annotations
 
-from html import escape
+from html import escape as _escape_html
 
 from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.charts import kind_chart_svg
 from logbook.exports.common import (
-    PLAN_BRIEF,
+    COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
+    economy_rows,
     kind_of,
     life_rows,
+    plan_brief_keys,
     plan_row,
     pump_rows,
     pumps_by_serial,
+    sensitivity_rows,
     summary,
 )
+from logbook.fmt import visible
 
 _HEADERS = dict(PLAN_COLUMNS)
+
+
+def escape(text: str) -> str:
+    """Text as HTML shows it, as typed: ``<``, ``&`` and quotes escaped; control characters
+    (not allowed in an HTML document) written as their escapes (``fmt.visible``)."""
+    return _escape_html(visible(text))
 
 _CSS = """
 body { font: 14px/1.4 system-ui, sans-serif; margin: 1.5em auto; max-width: 1200px; color: #1a1a1a; padding: 0 1em; }
@@ -61,13 +71,30 @@ def _charts(report, pumps) -> list[str]:
         out.append(f"<p>Charts of the first {report.max_charts} of {len(lines)} planned pumps, in plan order.</p>")
     for index, line in enumerate(lines[: report.max_charts], start=1):
         kf = kind_of(pumps.get(line.serial), line)
-        title = f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}"
+        title = visible(f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}")
         svg = kind_chart_svg(kf, title, salt=f"logbook-{index}-{line.serial}", id_prefix=f"c{index}") if kf else None
         month = line.month.isoformat()[:7] if line.month else ""
         out.append(f'<figure id="chart-{index}">')
         out.append(svg if svg is not None else f"<p>{escape(title)}: no fitted trend to draw.</p>")
         out.append(f"<figcaption>{escape(month)} - {escape(line.reason)}</figcaption>")
         out.append("</figure>")
+    return out
+
+
+def _money(report) -> list[str]:
+    """Costs: per model the cost-optimal age; pumps whose best month moves with the cost ratio."""
+    out = []
+    rows = economy_rows(report)
+    if rows:
+        out += ['<section id="costs">', f"<h2>What jobs cost ({escape(report.plan.currency or 'no currency set')})</h2>"]
+        out += _table(list(rows[0].keys()), [list(r.values()) for r in rows])
+        out += [f"<p>{escape(COST_NOTE)}</p>", "</section>"]
+    if report.plan.costs is not None:
+        moved = sensitivity_rows(report.plan)
+        out += ['<section id="sensitivity">', "<h2>If failures cost half or twice as much</h2>"]
+        out += _table(list(moved[0].keys()), [list(r.values()) for r in moved]) if moved else [
+            "<p>No pump's month moves when the failure-to-planned cost ratio is halved or doubled.</p>"]
+        out.append("</section>")
     return out
 
 
@@ -97,7 +124,7 @@ def render_html(report) -> str:
     out += _table(["figure", "value"], [list(r) for r in summary(report)])
     out += ["</section>", '<section id="plan">', "<h2>Plan</h2>"]
     if report.plan.lines:
-        out += _plan_table(report.plan.lines, pumps, PLAN_BRIEF + ("reason",))
+        out += _plan_table(report.plan.lines, pumps, plan_brief_keys(report.plan))
     else:
         out.append("<p>Nothing is due in the plan's months.</p>")
     out += ["</section>", '<section id="does-not-fit">', "<h2>Does not fit</h2>"]
@@ -106,7 +133,7 @@ def render_html(report) -> str:
         out += _plan_table(report.plan.unplaced, pumps, keys)
     else:
         out.append("<p>Every pump that is due fits in the plan.</p>")
-    out += ["</section>", '<section id="life">', "<h2>Fleet life per pump model</h2>"]
+    out += ["</section>", *_money(report), '<section id="life">', "<h2>Fleet life per pump model</h2>"]
     rows = life_rows(report)
     if rows:
         out += _table(list(rows[0].keys()), [list(r.values()) for r in rows])

@@ -6,28 +6,52 @@ import re
 
 from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.common import (
-    PLAN_BRIEF,
+    COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
+    economy_rows,
     life_rows,
+    plan_brief_keys,
     plan_row,
     pump_rows,
     pumps_by_serial,
+    sensitivity_rows,
     summary,
 )
+from logbook.fmt import visible
 
 _SPECIAL = re.compile(r"([\\`*_\[\]<>|#])")
 _HEADERS = dict(PLAN_COLUMNS)
 
 
 def esc(text: str) -> str:
-    """Text safe inside a Markdown table cell: no line breaks, markup characters escaped."""
-    return _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+    """Text safe inside a Markdown table cell, as typed: markup characters (``|`` among
+    them) escaped, line breaks and other control characters written as their escapes
+    (``fmt.visible``: ``\\n``, ``\\x1b``), so that a cell stays one cell and one line."""
+    return _SPECIAL.sub(r"\\\1", visible(text))
 
 
 def table(headers: list[str], rows: list[list[str]]) -> list[str]:
     out = ["| " + " | ".join(esc(h) for h in headers) + " |", "|" + "---|" * len(headers)]
     out += ["| " + " | ".join(esc(c) for c in row) + " |" for row in rows]
+    return out
+
+
+def _money_lines(report) -> list[str]:
+    """Costs: per model the cost-optimal age; pumps whose best month moves with the cost ratio."""
+    out = []
+    rows = economy_rows(report)
+    if rows:
+        out += ["", f"## What jobs cost ({esc(report.plan.currency or 'no currency set')})", ""]
+        out += table(list(rows[0].keys()), [list(r.values()) for r in rows])
+        out += ["", esc(COST_NOTE)]
+    moved = sensitivity_rows(report.plan)
+    if report.plan.costs is not None:
+        out += ["", "## If failures cost half or twice as much", ""]
+        if moved:
+            out += table(list(moved[0].keys()), [list(r.values()) for r in moved])
+        else:
+            out.append("No pump's month moves when the failure-to-planned cost ratio is halved or doubled.")
     return out
 
 
@@ -44,8 +68,9 @@ def render_md(report) -> str:
 
     lines += ["", "## Plan", ""]
     if report.plan.lines:
-        lines += table([_HEADERS[k] for k in PLAN_BRIEF + ("reason",)],
-                       [[row[k] for k in PLAN_BRIEF + ("reason",)] for row in
+        keys = plan_brief_keys(report.plan)
+        lines += table([_HEADERS[k] for k in keys],
+                       [[row[k] for k in keys] for row in
                         (plan_row(line, pumps.get(line.serial)) for line in report.plan.lines)])
     else:
         lines.append("Nothing is due in the plan's months.")
@@ -57,6 +82,8 @@ def render_md(report) -> str:
                         (plan_row(line, pumps.get(line.serial)) for line in report.plan.unplaced)])
     else:
         lines.append("Every pump that is due fits in the plan.")
+
+    lines += _money_lines(report)
 
     lines += ["", "## Fleet life per pump model", ""]
     rows = life_rows(report)
