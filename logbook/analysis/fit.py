@@ -72,6 +72,8 @@ class BatchFit:
     w_exp: np.ndarray  # (S,) Akaike weight of the exponential path (0 where it is not available)
     n_valid: np.ndarray  # (S,) readings in the series, used or not
     latest: np.ndarray  # (S,) newest reading, even if dropped as wild (NaN without one)
+    pooled: bool = True  # do the forecast's paths borrow from the pump model's fleet (FitOptions.pool)
+    exponential: bool = True  # may the forecast use curved paths, or only the straight one (FitOptions.exponential)
 
     @property
     def used(self) -> np.ndarray:
@@ -352,7 +354,8 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
         path=path, a=chosen.a, b=chosen.b, c00=chosen.c00, c01=chosen.c01, c11=chosen.c11,
         sigma=np.sqrt(chosen.sigma2), dof=chosen.dof, weights=w, n_used=n.astype(np.int64), flags=flags,
         step_at=step_at, prior_weight=chosen.prior_weight, forecastable=chosen.ok & (path != NONE),
-        lin=p_lin, exp=p_exp, w_exp=w_exp, n_valid=n_valid, latest=rf.latest,
+        lin=p_lin, exp=p_exp, w_exp=w_exp, n_valid=n_valid, latest=rf.latest, pooled=opt.pool,
+        exponential=opt.exponential,
     )  # fmt: skip
 
 

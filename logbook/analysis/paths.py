@@ -45,8 +45,8 @@ from logbook.analysis.batch import ols_rows
 RISING = (1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)
 FALLING = (1.0, 0.0, 2.0)
 LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)  # every path, in a fixed order
-PATH_WORDS = {2.0: "falling faster", 1.0: "linear", 0.5: "power law (square)", 1.0 / 3.0: "power law (cube)",
-              0.0: "exponential", -0.5: "runaway (crack-like)", -1.0: "runaway (fast)"}
+PATH_WORDS = {2.0: "falling faster", 1.0: "linear", 0.5: "square-law", 1.0 / 3.0: "cube-law",
+              0.0: "exponential", -0.5: "runaway", -1.0: "runaway fast"}
 PRIOR_DOF = 4.0  # readings' worth of the fleet's residual variance in each series' own
 WEIGHT_FLOOR = 0.02  # share of a series' mixture spread evenly over its allowed paths
 MIN_STACK_SERIES = 3  # series with a predictive record a group needs for weights of its own
@@ -263,13 +263,14 @@ class PathMixture:
     """The mixture of paths per series, and the crossing distribution of the true condition."""
 
     def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
-                 group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None):
+                 group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None, noise: bool = False,
+                 lambdas: tuple[float, ...] = LAMBDAS):
         s = x.shape[0]
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
         self.sign = np.where(direction < 0, -1.0, 1.0)
         self.lines = [PathLine.fit(x, y, w, group, n_groups, lam) for lam in LAMBDAS]
-        family = np.array([[lam in (RISING if d > 0 else FALLING) for lam in LAMBDAS] for d in (1, -1)])
+        family = np.array([[lam in (RISING if d > 0 else FALLING) and lam in lambdas for lam in LAMBDAS] for d in (1, -1)])
         allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
         raw_scores, raw_counted = one_step_scores(x, y, w)
         scores = np.where(allowed, raw_scores, -np.inf)
@@ -283,6 +284,7 @@ class PathMixture:
         self.limit_z = np.stack([box_cox(limit, lam) for lam in LAMBDAS], axis=1)
         self.ok = allowed.any(axis=1) & np.isfinite(limit)
         self.spread = spread if spread is not None else (np.ones(s), np.ones(s))
+        self.noise = noise  # add the reading-to-reading noise: the crossing of one future reading
         self.size = s
 
     def dominant(self) -> np.ndarray:
@@ -300,8 +302,11 @@ class PathMixture:
                 continue
             loc, scale = line.at(x, rows)
             gap = sign * (loc - self.limit_z[rows, k][:, None])  # < 0: the line is short of the limit
+            scale = scale * np.where(gap < 0, fast, slow)
+            if self.noise:
+                scale = np.sqrt(scale * scale + line.s2[rows][:, None])
             with np.errstate(invalid="ignore", divide="ignore"):
-                t = gap / (scale * np.where(gap < 0, fast, slow))
+                t = gap / scale
             out += np.where(wk > 0, wk * t_cdf(np.nan_to_num(t, nan=-np.inf), line.nu[rows][:, None]), 0.0)
         return out
 
@@ -450,7 +455,7 @@ def _leave_out_quantile(scores: np.ndarray, owner: np.ndarray, rows: np.ndarray,
 
 
 def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
-              group: np.ndarray, tail: float = 0.1) -> Calibration:
+              group: np.ndarray, tail: float = 0.1, lambdas: tuple[float, ...] = LAMBDAS) -> Calibration:
     """Spread factors from forecasts of each series made at earlier origins of its own readings and
     scored on its later ones, per group, each side apart, the series itself left out."""
     x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
@@ -465,7 +470,8 @@ def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, di
         rows = np.flatnonzero(later.any(axis=1) & (cut < n_used))
         if not rows.size:
             continue
-        mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows])
+        mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
+                          lambdas=lambdas)
         r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
         if not r_local.size:
             continue

@@ -13,6 +13,7 @@ from datetime import date
 
 import numpy as np
 
+from logbook.analysis import paths
 from logbook.analysis.fit import B_JUMP, B_OUTLIER, B_POOLED, B_STEP, PATH_NAMES, BatchFit
 from logbook.analysis.forecast import (
     O_CROSSING,
@@ -80,7 +81,8 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
     latest_on = _dates([d if s else -1 for d, s in zip(latest_day, seen)])
     details = fit_details(pk, fit, rows.detail)
     flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
-    path = [PATH_NAMES[c] if d else "none" for c, d in zip(fit.path.tolist(), rows.detail.tolist())]
+    path, share = _path_words(fc, rows)
+    calibrated = (fc.calibrated_on if fc.calibrated_on is not None else np.zeros(len(rows.code), dtype=int)).tolist()
     outcome = [OUTCOMES[c] for c in rows.code.tolist()]
     x_now = pk.batch.x_now.tolist()
     return [
@@ -92,9 +94,25 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
             p10_hours=hours[0][i], p50_hours=hours[1][i], p90_hours=hours[2][i],
             p10_date=when[0][i], p50_date=when[1][i], p90_date=when[2][i], flags=flags[i],
             fit=details[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
+            path_share=share[i], calibrated_on=int(calibrated[i]),
         )
         for i, serial in enumerate(serial for serial in serials for _ in range(KINDS))
     ]  # fmt: skip
+
+
+def _path_words(fc: BatchForecast, rows: RowFigures) -> tuple[list[str], list[float | None]]:
+    """Per row, words for the mixture's heaviest path and its weight; "none" where no path carries
+    the forecast (no data, no limit, too few readings)."""
+    n = len(rows.code)
+    spans = (rows.code == O_CROSSING) | (rows.code == O_NO_CROSSING) | (rows.code == O_PAST_LIMIT)
+    if fc.path is None or fc.mixture is None:
+        return ["none"] * n, [None] * n
+    has = spans & (fc.path >= 0)
+    idx = np.maximum(fc.path, 0)
+    share = np.where(has, fc.mixture.weights[np.arange(n), idx], np.nan).tolist()
+    words = [paths.PATH_WORDS[lam] for lam in paths.LAMBDAS]
+    return ([words[k] if h else "none" for k, h in zip(idx.tolist(), has.tolist())],
+            [None if v != v else v for v in share])
 
 
 def _dates(ordinals: list[int]) -> list[date | None]:

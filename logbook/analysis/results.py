@@ -85,7 +85,7 @@ class KindForecast:
     n_readings: int  # readings in the current segment
     segment_start: date | None
     hours_in_segment: float | None  # operating hours since segment start, today (estimated)
-    path: str  # "linear" | "exponential" | "none"
+    path: str  # words for the heaviest wear path of the mixture (paths.PATH_WORDS), "none" without one
     p10_hours: float | None  # remaining operating hours to the limit (from today)
     p50_hours: float | None
     p90_hours: float | None
@@ -95,6 +95,8 @@ class KindForecast:
     flags: frozenset[str] = frozenset()
     fit: FitDetail | None = None
     rate_per_1000h: float | None = None  # wear rate near today, units per 1000 h (sign as reading)
+    path_share: float | None = None  # weight of that path in the mixture (0..1)
+    calibrated_on: int = 0  # later readings of the model's fleet the band's width was checked on
 
     @property
     def percent_of_limit(self) -> float | None:

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+from rich.text import Text
+
+from logbook import fmt
 from logbook.model import ImportReport
 
 
@@ -9,7 +12,8 @@ def print_report(ctx, report: ImportReport, name: str) -> int:
     """Print an import report; exit code 0 when nothing was wrong, 2 otherwise."""
     what = "would add" if report.dry_run else "added"
     if report.problems:
-        ctx.err.print(f"{name}: [bold]rejected[/bold], nothing written - {len(report.problems)} problem(s):")
+        ctx.err.print(Text.assemble(fmt.text(f"{name}: "), fmt.text("rejected", style="bold"),
+                                    f", nothing written - {len(report.problems)} problem(s):"))
         for p in report.problems:
             ctx.err.print(f"  - {p}", markup=False)
         return 2

@@ -49,11 +49,11 @@ def run(args, ctx) -> int:
     for m in models.values():
         if args.code and m.code != args.code:
             continue
-        table.add_row(
+        table.add_row(*fmt.cells(
             m.code, f"{m.displacement_cc:g}", fmt.pressure(m.rated_pressure_bar, ctx.units), fmt.temperature(m.ref_temp_c, ctx.units),
             fmt.pressure(m.ref_pressure_bar, ctx.units), f"VG {m.oil_grade} VI {m.oil_vi:g}",
             *[(("<" if lim.direction == "below" else ">") + " " + fmt.value(k, lim.value, ctx.units)) if (lim := m.limit(k)) else "-"
-              for k in ALL_KINDS],
+              for k in ALL_KINDS]),
         )
     ctx.console.print(table)
     return 0

@@ -6,6 +6,8 @@ from datetime import timedelta
 
 from rich.table import Table
 
+from logbook import fmt
+
 FORMATS = ("text", "md", "html", "csv")
 
 
@@ -50,9 +52,9 @@ def due_table(tests, today) -> Table:
             since = f"{t.days_since_reading} d"
             if t.hours_since_reading is not None:
                 since += f", {t.hours_since_reading:,.0f} h"
-        table.add_row(t.site, f"{t.machine}/{t.position}", t.serial, t.model,
-                      t.last_reading_on.isoformat() if t.last_reading_on else "never",
-                      since, t.words(today), t.reason)
+        table.add_row(*fmt.cells(t.site, f"{t.machine}/{t.position}", t.serial, t.model,
+                                 t.last_reading_on.isoformat() if t.last_reading_on else "never",
+                                 since, t.words(today), t.reason))
     return table
 
 

@@ -68,4 +68,10 @@ def run(args, ctx) -> int:
             ", ".join(sorted(kf.flags)).replace("_", " "),
         ))
     c.print(t)
+    checked = max((kf.calibrated_on for kf in forecast.kinds), default=0)
+    c.print("P10 / P50 / P90: dates by which the pump's true condition (not one noisy reading) is past the limit "
+            "with 10 / 50 / 90 % chance, weighing several wear paths (path: the heaviest)"
+            + (f"; the band's width was checked on up to {checked} later readings of its model's fleet." if checked
+               else "; too little fleet history to check the band's width on later readings."),
+            markup=False, highlight=False)
     return 0

@@ -65,7 +65,7 @@ def kind_chart_svg(kf: KindForecast, title: str, salt: str, id_prefix: str = "c"
                     ax.annotate(name, (now + h, kf.limit.value), textcoords="offset points", xytext=(2, 4), fontsize=7)
         ax.axvline(now, color="#737373", linestyle=":", linewidth=1)
         ax.set_xlim(0, x_end)
-        ax.set_title(title, loc="left")
+        ax.set_title(title, loc="left", parse_math=False)  # a serial with $ signs is text, not a formula
         ax.set_xlabel("operating hours since the segment started")
         ax.set_ylabel(f"{kf.kind.label} [{kf.kind.unit}]")
         ax.legend(loc="upper left", fontsize=6, frameon=False)

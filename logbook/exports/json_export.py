@@ -76,6 +76,8 @@ def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
         "segment_start": _d(kf.segment_start),
         "hours_in_segment": _f(kf.hours_in_segment, 1),
         "path": kf.path,
+        "path_share": _f(kf.path_share, 3),
+        "band_checked_on_readings": kf.calibrated_on,
         "outcome": kf.outcome.value,
         "p10_hours": _f(kf.p10_hours, 1),
         "p50_hours": _f(kf.p50_hours, 1),

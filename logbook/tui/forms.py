@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from datetime import date
 from typing import Callable
 
-from logbook import units, validate
+from logbook import fmt, units, validate
 from logbook.model import Event, EventKind, Problem, PumpHistory, Reading
 from logbook.units import UnitPrefs
 
@@ -95,7 +95,9 @@ def reading_prefill(history: PumpHistory, prefs: UnitPrefs, today: date) -> dict
         "test_speed": _shown(speed, ""),
         "oil_grade": str(last.oil_grade if last and last.oil_grade else m.oil_grade),
         "oil_vi": _shown(last.oil_vi if last and last.oil_vi else m.oil_vi, ""),
-        "technician": last.technician if last else "",
+        # An input box shows its text raw: a name with control characters is not offered
+        # again (typed anew, it is stored as typed; the views show the stored one escaped).
+        "technician": last.technician if last and fmt.visible(last.technician) == last.technician else "",
     }
 
 

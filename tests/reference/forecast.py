@@ -14,6 +14,7 @@ from datetime import date
 
 import numpy as np
 
+from logbook.analysis import paths
 from logbook.analysis.batch import FALLING, RISING, TrendBatch
 from logbook.analysis.fit import (
     PATH_NAMES,
@@ -161,6 +162,7 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
     if outcome not in (Outcome.CROSSING, Outcome.NO_CROSSING):
         rem = [None, None, None]
     detail = _detail(s, i, fit)
+    path_words = _path(i, fc, outcome)
     rate = float(fc.rate_per_hour[i]) * 1000.0 if detail is not None and np.isfinite(fc.rate_per_hour[i]) else None
     return KindForecast(
         serial=row.history.pump.serial,
@@ -173,7 +175,7 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         n_readings=len(s.x_hours),
         segment_start=s.start_on,
         hours_in_segment=float(batch.x_now[i]),
-        path=PATH_NAMES[int(fit.path[i])] if detail is not None else "none",
+        path=path_words[0],
         p10_hours=rem[0],
         p50_hours=rem[1],
         p90_hours=rem[2],
@@ -183,7 +185,17 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         flags=flags,
         fit=detail,
         rate_per_1000h=rate,
+        path_share=path_words[1],
+        calibrated_on=int(fc.calibrated_on[i]),
     )
+
+
+def _path(i: int, fc: BatchForecast, outcome: Outcome) -> tuple[str, float | None]:
+    """Words for the heaviest path of the row's mixture and its weight, where a forecast was made."""
+    k = int(fc.path[i])
+    if outcome not in (Outcome.CROSSING, Outcome.NO_CROSSING, Outcome.PAST_LIMIT) or k < 0:
+        return "none", None
+    return paths.PATH_WORDS[paths.LAMBDAS[k]], float(fc.mixture.weights[i, k])
 
 
 def _detail(s: Series, i: int, fit: BatchFit) -> FitDetail | None:

@@ -224,24 +224,31 @@ def test_wild_newest_reading_past_the_limit_still_says_past_limit():
     assert forecast_batch(b, fit).outcome[0] == O_PAST_LIMIT
 
 
-def test_model_averaged_quantiles_solve_the_mixture_exactly():
-    # Where both paths carry weight, F(P_q) = (1 - w) F_lin + w F_exp must equal q, with the
-    # exact Student t CDF (scipy.special.stdtr); the engine's fast t approximation is within 1e-3.
+def test_path_mixture_quantiles_solve_the_mixture_exactly():
+    # Where two or more wear paths carry weight, F(P_q) = sum_k w_k F_k must equal q, with the
+    # exact Student t CDF (scipy.special.stdtr); the engine's bisection uses Wallace's fast
+    # approximation of the t CDF (Wallace 1959, Ann. Math. Statist. 30: within about 1e-3 here).
     from scipy import special
 
     batch, _ = synthetic_fleet(seed=99, pumps=600)
     fit = fit_batch(batch)
     fc = forecast_batch(batch, fit, horizon_hours=60_000)
-    mix = np.flatnonzero((fit.w_exp > 0.05) & (fit.w_exp < 0.95) & (fc.outcome == O_CROSSING))
-    assert mix.size > 20
-    x = batch.x_now[mix, None] + fc.remaining[mix]
-    keep = np.isfinite(x).all(axis=1) & (fc.remaining[mix] > 0).all(axis=1)
-
-    def cdf(pp, limit):
-        var = pp.c00[mix, None] + 2 * pp.c01[mix, None] * x + pp.c11[mix, None] * x * x
-        t = batch.direction[mix, None] * (pp.a[mix, None] + pp.b[mix, None] * x - limit[mix, None]) / np.sqrt(var)
-        return special.stdtr(pp.dof[mix, None], t)
-
-    w = fit.w_exp[mix, None]
-    total = (1 - w) * cdf(fit.lin, batch.limit) + w * cdf(fit.exp, np.log(batch.limit))
-    assert np.abs(total[keep] - np.array([0.1, 0.5, 0.9])).max() < 2e-3
+    mx = fc.mixture
+    mixed = (mx.weights > 0.05).sum(axis=1) >= 2
+    rows = np.flatnonzero(mixed & (fc.outcome == O_CROSSING) & (fc.remaining > 0).all(axis=1)
+                          & np.isfinite(fc.remaining).all(axis=1))
+    assert rows.size > 20
+    x = batch.x_now[rows, None] + fc.remaining[rows]
+    sign = mx.sign[rows][:, None]
+    fast, slow = mx.spread[0][rows][:, None], mx.spread[1][rows][:, None]
+    total = np.zeros_like(x)
+    for k, line in enumerate(mx.lines):
+        wk = mx.weights[rows, k][:, None]
+        if not wk.any():
+            continue
+        loc, scale = line.at(x, rows)
+        gap = sign * (loc - mx.limit_z[rows, k][:, None])
+        scale = scale * np.where(gap < 0, fast, slow)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            total += np.where(wk > 0, wk * special.stdtr(line.nu[rows][:, None], np.nan_to_num(gap / scale, nan=-np.inf)), 0.0)
+    assert np.abs(total - np.array([0.1, 0.5, 0.9])).max() < 2e-3

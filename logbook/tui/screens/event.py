@@ -15,6 +15,7 @@ from logbook.cautions import RUNNING_MACHINE
 from logbook.model import Event, EventKind, Problem, SEGMENT_RESETS
 from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
+from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
 
 
@@ -35,20 +36,20 @@ class EventScreen(SafetyKey, EntryScreen):
         self.machine: str | None = None
 
     def compose(self) -> ComposeResult:
-        yield Static(f"New event · pump {self.serial}", id="title")
+        yield Plain(f"New event · pump {self.serial}", id="title")
         with VerticalScroll(classes="form", id="form"):
-            yield Static("", id="pump-line", classes="form-hint")
+            yield Plain("", id="pump-line", classes="form-hint")
             yield SafetyBox(self._safety_extra())
             with Horizontal(classes="field-row", id="kind-row"):
                 yield Label("Event", classes="field-label")
                 yield Select([(words, k.value) for k, words in forms.EVENT_KIND_WORDS.items()], value=self.kind.value,
                              allow_blank=False, compact=True, id="kind")
-            yield Static("", id="kind-hint", classes="form-hint")
+            yield Plain("", id="kind-hint", classes="form-hint")
             with Container(classes="fields"):
                 for d in forms.event_fields(self.app.today, self.kind):
                     yield self.make_field(d, self._prefill().get(d.name, ""))
-            yield Static("Fill in the event; the logbook checks it as you type.", id="check")
-            yield Static("", id="result")
+            yield Plain("Fill in the event; the logbook checks it as you type.", id="check")
+            yield Plain("", id="result")
         yield Footer(compact=True)
 
     def _safety_extra(self) -> tuple[str, ...]:
@@ -106,7 +107,7 @@ class EventScreen(SafetyKey, EntryScreen):
 
     def saved(self, event: Event) -> None:
         box = self.query_one("#result", Static)
-        box.border_title = f"Saved: {forms.EVENT_KIND_WORDS[event.kind].lower()}, {fmt.day(event.happened_on)}"
+        box.border_title = fmt.text(f"Saved: {forms.EVENT_KIND_WORDS[event.kind].lower()}, {fmt.day(event.happened_on)}")
         resets = SEGMENT_RESETS.get(event.kind, ())
         text = f"Recorded event {event.id} for {event.serial or event.machine}."
         if resets:

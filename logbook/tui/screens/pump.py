@@ -143,7 +143,9 @@ class PumpScreen(Screen):
         flags = present.flag_words(kf.flags)
         trend = " ".join(present.trend(kf))
         segment = f"since {fmt.day(kf.segment_start)}" if kf.segment_start else "no segment"
-        path = f" · {kf.path} path" if kf.path != "none" else ""
+        path = ""
+        if kf.path != "none":
+            path = f" · {kf.path} path {kf.path_share:.0%}" if kf.path_share is not None else f" · {kf.path} path"
         summary.update(
             f"{kf.kind.label}: {words}{left}{path} · trend {trend} · {kf.n_readings} reading(s) {segment}"
             + (f" · flags: {flags}" if flags else "")

@@ -13,6 +13,7 @@ from logbook import fmt
 from logbook.model import ALL_KINDS, Problem, Reading
 from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
+from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
 
 
@@ -36,16 +37,16 @@ class ReadingScreen(SafetyKey, EntryScreen):
         self._pending: dict | None = None  # saved reading waiting for its new forecast
 
     def compose(self) -> ComposeResult:
-        yield Static("", id="title")
+        yield Plain("", id="title")
         with VerticalScroll(classes="form", id="form"):
-            yield Static("", id="saved-line")
-            yield Static("", id="pump-line", classes="form-hint")
+            yield Plain("", id="saved-line")
+            yield Plain("", id="pump-line", classes="form-hint")
             yield SafetyBox()
             with Container(classes="fields"):
                 for d in forms.reading_fields(self.app.units, self.app.today):
                     yield self.make_field(d)
-            yield Static("Fill in what you measured; the logbook checks it as you type.", id="check")
-            yield Static("", id="result")
+            yield Plain("Fill in what you measured; the logbook checks it as you type.", id="check")
+            yield Plain("", id="result")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -157,7 +158,7 @@ class ReadingScreen(SafetyKey, EntryScreen):
                 was_text = f" (was P10 {fmt.day(was.p10_date)}, P50 {fmt.day(was.p50_date)})" if was else ""
                 lines.append(f"  {present.outcome_line(kf, u)}{was_text}")
         box = self.query_one("#result", Static)
-        box.border_title = f"Saved: pump {reading.serial}, {fmt.day(reading.taken_on)}"
+        box.border_title = fmt.text(f"Saved: pump {reading.serial}, {fmt.day(reading.taken_on)}")
         box.update("\n".join(lines))
         box.remove_class("-rejected")
         box.add_class("-shown")
