@@ -64,6 +64,12 @@ class TextConsole(Console):
         return super().render_str(text, **kwargs)
 
 
+def _stdout_width() -> int | None:
+    """The terminal's width, or $COLUMNS when set (rich reads it); 160 for a pipe or file."""
+    columns = os.environ.get("COLUMNS", "")
+    return None if sys.stdout.isatty() or columns.isdigit() else 160
+
+
 @dataclass
 class Context:
     """What every command gets: where the database is, who is acting, today, output."""
@@ -72,8 +78,9 @@ class Context:
     user: str | None
     today: date
     units: UnitPrefs
-    console: Console = field(default_factory=lambda: TextConsole(highlight=False, width=None if sys.stdout.isatty() else 160))
-    err: Console = field(default_factory=lambda: TextConsole(stderr=True, highlight=False))
+    console: Console = field(default_factory=lambda: TextConsole(highlight=False, width=_stdout_width()))
+    # Not a terminal (cron, a log file): lines are never broken (a log line stays one line).
+    err: Console = field(default_factory=lambda: TextConsole(stderr=True, highlight=False, soft_wrap=not sys.stderr.isatty()))
     stores: list = field(default_factory=list)  # every store opened, to tell what was saved when a run stops
 
     def open_store(self, *, create: bool = False):
@@ -142,6 +149,7 @@ def build_parser() -> argparse.ArgumentParser:
         "Run without a command to open the fleet view.",
     )
     _add_global_options(parser, suppress=False)
+    parser.add_argument("--version", action="version", version=f"logbook {_version()}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in COMMAND_MODULES:
         try:
@@ -155,6 +163,12 @@ def build_parser() -> argparse.ArgumentParser:
     for command_parser in sub.choices.values():
         _add_global_options(command_parser, suppress=True)
     return parser
+
+
+def _version() -> str:
+    from logbook import __version__
+
+    return __version__
 
 
 def _add_global_options(parser: argparse.ArgumentParser, *, suppress: bool) -> None:

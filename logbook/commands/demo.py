@@ -57,7 +57,9 @@ def run(args, ctx) -> int:
         markup=False,
     )
     ctx.db_path = path
-    if args.no_ui or not os.isatty(1):
+    from logbook.tui.launch import can_draw
+
+    if args.no_ui or not os.isatty(1) or not can_draw():
         from logbook.commands.open_ui import print_summary
 
         return print_summary(ctx)

@@ -15,6 +15,11 @@ def run(args, ctx) -> int:
     reported here, before the screen is taken over."""
     if not os.isatty(1) or not os.isatty(0):
         return _summary(ctx)
+    if not can_draw():
+        ctx.err.print(f"logbook: the fleet view needs a terminal that can move the cursor (TERM={os.environ.get('TERM', '')!r} "
+                      "cannot); here is the fleet as a list. `logbook pumps`, `logbook show SERIAL` and "
+                      "`logbook round` work on any terminal.", markup=False, soft_wrap=True)
+        return _summary(ctx)
     if not Path(ctx.db_path).exists():
         ctx.open_store().close()  # raises DatabaseMissing with the store's own words
     try:
@@ -28,6 +33,15 @@ def run(args, ctx) -> int:
     finally:
         app.gate.close()
     return 0
+
+
+#: Terminals that cannot draw a full-screen view (no cursor addressing): the fleet view
+#: would never paint there, so the list is printed instead.
+PLAIN_TERMS = frozenset({"dumb", "unknown"})
+
+
+def can_draw() -> bool:
+    return os.environ.get("TERM", "").strip().lower() not in PLAIN_TERMS
 
 
 def _summary(ctx) -> int:
