@@ -30,7 +30,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 
-from logbook.analysis.results import FleetForecast, KindForecast, Outcome, PumpForecast
+from logbook.analysis.results import FLAG_JUMP, FleetForecast, KindForecast, Outcome, PumpForecast
 from logbook.analysis.status import urgency_key
 from logbook.costing import Candidate, CostedPlan, PlanCosts, cost_plan, job_days
 from logbook.economics import split_lognormal_chance
@@ -211,6 +211,27 @@ class PlanLine:
 
 
 @dataclass(frozen=True)
+class Retest:
+    """A pump to be tested again before the plan acts on it: its newest reading of ``kind`` lies far
+    off its trend (a unit mix-up or a misread gauge looks like this) and was set aside."""
+
+    serial: str
+    model: str
+    machine: str | None
+    site: str | None
+    kind: Kind
+    reading: float | None  # the newest reading as normalized, the one set aside
+    taken_on: date | None
+    trend_outcome: Outcome  # what the trend says without it
+
+    @property
+    def reason(self) -> str:
+        value = f" ({self.reading:.2f} {self.kind.unit} on {self.taken_on.isoformat()})" if self.reading is not None and self.taken_on else ""
+        return (f"newest {self.kind.label} reading{value} is far off its trend: read it again before an overhaul "
+                "is planned on it; a second reading that agrees makes it wear")
+
+
+@dataclass(frozen=True)
 class Plan:
     settings: PlanSettings
     today: date  # the forecast's date
@@ -223,6 +244,7 @@ class Plan:
     currency: str = ""
     placement: str = "greedy"  # "greedy" (no costs) or "least expected cost" (the integer program)
     placement_note: str = ""  # why the greedy pass placed the pumps although costs were given
+    retests: tuple[Retest, ...] = ()  # pumps to read again first (their newest reading set aside)
 
     def spend_per_month(self) -> dict[date, float]:
         """Expected spend of the planned shop jobs per month (empty without costs)."""
@@ -463,6 +485,8 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings, costs: PlanCosts 
             notes.append(f"{months_between(target, month)} month(s) after its P10 month")
         if kf.p10_date is not None and kf.p10_date < settings.start_month:
             notes.append(f"P10 date {kf.p10_date.isoformat()} is before the plan starts")
+        if any(FLAG_JUMP in k.flags for k in pf.kinds):
+            notes.append("test again first: its newest reading is set aside")
         placed.append(_line(pf, kf, due, today, month, target, in_the_shop, "; ".join(notes), *money))
     order = {c[1]: i for i, c in enumerate(candidates)}
     placed.sort(key=lambda line: (line.month, order[line.serial]))
@@ -478,7 +502,19 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings, costs: PlanCosts 
         currency=costs.currency if costs is not None else "",
         placement="least expected cost" if costed is not None else "greedy",
         placement_note=placement_note,
+        retests=retests_of(forecast),
     )
+
+
+def retests_of(forecast: FleetForecast) -> tuple[Retest, ...]:
+    """Every pump whose newest reading of some kind was set aside as far off its trend, most urgent first."""
+    out = []
+    for pf in sorted(forecast.pumps, key=urgency_key):
+        for kf in pf.kinds:
+            if FLAG_JUMP in kf.flags:
+                out.append(Retest(pf.serial, pf.model, pf.machine, pf.site, kf.kind, kf.latest_value, kf.latest_on,
+                                  kf.outcome))
+    return tuple(out)
 
 
 def _money(costed: CostedPlan | None, serial: str, month: date | None, settings: PlanSettings):
@@ -495,6 +531,7 @@ __all__ = [
     "Plan",
     "PlanLine",
     "PlanSettings",
+    "Retest",
     "add_months",
     "crossing_probability",
     "make_plan",
@@ -502,4 +539,5 @@ __all__ = [
     "month_start",
     "months_between",
     "parse_month",
+    "retests_of",
 ]

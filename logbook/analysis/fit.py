@@ -295,6 +295,7 @@ def _drop_wild(block: _Block, crit_t2: np.ndarray, last_col: np.ndarray, opt: Fi
         if cand.size:
             f_log, c_log = _confirm_log(check[cand], block.ly, x0, w, _outlier_scan, crit_t2, opt.min_outlier_points)
             found[cand] = f_log & (c_log == col[cand])
+        found &= ~_confirmed(sub, col, last_col[check])
         check, col = check[found], col[found]
         if not check.size:
             break
@@ -302,6 +303,17 @@ def _drop_wild(block: _Block, crit_t2: np.ndarray, last_col: np.ndarray, opt: Fi
         block.flags[check] |= B_OUTLIER
         block.flags[check[col == last_col[check]]] |= B_JUMP
         block.refit(check)
+
+
+def _confirmed(st: LineStats, col: np.ndarray, last_col: np.ndarray) -> np.ndarray:
+    """A far reading that the reading after it confirms is wear, not a wild reading: the candidate is
+    the second newest, and the newest lies off the line on the same side by at least half as much.
+    (Our rule: one reading cannot confirm itself, two in a row that agree are taken as the pump.)"""
+    rows = np.arange(len(col))
+    second = (col == last_col - 1) & (last_col >= 1)
+    r_col = st.r[rows, col]
+    r_new = st.r[rows, np.maximum(last_col, 0)]
+    return second & (np.sign(r_col) == np.sign(r_new)) & (np.abs(r_new) >= 0.5 * np.abs(r_col))
 
 
 def _both_paths(block: _Block) -> LineStats:

@@ -19,7 +19,7 @@ import numpy as np
 
 from logbook.analysis import paths
 from logbook.analysis.batch import TrendBatch
-from logbook.analysis.fit import EXPONENTIAL, BatchFit
+from logbook.analysis.fit import B_JUMP, EXPONENTIAL, BatchFit
 
 # outcome codes (map to results.Outcome in fleet.py)
 O_NO_DATA, O_NO_LIMIT, O_PAST_LIMIT, O_TOO_FEW, O_CROSSING, O_NO_CROSSING = range(6)
@@ -66,14 +66,25 @@ def forecast_batch(
     rem[rem > horizon_hours] = np.inf
     expo = fit.path == EXPONENTIAL
 
-    # newest used reading and the slope of the fitted path today
+    # newest reading and the slope of the fitted path today; a newest reading set aside as wild
+    # (B_JUMP) does not by itself put the row past its limit: the pump is to be tested again
+    # (status.RETEST), and a second reading that agrees with it is wear (fit._confirmed)
     latest = fit.latest
+    jumped = (fit.flags & B_JUMP) != 0
+    judged = np.where(jumped, _newest_used(batch.y, w), latest)
     with np.errstate(invalid="ignore", over="ignore"):
         rate = np.where(expo, fit.b * np.exp(fit.a + fit.b * x_now), fit.b)
     mid = rem[:, quantiles.index(0.5)] if 0.5 in quantiles else rem[:, len(quantiles) // 2]
-    outcome = _outcomes(fit.n_valid > 0, lim, sign * (latest - lim) >= 0, go, mid)
+    outcome = _outcomes(fit.n_valid > 0, lim, sign * (judged - lim) >= 0, go, mid)
     return BatchForecast(remaining=rem, outcome=outcome.astype(np.int8), latest=latest, rate_per_hour=rate,
                          path=np.where(go, mixture.dominant(), -1), calibrated_on=cal.n_scores, mixture=mixture)
+
+
+def _newest_used(y: np.ndarray, w: np.ndarray) -> np.ndarray:
+    """Per row, the newest reading the fit kept (columns are in hours order); NaN for none."""
+    col = w.shape[1] - 1 - np.argmax(w[:, ::-1] > 0, axis=1)
+    got = y[np.arange(len(y)), col]
+    return np.where((w > 0).any(axis=1), got, np.nan)
 
 
 def _outcomes(has_data, lim, past, go, mid):

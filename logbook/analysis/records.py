@@ -146,7 +146,8 @@ def _statuses(pk: FleetPack, fit: BatchFit, rows: RowFigures, n_pumps: int, toda
     day = np.where(rows.days >= 0, rows.days + today.toordinal(), np.nan)
     shape = (n_pumps, KINDS)
     outcome = np.array([OUTCOMES[c].value for c in rows.code.tolist()], dtype=object).reshape(shape)
-    return pump_statuses(outcome, (fit.flags & B_STEP).astype(bool).reshape(shape), day[:, 0].reshape(shape),
+    return pump_statuses(outcome, (fit.flags & B_STEP).astype(bool).reshape(shape),
+                         (fit.flags & B_JUMP).astype(bool).reshape(shape), day[:, 0].reshape(shape),
                          day[:, 1].reshape(shape), rows.remaining[:, 0].reshape(shape),
                          rows.remaining[:, 1].reshape(shape), floats(pk.per_day), today, thresholds)  # fmt: skip
 

@@ -1,7 +1,9 @@
 """Step of the engine: each pump's status in plain words (with a symbol, so that it never rests on colour
 alone), the kind closest to its limit, and the one most-urgent-first order of pumps.
 
-Status of one kind: past its limit -> over limit; a step flagged -> step change;
+Status of one kind: past its limit -> over limit; its newest reading set aside as far off
+its trend (a unit mix-up looks like this) -> test again, until a second reading confirms or
+clears it; a step flagged -> step change;
 a crossing whose P10 date (or P10 hours at the machine's utilisation) is within
 ``due_days`` -> overhaul due, whose P50 within ``plan_days`` -> plan overhaul, else
 steady; no crossing within the horizon -> steady, unless its P10 date is near; too few
@@ -17,6 +19,7 @@ from datetime import date
 from logbook.analysis.results import Outcome, PumpForecast
 
 OVER_LIMIT = "✖ over limit"
+RETEST = "? test again"  # the newest reading is far off the trend: read it again before acting on it
 STEP_CHANGE = "↯ step change - inspect"  # not ⚠: that sign marks safety lines only (logbook.cautions)
 OVERHAUL_DUE = "▲ overhaul due"
 PLAN_OVERHAUL = "△ plan overhaul"
@@ -25,7 +28,7 @@ TOO_FEW = "… too few readings"
 NO_READINGS = "- no readings"
 
 #: Most urgent first; views may sort on this.
-STATUS_ORDER = (OVER_LIMIT, STEP_CHANGE, OVERHAUL_DUE, PLAN_OVERHAUL, TOO_FEW, STEADY, NO_READINGS)
+STATUS_ORDER = (OVER_LIMIT, RETEST, STEP_CHANGE, OVERHAUL_DUE, PLAN_OVERHAUL, TOO_FEW, STEADY, NO_READINGS)
 
 
 @dataclass(frozen=True)
@@ -37,11 +40,11 @@ class StatusThresholds:
 
 
 def pump_statuses(
-    outcome, step, p10_day, p50_day, p10_hours, p50_hours, per_day, today: date,
+    outcome, step, jump, p10_day, p50_day, p10_hours, p50_hours, per_day, today: date,
     thresholds: StatusThresholds | None = None,
 ) -> list[str]:  # fmt: skip
     """The status of many pumps at once (module docstring) from (P, K) numpy arrays: outcome (Outcome
-    values as strings), step flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day."""
+    values as strings), step flag, newest-reading-set-aside flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day."""
     import numpy as np  # here, so that the views can import this module without numpy
 
     th = thresholds or StatusThresholds()
@@ -51,11 +54,11 @@ def pump_statuses(
         due = (p10_day <= t + th.due_days) | (p10_hours <= rate * th.due_days)
         plan = (p50_day <= t + th.plan_days) | (p50_hours <= rate * th.plan_days)
         word = np.select(
-            [outcome == Outcome.PAST_LIMIT.value, step,
+            [outcome == Outcome.PAST_LIMIT.value, jump & (outcome != Outcome.NO_LIMIT.value), step,
              (outcome == Outcome.CROSSING.value) & due, (outcome == Outcome.CROSSING.value) & plan,
              outcome == Outcome.CROSSING.value, (outcome == Outcome.NO_CROSSING.value) & (p10_day <= t + th.due_days),
              outcome == Outcome.NO_CROSSING.value, outcome == Outcome.TOO_FEW.value, outcome == Outcome.NO_LIMIT.value],
-            [_RANK[OVER_LIMIT], _RANK[STEP_CHANGE], _RANK[OVERHAUL_DUE], _RANK[PLAN_OVERHAUL], _RANK[STEADY],
+            [_RANK[OVER_LIMIT], _RANK[RETEST], _RANK[STEP_CHANGE], _RANK[OVERHAUL_DUE], _RANK[PLAN_OVERHAUL], _RANK[STEADY],
              _RANK[OVERHAUL_DUE], _RANK[STEADY], _RANK[TOO_FEW], _RANK[STEADY]],
             _RANK[NO_READINGS],
         )  # fmt: skip

@@ -153,6 +153,7 @@ def summary(report) -> list[tuple[str, str]]:
         ("planned in the shop", str(shop)),
         ("planned on the machine", str(len(plan.lines) - shop)),
         ("do not fit", str(len(plan.unplaced))),
+        ("to test again first", str(len({r.serial for r in plan.retests}))),
     ]
     if s.site_capacity:
         rows.append(("site capacity per month", ", ".join(f"{k}={v}" for k, v in sorted(s.site_capacity.items()))))
@@ -262,3 +263,13 @@ def pump_rows(report) -> list[list[str]]:
             day(w.p10_date) if w else "", day(w.p50_date) if w else "", flag_words(w.flags) if w else "",
         ])
     return body
+
+
+RETEST_HEADERS = ("serial", "model", "site", "machine", "reading", "set-aside value", "taken on", "why")
+
+
+def retest_rows(report) -> list[list[str]]:
+    """One row per pump and reading kind to read again before the plan acts on it (``Plan.retests``)."""
+    return [[r.serial, r.model, r.site or "", r.machine or "", r.kind.label,
+             f"{r.reading:.2f} {r.kind.unit}" if r.reading is not None else "",
+             r.taken_on.isoformat() if r.taken_on else "", r.reason] for r in report.plan.retests]

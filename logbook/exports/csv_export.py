@@ -37,6 +37,7 @@ def render_csv(report) -> bytes:
     meta += [("# safety", line) for line in (p.safety.title, *p.safety.lines())]
     meta += [("# note", PROBABILITY_NOTE)]
     meta += [("# note", text) for text in report.notes]
+    meta += [("# test again first", f"{r.serial}: {r.reason}") for r in report.plan.retests]
     for key, value in meta:
         writer.writerow([quote_formula(key), quote_formula(value)])
     writer.writerow([quote_formula(header) for _, header in PLAN_COLUMNS])

@@ -7,6 +7,8 @@ from html import escape as _escape_html
 from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.charts import kind_chart_svg
 from logbook.exports.common import (
+    RETEST_HEADERS,
+    retest_rows,
     COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
@@ -133,6 +135,11 @@ def render_html(report) -> str:
         out += _plan_table(report.plan.unplaced, pumps, keys)
     else:
         out.append("<p>Every pump that is due fits in the plan.</p>")
+    if report.plan.retests:
+        out += ["</section>", '<section id="test-again">', "<h2>Test again first</h2>",
+                "<p>Each newest reading below lies far off its pump's trend and was set aside: read it again "
+                "before acting on it.</p>"]
+        out += _table(list(RETEST_HEADERS), retest_rows(report))
     out += ["</section>", *_money(report), '<section id="life">', "<h2>Fleet life per pump model</h2>"]
     rows = life_rows(report)
     if rows:

@@ -6,6 +6,8 @@ import re
 
 from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.common import (
+    RETEST_HEADERS,
+    retest_rows,
     COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
@@ -82,6 +84,11 @@ def render_md(report) -> str:
                         (plan_row(line, pumps.get(line.serial)) for line in report.plan.unplaced)])
     else:
         lines.append("Every pump that is due fits in the plan.")
+    if report.plan.retests:
+        lines += ["", "## Test again first", "",
+                  "Each newest reading below lies far off its pump's trend and was set aside: read it again "
+                  "before acting on it.", ""]
+        lines += table(list(RETEST_HEADERS), retest_rows(report))
 
     lines += _money_lines(report)
 

@@ -4,13 +4,14 @@ from __future__ import annotations
 
 from datetime import date, timedelta
 
-from logbook.analysis.results import FLAG_STEP, KindForecast, Outcome, PumpForecast
+from logbook.analysis.results import FLAG_JUMP, FLAG_STEP, KindForecast, Outcome, PumpForecast
 
 from logbook.analysis.status import (
     NO_READINGS,
     OVER_LIMIT,
     OVERHAUL_DUE,
     PLAN_OVERHAUL,
+    RETEST,
     STATUS_ORDER,
     STEADY,
     STEP_CHANGE,
@@ -31,6 +32,8 @@ def kind_status(kf: KindForecast, today: date, per_day: float | None, th: Status
     """Status words of one reading kind."""
     if kf.outcome is Outcome.PAST_LIMIT:
         return OVER_LIMIT
+    if FLAG_JUMP in kf.flags and kf.outcome is not Outcome.NO_LIMIT:
+        return RETEST
     if FLAG_STEP in kf.flags:
         return STEP_CHANGE
     if kf.outcome is Outcome.CROSSING:

@@ -212,8 +212,9 @@ def test_status_thresholds_are_parameters():
     assert near.pumps[0].status == OVERHAUL_DUE
 
 
-def test_wild_newest_reading_past_the_limit_still_says_past_limit():
-    # conservative on purpose: a newest reading beyond the limit is reported even when it looks wild
+def test_wild_newest_reading_past_the_limit_asks_for_a_second_reading():
+    # A newest reading far off the trend (what a flow typed in the wrong unit looks like) does not by
+    # itself put the pump past its limit: the trend without it decides the outcome, the flag says why.
     rng = np.random.default_rng(5)
     x = np.cumsum(rng.uniform(300, 600, 12))
     y = 1.5 + 2e-4 * x + rng.normal(0, 0.05, 12)
@@ -221,8 +222,41 @@ def test_wild_newest_reading_past_the_limit_still_says_past_limit():
     b = TrendBatch(x[None], y[None], [6.0], [RISING], [-1], [x[-1]])
     fit = fit_batch(b, FitOptions(pool=False))
     assert fit.flags[0] & 8  # B_JUMP: the newest reading was dropped from the fit
+    assert forecast_batch(b, fit).outcome[0] == O_CROSSING
+
+
+def test_a_second_reading_that_agrees_makes_it_wear():
+    # The same jump read twice in a row is the pump: neither reading is set aside, and the pump is past.
+    rng = np.random.default_rng(5)
+    x = np.cumsum(rng.uniform(300, 600, 13))
+    y = 1.5 + 2e-4 * x + rng.normal(0, 0.05, 13)
+    y[-2:] = [7.0, 7.1]
+    b = TrendBatch(x[None], y[None], [6.0], [RISING], [-1], [x[-1]])
+    fit = fit_batch(b, FitOptions(pool=False))
+    assert not fit.flags[0] & 8 and fit.used[0, :13].all()
     assert forecast_batch(b, fit).outcome[0] == O_PAST_LIMIT
 
+
+def test_a_unit_mix_up_reads_test_again_and_the_plan_retests_it():
+    from dataclasses import replace
+
+    from logbook.analysis.results import FLAG_JUMP
+    from logbook.analysis.status import RETEST
+    from logbook.plan import PlanSettings, make_plan
+
+    fleet = small_fleet([4e-4, 5e-4, 6e-4, 4.5e-4])
+    reads = list(fleet.readings)
+    i = max((j for j, r in enumerate(reads) if r.serial == "S1"), key=lambda j: reads[j].taken_on)
+    reads[i] = replace(reads[i], case_drain_lpm=reads[i].case_drain_lpm * 3.785)  # US gallons typed as litres
+    ff = forecast_fleet(replace(fleet, readings=tuple(reads)), TODAY)
+    s1 = ff.pump("S1")
+    drain = s1.kinds[0]
+    assert FLAG_JUMP in drain.flags and drain.outcome is not Outcome.PAST_LIMIT
+    assert s1.status == RETEST
+    plan = make_plan(ff, PlanSettings(start_month=TODAY.replace(day=1), horizon_months=12))
+    assert [r.serial for r in plan.retests] == ["S1"] and plan.retests[0].kind is Kind.CASE_DRAIN
+    line = plan.line_for("S1")
+    assert line is None or (line.outcome is not Outcome.PAST_LIMIT and "test again" in line.note)
 
 def test_path_mixture_quantiles_solve_the_mixture_exactly():
     # Where two or more wear paths carry weight, F(P_q) = sum_k w_k F_k must equal q, with the
