@@ -183,6 +183,15 @@ def forecast_test_date(
 
 
 # -- every fitted pump -----------------------------------------------------------------
+def _baseline_events(events: Iterable[Event]) -> dict[str, list[Event]]:
+    """Each pump's overhauls and exchanges (the events after which wear starts again), grouped once."""
+    grouped: dict[str, list[Event]] = {}
+    for e in events:
+        if e.serial is not None and e.kind in BASELINE_EVENTS:
+            grouped.setdefault(e.serial, []).append(e)
+    return grouped
+
+
 def _baseline_event(events: Iterable[Event], serial: str, last: Reading | None) -> Event | None:
     """The newest overhaul/exchange of the pump after its last reading (same day: after, if the
     reading's meter is below the event's)."""
@@ -212,18 +221,19 @@ def next_tests(
     clocks = MachineClocks(timeline, today)
     fitted = _fitted_today(timeline, sorted(fleet.pumps), today)
     last_of = _last_readings(timeline)
+    restarts = _baseline_events(fleet.events)
     per_day = _utilisation(fitted, forecast, clocks, timeline)
     out: dict[str, NextTest] = {}
     for serial, fit in fitted.items():
         current = timeline.fits.items[fit]
         model = fleet.models[fleet.pumps[serial].model]
         machine = fleet.machines.get(current.machine)
-        pf = forecast.pump(serial) if forecast is not None else None
+        pf = forecast.pump(serial) if forecast is not None else None  # a dict lookup
         last_index = last_of.get(timeline.serial_index.get(serial))
         last = fleet.readings[last_index] if last_index is not None else None
         base = dict(serial=serial, model=model.code, machine=current.machine, position=current.position,
                     site=machine.site if machine else "", last_reading_on=last.taken_on if last else None)
-        restart = _baseline_event(fleet.events, serial, last)
+        restart = _baseline_event(restarts.get(serial, ()), serial, last)
         if last is None or restart is not None:
             out[serial] = _baseline_test(base, restart, last, current.fitted_on, today)
             continue

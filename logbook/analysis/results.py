@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import date
+from functools import cached_property
 from enum import Enum
 
 from logbook.model import Kind, Limit
@@ -130,7 +131,12 @@ class FleetForecast:
     notes: tuple[str, ...] = field(default_factory=tuple)
 
     def pump(self, serial: str) -> PumpForecast | None:
+        """The pump's forecast (a dict built on the first call: no search per pump); the first on a repeat."""
+        return self._by_serial.get(serial)
+
+    @cached_property
+    def _by_serial(self) -> dict[str, PumpForecast]:
+        index: dict[str, PumpForecast] = {}
         for p in self.pumps:
-            if p.serial == serial:
-                return p
-        return None
+            index.setdefault(p.serial, p)
+        return index
