@@ -37,7 +37,7 @@ from logbook.analysis.results import (
 from logbook.analysis.series import FleetPack
 from logbook.analysis.status import StatusThresholds, pump_statuses, worst_kinds
 from logbook.analysis.timeline import floats
-from logbook.analysis.utilisation import days_ahead
+from logbook.analysis.utilisation import dates_ahead, days_ahead
 from logbook.model import ALL_KINDS, PumpModel
 
 #: Outcome of each forecast.O_* code, and the flag name of each fit.B_* bit.
@@ -61,8 +61,17 @@ class RowFigures:
         code = np.where((fc.outcome == O_NO_DATA) & (pk.before > 0), O_TOO_FEW, fc.outcome)
         spans = (code == O_CROSSING) | (code == O_NO_CROSSING)
         remaining = np.where(spans[:, None] & np.isfinite(fc.remaining), fc.remaining, np.nan)
-        days = days_ahead(remaining, np.repeat(floats(pk.per_day), KINDS))
+        days = _dates_ahead(pk, remaining)
         return cls(code, remaining, days, (fit.path != 0) & np.isfinite(fit.b))
+
+
+def _dates_ahead(pk: FleetPack, remaining: np.ndarray) -> np.ndarray:
+    """Days ahead of each row's P10/P50/P90, with the machine's utilisation spread (``utilisation.dates_ahead``)."""
+    rate = np.repeat(floats(pk.per_day), KINDS)
+    if not pk.spread or remaining.shape[1] != 3:
+        return days_ahead(remaining, rate)
+    v, length, span, _ = (np.repeat(a, KINDS) for a in pk.spread)
+    return dates_ahead(remaining, rate, v, length, span)
 
 
 def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchForecast, rows: RowFigures,

@@ -20,6 +20,7 @@ from logbook.analysis.batch import FALLING, RISING, TrendBatch, in_order, pad_ro
 from logbook.analysis.normalize import ReadingConditions, normalized_value, trended_values
 from logbook.analysis.segments import KINDS, PumpReadings, SegmentStarts
 from logbook.analysis.timeline import Timeline, codes, floats
+from logbook.analysis.utilisation import pump_rate_spread
 from logbook.model import ALL_KINDS, Fitment, Kind, Limit, PumpModel
 
 
@@ -43,6 +44,7 @@ class FleetPack:
     raw: np.ndarray
     day: np.ndarray  # day ordinal
     rank: np.ndarray  # position of the entry among its row's entries in x order (the batch column)
+    spread: tuple[np.ndarray, ...] = ()  # per pump: utilisation.rate_spread's (v, L, T, last meter day)
 
 
 @dataclass(slots=True)
@@ -88,6 +90,7 @@ def pack(timeline: Timeline, pump_serials: Sequence[str], pump_models: Sequence[
         limits=limits, start_on=_start_days(starts, entries, day),
         started=starts.start.reshape(-1) >= 0, origin=origin, before=entries.before, bounds=entries.bounds, x=x,
         y=entries.y, raw=entries.raw, day=day, rank=rank,
+        spread=pump_rate_spread(timeline, [f.machine if f is not None else None for f in current], per_day, today),
     )  # fmt: skip
 
 

@@ -9,6 +9,16 @@ month does not swing it; with too little recent history (under two points or
 the straight line from the first to the last day; clipped to 0-24 h a day. Points
 that are not finite numbers are left out. Machines with the same number of points
 are done in one array step.
+
+How far the future average may stray from that rate (``rate_spread``): the spread of the
+rates between consecutive points about the machine's rate, weighted by the days each
+interval spans, gives the relative variance ``v`` of a rate over intervals of ``L`` days (the
+day-weighted mean interval); the average over ``D`` days ahead then has relative variance
+``v * (min(1, L / D) + L / T)`` (independent blocks of length L, plus the uncertainty of the
+rate itself from ``T`` days of history; our rule, in the spirit of batch means, Law and
+Kelton, Simulation Modeling and Analysis, ch. 9). Machines with under three intervals take
+the fleet's median ``v`` and ``L``. ``dates_ahead`` combines it with the crossing quantiles in
+log days (quadrature of the half-widths: exact when both are lognormal).
 """
 
 from __future__ import annotations
@@ -140,6 +150,105 @@ def machine_utilisation(timeline: Timeline, machines: Sequence[str], today: date
     wanted = sorted({timeline.machine_index.setdefault(m, len(timeline.machine_index)) for m in machines})
     names = {c: m for m, c in timeline.machine_index.items()}
     return {names[c]: v for c, v in utilisation(*points, wanted, today).items()}
+
+
+MIN_SPREAD_INTERVALS = 3  # intervals a machine needs for its own rate spread
+MAX_REL_SD = 1.0  # relative sd of a future average rate is capped here (log scale)
+Z90 = 1.2815515655446004  # scipy.stats.norm.ppf(0.9)
+
+
+def rate_spread(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, rates: dict[int, float | None],
+                today: date, window_days: int = 365) -> dict[int, tuple[float, float, float, int]]:  # fmt: skip
+    """Per machine code in ``rates``: (v, L, T, last point day) of the module docstring; NaN v for none."""
+    t = today.toordinal()
+    out: dict[int, tuple[float, float, float, int]] = {}
+    if not rates:
+        return out
+    want = np.zeros(max([*rates, int(machine.max(initial=-1))]) + 2, dtype=bool)
+    want[list(rates)] = True
+    keep = want[machine] & (day <= t) & np.isfinite(hours)
+    m, d, h = machine[keep], day[keep].astype(np.int64), hours[keep]
+    order = np.lexsort((h, d, m))
+    m, d, h = m[order], d[order].astype(float), h[order]
+    same = m[1:] == m[:-1]
+    dd, dh = np.diff(d), np.diff(h)
+    use = same & (dd >= 1) & (d[1:] >= t - window_days)
+    mi, dd, dh = m[1:][use], dd[use], dh[use]
+    slope = np.array([np.nan if rates.get(c) is None else rates[c] for c in mi.tolist()], dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        dev = np.where(slope > 0, (dh / dd - slope) / slope, np.nan)
+    ok = np.isfinite(dev)
+    mi, dd, dev = mi[ok], dd[ok], dev[ok]
+    codes_ = np.array(sorted(rates), dtype=np.int64)
+    pos = np.searchsorted(codes_, mi)
+    n = np.bincount(pos, minlength=len(codes_))
+    total = np.bincount(pos, weights=dd, minlength=len(codes_))
+    sq = np.bincount(pos, weights=dd * dd, minlength=len(codes_))
+    var = np.bincount(pos, weights=dd * dev * dev, minlength=len(codes_))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        v = np.where(total > 0, var / total, np.nan)
+        length = np.where(total > 0, sq / total, np.nan)
+    own = n >= MIN_SPREAD_INTERVALS
+    if own.any():
+        v = np.where(own, v, np.median(v[own]))
+        length = np.where(own, length, np.median(length[own]))
+    else:
+        v[:] = np.nan
+    last = np.full(len(codes_), -1, dtype=np.int64)
+    if len(m):
+        ends = np.r_[np.flatnonzero(m[1:] != m[:-1]), len(m) - 1]
+        hit = np.searchsorted(codes_, m[ends])
+        found = (hit < len(codes_)) & (codes_[np.minimum(hit, len(codes_) - 1)] == m[ends])
+        last[hit[found]] = d[ends][found].astype(np.int64)
+    for i, c in enumerate(codes_.tolist()):
+        out[c] = (float(v[i]), float(length[i]), float(max(total[i], length[i] if np.isfinite(length[i]) else 0.0)),
+                  int(last[i]))
+    return out
+
+
+def dates_ahead(remaining: np.ndarray, per_day: np.ndarray, v: np.ndarray, length: np.ndarray,
+                span: np.ndarray) -> np.ndarray:  # fmt: skip
+    """(S, 3) days ahead of P10/P50/P90 remaining hours (S, 3) at (S,) hours a day, widened by the
+    utilisation spread (module docstring); -1 for no date. Rows with NaN ``v`` keep the plain dates."""
+    remaining = np.asarray(remaining, dtype=float)
+    rate = np.asarray(per_day, dtype=float)[:, None]
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        plain = remaining / rate
+        d50 = np.where(np.isfinite(plain[:, 1]) & (plain[:, 1] > 0), plain[:, 1],
+                       np.where(np.isfinite(plain[:, 0]) & (plain[:, 0] > 0), plain[:, 0], np.nan))
+        rel = v * (np.minimum(1.0, length / d50) + length / np.maximum(span, 1.0))
+        sd = np.minimum(np.sqrt(np.where(np.isfinite(rel) & (rel > 0), rel, 0.0)), MAX_REL_SD)[:, None]
+        wide = Z90 * sd
+        log = np.log(plain)
+        mid = log[:, 1:2]
+        has_mid = np.isfinite(mid)
+        lo = np.where(has_mid, mid - np.sqrt((mid - log[:, 0:1]) ** 2 + wide**2), log[:, 0:1] - wide)  # no P50: P10 moves alone
+        hi = np.where(has_mid, mid + np.sqrt((log[:, 2:3] - mid) ** 2 + wide**2), log[:, 2:3] + wide)
+        days = np.concatenate([np.exp(lo), plain[:, 1:2], np.exp(hi)], axis=1)
+        days = np.where(remaining <= 0, 0.0, days)
+        days = np.where(np.isfinite(remaining), days, np.inf)
+    return np.where(rate > 0, days_until(days, 1.0), days_until(remaining, rate))
+
+
+def pump_rate_spread(timeline: Timeline, machines: Sequence[str | None], per_day: Sequence[float | None],
+                     today: date) -> tuple[np.ndarray, ...]:  # fmt: skip
+    """(v, L, T, last point day) per pump of ``rate_spread`` for each pump's current machine (None: no machine)."""
+    n = len(machines)
+    v, length, span, last = np.full(n, np.nan), np.full(n, np.nan), np.full(n, np.nan), np.full(n, -1, dtype=np.int64)
+    index = timeline.machine_index
+    rates: dict[int, float | None] = {}
+    for m, r in zip(machines, per_day):
+        if m is not None and m in index:
+            rates[index[m]] = r
+    if not rates:
+        return v, length, span, last
+    points = machine_points(timeline.fits, timeline.meters, timeline.events, index, timeline.fit, timeline.day,
+                            timeline.meter, timeline.cont)  # fmt: skip
+    got = rate_spread(*points, rates, today)
+    for i, m in enumerate(machines):
+        if m is not None and m in index and index[m] in got:
+            v[i], length[i], span[i], last[i] = got[index[m]]
+    return v, length, span, last
 
 
 def days_until(remaining, per_day):

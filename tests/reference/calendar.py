@@ -83,3 +83,71 @@ def date_after_hours(today: date, remaining_hours: float | None, per_day: float 
     if days > 366 * 200:
         return None
     return today + timedelta(days=int(np.ceil(days - 1e-9)))
+
+
+def rate_spread(points: Iterable[tuple[date, float]], rate: float | None, today: date,
+                window_days: int = 365) -> tuple[float, float, float, int]:  # fmt: skip
+    """(v, L, T, intervals) of one machine: the day-weighted relative variance of the rates between
+    consecutive points (ending within ``window_days``) about ``rate``, the day-weighted mean interval,
+    the days covered and how many intervals; NaN v and L without any."""
+    pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
+    total = squares = var = 0.0
+    count = 0
+    for (d0, h0), (d1, h1) in zip(pts, pts[1:]):
+        dd = (d1 - d0).days
+        if dd < 1 or d1.toordinal() < today.toordinal() - window_days or rate is None or rate <= 0:
+            continue
+        dev = ((h1 - h0) / dd - rate) / rate
+        total += dd
+        squares += dd * dd
+        var += dd * dev * dev
+        count += 1
+    if not total:
+        return float("nan"), float("nan"), 0.0, 0
+    return var / total, squares / total, total, count
+
+
+def fleet_spreads(own: dict[str, tuple[float, float, float, int]]) -> dict[str, tuple[float, float, float]]:
+    """Machines with under three intervals take the median v and L of those with three or more."""
+    rich = [s for s in own.values() if s[3] >= 3]
+    if not rich:
+        return {m: (float("nan"), float("nan"), 0.0) for m in own}
+    v_med = float(np.median([s[0] for s in rich]))
+    l_med = float(np.median([s[1] for s in rich]))
+    return {m: (s[0], s[1], s[2]) if s[3] >= 3 else (v_med, l_med, max(s[2], l_med)) for m, s in own.items()}
+
+
+def dates_with_spread(today: date, remaining: list[float | None], per_day: float | None,
+                      spread: tuple[float, float, float] | None) -> list[date | None]:  # fmt: skip
+    """P10/P50/P90 dates: the log-days quantiles of the crossing widened by the utilisation spread,
+    half-widths added in quadrature (z = 1.2816 for 10 / 90 %)."""
+    import math
+
+    if per_day is None or per_day <= 0 or spread is None or not math.isfinite(spread[0]):
+        return [date_after_hours(today, r, per_day) for r in remaining]
+    v, length, span = spread
+    plain = [None if r is None or not math.isfinite(r) else r / per_day for r in remaining]
+    base = plain[1] if plain[1] is not None and plain[1] > 0 else plain[0] if plain[0] is not None and plain[0] > 0 else None
+    sd = 0.0
+    if base is not None:
+        rel = v * (min(1.0, length / base) + length / max(span, 1.0))
+        sd = min(math.sqrt(rel), 1.0) if rel > 0 else 0.0
+    wide = 1.2815515655446004 * sd
+    out: list[float | None] = [None, plain[1], None]
+    if plain[0] is not None:
+        if plain[0] <= 0:
+            out[0] = 0.0
+        elif plain[1] is not None and plain[1] > 0:
+            m = math.log(plain[1])
+            out[0] = math.exp(m - math.sqrt((m - math.log(plain[0])) ** 2 + wide * wide))
+        else:
+            out[0] = math.exp(math.log(plain[0]) - wide)
+    if plain[2] is not None:
+        if plain[2] <= 0:
+            out[2] = 0.0
+        elif plain[1] is not None and plain[1] > 0:
+            m = math.log(plain[1])
+            out[2] = math.exp(m + math.sqrt((math.log(plain[2]) - m) ** 2 + wide * wide))
+        else:
+            out[2] = math.exp(math.log(plain[2]) + wide)
+    return [date_after_hours(today, d, 1.0) if d is not None else None for d in out]

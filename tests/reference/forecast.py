@@ -34,7 +34,13 @@ from logbook.analysis.results import (
 )
 from logbook.analysis.status import StatusThresholds
 from logbook.model import ALL_KINDS, Fleet, Kind, Limit, PumpHistory
-from tests.reference.calendar import date_after_hours, hours_per_day, machine_hour_points
+from tests.reference.calendar import (
+    dates_with_spread,
+    fleet_spreads,
+    hours_per_day,
+    machine_hour_points,
+    rate_spread,
+)
 from tests.reference.segments import Series, build_series, reading_pump_hours
 from tests.reference.status import pump_status
 
@@ -110,16 +116,26 @@ def reference_forecast_histories(
     options: FitOptions | None = None,
     thresholds: StatusThresholds | None = None,
     with_noise: bool = False,
+    points: dict | None = None,
 ) -> list[PumpForecast]:
-    """Forecast the given pumps together (pooling within each pump model and kind)."""
+    """Forecast the given pumps together (pooling within each pump model and kind); ``points``: the
+    machines' (date, continuous hours) points, from the histories' own records when not given."""
     rows, pump_info, batch = reference_pack(histories, today, utilisation)
+    if points is None:
+        events = list({id(e): e for h in histories for e in h.events}.values())
+        points = machine_hour_points([f for h in histories for f in h.fitments],
+                                     [r for h in histories for r in h.readings], events)
+    machines = {info[1].machine for info in pump_info if info[1] is not None}
+    spreads = fleet_spreads({m: rate_spread(points.get(m, ()), utilisation.get(m), today) for m in sorted(machines)})
     if batch is None:
         return []
     fit = fit_batch(batch, options)
     fc = forecast_batch(batch, fit, horizon_hours=horizon_hours, with_noise=with_noise)
     out = []
     for p, (h, current, per_day, last_on, pump_now) in enumerate(pump_info):
-        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day) for k in range(3))
+        spread = spreads.get(current.machine) if current is not None else None
+        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day, spread)
+                      for k in range(3))
         pf = PumpForecast(
             serial=h.pump.serial,
             model=h.model.code,
@@ -152,7 +168,7 @@ def _last_overhaul_hours(row: _Row) -> float:
     return s.start_hours if s.start is not None else 0.0
 
 
-def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day):
+def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day, spread):
     s = row.series
     outcome = OUTCOMES[int(fc.outcome[i])]
     if outcome is Outcome.NO_DATA and s.readings_before:
@@ -163,6 +179,7 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         rem = [None, None, None]
     detail = _detail(s, i, fit)
     path_words = _path(i, fc, outcome)
+    when = dates_with_spread(today, rem, per_day, spread)
     rate = float(fc.rate_per_hour[i]) * 1000.0 if detail is not None and np.isfinite(fc.rate_per_hour[i]) else None
     return KindForecast(
         serial=row.history.pump.serial,
@@ -179,9 +196,9 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         p10_hours=rem[0],
         p50_hours=rem[1],
         p90_hours=rem[2],
-        p10_date=date_after_hours(today, rem[0], per_day),
-        p50_date=date_after_hours(today, rem[1], per_day),
-        p90_date=date_after_hours(today, rem[2], per_day),
+        p10_date=when[0],
+        p50_date=when[1],
+        p90_date=when[2],
         flags=flags,
         fit=detail,
         rate_per_1000h=rate,
@@ -261,12 +278,16 @@ def reference_forecast_fleet(
     pumps = reference_forecast_histories(
         _histories(fleet), today, util, horizon_hours=horizon_hours, options=options,
         thresholds=thresholds, with_noise=with_noise,
+        points=machine_hour_points(fleet.fitments, fleet.readings, fleet.events),
     )  # fmt: skip
     pumps = [
         p if p.machine is None or p.machine not in fleet.machines else _site(p, fleet.machines[p.machine].site)
         for p in pumps
     ]
-    notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",)
+    notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
+             "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
+             "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
+             "last reading moves every date later)")
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
 
 
