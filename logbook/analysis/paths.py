@@ -356,9 +356,19 @@ class PathMixture:
                 continue
             loc, scale = line.at(x, rows)
             with np.errstate(invalid="ignore", divide="ignore"):
-                t = (box_cox(value, line.lam) - loc) / scale
+                gap = box_cox(value, line.lam) - loc
+                toward = self.sign[rows][:, None] * gap > 0  # the side of faster wear: the fast spread factor
+                scale = scale * np.where(toward, self.spread[0][rows][:, None], self.spread[1][rows][:, None])
+                t = gap / scale
             out += np.where(wk > 0, wk * t_cdf(np.nan_to_num(t), line.nu[rows][:, None]), 0.0)
         return out
+
+    def band_of(self, row: int, x: np.ndarray, coverage: float = 0.8) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(lower, median, upper) of the true condition of one series at hours ``x``: the chart's band."""
+        xs = np.atleast_1d(np.asarray(x, dtype=float))[None, :]
+        q = (0.5 - coverage / 2, 0.5, 0.5 + coverage / 2)
+        got = self.value_bands(xs, np.array([row]), quantiles=q)[0]
+        return got[:, 0], got[:, 1], got[:, 2]
 
 
 # ------------------------------------------------------------------ calibration on the fleet's own later readings

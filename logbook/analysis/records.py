@@ -88,7 +88,7 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
     latest_y, latest_raw, latest_day = ([None] * len(seen),) * 3 if not len(pk.y) else (
         pk.y[last].tolist(), pk.raw[last].tolist(), pk.day[last].tolist())  # fmt: skip
     latest_on = _dates([d if s else -1 for d, s in zip(latest_day, seen)])
-    details = fit_details(pk, fit, rows.detail)
+    details = fit_details(pk, fit, rows.detail, fc)
     flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
     path, share = _path_words(fc, rows)
     calibrated = (fc.calibrated_on if fc.calibrated_on is not None else np.zeros(len(rows.code), dtype=int)).tolist()
@@ -179,7 +179,7 @@ def _worst(pk: FleetPack, rows: RowFigures, n_pumps: int) -> list[int]:
                        O_CROSSING)  # fmt: skip
 
 
-def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDetail | None]:
+def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray, fc: BatchForecast | None = None) -> list[FitDetail | None]:
     """The chosen path of each row with a fitted line as a FitDetail (None elsewhere): its points in
     reading order, which the fit used, the parameters and their covariance on the fitted scale."""
     rows = np.flatnonzero(detail)
@@ -198,7 +198,9 @@ def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray) -> list[FitDet
     dof = np.minimum(fit.dof, 10**6).astype(np.int64)
     cols = [v[rows].tolist() for v in (fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
     names = [PATH_NAMES[c] for c in fit.path[rows].tolist()]
+    mixture = fc.mixture if fc is not None else None
     for r, x, y, u, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, names, *cols):
+        keep = mixture is not None and bool(mixture.ok[r]) and fc.path[r] >= 0
         out[r] = FitDetail(x_hours=x, y_value=y, used=u, path=name, params=(a, b), cov=((c00, c01), (c01, c11)),
-                           sigma=s, dof=d)  # fmt: skip
+                           sigma=s, dof=d, mixture=mixture if keep else None, row=r if keep else -1)  # fmt: skip
     return out

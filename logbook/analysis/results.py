@@ -54,13 +54,20 @@ class FitDetail:
     cov: tuple[tuple[float, float], tuple[float, float]]  # covariance of (a, b)
     sigma: float  # residual standard deviation on the fitted scale
     dof: int
+    # the forecast's path mixture and this series' row in it: band() then draws the same mixture that
+    # gives P50 and the P10-P90 dates (not compared: the figures above are the fit itself)
+    mixture: object = field(default=None, compare=False, repr=False)
+    row: int = field(default=-1, compare=False, repr=False)
 
     def band(self, x: "list[float] | tuple[float, ...]", coverage: float = 0.8):
-        """(lower, middle, upper) prediction band on the reading's scale at hours ``x``."""
+        """(lower, middle, upper) band on the reading's scale at hours ``x``: of the true condition under
+        the path mixture when the forecast kept it, else the prediction band of the least-squares path."""
         import numpy as np
         from scipy import special
 
         xs = np.asarray(x, dtype=float)
+        if self.mixture is not None and self.row >= 0:
+            return self.mixture.band_of(self.row, xs, coverage)
         a, b = self.params
         mid = a + b * xs
         var_mean = self.cov[0][0] + 2 * xs * self.cov[0][1] + xs * xs * self.cov[1][1]

@@ -61,7 +61,7 @@ def chart_data(kf: KindForecast) -> ChartData | None:
         readings_x=x, readings_y=np.asarray(fit.y_value, float), used=np.asarray(fit.used, bool),
         limit=kf.limit.value if kf.limit is not None else None, now=float(now),
         crossings=tuple(named) if kf.limit is not None else (),
-        y_label=f"{kf.kind.label} [{kf.kind.unit}]", middle_label=f"{kf.path} path")
+        y_label=f"{kf.kind.label} [{kf.kind.unit}]", middle_label="median of the wear paths" if fit.mixture is not None else f"{fit.path} path")
 
 
 def kind_chart_svg(kf: KindForecast, title: str, salt: str = "", id_prefix: str = "c") -> str | None:

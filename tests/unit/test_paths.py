@@ -146,3 +146,27 @@ def test_calibration_widens_bands_that_are_too_narrow():
     y = 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
     cal = P.calibrate(x, y, np.ones((s, n)), np.full(s, 30.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
     assert np.median(cal.fast) > 1.5 and np.median(cal.slow) > 1.5
+
+
+def test_the_chart_band_is_the_mixture_that_gives_the_dates():
+    # The band a chart draws (FitDetail.band) is the path mixture itself: its median meets the limit at
+    # the P50 crossing hour and its upper edge at the P10 hour (rising wear), as P(crossed) = q there.
+    from logbook.analysis.fleet import forecast_fleet
+    from logbook.analysis.results import Outcome
+    from tests.unit.test_forecast import TODAY, small_fleet
+
+    ff = forecast_fleet(small_fleet([4e-4, 6e-4, 9e-4, 5e-4]), TODAY)
+    checked = 0
+    for pf in ff.pumps:
+        kf = pf.kinds[0]
+        if kf.outcome is not Outcome.CROSSING or kf.fit is None or kf.p90_hours is None or kf.p10_hours <= 0:
+            continue  # (P10 at 0 h: the trend is past already, P(crossed) today is above 10 %)
+        assert kf.fit.mixture is not None
+        now = kf.hours_in_segment
+        at = np.array([now + kf.p10_hours, now + kf.p50_hours, now + kf.p90_hours])
+        lo, mid, hi = kf.fit.band(at, 0.8)
+        assert hi[0] == pytest.approx(kf.limit.value, rel=2e-3)
+        assert mid[1] == pytest.approx(kf.limit.value, rel=2e-3)
+        assert lo[2] == pytest.approx(kf.limit.value, rel=2e-3)
+        checked += 1
+    assert checked >= 2
