@@ -19,7 +19,7 @@ from logbook.tui.widgets.canvas import Canvas
 LEGEND = (
     ("●", "point", "reading", "reading"),
     ("×", "outlier", "set aside", "set aside"),
-    ("⠒", "fit", "fitted path", "fit"),
+    ("⠒", "fit", "median of the wear paths", "median"),
     ("░", "band", "P10-P90 band", "P10-P90"),
     ("─", "limit", "limit", "limit"),
     ("┊", "today", "today", "today"),
