@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from rich.table import Table
-
 from logbook import fmt
 
 _NOISE = {"id", "entered_at", "entered_by", "import_id"}
@@ -20,6 +18,8 @@ def register(sub) -> None:
     p = sub.add_parser("history", help="show who recorded, corrected, removed or imported what for one pump, and when")
     p.add_argument("serial")
     p.add_argument("--last", type=int, default=None, metavar="N", help="only the N most recent entries")
+    p.add_argument("--format", choices=("text", "csv", "json"), default="text",
+                   help="text (a table that fits the terminal, default), csv or json (docs/json.md)")
     p.set_defaults(func=run)
 
 
@@ -58,20 +58,38 @@ def describe(entry) -> tuple[str, str]:
 
 
 def run(args, ctx) -> int:
+    if args.last is not None and args.last < 0:  # looked at before the database is read
+        ctx.err.print(f"logbook history: --last = {args.last}: allowed 0 or more entries", markup=False)
+        return 2
     with ctx.open_store() as store:
         if args.serial not in store.pumps():
             ctx.err.print(f"logbook history: serial {args.serial!r} is not a known pump", markup=False)
             return 2
         trail = store.pump_trail(args.serial)
     if args.last is not None:
-        trail = trail[-max(args.last, 0):] if args.last > 0 else []
-    table = Table(title=fmt.text(f"history of {args.serial}"), box=None, title_justify="left", header_style="bold")
-    for col in ("when (UTC)", "who", "what", "before -> after", "reason"):
-        table.add_column(col, overflow="fold")
-    for entry in trail:
-        what, change = describe(entry)
-        table.add_row(*fmt.cells(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or ""))
-    ctx.console.print(table)
+        trail = trail[-args.last:] if args.last > 0 else []
+    described = [describe(entry) for entry in trail]
+    if args.format != "text":
+        from logbook.exports import listings
+
+        if args.format == "json":
+            text = listings.to_json(listings.history_json(args.serial, trail, described, ctx.today, ctx.units))
+        else:
+            text = listings.to_csv(("when (UTC)", "who", "action", "table", "key", "what", "before -> after", "reason"),
+                                   [(e.at.strftime("%Y-%m-%d %H:%M:%S"), e.who, e.action, e.table, e.key, what, change,
+                                     e.reason or "") for e, (what, change) in zip(trail, described)])
+        ctx.console.file.write(text)
+        return 0
+    from logbook.commands.tables import Col, fit
+
+    cols = [Col("when (UTC)", 0, keep=True), Col("who", 3, wrap=True, keep=True), Col("what", 1, wrap=True, keep=True),
+            Col("before -> after", 2, wrap=True, keep=True), Col("reason", 4, wrap=True, keep=True)]
+    for entry, (what, change) in zip(trail, described):
+        for col, v in zip(cols, (entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or "")):
+            col.cells.append(v)
+    title = fmt.text(f"history of {args.serial}")
+    title.end = "\n"  # a title ends its line (the header row follows)
+    ctx.console.print(fit(ctx.console, cols, title=title)[0])
     if not trail:
         ctx.console.print("(no recorded changes)")
     return 0

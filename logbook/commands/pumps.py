@@ -2,10 +2,15 @@
 
 from __future__ import annotations
 
+import argparse
+
 from rich.table import Table
 
 from logbook import fmt
 from logbook.model import Problem
+
+
+FORMATS = ("text", "csv", "json")
 
 
 def register(sub) -> None:
@@ -14,37 +19,44 @@ def register(sub) -> None:
     p.add_argument("--model", default=None)
     p.add_argument("--status", default=None, help="only pumps whose status contains this text")
     p.add_argument("--due", action="store_true", help="only pumps whose next reading is due (by interval or forecast)")
-    p.add_argument("--limit", type=int, default=None, help="show at most N pumps")
+    p.add_argument("--rows", type=int, default=None, metavar="N", help="show at most N pumps (the N most urgent)")
+    p.add_argument("--limit", dest="rows", type=int, default=None, help=argparse.SUPPRESS)  # the old name of --rows
+    p.add_argument("--format", choices=FORMATS, default="text",
+                   help="text (a table that fits the terminal, default), csv or json (docs/json.md)")
     p.set_defaults(func=run)
 
 
-def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None, tests=None, due_only=False) -> Table:
-    """The fleet as a table; ``tests`` (serial -> rounds.NextTest) adds the next-reading column."""
+def select(forecast, ctx, *, site=None, model=None, status=None, rows=None, tests=None, due_only=False) -> list:
+    """The pumps a listing shows, most urgent first (the engine's one order)."""
     from logbook.analysis.status import urgency_key
 
-    table = Table(box=None, header_style="bold", pad_edge=False)
-    cols = ["serial", "machine/pos", "model", "h since ovh", "nearest limit", "P10", "P50", "status"]
+    chosen = [p for p in forecast.pumps if (site is None or p.site == site) and (model is None or p.model == model)
+              and (status is None or status.lower() in p.status.lower())
+              and (not due_only or (tests is not None and p.serial in tests and tests[p.serial].is_due(ctx.today)))]
+    chosen.sort(key=urgency_key)
+    return chosen[:rows]
+
+
+def fleet_table(forecast, ctx, *, site=None, model=None, status=None, limit=None, tests=None, due_only=False) -> Table:
+    """The fleet as a table that fits the console; ``tests`` (serial -> rounds.NextTest) adds the
+    next-reading column. At 80 columns the least useful columns are left out (named under it)."""
+    from logbook.commands.tables import Col, fit
+
+    rows = select(forecast, ctx, site=site, model=model, status=status, rows=limit, tests=tests, due_only=due_only)
+    cols = [Col("serial", 0), Col("machine/pos", 3), Col("model", 4), Col("h since overhaul", 8, justify="right"),
+            Col("nearest limit", 5, wrap=True), Col("P10", 2), Col("P50", 6), Col("status", 1, keep=True)]
     if tests is not None:
-        cols.append("next reading")
-    for col in cols:
-        table.add_column(col, no_wrap=True)
-    rows = [p for p in forecast.pumps if (site is None or p.site == site) and (model is None or p.model == model)
-            and (status is None or status.lower() in p.status.lower())
-            and (not due_only or (tests is not None and p.serial in tests and tests[p.serial].is_due(ctx.today)))]
-    rows.sort(key=urgency_key)  # the engine's one most-urgent-first order
-    for p in rows[:limit]:
+        cols.append(Col("next reading", 7, wrap=True))
+    for p in rows:
         w = p.worst
-        table.add_row(*fmt.cells(
-            p.serial,
-            f"{p.machine or 'shelf'}/{p.position or '-'}",
-            p.model,
-            fmt.hours(p.hours_since_overhaul),
-            fmt.nearest_limit(w, ctx.units),
-            fmt.day(w.p10_date) if w else "-",
-            fmt.day(w.p50_date) if w else "-",
-            p.status,
-            *([tests[p.serial].words(ctx.today) if p.serial in tests else "-"] if tests is not None else []),
-        ))
+        values = [p.serial, f"{p.machine or 'shelf'}/{p.position or '-'}", p.model, fmt.hours(p.hours_since_overhaul),
+                  fmt.nearest_limit(w, ctx.units), fmt.day(w.p10_date) if w else "-", fmt.day(w.p50_date) if w else "-",
+                  p.status]
+        if tests is not None:
+            values.append(tests[p.serial].words(ctx.today) if p.serial in tests else "-")
+        for col, v in zip(cols, values):
+            col.cells.append(v)
+    table, _ = fit(ctx.console, cols)
     return table
 
 
@@ -65,6 +77,9 @@ def filter_problems(fleet, *, site=None, model=None, status=None) -> list[Proble
 
 
 def run(args, ctx) -> int:
+    if args.rows is not None and args.rows < 0:  # looked at before the fleet loads
+        ctx.err.print(f"logbook pumps: --rows = {args.rows}: allowed 0 or more pumps", markup=False)
+        return 2
     from logbook.analysis.fleet import forecast_fleet
     from logbook.rounds import next_tests
 
@@ -77,6 +92,17 @@ def run(args, ctx) -> int:
         return 2
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = next_tests(fleet, forecast, ctx.today)
-    ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status, limit=args.limit,
-                                  tests=tests, due_only=args.due))
+    if args.format == "text":
+        ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status,
+                                      limit=args.rows, tests=tests, due_only=args.due))
+        return 0
+    from logbook.exports import listings
+
+    rows = select(forecast, ctx, site=args.site, model=args.model, status=args.status, rows=args.rows, tests=tests,
+                  due_only=args.due)
+    if args.format == "json":
+        text = listings.to_json(listings.pumps_json(rows, tests, ctx.today, ctx.units))
+    else:
+        text = listings.to_csv(listings.PUMP_CSV_HEADER, listings.pumps_csv_rows(rows, tests, ctx.today))
+    ctx.console.file.write(text)
     return 0

@@ -41,27 +41,50 @@ def _check(args, sites: set[str]) -> str | None:
     return None
 
 
-def due_table(tests, today) -> Table:
-    """The terminal list: one row per pump, in walking order."""
-    table = Table(box=None, header_style="bold", pad_edge=False)
-    for col in ("site", "machine/pos", "serial", "model", "last reading", "since", "next test", "why"):
-        table.add_column(col, no_wrap=col != "why")
+def _check_args(args) -> str | None:
+    """What the arguments alone can tell, before the fleet is read."""
+    if args.within < 0 or args.within > 3650:
+        return f"--within = {args.within}: allowed 0 to 3650 days"
+    if args.format != "text" and args.site is None:
+        return f"--site is required with --format {args.format}: a round sheet is for one site (`logbook round` lists the sites)"
+    if args.out is not None and args.format == "text":
+        return "--out needs --format md, html or csv"
+    return None
+
+
+def _check(args, sites: set[str]) -> str | None:
+    if args.site is not None and args.site not in sites:
+        return f"--site = {args.site!r}: not a known site; known: {', '.join(sorted(sites)) or 'none'}"
+    return None
+
+
+def due_table(tests, today, console) -> Table:
+    """The terminal list: one row per pump, in walking order, fitting the console."""
+    from logbook.commands.tables import Col, fit
+
+    cols = [Col("serial", 0), Col("site", 4), Col("machine/pos", 1), Col("model", 6), Col("last reading", 5),
+            Col("since", 7), Col("next test", 2, keep=True), Col("why", 3, wrap=True, keep=True)]
     for t in tests:
         since = "-"
         if t.days_since_reading is not None:
             since = f"{t.days_since_reading} d"
             if t.hours_since_reading is not None:
                 since += f", {t.hours_since_reading:,.0f} h"
-        table.add_row(*fmt.cells(t.site, f"{t.machine}/{t.position}", t.serial, t.model,
-                                 t.last_reading_on.isoformat() if t.last_reading_on else "never",
-                                 since, t.words(today), t.reason))
-    return table
+        values = (t.serial, t.site, f"{t.machine}/{t.position}", t.model,
+                  t.last_reading_on.isoformat() if t.last_reading_on else "never", since, t.words(today), t.reason)
+        for col, v in zip(cols, values):
+            col.cells.append(v)
+    return fit(console, cols, more="a wider terminal shows them")[0]
 
 
 def run(args, ctx) -> int:
     from logbook.analysis.fleet import forecast_fleet
     from logbook.rounds import plan_round
 
+    problem = _check_args(args)
+    if problem:
+        ctx.err.print(f"logbook round: {problem}", markup=False)
+        return 2
     with ctx.open_store() as store:
         fleet = store.fleet()
     problem = _check(args, {m.site for m in fleet.machines.values()})
@@ -83,12 +106,17 @@ def run(args, ctx) -> int:
         from logbook.cautions import SAFETY
 
         # first, as on every round sheet (the list is the sheet of the terminal)
-        ctx.console.print(SAFETY.text() + "\n", markup=False, highlight=False, soft_wrap=True)
+        # wrapped at words to the terminal (or $COLUMNS); whole lines into a file or pipe
+        import os
+        import sys
+
+        fitted = sys.stdout.isatty() or os.environ.get("COLUMNS", "").isdigit()
+        ctx.console.print(SAFETY.text() + "\n", markup=False, highlight=False, soft_wrap=not fitted)
         if not tests:
             where = f" at {args.site}" if args.site else ""
             ctx.console.print(f"No pump{where} is due for a reading within {args.within} days.", markup=False)
             return 0
-        ctx.console.print(due_table(tests, ctx.today))
+        ctx.console.print(due_table(tests, ctx.today, ctx.console))
         return 0
     from logbook.exports.round_sheet import build_sheet, render
 
