@@ -24,11 +24,18 @@ def register(sub) -> None:
         "pumps, and writes the plan with the fleet forecast and fleet life figures. Safe to run from cron.",
     )
     p.add_argument("--month", default=None, metavar="YYYY-MM", help="first month of the plan (default: this month)")
-    p.add_argument("--horizon", type=int, default=6, metavar="N", help="months to plan (default 6)")
-    p.add_argument("--capacity", type=int, default=None, metavar="N", help="shop jobs per month, all sites (default: no limit)")
-    p.add_argument("--site-capacity", action="append", default=[], metavar="SITE=N", help="shop jobs per month at one site (repeatable)")
-    p.add_argument("--exchange", action="append", default=[], metavar="MODEL=N", help="exchange pumps on hand for a model (repeatable)")
-    p.add_argument("--turnaround", type=int, default=1, metavar="N", help="months before a removed pump is back as a spare (default 1)")
+    p.add_argument("--horizon", type=int, default=None, metavar="N",
+                   help="months to plan (default: the stored plan settings, else 6)")
+    p.add_argument("--capacity", type=int, default=None, metavar="N",
+                   help="shop jobs per month, all sites (default: the stored plan settings, else no limit)")
+    p.add_argument("--site-capacity", action="append", default=[], metavar="SITE=N",
+                   help="shop jobs per month at one site (repeatable; other sites keep their stored value)")
+    p.add_argument("--exchange", action="append", default=[], metavar="MODEL=N",
+                   help="exchange pumps on hand for a model (repeatable; other models keep their stored value)")
+    p.add_argument("--turnaround", type=int, default=None, metavar="N",
+                   help="months before a removed pump is back as an exchange pump (default: stored, else 1)")
+    p.add_argument("--save-settings", action="store_true",
+                   help="store these plan settings (audited) for later runs and the plan screen of the TUI")
     p.add_argument("--format", choices=("csv", "md", "html", "json"), default=None,
                    help="output format (default: from the --out suffix, else md)")
     p.add_argument("--out", default="-", metavar="FILE", help="file to write, or - for stdout (default -)")
@@ -72,11 +79,11 @@ def _check_args(args) -> list[Problem]:
     problems = []
     if args.capacity is not None and args.capacity < 0:
         problems.append(Problem("--capacity", args.capacity, "zero or more shop jobs per month"))
-    if not 1 <= args.horizon <= 60:
+    if args.horizon is not None and not 1 <= args.horizon <= 60:
         problems.append(Problem("--horizon", args.horizon, "1 to 60 months"))
     if args.max_charts < 0:
         problems.append(Problem("--max-charts", args.max_charts, "zero or more charts"))
-    if not 0 <= args.turnaround <= 24:
+    if args.turnaround is not None and not 0 <= args.turnaround <= 24:
         problems.append(Problem("--turnaround", args.turnaround, "0 to 24 months"))
     return problems
 
@@ -134,7 +141,7 @@ class _Steps:
 
 
 def run(args, ctx) -> int:
-    from logbook.plan import PlanSettings, add_months, month_start, parse_month
+    from logbook.plan import add_months, month_start, parse_month
 
     fmt = _format(args)
     problems = _check_args(args) + _check_out(args, ctx)
@@ -156,22 +163,20 @@ def run(args, ctx) -> int:
         with ctx.open_store() as store:
             fleet = store.fleet()
             book = store.costs()
-        sites = {m.site for m in fleet.machines.values()}
-        site_capacity, bad_sites = _pairs(args.site_capacity, "--site-capacity", sites, "the site")
-        exchange, bad_models = _pairs(args.exchange, "--exchange", set(fleet.models), "the model")
-        if bad_sites or bad_models:
-            return _bad(ctx, bad_sites + bad_models)
-        try:
-            settings = PlanSettings(
-                start_month=start,
-                horizon_months=args.horizon,
-                capacity_per_month=args.capacity,
-                site_capacity=site_capacity,
-                exchange_on_hand=exchange,
-                turnaround_months=args.turnaround,
-            )
-        except InputRejected as exc:
-            return _bad(ctx, exc.problems)
+            stored = store.plan_setup()  # the plan settings stored (audited); flags override them for this run
+            sites = {m.site for m in fleet.machines.values()}
+            site_capacity, bad_sites = _pairs(args.site_capacity, "--site-capacity", sites, "the site")
+            exchange, bad_models = _pairs(args.exchange, "--exchange", set(fleet.models), "the model")
+            if bad_sites or bad_models:
+                return _bad(ctx, bad_sites + bad_models)
+            setup = stored.override(horizon=args.horizon, capacity=args.capacity, site_capacity=site_capacity,
+                                    exchange=exchange, turnaround=args.turnaround)
+            try:
+                settings = setup.settings(start)
+            except InputRejected as exc:
+                return _bad(ctx, exc.problems)
+            if args.save_settings:
+                store.set_plan_setup(setup)
 
         from logbook.analysis.fleet import forecast_fleet
         from logbook.analysis.life import fleet_life
@@ -181,7 +186,7 @@ def run(args, ctx) -> int:
         steps.step(f"forecasting {len(fleet.pumps)} pumps")
         forecast = forecast_fleet(fleet, ctx.today)
         steps.step("fitting fleet life")
-        horizon_days = (add_months(start, args.horizon) - ctx.today).days
+        horizon_days = (add_months(start, settings.horizon_months) - ctx.today).days
         life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
         steps.step("planning")
         from logbook.costing import model_economies, pump_costs
