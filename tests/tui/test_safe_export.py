@@ -23,6 +23,8 @@ async def _export(app, pilot) -> PlanScreen:
     assert isinstance(app.screen, PlanScreen)
     await pilot.press("x")
     await settle(app, pilot)
+    await pilot.press("enter")  # the suggested name: every format, Markdown first
+    await settle(app, pilot)
     return app.screen
 
 

@@ -123,11 +123,13 @@ async def test_plan_view_lists_months_and_exports_the_plan(demo_app, tmp_path):
         assert screen.horizon == 12 and len(screen.plan.settings.months) == 12
         await pilot.press("x")
         await settle(app, pilot)
-        md = tmp_path / f"logbook-plan-{TODAY.isoformat()}.md"
-        csv = tmp_path / f"logbook-plan-{TODAY.isoformat()}.csv"
-        assert md.exists() and csv.exists()
-        assert planned[0] in md.read_text() and planned[0] in csv.read_text()
-        assert str(md) in text(screen.query_one("#status-line"))
+        await pilot.press("enter")  # the suggested name, without suffix: every format
+        await settle(app, pilot)
+        stem = tmp_path / f"logbook-plan-{TODAY.isoformat()}"
+        written = {kind: stem.with_name(f"{stem.name}.{kind}") for kind in ("md", "csv", "html", "json")}
+        assert all(path.exists() for path in written.values())
+        assert all(planned[0] in path.read_text() for path in written.values())
+        assert written["md"].name in " ".join(text(screen.query_one("#status-line")).split())
 
 
 async def test_help_lists_every_key_of_the_screen(demo_app):

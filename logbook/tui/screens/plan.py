@@ -24,12 +24,23 @@ class PlanScreen(Screen):
     """Months in order; in each, pumps most urgent first. Enter opens the pump."""
 
     HELP_TITLE = "Overhaul plan"
+    DEFAULT_CSS = """
+    PlanScreen #assumptions { height: auto; padding: 0 1; }
+    """
     BINDINGS = [
         Binding("escape", "back", "Back", tooltip="back to the fleet view", id="plan.back"),
-        Binding("h", "horizon", "Horizon", tooltip="plan 6, 12 or 24 months ahead", id="plan.horizon"),
-        Binding("x", "export", "Export", tooltip="write the plan as Markdown and CSV files (the path is shown)",
+        Binding("h", "horizon", "Horizon", tooltip="plan 6, 12 or 24 months ahead (this view only; s stores one)",
+                id="plan.horizon"),
+        Binding("s", "settings", "Settings", tooltip="shop capacity, site capacity, exchange pumps, turnaround, horizon",
+                id="plan.settings"),
+        Binding("x", "export", "Export", tooltip="write the plan to a file you name: Markdown, CSV, HTML (to print) or JSON",
                 id="plan.export"),
     ]
+
+    class SetupRead(Message):
+        def __init__(self, setup, sites, models) -> None:
+            super().__init__()
+            self.setup, self.sites, self.models = setup, sites, models
 
     class Exported(Message):
         def __init__(self, paths: list[Path], text: str = "") -> None:
@@ -39,35 +50,66 @@ class PlanScreen(Screen):
 
     def __init__(self) -> None:
         super().__init__()
-        self.horizon = HORIZONS[0]
+        self.horizon: int | None = None  # h: this view's horizon; None: the stored one
+        self.setup = None  # the stored plan settings (plan_setup.PlanSetup), read when the screen opens
+        self.sites: list[str] = []
+        self.models: list[str] = []
         self.plan = None
         self.serials: list[str | None] = []
 
     def compose(self) -> ComposeResult:
         yield Static("Overhaul plan", id="title")
+        yield Plain("", id="assumptions")
         yield OpenTable(id="plan-table", cursor_type="row", zebra_stripes=True)
         yield Plain("", id="status-line")
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
-        self.watch(self.app, "data_generation", self._data_changed, init=True)
+        self.watch(self.app, "data_generation", self._read_setup, init=True)
         self.query_one("#plan-table", DataTable).focus()
 
-    def settings(self):
-        from logbook.plan import PlanSettings, month_start
+    def _read_setup(self, generation: int) -> None:
+        self._setup_worker()
 
-        return PlanSettings(start_month=month_start(self.app.today), horizon_months=self.horizon)
+    @work(thread=True, exclusive=True, group="plan-setup")
+    def _setup_worker(self) -> None:
+        """The stored plan settings (and the sites and models they may name), read again
+        whenever the data changes (a save here, or another user's)."""
+        try:
+            with self.app.gate.open() as store:
+                setup = store.plan_setup()
+                sites = sorted({m.site for m in store.machines().values()})
+                models = sorted(store.models())
+        except Exception as exc:
+            self.app.call_from_thread(self.query_one("#status-line", Static).update,
+                                      f"Plan settings not read: {trouble_text(exc)}")
+            return
+        self.post_message(self.SetupRead(setup, sites, models))
+
+    def on_plan_screen_setup_read(self, message: SetupRead) -> None:
+        self.setup, self.sites, self.models = message.setup, message.sites, message.models
+        self._data_changed(self.app.data_generation)
+
+    def current_setup(self):
+        from logbook.plan_setup import PlanSetup
+
+        return (self.setup or PlanSetup()).override(horizon=self.horizon)
+
+    def settings(self):
+        from logbook.plan import month_start
+
+        return self.current_setup().settings(month_start(self.app.today))
 
     def _data_changed(self, generation: int) -> None:
         forecast = self.app.forecast
-        if forecast is None:
+        if forecast is None or self.setup is None:
             return
         from logbook.plan import make_plan, month_label
 
         self.plan = plan = make_plan(forecast, self.settings())
         table = self.query_one("#plan-table", DataTable)
         if not table.columns:
-            for label in ("Month", "Serial", "Machine", "Reading", "Chance", "P10 date", "P50 date", "Site", "Note"):
+            for label in ("Month", "Serial", "Reading", "Chance", "P10 date", "Site", "Note", "Machine", "P50 date"):
                 table.add_column(label, key=label)
         table.clear()
         self.serials = []
@@ -76,19 +118,24 @@ class PlanScreen(Screen):
             shop = sum(1 for line in lines if line.shop)
             label = month_label(month)
             if not lines:
-                table.add_row(*fmt.cells(label, "-", "nothing due", "", "", "", "", "", ""))
+                table.add_row(*fmt.cells(label, "-", "", "", "", "", "nothing due", "", ""))
                 self.serials.append(None)
                 continue
             for i, line in enumerate(lines):
                 self._add_line(table, f"{label} ({shop})" if i == 0 else "", line)
         for i, line in enumerate(plan.unplaced):
             self._add_line(table, "not placed" if i == 0 else "", line)
+        setup = self.current_setup()
         self.query_one("#title", Static).update(
-            f"Overhaul plan from {month_label(plan.settings.start_month)}, {self.horizon} months · forecast of {fmt.day(forecast.today)}"
+            f"Overhaul plan from {month_label(plan.settings.start_month)}, {setup.horizon_months} months · "
+            f"forecast of {fmt.day(forecast.today)}"
         )
+        this_view = " (h: this view only)" if self.horizon is not None and self.horizon != self.setup.horizon_months else ""
+        self.query_one("#assumptions", Static).update(fmt.text(f"Assumed: {setup.words()}{this_view} · s changes these"))
+        shop = sum(1 for x in plan.lines if x.shop)
         self.query_one("#status-line", Static).update(
-            f"{len(plan.lines)} planned ({sum(1 for x in plan.lines if x.shop)} in the shop), {len(plan.unplaced)} not placed · "
-            "Month (n) = shop jobs that month · Chance = of crossing by the month's end"
+            f"{len(plan.lines)} planned ({shop} in the shop, {len(plan.lines) - shop} on the machine), "
+            f"{len(plan.unplaced)} not placed · Month (n) = shop jobs that month · Chance = of crossing by the month's end"
         )
 
     def _add_line(self, table: DataTable, month_text: str, line) -> None:
@@ -97,8 +144,8 @@ class PlanScreen(Screen):
         note = line.note or line.action
         if line.month is None:
             note = line.note
-        table.add_row(*fmt.cells(month_text, line.serial, where, present.KIND_SHORT[line.kind], chance, fmt.day(line.p10_date),
-                                 fmt.day(line.p50_date), line.site or "-", note))
+        table.add_row(*fmt.cells(month_text, line.serial, present.KIND_SHORT[line.kind], chance, fmt.day(line.p10_date),
+                                 line.site or "-", note, where, fmt.day(line.p50_date)))
         self.serials.append(line.serial)
 
     @on(DataTable.RowSelected)
@@ -113,18 +160,38 @@ class PlanScreen(Screen):
         self.app.pop_screen()
 
     def action_horizon(self) -> None:
-        self.horizon = HORIZONS[(HORIZONS.index(self.horizon) + 1) % len(HORIZONS)]
+        now = self.current_setup().horizon_months
+        self.horizon = next((h for h in HORIZONS if h > now), HORIZONS[0])
         self._data_changed(self.app.data_generation)
+
+    def action_settings(self) -> None:
+        if self.setup is None:
+            return
+        from logbook.tui.screens.plan_settings import PlanSettingsScreen
+
+        self.horizon = None  # the stored horizon, as edited there
+        self.app.push_screen(PlanSettingsScreen(self.setup, self.sites, self.models))
 
     def action_export(self) -> None:
         if self.plan is None or self.app.forecast is None:
             return
-        self.query_one("#status-line", Static).update("Writing the plan…")
-        self._export(self.app.fleet, self.app.forecast, self.plan)
+        from logbook.tui.screens.export_dialog import ExportDialog
+
+        folder = Path(getattr(self.app, "export_dir", None) or Path.cwd())
+        suggested = folder / f"logbook-plan-{self.app.forecast.today.isoformat()}"
+        fleet, forecast, plan = self.app.fleet, self.app.forecast, self.plan
+
+        def chosen(targets) -> None:
+            if targets:
+                self.query_one("#status-line", Static).update("Writing the plan…")
+                self._export(fleet, forecast, plan, targets)
+
+        self.app.push_screen(ExportDialog(suggested), chosen)
 
     @work(thread=True, exclusive=True, group="export")
-    def _export(self, fleet, forecast, plan) -> None:
-        """Render with logbook.exports (Markdown for reading, CSV for a spreadsheet)."""
+    def _export(self, fleet, forecast, plan, targets) -> None:
+        """Render with logbook.exports to each (path, format) chosen, in order; the first
+        refusal stops (nothing after it is written)."""
         try:
             from logbook.analysis.life import fleet_life
             from logbook.exports import Provenance, Report, render
@@ -136,10 +203,8 @@ class PlanScreen(Screen):
             report = Report(forecast, plan, life, provenance, charts=False)
             from logbook.outfile import write_bytes
 
-            folder = Path(getattr(self.app, "export_dir", None) or Path.cwd())
             paths = []
-            for kind in ("md", "csv"):  # atomic, never over the database (logbook.outfile)
-                path = folder / f"logbook-plan-{forecast.today.isoformat()}.{kind}"
+            for path, kind in targets:  # atomic, never over the database (logbook.outfile)
                 write_bytes(path, render(report, kind), protect=[self.app.gate.path, fleet.source], label="plan export")
                 paths.append(path.resolve())
         except Exception as exc:
@@ -155,6 +220,10 @@ class PlanScreen(Screen):
             line.update(f"Not exported: {message.text}")
             self.notify(fmt.visible(message.text), title="Export failed", severity="error", markup=False)
             return
-        where = " and ".join(str(p) for p in message.paths)
-        line.update(f"Plan written to {where}")
-        self.notify(fmt.visible(f"Plan written to {where}"), title="Exported", timeout=8, markup=False)
+        folders = {p.parent for p in message.paths}
+        if len(folders) == 1:
+            where = f"{folders.pop()}: " + ", ".join(p.name for p in message.paths)
+        else:
+            where = ", ".join(str(p) for p in message.paths)
+        line.update(fmt.text(f"Plan written in {where}"))
+        self.notify(fmt.visible(f"Plan written in {where}"), title="Exported", timeout=8, markup=False)

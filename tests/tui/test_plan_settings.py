@@ -1,0 +1,106 @@
+"""The plan screen states the plan settings it used, edits them (stored and audited, the
+same ones `logbook forecast` uses) and exports to a path the planner types."""
+
+from __future__ import annotations
+
+import json
+
+from textual.widgets import Input
+
+from logbook.plan_setup import PlanSetup
+from logbook.tui.screens.plan import PlanScreen
+from logbook.tui.screens.plan_settings import PlanSettingsScreen
+from tests.tui.conftest import settle
+from tests.tui.test_entry import text
+
+
+async def _plan(app, pilot) -> PlanScreen:
+    await settle(app, pilot)
+    await pilot.press("p")
+    await settle(app, pilot)
+    assert isinstance(app.screen, PlanScreen)
+    return app.screen
+
+
+def _said(screen, selector) -> str:
+    return " ".join(text(screen.query_one(selector)).split())
+
+
+async def test_stored_settings_are_used_and_stated(demo_store, demo_app):
+    demo_store.set_plan_setup(PlanSetup(horizon_months=9, capacity_per_month=1, exchange_on_hand={"TQ-90": 2}))
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        screen = await _plan(demo_app, pilot)
+        assert len(screen.plan.settings.months) == 9 and screen.plan.settings.capacity_per_month == 1
+        assert all(n <= 1 for n in screen.plan.shop_load.values())
+        said = _said(screen, "#assumptions")
+        assert "shop capacity 1 job a month" in said and "exchange pumps TQ-90 2" in said and "horizon 9 months" in said
+        status = _said(screen, "#status-line")
+        shop = sum(1 for line in screen.plan.lines if line.shop)
+        assert f"({shop} in the shop, {len(screen.plan.lines) - shop} on the machine)" in status
+
+
+async def test_settings_edited_on_the_plan_screen_are_stored_audited_and_planned_with(demo_store, demo_app):
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        screen = await _plan(demo_app, pilot)
+        await pilot.press("s")
+        await settle(demo_app, pilot)
+        form = demo_app.screen
+        assert isinstance(form, PlanSettingsScreen)
+        form.fields["capacity"].input.value = "1"
+        first_site = form.sites[0]
+        form.fields["site_0"].input.value = "1"
+        form.fields["turnaround"].input.value = "2"
+        await pilot.press("f2")
+        await settle(demo_app, pilot)
+        stored = demo_store.plan_setup()
+        assert (stored.capacity_per_month, stored.site_capacity, stored.turnaround_months) == (1, {first_site: 1}, 2)
+        row = next(iter(demo_store.db.query("SELECT * FROM audit WHERE row_key = 'plan'")))
+        assert row["who"] == "tester" and json.loads(row["after_json"])["capacity_per_month"] == 1
+        await pilot.press("escape")
+        await settle(demo_app, pilot)
+        assert demo_app.screen is screen
+        assert screen.plan.settings.capacity_per_month == 1 and screen.plan.settings.turnaround_months == 2
+        assert all(n <= 1 for n in screen.plan.shop_load.values())
+        assert f"per site {first_site} 1" in _said(screen, "#assumptions")
+
+
+async def test_a_bad_setting_is_refused_naming_the_field_and_nothing_is_stored(demo_store, demo_app):
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        await _plan(demo_app, pilot)
+        await pilot.press("s")
+        await settle(demo_app, pilot)
+        form = demo_app.screen
+        form.fields["horizon"].input.value = "0"
+        form.fields["capacity"].input.value = "two"
+        await pilot.press("f2")
+        await settle(demo_app, pilot)
+        assert "not saved" in _said(form, "#check")
+        assert "capacity = 'two'" in _said(form, "#field-capacity .field-message")
+        assert demo_store.plan_setup() == PlanSetup()
+        form.fields["capacity"].input.value = ""
+        await pilot.press("f2")
+        await settle(demo_app, pilot)
+        assert "horizon" in _said(form, "#check") and "1 to 60" in _said(form, "#check")
+        assert demo_store.plan_setup() == PlanSetup()
+
+
+async def test_export_goes_to_the_path_typed_in_the_format_of_its_suffix(demo_app, tmp_path):
+    target = tmp_path / "for-the-shop" / "plan.html"
+    target.parent.mkdir()
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        screen = await _plan(demo_app, pilot)
+        await pilot.press("x")
+        await settle(demo_app, pilot)
+        box = demo_app.screen.query_one("#export-path", Input)
+        box.value = str(tmp_path / "plan.pdf")
+        await pilot.press("enter")
+        await settle(demo_app, pilot)
+        assert ".pdf is not a format" in " ".join(text(demo_app.screen.query_one("#export-problem")).split())
+        box.value = str(target)
+        await pilot.press("enter")
+        await settle(demo_app, pilot)
+        assert demo_app.screen is screen
+    assert sorted(p.name for p in target.parent.iterdir()) == ["plan.html"]
+    html = target.read_text()
+    assert html.lstrip().lower().startswith("<!doctype html") and screen.plan.lines[0].serial in html
+    assert not (tmp_path / "plan.pdf").exists()
