@@ -197,3 +197,31 @@ def pump_costs(book: CostBook, forecast, economies: dict[str, ModelEconomy]) -> 
             rate = costs.planned / cycle if cycle > 0 else 0.0
         pumps[pf.serial] = PumpCosts(costs, rate)
     return PlanCosts(book.currency, pumps)
+
+
+@dataclass(frozen=True)
+class FleetMoney:
+    """What the costs entered say about a forecast fleet: the cost book, the fleet life it was
+    weighed on, each model's economy (cost-optimal age) and each pump's job costs for the plan
+    (``costs`` None when no model has costs: the plan is then the greedy pass)."""
+
+    book: CostBook
+    life: tuple
+    economies: dict[str, ModelEconomy]
+    costs: PlanCosts | None
+
+    @property
+    def currency(self) -> str:
+        return self.book.currency
+
+
+def fleet_money(book: CostBook, fleet, forecast, horizon_days: int) -> FleetMoney:
+    """The steps ``logbook forecast`` takes from a cost book to the plan's costs: fleet life
+    (Weibull per model, running pumps over ``horizon_days``), model economies, pump costs."""
+    if book.empty:
+        return FleetMoney(book, (), {}, None)
+    from logbook.analysis.life import fleet_life
+
+    life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
+    economies = model_economies(book, life)
+    return FleetMoney(book, life, economies, pump_costs(book, forecast, economies))

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 from textual import work
 from textual.app import App
 from textual.binding import Binding
+from textual.message import Message
 from textual.reactive import reactive
 from textual.worker import get_current_worker
 
@@ -35,6 +36,20 @@ if TYPE_CHECKING:  # the model is imported by the first load, after the first fr
 
 DARK_THEMES = {"textual-dark": "textual-light", "ansi-dark": "ansi-light"}
 LIGHT_THEMES = {v: k for k, v in DARK_THEMES.items()}
+
+
+class MoneyLoaded(Message):
+    """The costs weighed on a forecast (costing.FleetMoney) and the plan the fleet view's cost
+    column shows (this month on, ``PLAN_MONTHS`` months, least expected cost)."""
+
+    def __init__(self, forecast, money, plan) -> None:
+        super().__init__()
+        self.forecast = forecast
+        self.money = money
+        self.plan = plan
+
+
+PLAN_MONTHS = 6  # the fleet view's cost column: the plan screen's first horizon
 
 
 class LogbookApp(App):
@@ -65,6 +80,8 @@ class LogbookApp(App):
         self.fleet: Fleet | None = None
         self.forecast = None  # FleetForecast once loaded
         self.tests: dict | None = None  # serial -> rounds.NextTest, computed with the forecast
+        self.money = None  # costing.FleetMoney for the forecast shown, once weighed (after the forecast)
+        self.month_costs: dict[str, float] = {}  # serial -> expected cost of its month in the plan (costs set)
         self.seen_changes: int | None = None
         self.trouble: str = ""
         self.refreshing = False  # a saved pump's forecast is shown; the rest of the fleet's is coming
@@ -128,6 +145,7 @@ class LogbookApp(App):
                     count = fleet.data_version
                 else:
                     fleet = replace(fleet, data_version=count)
+                book = store.costs()
             if worker.is_cancelled:
                 return
             if self.forecast is None:
@@ -144,8 +162,30 @@ class LogbookApp(App):
             if not worker.is_cancelled:
                 self.post_message(DataTrouble(trouble_text(exc)))
             return
+        if worker.is_cancelled:
+            return
+        self.post_message(DataLoaded(fleet, forecast, count, reason, tests))
+        try:  # the money after the forecast is on screen: weighing and the least-cost plan take a moment
+            from logbook.costing import fleet_money
+            from logbook.plan import PlanSettings, add_months, make_plan, month_start
+
+            settings = PlanSettings(start_month=month_start(self.today), horizon_months=PLAN_MONTHS)
+            money = fleet_money(book, fleet, forecast, (add_months(settings.start_month, PLAN_MONTHS) - self.today).days)
+            plan = make_plan(forecast, settings, money.costs) if money.costs is not None else None
+        except Exception as exc:
+            if not worker.is_cancelled:
+                self.post_message(DataTrouble(trouble_text(exc)))
+            return
         if not worker.is_cancelled:
-            self.post_message(DataLoaded(fleet, forecast, count, reason, tests))
+            self.post_message(MoneyLoaded(forecast, money, plan))
+
+    def on_money_loaded(self, message: MoneyLoaded) -> None:
+        if message.forecast is not self.forecast:
+            return  # a newer forecast is shown; its own money follows
+        self.money = message.money
+        self.month_costs = {line.serial: line.expected_cost for line in message.plan.lines
+                            if line.expected_cost is not None} if message.plan is not None else {}
+        self.data_generation += 1
 
     def _post_pump(self, fleet: Fleet, serial: str, basis: Fleet, worker) -> None:
         """Forecast one pump pooled with its model's pumps, as the fleet view would, and

@@ -38,21 +38,24 @@ def fleet_columns(width: int, serial_width: int = 7) -> FleetLayout:
     """Columns that fit ``width`` cells (one space between columns).
 
     The narrow layout (80 columns) shows months for P50/P10, short kind names, the next
-    reading in four cells ("due", "12d") and no trend; each step up adds detail while it
-    still fits: the trend arrow, full dates, full status, longer machine/position, the
-    site, kind names, trend words.
+    reading in four cells ("due", "12d"), the expected cost of the planned month in five
+    ("8.4k") and no model or trend; each step up adds detail while it still fits: the
+    model, the trend arrow, full dates, full status, the site, longer machine/position,
+    kind names, trend words.
     """
-    w = {"serial": max(6, min(serial_width, 12)), "where": 15, "model": 6, "hours": 6, "kind": 5,
-         "p50": 7, "p10": 7, "trend": 0, "status": 15, "next": 4, "site": 0}
+    w = {"serial": max(6, min(serial_width, 12)), "where": 15, "model": 0, "hours": 6, "kind": 5,
+         "p50": 7, "p10": 7, "trend": 0, "status": 15, "next": 4, "site": 0, "cost": 5}
     full_dates = long_kind = trend_words = False
 
     def total() -> int:
         shown = [v for v in w.values() if v]
         return sum(shown) + len(shown) - 1
 
-    for step in ("arrow", "dates", "status", "where", "site", "kind", "trend"):
+    for step in ("model", "arrow", "dates", "status", "site", "where", "kind", "trend"):
         before = dict(w)
-        if step == "arrow":
+        if step == "model":
+            w["model"] = 6
+        elif step == "arrow":
             w["trend"] = 1
         elif step == "dates":
             w["p50"] = w["p10"] = 10
@@ -89,6 +92,7 @@ def fleet_columns(width: int, serial_width: int = 7) -> FleetLayout:
         "trend": "Trend" if trend_words else "T",
         "status": "Status",
         "next": "Next",
+        "cost": "Cost",
     }
     columns = tuple(ColumnSpec(key, clip(label, w[key]), w[key]) for key, label in labels.items() if w[key])
     return FleetLayout(columns, full_dates, long_kind, trend_words)

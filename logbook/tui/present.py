@@ -118,10 +118,30 @@ def is_reading_due(tests, serial: str, today: date) -> bool:
     return test is not None and test.is_due(today)
 
 
-def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | None = None) -> tuple[Column, ...]:
+def short_money(value: float | None) -> str:
+    """An amount in at most five cells: 980, 8.4k, 125k, 1.2M, 35M ('' for none)."""
+    if value is None or value != value:
+        return ""
+    v = abs(value)
+    sign = "-" if value < 0 else ""
+    if v < 999.5:
+        return f"{sign}{v:.0f}"
+    if v < 9_950:
+        return f"{sign}{v / 1e3:.1f}k"
+    if v < 999_500:
+        return f"{sign}{v / 1e3:.0f}k"
+    if v < 9_950_000:
+        return f"{sign}{v / 1e6:.1f}M"
+    return f"{sign}{v / 1e6:.0f}M"
+
+
+def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | None = None,
+                 costs: dict[str, float] | None = None) -> tuple[Column, ...]:
     """The columns of ``layout.fleet_columns`` (what fits ``width``) with how each cell
     is worded (user text made ``fmt.visible``), clipped to its column; ``tests`` (serial -> rounds.NextTest, None while
-    not computed) words the next-reading column as of ``today``."""
+    not computed) words the next-reading column as of ``today``; ``costs`` (serial -> expected cost of its
+    month in the plan; empty or None without costs) the cost column, blank for a pump the plan does not take."""
+    costs = costs or {}
     spec = fleet_columns(width, serial_width)
     day = fmt.day if spec.full_dates else _month
     cells: dict[str, Callable[[PumpForecast], str]] = {
@@ -136,6 +156,7 @@ def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | No
         "trend": (lambda p: " ".join(trend(p.worst))) if spec.trend_words else (lambda p: trend(p.worst)[0]),
         "status": lambda p: p.status or "-",
         "next": (lambda p: "") if tests is None or today is None else (lambda p: next_cell(tests.get(p.serial), today)),
+        "cost": lambda p: short_money(costs.get(p.serial)),
     }
     return tuple(
         Column(c.key, c.label, c.width, (lambda cell, w: lambda p: clip(fmt.visible(cell(p)), w))(cells[c.key], c.width))
@@ -164,12 +185,24 @@ SORT_KEYS: dict[str, Callable[[PumpForecast], tuple]] = {
     "trend": lambda p: (trend(p.worst)[1], urgency_key(p)),
     "status": urgency_key,
 }
-SORT_ORDER = ("status", "p10", "next", "p50", "hours", "serial", "where", "site", "model", "kind", "trend")
+SORT_ORDER = ("status", "p10", "next", "cost", "p50", "hours", "serial", "where", "site", "model", "kind", "trend")
 SORT_WORDS = {
     "status": "most urgent first", "p10": "P10 date", "p50": "P50 date", "hours": "hours since overhaul (most first)",
     "serial": "serial", "where": "machine and position", "site": "site", "model": "model",
     "kind": "reading closest to its limit", "trend": "trend", "next": "next reading (soonest first)",
+    "cost": "expected cost of the planned month (dearest first)",
 }
+
+
+def cost_sort_key(costs: dict[str, float] | None) -> Callable[[PumpForecast], tuple]:
+    """Dearest planned month first; pumps the plan does not cost last, most urgent first."""
+    costs = costs or {}
+
+    def key(pf: PumpForecast) -> tuple:
+        value = costs.get(pf.serial)
+        return (value is None, -(value or 0.0), urgency_key(pf))
+
+    return key
 
 
 def next_sort_key(tests, today: date | None) -> Callable[[PumpForecast], tuple]:
@@ -200,6 +233,7 @@ def provisional_pumps(fleet) -> list[PumpForecast]:
 def select_pumps(
     pumps, *, site: str | None = None, model: str | None = None, status: str | None = None,
     sort_key: str = "status", reverse: bool = False, due: bool = False, tests=None, today: date | None = None,
+    costs: dict[str, float] | None = None,
 ) -> list[PumpForecast]:
     """The pumps passing the filters (None = any; ``due``: only pumps whose next reading
     in ``tests`` is due by ``today``), in the order of one column."""
@@ -210,7 +244,8 @@ def select_pumps(
         and (status is None or p.status == status)
         and (not due or (today is not None and is_reading_due(tests, p.serial, today)))
     ]
-    key = next_sort_key(tests, today) if sort_key == "next" else SORT_KEYS[sort_key]
+    key = next_sort_key(tests, today) if sort_key == "next" else cost_sort_key(costs) if sort_key == "cost" \
+        else SORT_KEYS[sort_key]
     chosen.sort(key=key, reverse=reverse)
     return chosen
 

@@ -133,8 +133,8 @@ async def test_narrow_layout_shows_months_and_the_next_reading(demo_app):
         await settle(demo_app, pilot)
         table = _table(demo_app)
         keys = [c.value for c in table.columns]
-        # at 80 columns the trend arrow gives way to the next reading; the status stays whole
-        assert keys == ["serial", "where", "model", "hours", "kind", "p50", "p10", "status", "next"]
+        # at 80 columns the trend arrow and the model give way to the next reading and the cost; the status stays whole
+        assert keys == ["serial", "where", "hours", "kind", "p50", "p10", "status", "next", "cost"]
         assert "△ plan overhaul" in _column(demo_app, "status")
         assert sum(c.width for c in table.columns.values()) <= 79
         p10 = [d for d in _column(demo_app, "p10") if d != "-"]

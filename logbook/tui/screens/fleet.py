@@ -71,6 +71,7 @@ class FleetScreen(Screen):
         self._forecast_shown = False  # the rows come from a forecast (not the provisional list)
         self._shown: list = []  # the pump forecast behind each row, in row order
         self._shown_tests: list = []  # the next reading (rounds.NextTest) behind each row
+        self._shown_costs: list = []  # the expected cost of its planned month behind each row
         self._stale = False  # new data arrived while another screen covered this one
         self.filters: dict[str, str | None] = {"site": None, "model": None, "status": None, "due": None}
 
@@ -169,33 +170,37 @@ class FleetScreen(Screen):
             everything, site=self._filter_value("site"), model=self._filter_value("model"),
             status=self._filter_value("status"), sort_key=self.sort_key if forecast is not None else "where",
             reverse=self.reverse, due=bool(self._filter_value("due")), tests=self.app.tests, today=self.app.today,
+            costs=self.app.month_costs,
         )
         tests = self.app.tests or {}
         shown_tests = [tests.get(p.serial) for p in pumps]
+        shown_costs = [self.app.month_costs.get(p.serial) for p in pumps]
         rebuilt = self._ensure_columns(table)
-        columns = present.fleet_layout(*self._layout_size, tests=self.app.tests, today=self.app.today)
-        if not (not rebuilt and self._update_in_place(table, columns, pumps, shown_tests)):
+        columns = present.fleet_layout(*self._layout_size, tests=self.app.tests, today=self.app.today,
+                                       costs=self.app.month_costs)
+        if not (not rebuilt and self._update_in_place(table, columns, pumps, shown_tests, shown_costs)):
             table.clear()
             self.serials = [p.serial for p in pumps]
             table.add_rows([[Cell(c.cell(p)) for c in columns] for p in pumps])
             if keep in self.serials:
                 table.move_cursor(row=self.serials.index(keep), animate=False)
-        self._shown, self._shown_tests = pumps, shown_tests
+        self._shown, self._shown_tests, self._shown_costs = pumps, shown_tests, shown_costs
         self._update_title(everything)
         self._update_status(pumps, everything)
 
     #: Above this many changed rows the table is refilled rather than updated cell by cell.
     IN_PLACE_ROWS = 20
 
-    def _update_in_place(self, table: DataTable, columns, pumps, tests) -> bool:
+    def _update_in_place(self, table: DataTable, columns, pumps, tests, costs) -> bool:
         """Rewrite only the rows whose forecast changed (one saved pump) when the order
         is the same; False when the table has to be refilled."""
         if [p.serial for p in pumps] != self.serials or len(self._shown) != len(pumps) or table.row_count != len(pumps):
             return False
-        if len(self._shown_tests) != len(tests):
+        if len(self._shown_tests) != len(tests) or len(self._shown_costs) != len(costs):
             return False
-        changed = [i for i, (was, now, was_t, now_t) in enumerate(zip(self._shown, pumps, self._shown_tests, tests))
-                   if was is not now or was_t != now_t]
+        changed = [i for i, (was, now, was_t, now_t, was_c, now_c)
+                   in enumerate(zip(self._shown, pumps, self._shown_tests, tests, self._shown_costs, costs))
+                   if was is not now or was_t != now_t or was_c != now_c]
         if len(changed) > self.IN_PLACE_ROWS:
             return False
         for row in changed:
@@ -238,8 +243,11 @@ class FleetScreen(Screen):
         parts = [f"{n} {s}" for s, n in sorted(counts.items(), key=lambda kv: present.status_rank(kv[0]))]
         order = present.SORT_WORDS[self.sort_key] + (", reversed" if self.reverse else "")
         due = sum(1 for p in pumps if present.is_reading_due(self.app.tests, p.serial, self.app.today))
+        money = self.app.money
+        cost = [f"cost in {money.currency or 'no currency'}"] \
+            if money is not None and money.costs is not None else []
         line = " · ".join([f"{len(pumps)} of {len(everything)} shown", f"{due} {READING_DUE}", f"sorted: {order}"]
-                          + (["; ".join(parts)] if parts else []))
+                          + cost + (["; ".join(parts)] if parts else []))
         if self.app.refreshing:
             line += " · re-forecasting the other pumps…"
         if self.app.trouble:
