@@ -397,6 +397,7 @@ def _greedy(candidates: list[tuple], settings: PlanSettings, today: date):
     months: dict[str, date] = {}
     unplaced: dict[str, str] = {}
     in_shop = []
+    p10: dict[str, date | None] = {}
     for _, serial, pf, kf, due, shop in candidates:
         target = _target(kf, settings)
         if kf.outcome is Outcome.CROSSING and kf.p10_date is None:
@@ -410,6 +411,7 @@ def _greedy(candidates: list[tuple], settings: PlanSettings, today: date):
             else:
                 months[serial] = month
                 in_shop.append((serial, pf, target))
+                p10[serial] = kf.p10_date if kf.outcome is not Outcome.PAST_LIMIT else None
 
     second = _Shop(settings)
     second_months = {}
@@ -422,7 +424,23 @@ def _greedy(candidates: list[tuple], settings: PlanSettings, today: date):
     if len(second_months) == len(in_shop):
         months.update(second_months)
         shop = second
+    _p10_order(months, in_shop, p10)
     return months, unplaced, shop
+
+
+def _p10_order(months: dict[str, date], in_shop: list[tuple], p10: dict[str, date | None]) -> None:
+    """Within each site and model, the earlier P10 gets the earlier month: the months the
+    pass gave that group are handed out again in P10 order (ties: the pass's own, most
+    urgent first). Pumps of one site and model load the same shop, site and exchange pool,
+    so every load stays as it was; and as each pump's month was no later than its P10
+    month, the sorted hand-out keeps that too (the earliest month to the earliest deadline)."""
+    groups: dict[tuple, list[tuple]] = {}
+    for rank, (serial, pf, target) in enumerate(in_shop):  # past its limit (no P10 date): first
+        groups.setdefault((pf.site or NO_SITE, pf.model), []).append((p10[serial] or date.min, rank, serial))
+    for members in groups.values():
+        given = sorted(months[serial] for _, _, serial in members)
+        for month, (_, _, serial) in zip(given, sorted(members)):
+            months[serial] = month
 
 
 def _least_cost(candidates, settings: PlanSettings, today: date, costs: PlanCosts, greedy: dict[str, date]):
