@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 from logbook import validate
-from logbook.commands.record import NUMERIC_OPTIONS, parse_with_unit
+import dataclasses
+
+from logbook.commands.record import NUMERIC_OPTIONS, add_confirm, parse_with_unit, stopped_at_doubts
 from logbook.model import InputRejected, Problem
 
 # option dest -> Reading field
@@ -38,6 +40,7 @@ def register(sub) -> None:
     p.add_argument("--iso4406", default=None, help="cleanliness code, e.g. 18/16/13")
     p.add_argument("--technician", default=None)
     p.add_argument("--note", default=None)
+    add_confirm(p)
     p.set_defaults(func=run)
 
 
@@ -94,6 +97,12 @@ def changes_from_args(args, ctx) -> dict:
 def run(args, ctx) -> int:
     changes = changes_from_args(args, ctx)
     with ctx.open_store() as store:
+        original = store.reading(args.reading_id)
+        if original is not None and original.superseded_by is None and original.removed_reason is None:
+            corrected = dataclasses.replace(original, id=None, **changes)
+            if stopped_at_doubts(ctx, store.reading_doubts(corrected, ctx.units, without=[original.id]),
+                                 args.confirm, "corrected"):
+                return 2
         saved = store.correct_reading(args.reading_id, reason=args.reason, today=ctx.today, **changes)
     ctx.console.print(
         f"reading {args.reading_id} corrected: reading {saved.id} replaces it for {saved.serial} on {saved.taken_on} "

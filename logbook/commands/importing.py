@@ -41,7 +41,10 @@ def run(args, ctx) -> int:
         if check and report.added and not report.problems:
             from dataclasses import replace
 
-            from logbook.rounds import import_second_look
+            from logbook.plausible import fleet_doubts
+            from logbook.rounds import import_second_look, new_readings
 
-            report = replace(report, flagged=[*report.flagged, *import_second_look(before, store.fleet(), ctx.today)])
+            after = store.fleet()
+            report = replace(report, flagged=[*report.flagged, *import_second_look(before, after, ctx.today),
+                                              *fleet_doubts(after, new_readings(before, after), ctx.units)])
     return print_report(ctx, report, str(args.file))

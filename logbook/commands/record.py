@@ -5,6 +5,7 @@ from __future__ import annotations
 from logbook import fmt, units, validate
 from logbook.cautions import SAFETY
 from logbook.model import InputRejected, Kind, Problem, Reading
+from logbook.plausible import CONFIRM_FLAG
 
 # option -> (field spec name, quantity default unit attribute of UnitPrefs)
 NUMERIC_OPTIONS = {
@@ -64,7 +65,25 @@ def register(sub) -> None:
     p.add_argument("--technician", default="", help="who took the reading")
     p.add_argument("--note", default="")
     p.add_argument("--dry-run", action="store_true", help="check only, write nothing")
+    add_confirm(p)
     p.set_defaults(func=run)
+
+
+def add_confirm(p) -> None:
+    p.add_argument(CONFIRM_FLAG, dest="confirm", action="store_true",
+                   help="save values that look wrong (an hour meter jump, oil outside the test window, a big "
+                        "step from the previous reading) after checking them")
+
+
+def stopped_at_doubts(ctx, doubts, confirm: bool, verb: str = "recorded") -> bool:
+    """Print the doubts and say which flag saves anyway; True when the command must stop."""
+    if not doubts or confirm:
+        return False
+    ctx.err.print(f"[bold]Not {verb}[/bold] - nothing was written; these values look wrong:")
+    for doubt in doubts:
+        ctx.err.print(f"  - {doubt}", markup=False)
+    ctx.err.print(f"If they are right, run the same command again with {CONFIRM_FLAG}.", markup=False)
+    return True
 
 
 def build_reading(args, ctx) -> Reading:
@@ -106,8 +125,15 @@ def run(args, ctx) -> int:
             report = store.add_readings([reading], today=ctx.today, dry_run=True)
             if report.problems:
                 raise InputRejected(report.problems)
+            if stopped_at_doubts(ctx, store.reading_doubts(reading, ctx.units), args.confirm, "checked"):
+                return 2
             ctx.console.print("reading is valid; nothing written (--dry-run)")
             return 0
+        report = store.add_readings([reading], today=ctx.today, dry_run=True)
+        if report.problems:
+            raise InputRejected(report.problems)  # refusals first: a doubt is only a question
+        if stopped_at_doubts(ctx, store.reading_doubts(reading, ctx.units), args.confirm):
+            return 2
         previous = store.readings(reading.serial)
         saved = store.add_reading(reading, today=ctx.today)
         ctx.console.print(f"recorded reading {saved.id} for {saved.serial} on {saved.taken_on} ({saved.machine})", markup=False)

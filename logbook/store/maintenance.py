@@ -9,6 +9,7 @@ from datetime import date
 from pathlib import Path
 
 from logbook import meter
+from logbook.plausible import meter_doubt
 from logbook.store.core import StoreError, integrity_summary
 
 BACKUP_MODE = 0o660
@@ -163,18 +164,25 @@ class MaintenanceMixin:
             by_era: dict[int, list[tuple[date, float, str]]] = defaultdict(list)
             for p in points[machine]:
                 by_era[tl.era(p[0])].append(p)
-            bad = []
+            bad, jumps = [], []
             for era_points in by_era.values():
                 era_points.sort(key=lambda p: (p[0], p[1]))
                 highest = None
                 for p in era_points:
                     if highest is not None and p[1] < highest[1] - 1e-9:
                         bad.append(f"{machine}: {p[1]:g} h on {p[0]} ({p[2]}) after {highest[1]:g} h on {highest[0]} ({highest[2]})")
+                    elif highest is not None and (doubt := meter_doubt(p[0], p[1], highest[:2], None)) is not None:
+                        jumps.append(f"{machine}: {p[1]:g} h on {p[0]} ({p[2]}) after {highest[1]:g} h on {highest[0]} "
+                                     f"({highest[2]}): {doubt.reason}")
                     if highest is None or p[1] > highest[1]:
                         highest = p
             findings += [Finding("hour meter", f"runs backwards on {b}") for b in bad[:MAX_LISTED]]
             if len(bad) > MAX_LISTED:
                 findings.append(Finding("hour meter", f"{machine}: ... and {len(bad) - MAX_LISTED} more"))
+            findings += [Finding("hour meter", f"jumps implausibly on {j}; correct the reading if it was "
+                                 "mistyped") for j in jumps[:MAX_LISTED]]
+            if len(jumps) > MAX_LISTED:
+                findings.append(Finding("hour meter", f"{machine}: ... and {len(jumps) - MAX_LISTED} more jumps"))
         return findings
 
     def _check_fitments(self) -> list[Finding]:

@@ -284,6 +284,52 @@ class RecordsMixin:
         self._audit("import", kind, cur.lastrowid, None, None, {"file": source[0], "sha256": source[1], "rows": count})
         return int(cur.lastrowid)
 
+    # -- plausibility (the rules are logbook.plausible's; the store gathers their context) --
+    def plausibility_context(self, reading: Reading, *, without: Sequence[int] = ()):
+        """What ``logbook.plausible`` needs to question ``reading``: its pump's model, earlier
+        readings and events, and its machine's meter records before that day (same meter).
+        Reads only that pump and that machine. None for an unknown pump or one not fitted."""
+        from logbook.plausible import Context
+        from logbook.store.reads import event_from_row, reading_from_row
+        from logbook.store.writes import _METER_POINTS
+
+        row = self.conn.execute("SELECT model FROM pumps WHERE serial = ?", (reading.serial,)).fetchone()
+        if row is None:
+            return None
+        model = self.models().get(row[0])  # a handful of rows
+        fit = meter.fitment_on(self._fitments_of(reading.serial), reading.taken_on)
+        if model is None or fit is None:
+            return None
+        skip = set(without)
+        day = reading.taken_on.isoformat()
+        reps = [r[0] for r in self.conn.execute(
+            "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
+            (fit.machine,))]
+        start = max((d for d in reps if d <= day), default="0000-00-00")
+        points = tuple(
+            (date.fromisoformat(on), hours) for on, hours in self.conn.execute(
+                _METER_POINTS + "on_day < ? ORDER BY on_day",
+                (fit.machine, json.dumps(sorted(skip)), fit.machine, fit.machine, fit.machine, start, day, day))
+            if hours is not None
+        )
+        earlier = tuple(
+            r for r in (reading_from_row(dict(row)) for row in self.db.query(
+                "SELECT * FROM readings WHERE serial = ? AND taken_on <= ? AND superseded_by IS NULL "
+                "AND removed_reason IS NULL ORDER BY taken_on, machine_hours, id", [reading.serial, day]))
+            if r.id not in skip and (r.taken_on, r.machine_hours) != (reading.taken_on, reading.machine_hours)
+        )
+        events = tuple(event_from_row(dict(row)) for row in self.db.query(
+            "SELECT * FROM events WHERE serial = ? AND happened_on <= ? AND removed_reason IS NULL "
+            "ORDER BY happened_on, id", [reading.serial, day]))
+        return Context(model, points, earlier, events)
+
+    def reading_doubts(self, reading: Reading, prefs=None, *, without: Sequence[int] = ()) -> list:
+        """``logbook.plausible.reading_doubts`` for ``reading`` against what is stored."""
+        from logbook.plausible import reading_doubts
+
+        ctx = self.plausibility_context(reading, without=without)
+        return [] if ctx is None else reading_doubts(reading, ctx, prefs)
+
     def add_reading(self, reading: Reading, *, today: date) -> Reading:
         """Record one reading; raises InputRejected with every problem, writing nothing."""
         report = self.add_readings([reading], today=today)

@@ -83,21 +83,23 @@ def _shown(canonical: float | None, unit: str) -> str:
     return f"{value:.4g}" if abs(value) < 10_000 else f"{value:.0f}"
 
 
-def reading_prefill(history: PumpHistory, prefs: UnitPrefs, today: date) -> dict[str, str]:
-    """Start values: today, the last test conditions of this pump, else the model's."""
+def reading_prefill(history: PumpHistory, prefs: UnitPrefs, today: date, user: str = "") -> dict[str, str]:
+    """Start values: only what is known before anything is measured: today, the model's
+    test conditions (the pressure and speed its test is run at), the oil in the machine
+    (the last reading's grade and VI, else the model's reference oil: a blank would
+    normalize with the reference oil) and the signed-in user as technician. No measured
+    value and no name comes from the last reading or the last pump of a round; the form
+    marks these as prefilled until changed."""
     m = history.model
     last = history.readings[-1] if history.readings else None
-    pressure = last.test_pressure_bar if last and last.test_pressure_bar else m.ref_pressure_bar
-    speed = last.test_speed_rpm if last and last.test_speed_rpm else m.test_speed_rpm
     return {
         "date": today.isoformat(),
-        "test_pressure": _shown(pressure, prefs.pressure),
-        "test_speed": _shown(speed, ""),
+        "test_pressure": _shown(m.ref_pressure_bar, prefs.pressure),
+        "test_speed": _shown(m.test_speed_rpm, ""),
         "oil_grade": str(last.oil_grade if last and last.oil_grade else m.oil_grade),
         "oil_vi": _shown(last.oil_vi if last and last.oil_vi else m.oil_vi, ""),
-        # An input box shows its text raw: a name with control characters is not offered
-        # again (typed anew, it is stored as typed; the views show the stored one escaped).
-        "technician": last.technician if last and fmt.visible(last.technician) == last.technician else "",
+        # An input box shows its text raw: a name with control characters is not offered.
+        "technician": user if fmt.visible(user) == user else "",
     }
 
 

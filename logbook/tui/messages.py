@@ -65,11 +65,21 @@ class ChangesSeen(Message):
 class Checked(Message):
     """A dry run of a form's record against the store: the problems it found."""
 
-    def __init__(self, token: int, problems: list[Problem], text: str = "") -> None:
+    def __init__(self, token: int, problems: list[Problem], text: str = "", doubts=()) -> None:
         super().__init__()
         self.token = token
         self.problems = problems
         self.text = text  # store trouble (locked, ...) rather than problems with the input
+        self.doubts = list(doubts)  # logbook.plausible.Doubt: values that look wrong (asked, not refused)
+
+
+class Doubted(Message):
+    """A save stopped at values that look wrong: the form asks to confirm them."""
+
+    def __init__(self, record, doubts) -> None:
+        super().__init__()
+        self.record = record
+        self.doubts = list(doubts)
 
 
 class Saved(Message):

@@ -22,10 +22,11 @@ def crossing_pump(app):
 
 
 def meter_now(app, machine: str) -> float:
-    """A little above the highest hour-meter record of ``machine``."""
-    hours = [r.machine_hours for r in app.fleet.readings if r.machine == machine]
-    hours += [e.hours for e in app.fleet.events if e.machine == machine and e.hours is not None]
-    return max(hours) + 12.0
+    """A little above the latest hour-meter record of ``machine`` (its current meter: an
+    older meter may have read more before it was replaced)."""
+    records = [(r.taken_on, r.machine_hours) for r in app.fleet.readings if r.machine == machine]
+    records += [(e.happened_on, e.hours) for e in app.fleet.events if e.machine == machine and e.hours is not None]
+    return max(records)[1] + 12.0
 
 
 def text(widget) -> str:
@@ -68,7 +69,7 @@ async def test_a_valid_reading_is_saved_compared_and_changes_the_forecast(demo_a
         assert "accepts" in text(form.query_one("#check"))  # the store's dry run found nothing wrong
         await pilot.press("f2")
         await settle(app, pilot)
-        assert demo_store.counts()["readings"] == before_count + 1
+        assert demo_store.counts()["readings"] == before_count + 1, text(form.query_one("#check"))
         saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
         assert len(saved) == 1 and abs(saved[0].case_drain_lpm - round(limit * 0.8, 2)) < 1e-9
         old = pf.worst

@@ -4,15 +4,17 @@ store (in a thread, debounced), and a save in a thread that reports back by mess
 from __future__ import annotations
 
 from textual import on, work
+from textual.actions import SkipAction
 from textual.binding import Binding
 from textual.screen import Screen
+from textual.widget import Widget
 from textual.widgets import Input, Static
 from textual.worker import get_current_worker
 
 from logbook.model import InputRejected, Problem
 from logbook.tui.forms import FieldDef, field_of
 from logbook.tui.gate import trouble_text
-from logbook.tui.messages import Checked, Rejected, Saved
+from logbook.tui.messages import Checked, Doubted, Rejected, Saved
 from logbook.tui.widgets.field import FormField
 
 CHECK_DELAY_S = 0.35
@@ -25,9 +27,16 @@ class EntryScreen(Screen):
 
     BINDINGS = [
         Binding("f2", "save", "Save", key_display="F2", tooltip="save (the logbook checks everything first)", id="entry.save"),
-        Binding("escape", "back", "Back", tooltip="leave the form; what is not saved is dropped", id="entry.back"),
-        Binding("down", "app.focus_next", "Next field", show=False, id="entry.down"),
-        Binding("up", "app.focus_previous", "Previous field", show=False, id="entry.up"),
+        Binding("escape", "back", "Back", tooltip="leave the form (asks first when something was typed)", id="entry.back"),
+        # The form moves focus itself, as each key arrives: priority bindings are run by the
+        # app before it hands the next key on, so a digit typed right after Tab lands in the
+        # next field however fast it follows (the framework's own focus change is queued
+        # behind the keys already sent, and a burst would land in the old field).
+        Binding("tab", "next_field", "Next field", show=False, priority=True, id="entry.tab"),
+        Binding("shift+tab", "previous_field", "Previous field", show=False, priority=True, id="entry.backtab"),
+        Binding("enter", "enter_field", "Next field", show=False, priority=True, id="entry.enter"),
+        Binding("down", "down_field", "Next field", show=False, priority=True, id="entry.down"),
+        Binding("up", "up_field", "Previous field", show=False, priority=True, id="entry.up"),
     ]
 
     def __init__(self) -> None:
@@ -37,6 +46,7 @@ class EntryScreen(Screen):
         self._timer = None
         self._touched = False
         self.saving = False
+        self._confirmed = None  # the record whose doubts were shown: F2 again saves it
 
     # -- fields ------------------------------------------------------------------------
     def make_field(self, d: FieldDef, value: str = "") -> FormField:
@@ -56,10 +66,47 @@ class EntryScreen(Screen):
                 problems.append(problem)
         return values, problems
 
+    # -- focus, moved by the form in key order -----------------------------------------------
+    def focus_order(self) -> list[Widget]:
+        """The widgets Tab walks through, in order (subclasses may put a chooser first)."""
+        return [f.input for f in self.active_fields().values()]
+
+    def _move(self, step: int, *, inputs_only: bool, wrap: bool) -> None:
+        order = self.focus_order()
+        here = self.focused
+        if here not in order or (inputs_only and not isinstance(here, Input)):
+            raise SkipAction()  # a chooser, a dialog or a button: its own keys
+        i = order.index(here) + step
+        if not 0 <= i < len(order):
+            if not wrap:
+                if step > 0:
+                    self.at_last_field()
+                return
+            i %= len(order)
+        self.set_focus(order[i])  # at once: the next key already goes to the new field
+
+    def action_next_field(self) -> None:
+        self._move(+1, inputs_only=False, wrap=True)
+
+    def action_previous_field(self) -> None:
+        self._move(-1, inputs_only=False, wrap=True)
+
+    def action_enter_field(self) -> None:
+        self._move(+1, inputs_only=True, wrap=False)
+
+    def action_down_field(self) -> None:
+        self._move(+1, inputs_only=True, wrap=False)
+
+    def action_up_field(self) -> None:
+        self._move(-1, inputs_only=True, wrap=False)
+
+    def at_last_field(self) -> None:
+        """Enter or Down on the last field: stay in it and say how to save."""
+        self.notify("Last field. F2 saves; Tab goes back to the first field.", timeout=3)
+
     @on(Input.Submitted)
     def _enter_moves_on(self, event: Input.Submitted) -> None:
-        event.stop()
-        self.focus_next()
+        event.stop()  # Enter is the form's (action_enter_field); never leave the fields
 
     @on(Input.Changed)
     def _typed(self, event: Input.Changed) -> None:
@@ -90,20 +137,35 @@ class EntryScreen(Screen):
     @work(thread=True, exclusive=True, group="entry-check")
     def _check_worker(self, token: int, record) -> None:
         worker = get_current_worker()
+        doubts = []
         try:
             with self.app.gate.open() as store:
                 problems = self.dry_run(store, record)
+                if not problems:
+                    doubts = self.doubts(store, record)
         except Exception as exc:
             problems, text = [], trouble_text(exc)
         else:
             text = ""
         if not worker.is_cancelled:
-            self.post_message(Checked(token, problems, text))
+            self.post_message(Checked(token, problems, text, doubts))
 
     def on_checked(self, message: Checked) -> None:
         if message.token != self._token:
             return  # an older check; the form has changed since
         self.show_check(message.problems, message.text)
+        if message.doubts and not message.problems and not message.text:
+            self.show_doubts(message.doubts, "The logbook accepts this, but asks (F2 shows it again before saving):")
+
+    def show_doubts(self, doubts, head: str) -> None:
+        """Values that look wrong: under their fields and in the check line (never moves focus)."""
+        names = self.active_fields()
+        for d in doubts:
+            if d.field in names:
+                names[d.field].show_problem(f"? {d.reason}")
+        check = self.query_one("#check", Static)
+        check.update(f"? {head}\n" + "\n".join(f"  • {d}" for d in doubts))
+        check.add_class("-bad")
 
     def show_check(self, problems: list[Problem] | None, text: str = "") -> None:
         check = self.query_one("#check", Static)
@@ -148,12 +210,17 @@ class EntryScreen(Screen):
             return
         self.saving = True
         self._token += 1  # drop any check still running
-        self._save_worker(record)
+        confirmed = self._confirmed is not None and self._confirmed == record
+        self._save_worker(record, confirmed)
 
     @work(thread=True, exclusive=True, group="entry-save")
-    def _save_worker(self, record) -> None:
+    def _save_worker(self, record, confirmed: bool = False) -> None:
         try:
             with self.app.gate.open() as store:
+                doubts = [] if confirmed else self.doubts(store, record)
+                if doubts:
+                    self.post_message(Doubted(record, doubts))
+                    return
                 saved = self.write(store, record)
         except InputRejected as exc:
             self.post_message(Rejected(exc.problems))
@@ -161,6 +228,13 @@ class EntryScreen(Screen):
             self.post_message(Rejected([], trouble_text(exc)))
         else:
             self.post_message(Saved(saved))
+
+    def on_doubted(self, message: Doubted) -> None:
+        self.saving = False
+        self._confirmed = message.record
+        self.show_doubts(message.doubts, "Not saved yet: these values look wrong. Fix them, or press F2 again to "
+                                         "save them as typed.")
+        self.rejected(message)
 
     def on_rejected(self, message: Rejected) -> None:
         self.saving = False
@@ -172,6 +246,8 @@ class EntryScreen(Screen):
 
     def on_saved(self, message: Saved) -> None:
         self.saving = False
+        self._confirmed = None
+        self._touched = False
         self.app.reload("saved", message.record)  # its pump first, then the fleet
         self.saved(message.record)
 
@@ -182,6 +258,10 @@ class EntryScreen(Screen):
     def dry_run(self, store, record) -> list[Problem]:
         raise NotImplementedError
 
+    def doubts(self, store, record) -> list:
+        """Values that look wrong (logbook.plausible), asked about before saving."""
+        return []
+
     def write(self, store, record):
         raise NotImplementedError
 
@@ -191,5 +271,18 @@ class EntryScreen(Screen):
     def rejected(self, message: Rejected) -> None:
         pass
 
+    def typed_values(self) -> bool:
+        """True when a field holds something the person typed and has not saved."""
+        return self._touched and any(f.edited for f in self.fields.values())
+
     def action_back(self) -> None:
-        self.app.pop_screen()
+        if not self.typed_values():
+            self.app.pop_screen()
+            return
+        from logbook.tui.screens.confirm import ConfirmLeave
+
+        def answer(leave: bool | None) -> None:
+            if leave:
+                self.app.pop_screen()
+
+        self.app.push_screen(ConfirmLeave(), answer)

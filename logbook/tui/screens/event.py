@@ -52,6 +52,9 @@ class EventScreen(SafetyKey, EntryScreen):
             yield Plain("", id="result")
         yield Footer(compact=True)
 
+    def focus_order(self):
+        return [self.query_one("#kind", Select), *super().focus_order()]
+
     def _safety_extra(self) -> tuple[str, ...]:
         return (RUNNING_MACHINE,) if self.kind in RUNNING_WORK else ()
 

@@ -55,8 +55,6 @@ class ReadingScreen(SafetyKey, EntryScreen):
 
     def load_pump(self, serial: str) -> None:
         """Show the form for ``serial``: prefilled, values of the last pump cleared."""
-        keep_date = self.fields["date"].text if self.serial != serial else None
-        keep_tech = self.fields["technician"].text if self.serial != serial else None
         self.serial = serial
         fleet = self.app.fleet
         if fleet is None or serial not in fleet.pumps:
@@ -64,14 +62,12 @@ class ReadingScreen(SafetyKey, EntryScreen):
             return
         history = fleet.history(serial)
         pf = self.app.pump_forecast(serial)
-        prefill = forms.reading_prefill(history, self.app.units, self.app.today)
-        if keep_date:
-            prefill["date"] = keep_date
-        if keep_tech:
-            prefill["technician"] = keep_tech
+        prefill = forms.reading_prefill(history, self.app.units, self.app.today, self.app.user)
         for name, field in self.fields.items():
             field.set_text(prefill.get(name, ""))
             field.show_problem("")
+        self._touched, self._confirmed = False, None
+        self._token += 1  # a check of the last pump's values says nothing here
         m, u = history.model, self.app.units
         last = history.readings[-1] if history.readings else None
         where = present.where(pf) if pf else "not fitted"
@@ -98,6 +94,9 @@ class ReadingScreen(SafetyKey, EntryScreen):
 
     def write(self, store, record: Reading) -> Reading:
         return store.add_reading(record, today=self.app.today)
+
+    def doubts(self, store, record: Reading) -> list:
+        return store.reading_doubts(record, self.app.units)
 
     def saved(self, reading: Reading) -> None:
         fleet = self.app.fleet

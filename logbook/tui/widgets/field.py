@@ -36,9 +36,23 @@ class FormField(Vertical):
         self._own_problem: Problem | None = None
         self._store_problem: str = ""
         self._programmatic: str | None = value  # a prefill's own change event is not the user's edit
+        self._prefill = value  # what the program put there; marked as prefilled until changed
 
     def on_mount(self) -> None:
         self._input.cursor_blink = getattr(self.app, "blink", True)
+        self._mark()
+
+    @property
+    def edited(self) -> bool:
+        """The text differs from what the program put there (the person typed something)."""
+        return self._input.value != self._prefill
+
+    @property
+    def prefilled(self) -> bool:
+        return bool(self._prefill) and not self.edited
+
+    def _mark(self) -> None:
+        self.set_class(self.prefilled, "-prefilled")
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="field-row"):
@@ -58,10 +72,12 @@ class FormField(Vertical):
     def set_text(self, text: str) -> None:
         """Set the text from the program (a prefill): not checked until the user edits it."""
         self._programmatic = text
+        self._prefill = text
         self._own_problem = None
         self._store_problem = ""
         self._input.value = text
         self._show()
+        self._mark()
 
     def check(self) -> tuple[object, Problem | None]:
         """Parse the text now and show or clear its message."""
@@ -90,4 +106,5 @@ class FormField(Vertical):
         self._programmatic = None
         event.programmatic = False
         self._store_problem = ""
+        self._mark()
         self.check()

@@ -1,0 +1,302 @@
+"""Plausibility of a reading at entry (pure: no SQL, no UI).
+
+A value can pass every field check and still be wrong: a digit typed twice in the hour
+meter, a value typed into the next box, oil far from the test temperature. These rules
+do not refuse; they ask. The TUI asks to confirm with the reason shown, ``logbook
+record`` and ``logbook correct`` need ``--confirm``, an import lists them per line and
+``logbook check`` reports stored hour meters that fail the meter rule. Every caller
+takes its doubts from here; the store only gathers the context (``Context``).
+
+The rules (common practice, no published source; the thresholds are ours):
+
+- Hour meter: a machine cannot run more than 24 h a day, so a meter that gained more
+  than 24 h per calendar day since the machine's previous meter record (plus one day of
+  slack: the times of day are not recorded) is asked about; so is a gain over
+  ``RATE_FACTOR`` times what the machine's utilisation (the engine's hours per day)
+  predicts for the days between, plus ``RATE_SLACK_H``.
+- Oil temperature outside the model's test window (the temperatures its test is taken at).
+- A wear reading that moved by more than ``CHANGE_SHARE`` of the model's limit since the
+  pump's previous reading of that kind, with no event between that restarts the trend
+  (an overhaul or a neutral re-set makes a big change expected). Case drain is compared
+  at reference conditions (the engine's normalization), so that a test at another
+  temperature or pressure is not mistaken for wear.
+- A wear reading outside the pump's forecast band (when the caller has one for the
+  reading's operating hours).
+"""
+
+from __future__ import annotations
+
+import bisect
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from datetime import date
+
+from logbook import fmt
+from logbook import units
+from logbook.model import ALL_KINDS, SEGMENT_RESETS, Event, EventKind, Fleet, Kind, PumpModel, Reading
+from logbook.units import UnitPrefs
+
+MAX_HOURS_PER_DAY = 24.0
+SLACK_DAYS = 1
+RATE_FACTOR = 3.0
+RATE_SLACK_H = 100.0
+CHANGE_SHARE = 0.5
+
+#: The labels of the entry forms, also used in every message about a field.
+LABELS = {
+    "date": "Date",
+    "machine_hours": "Hour meter",
+    "case_drain": "Case drain",
+    "servo_pressure": "Servo pressure",
+    "neutral_drift": "Neutral drift",
+    "oil_temp": "Oil temperature",
+    "test_pressure": "Test pressure",
+    "test_speed": "Test speed",
+    "oil_grade": "Oil ISO VG",
+    "oil_vi": "Oil VI",
+    "charge_pressure": "Charge pressure",
+    "iso4406": "ISO 4406",
+    "technician": "Technician",
+    "note": "Note",
+}
+
+CONFIRM_FLAG = "--confirm"
+
+
+@dataclass(frozen=True)
+class Doubt:
+    """A value that passed the checks but looks wrong: the field, the value as shown
+    (display units) and why it is asked about."""
+
+    field: str
+    shown: str
+    reason: str
+    line: int | None = None
+
+    @property
+    def label(self) -> str:
+        return LABELS.get(self.field, self.field)
+
+    def __str__(self) -> str:
+        where = f"line {self.line}: " if self.line is not None else ""
+        return f"{where}{self.label} {self.shown}: {self.reason}"
+
+
+@dataclass(frozen=True)
+class Context:
+    """What the rules need besides the reading (the store gathers it, the rules here use it).
+
+    ``meter_points``: the machine's hour-meter records (date, hours) before the reading's
+    date within the same meter (since its last replacement); ``earlier``: the pump's
+    current readings before this one; ``events``: the pump's events; ``bands``: per kind,
+    the forecast's (low, high) for the reading's operating hours, when the caller has them."""
+
+    model: PumpModel
+    meter_points: tuple[tuple[date, float], ...] = ()
+    earlier: tuple[Reading, ...] = ()
+    events: tuple[Event, ...] = ()
+    bands: dict[Kind, tuple[float, float]] = field(default_factory=dict)
+
+    @property
+    def meter_before(self) -> tuple[date, float] | None:
+        """The highest earlier record (the one a meter running backwards is told against)."""
+        return max(self.meter_points, key=lambda p: (p[1], p[0]), default=None)
+
+    def hours_per_day(self, today: date) -> float | None:
+        """The machine's utilisation from these records: the engine's own rule."""
+        if len(self.meter_points) < 2:
+            return None
+        import numpy as np
+
+        from logbook.analysis.utilisation import utilisation
+
+        day = np.array([d.toordinal() for d, _ in self.meter_points], dtype=np.int64)
+        hours = np.array([h for _, h in self.meter_points], dtype=float)
+        return utilisation(np.zeros(len(day), dtype=np.int64), day, hours, [0], today)[0]
+
+    def previous(self, kind: Kind, before: date) -> Reading | None:
+        """The pump's latest reading of ``kind`` before ``before`` in the current trend
+        (none when an event restarting the trend came after it)."""
+        last = max((r for r in self.earlier if r.taken_on <= before and r.value(kind) is not None),
+                   key=lambda r: (r.taken_on, r.machine_hours), default=None)
+        if last is None:
+            return None
+        for e in self.events:
+            if kind in SEGMENT_RESETS.get(e.kind, ()) and last.taken_on <= e.happened_on <= before:
+                return None
+        return last
+
+
+def meter_doubt(when: date, hours: float, before: tuple[date, float] | None, hours_per_day: float | None,
+                *, field_name: str = "machine_hours") -> Doubt | None:
+    """The hour-meter rule: ``hours`` on ``when`` against the machine's earlier record."""
+    if before is None:
+        return None
+    on, earlier = before
+    gain = hours - earlier
+    days = max((when - on).days, 0)
+    if gain <= 0:
+        return None
+    shown = fmt.hours(hours)
+    possible = MAX_HOURS_PER_DAY * (days + SLACK_DAYS)
+    if gain > possible:
+        return Doubt(field_name, shown,
+                     f"{fmt.hours(gain)} more than the {fmt.hours(earlier)} the machine read on {on.isoformat()}, "
+                     f"{days} day(s) earlier: more than {MAX_HOURS_PER_DAY:g} h a day (check for a digit typed "
+                     f"twice or a value from the next box)")
+    if hours_per_day is not None and hours_per_day > 0:
+        expected = hours_per_day * max(days, 1)
+        if gain > RATE_FACTOR * expected + RATE_SLACK_H:
+            return Doubt(field_name, shown,
+                         f"{fmt.hours(gain)} in {days} day(s) since {fmt.hours(earlier)} on {on.isoformat()}; the "
+                         f"machine runs about {hours_per_day:.1f} h a day ({fmt.hours(expected)} expected)")
+    return None
+
+
+def trended(reading: Reading, kind: Kind, model: PumpModel) -> float | None:
+    """The value compared between readings: the engine's trended value (case drain at
+    reference conditions), signed for neutral drift (a sign flip is a change too)."""
+    if kind is not Kind.CASE_DRAIN:
+        return reading.value(kind)
+    from logbook.analysis.normalize import normalized_value
+
+    value = normalized_value(reading, kind, model)
+    return value if value is not None and value == value else None
+
+
+def _temperature(celsius: float, prefs: UnitPrefs) -> str:
+    return f"{units.from_canonical(celsius, prefs.temperature):.1f} {prefs.temperature}"
+
+
+def reading_doubts(reading: Reading, ctx: Context, prefs: UnitPrefs | None = None, *, rate_rule: bool = True
+                   ) -> list[Doubt]:
+    """Every doubt about ``reading``, values shown in ``prefs``. ``rate_rule``: also the
+    machine's utilisation rule for the hour meter (the 24 h a day rule always)."""
+    prefs = prefs or UnitPrefs()
+    doubts: list[Doubt] = []
+    rate = ctx.hours_per_day(reading.taken_on) if rate_rule else None
+    d = meter_doubt(reading.taken_on, reading.machine_hours, ctx.meter_before, rate)
+    if d:
+        doubts.append(d)
+    m = ctx.model
+    t = reading.oil_temp_c
+    if t is not None and not (m.test_temp_min_c - 1e-9 <= t <= m.test_temp_max_c + 1e-9):
+        doubts.append(Doubt("oil_temp", _temperature(t, prefs),
+                            f"outside the test window of {m.code} ({fmt.temperature(m.test_temp_min_c, prefs)} to "
+                            f"{fmt.temperature(m.test_temp_max_c, prefs)}): was the oil at test temperature, or is "
+                            "this another box's value?"))
+    oil_doubted = any(x.field == "oil_temp" for x in doubts)
+    for kind in ALL_KINDS:
+        raw = reading.value(kind)
+        if raw is None or (kind is Kind.CASE_DRAIN and oil_doubted):
+            continue  # case drain at a wrong temperature: normalizing it would say nothing
+        value = trended(reading, kind, m)
+        shown = fmt.value(kind, raw, prefs)
+        limit = m.limit(kind)
+        prev = ctx.previous(kind, reading.taken_on)
+        before = trended(prev, kind, m) if prev is not None else None
+        if value is not None and before is not None and limit is not None:
+            step = value - before
+            if abs(step) > CHANGE_SHARE * abs(limit.value):
+                at_ref = " at reference conditions" if kind is Kind.CASE_DRAIN else ""
+                doubts.append(Doubt(kind.value, shown,
+                                    f"{'up' if step > 0 else 'down'} {fmt.value(kind, abs(step), prefs)}{at_ref} since "
+                                    f"{fmt.value(kind, before, prefs)} on {prev.taken_on.isoformat()}: more than half "
+                                    f"the limit ({fmt.value(kind, limit.value, prefs)}) in one step"))
+                continue
+        band = ctx.bands.get(kind)
+        if band is not None and value is not None and not band[0] <= value <= band[1]:
+            doubts.append(Doubt(kind.value, shown,
+                                f"outside the forecast band {fmt.value(kind, band[0], prefs)} to "
+                                f"{fmt.value(kind, band[1], prefs)} for these hours"))
+    return doubts
+
+
+def confirm_hint(doubts: list[Doubt]) -> str:
+    """What the command line says when it stops at a doubt."""
+    return (f"not saved: {len(doubts)} value(s) look wrong. Check them; if they are right, run the same command "
+            f"again with {CONFIRM_FLAG}")
+
+
+def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None = None) -> list[str]:
+    """Doubts about readings just added to ``fleet`` (an import), one line each, naming the
+    reading (serial and date). Each is judged against the fleet's other records, the
+    imported ones included (a jump between two rows of the file is found too)."""
+    from collections import defaultdict
+
+    from logbook import meter as meters
+
+    reps: dict[str, list[date]] = defaultdict(list)
+    points: dict[str, list[tuple[date, float, int | None]]] = defaultdict(list)
+    for e in fleet.events:
+        if e.removed_reason is not None:
+            continue
+        if e.kind is EventKind.METER_REPLACED:
+            if e.machine is not None:
+                reps[e.machine].append(e.happened_on)
+        elif e.machine is not None and e.hours is not None:
+            points[e.machine].append((e.happened_on, e.hours, None))
+        if e.kind is EventKind.MOVE and e.to_machine and e.to_hours is not None:
+            points[e.to_machine].append((e.happened_on, e.to_hours, None))
+    for f in fleet.fitments:
+        points[f.machine].append((f.fitted_on, f.machine_hours_at_fit, None))
+    by_pump: dict[str, list[Reading]] = defaultdict(list)
+    for r in fleet.readings:
+        if r.superseded_by is None and r.removed_reason is None:
+            by_pump[r.serial].append(r)
+            if r.machine is not None:
+                points[r.machine].append((r.taken_on, r.machine_hours, r.id))
+    events: dict[str, list[Event]] = defaultdict(list)
+    for e in fleet.events:
+        if e.serial is not None and e.removed_reason is None:
+            events[e.serial].append(e)
+    # Per machine and meter era: record dates in order and the highest record up to each.
+    highest: dict[tuple[str, int], tuple[list[date], list[tuple[date, float]]]] = {}
+    timelines = {m: meters.MeterTimeline(reps.get(m, ())) for m in points}
+    for machine, pts in points.items():
+        tl = timelines[machine]
+        eras: dict[int, list[tuple[date, float]]] = defaultdict(list)
+        for d, h, _ in pts:
+            if h is not None:
+                eras[tl.era(d)].append((d, h))
+        for era, recs in eras.items():
+            recs.sort()
+            best, tops = None, []
+            for d, h in recs:
+                if best is None or h > best[1]:
+                    best = (d, h)
+                tops.append(best)
+            highest[(machine, era)] = ([d for d, _ in recs], tops)
+    for rs in by_pump.values():
+        rs.sort(key=lambda x: (x.taken_on, x.machine_hours, x.id or 0))
+    lines: list[str] = []
+    for r in sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours)):
+        pump = fleet.pumps.get(r.serial)
+        if pump is None or r.machine is None or r.machine not in timelines:
+            continue
+        dates, tops = highest.get((r.machine, timelines[r.machine].era(r.taken_on)), ([], []))
+        i = bisect.bisect_left(dates, r.taken_on)
+        before = (tops[i - 1],) if i else ()
+        rs = by_pump[r.serial]
+        j = _upto(rs, r.taken_on)
+        earlier = tuple(x for x in rs[max(0, j - RECENT):j] if x.id != r.id)
+        ctx = Context(fleet.models[pump.model], before, earlier, tuple(events[r.serial]))
+        for d in reading_doubts(r, ctx, prefs, rate_rule=False):
+            lines.append(f"{r.serial} {r.taken_on.isoformat()}: {d}")
+    return lines
+
+
+#: Readings before a new one looked at for its previous value of each kind (an import).
+RECENT = 12
+
+
+def _upto(rs: Sequence[Reading], day: date) -> int:
+    """How many of the date-ordered readings ``rs`` are on or before ``day``."""
+    lo, hi = 0, len(rs)
+    while lo < hi:
+        mid = (lo + hi) // 2
+        if rs[mid].taken_on <= day:
+            lo = mid + 1
+        else:
+            hi = mid
+    return lo
