@@ -40,16 +40,13 @@ LIGHT_THEMES = {v: k for k, v in DARK_THEMES.items()}
 
 class MoneyLoaded(Message):
     """The costs weighed on a forecast (costing.FleetMoney) and the plan the fleet view's cost
-    column shows (this month on, ``PLAN_MONTHS`` months, least expected cost)."""
+    column shows (the stored plan settings from this month on, least expected cost)."""
 
     def __init__(self, forecast, money, plan) -> None:
         super().__init__()
         self.forecast = forecast
         self.money = money
         self.plan = plan
-
-
-PLAN_MONTHS = 6  # the fleet view's cost column: the plan screen's first horizon
 
 
 class LogbookApp(App):
@@ -145,7 +142,7 @@ class LogbookApp(App):
                     count = fleet.data_version
                 else:
                     fleet = replace(fleet, data_version=count)
-                book = store.costs()
+                book, setup = store.costs(), store.plan_setup()
             if worker.is_cancelled:
                 return
             if self.forecast is None:
@@ -167,10 +164,11 @@ class LogbookApp(App):
         self.post_message(DataLoaded(fleet, forecast, count, reason, tests))
         try:  # the money after the forecast is on screen: weighing and the least-cost plan take a moment
             from logbook.costing import fleet_money
-            from logbook.plan import PlanSettings, add_months, make_plan, month_start
+            from logbook.plan import add_months, make_plan, month_start
 
-            settings = PlanSettings(start_month=month_start(self.today), horizon_months=PLAN_MONTHS)
-            money = fleet_money(book, fleet, forecast, (add_months(settings.start_month, PLAN_MONTHS) - self.today).days)
+            settings = setup.settings(month_start(self.today))  # the plan screen's stored settings
+            end = add_months(settings.start_month, settings.horizon_months)
+            money = fleet_money(book, fleet, forecast, (end - self.today).days)
             plan = make_plan(forecast, settings, money.costs) if money.costs is not None else None
         except Exception as exc:
             if not worker.is_cancelled:

@@ -135,6 +135,37 @@ def short_money(value: float | None) -> str:
     return f"{sign}{v / 1e6:.0f}M"
 
 
+def either_way(line) -> str:
+    """What moving a plan line's job one month earlier / later adds to its expected cost ('' without costs)."""
+    if line.expected_cost is None:
+        return ""
+
+    def delta(other: float | None) -> str:
+        if other is None:
+            return "-"
+        change = other - line.expected_cost
+        return ("+" if change >= 0 else "") + short_money(change)
+
+    return f"{delta(line.cost_month_earlier)}/{delta(line.cost_month_later)}"
+
+
+def plan_money_lines(plan) -> list[str]:
+    """Under the plan: its expected cost against the other policies, and the spend per month."""
+    from logbook.plan import month_label
+
+    if plan.costs is None:
+        why = f" ({plan.placement_note})" if plan.placement_note else ""
+        return [f"No costs weighed{why}: each pump goes no later than its P10 month. Costs: m (models) "
+                "or logbook costs."]
+    cur = plan.currency or "no currency set"
+    p = plan.costs.policies
+    spend = plan.spend_per_month()
+    months = ", ".join(f"{month_label(m)} {short_money(spend.get(m, 0.0))}" for m in plan.settings.months)
+    return [f"Expected {cur}: this plan {short_money(p['cost_optimal'])} · all at P10 month "
+            f"{short_money(p['at_p10'])} · all run to failure {short_money(p['run_to_failure'])}",
+            f"Spend {months}"]
+
+
 def fleet_layout(width: int, serial_width: int = 7, tests=None, today: date | None = None,
                  costs: dict[str, float] | None = None) -> tuple[Column, ...]:
     """The columns of ``layout.fleet_columns`` (what fits ``width``) with how each cell

@@ -15,6 +15,8 @@ VIEWS = {
     "event": ("down", "down", "e"),
     "help": ("f1",),
     "filters": ("f",),
+    "plan": ("p",),
+    "models": ("m",),
 }
 
 

@@ -26,6 +26,7 @@ class PlanScreen(Screen):
     HELP_TITLE = "Overhaul plan"
     DEFAULT_CSS = """
     PlanScreen #assumptions { height: auto; padding: 0 1; }
+    PlanScreen #plan-money { height: auto; padding: 0 1; }
     """
     BINDINGS = [
         Binding("escape", "back", "Back", tooltip="back to the fleet view", id="plan.back"),
@@ -61,6 +62,7 @@ class PlanScreen(Screen):
         yield Static("Overhaul plan", id="title")
         yield Plain("", id="assumptions")
         yield OpenTable(id="plan-table", cursor_type="row", zebra_stripes=True)
+        yield Plain("", id="plan-money")
         yield Plain("", id="status-line")
         yield Footer(compact=True)
 
@@ -106,10 +108,12 @@ class PlanScreen(Screen):
             return
         from logbook.plan import make_plan, month_label
 
-        self.plan = plan = make_plan(forecast, self.settings())
+        money = self.app.money  # costing.FleetMoney once weighed; the least-cost plan when costs are set
+        self.plan = plan = make_plan(forecast, self.settings(), money.costs if money is not None else None)
         table = self.query_one("#plan-table", DataTable)
         if not table.columns:
-            for label in ("Month", "Serial", "Reading", "Chance", "P10 date", "Site", "Note", "Machine", "P50 date"):
+            for label in ("Month", "Serial", "Reading", "Chance", "Cost", "P10 date", "Site", "Note", "Earlier/later",
+                          "Machine", "P50 date"):
                 table.add_column(label, key=label)
         table.clear()
         self.serials = []
@@ -118,7 +122,7 @@ class PlanScreen(Screen):
             shop = sum(1 for line in lines if line.shop)
             label = month_label(month)
             if not lines:
-                table.add_row(*fmt.cells(label, "-", "", "", "", "", "nothing due", "", ""))
+                table.add_row(*fmt.cells(label, "-", "", "", "", "", "", "nothing due", "", "", ""))
                 self.serials.append(None)
                 continue
             for i, line in enumerate(lines):
@@ -137,6 +141,7 @@ class PlanScreen(Screen):
             f"{len(plan.lines)} planned ({shop} in the shop, {len(plan.lines) - shop} on the machine), "
             f"{len(plan.unplaced)} not placed · Month (n) = shop jobs that month · Chance = of crossing by the month's end"
         )
+        self.query_one("#plan-money", Static).update(fmt.text(*present.plan_money_lines(plan)))
 
     def _add_line(self, table: DataTable, month_text: str, line) -> None:
         chance = f"{100 * line.chance_by_month_end:.0f} %" if line.chance_by_month_end is not None else "-"
@@ -144,8 +149,9 @@ class PlanScreen(Screen):
         note = line.note or line.action
         if line.month is None:
             note = line.note
-        table.add_row(*fmt.cells(month_text, line.serial, present.KIND_SHORT[line.kind], chance, fmt.day(line.p10_date),
-                                 line.site or "-", note, where, fmt.day(line.p50_date)))
+        table.add_row(*fmt.cells(month_text, line.serial, present.KIND_SHORT[line.kind], chance,
+                                 present.short_money(line.expected_cost), fmt.day(line.p10_date), line.site or "-", note,
+                                 present.either_way(line), where, fmt.day(line.p50_date)))
         self.serials.append(line.serial)
 
     @on(DataTable.RowSelected)
@@ -200,7 +206,9 @@ class PlanScreen(Screen):
             horizon_days = (add_months(plan.settings.start_month, plan.settings.horizon_months) - forecast.today).days
             life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
             provenance = Provenance.from_models(str(fleet.source), forecast.today, fleet.models)
-            report = Report(forecast, plan, life, provenance, charts=False)
+            money = self.app.money
+            report = Report(forecast, plan, life, provenance, charts=False,
+                            economies=money.economies if money is not None else {})
             from logbook.outfile import write_bytes
 
             paths = []
