@@ -19,7 +19,7 @@ from __future__ import annotations
 import csv
 import io
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import date
 from operator import methodcaller
 from typing import Callable
@@ -27,7 +27,7 @@ from typing import Callable
 from logbook import units, validate
 from logbook.model import Problem
 
-TABLES = ("models", "machines", "pumps", "events", "readings")
+TABLES = ("models", "machines", "pumps", "events", "readings", "costs")
 MAX_TEXT = validate.MAX_TEXT
 _HEADER_RE = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]*?)\s*\])?\s*$")
 
@@ -44,6 +44,10 @@ def _num(spec: dict, name: str, required: bool = False) -> Column:
 
 
 R, M, H = validate.READING_FIELDS, validate.MODEL_FIELDS, validate.HOURS_FIELDS
+#: A costs file's amounts, checked as ``logbook costs`` checks them, named by their columns.
+C = {col: replace(validate.COST_FIELDS[key], name=col) for col, key in (
+    ("planned_cost", "planned"), ("failure_cost", "failure"), ("downtime_cost_per_hour", "per_hour"),
+    ("planned_downtime_hours", "planned_hours"), ("failure_downtime_hours", "failure_hours"))}
 
 COLUMNS: dict[str, dict[str, Column]] = {
     "models": {
@@ -66,6 +70,11 @@ COLUMNS: dict[str, dict[str, Column]] = {
         "neutral_drift_limit": _num(M, "neutral_drift_limit"),
     },
     "machines": {"unit": Column("name", True), "site": Column("name", True), "description": Column("text")},
+    "costs": {
+        "scope": Column("name", True),  # model, site or machine
+        "name": Column("name", True),
+        **{col: _num(C, col) for col in C},
+    },
     "pumps": {
         "serial": Column("name", True),
         "model": Column("name", True),

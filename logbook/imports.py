@@ -149,6 +149,8 @@ def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_
         report = store.add_pumps(items, lines=lines, dry_run=write_dry or bool(problems))
     elif table == "readings":
         report = store.add_readings([_reading(v) for v in rows], lines=lines, today=today, dry_run=write_dry, source=source)
+    elif table == "costs":
+        report = store.add_costs(rows, lines=lines, dry_run=write_dry)
     else:
         report = store.add_events([_event(v) for v in rows], lines=lines, today=today, dry_run=write_dry, source=source)
     all_problems = sorted(problems + report.problems, key=lambda p: (p.line or 0, p.field))

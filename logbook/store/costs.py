@@ -5,11 +5,15 @@ from __future__ import annotations
 import dataclasses
 import math
 import re
+from collections.abc import Sequence
 
-from logbook.model import CostBook, Downtime, InputRejected, ModelCosts, Problem
+from logbook.model import CostBook, Downtime, ImportReport, InputRejected, ModelCosts, Problem
 
 CURRENCY_RE = re.compile(r"^[A-Z]{3}$")
 SCOPES = ("site", "machine")
+#: A costs file's columns: scope, name, then the model columns or the downtime columns.
+MODEL_COLUMNS = ("planned_cost", "failure_cost")
+DOWNTIME_COLUMNS = ("downtime_cost_per_hour", "planned_downtime_hours", "failure_downtime_hours")
 
 
 def _amount(name: str, value: float | None, unit: str, problems: list[Problem]) -> None:
@@ -98,3 +102,83 @@ class CostsMixin:
             self._audit("set", "costs", f"{scope} {name}", None, dataclasses.asdict(old) if old else None,
                         dataclasses.asdict(new))
         return new
+
+    # -- a costs file (logbook import costs FILE): every row or none -------------------------
+    def add_costs(self, rows: Sequence[dict], *, lines: Sequence[int] | None = None,
+                  dry_run: bool = False) -> ImportReport:
+        """Rows of ``scope`` (model, site or machine), ``name`` and that scope's columns: a model's
+        ``planned_cost`` and ``failure_cost``, a site's or machine's ``downtime_cost_per_hour``,
+        ``planned_downtime_hours`` and ``failure_downtime_hours``. All checked first, then written
+        in one transaction (audited); a row equal to what is stored counts as already present.
+        ``flagged`` says what a model's costs mean when a failure costs no more than its job."""
+        from logbook.store.writes import Checked
+
+        def line_of(i: int) -> int | None:
+            return lines[i] if lines is not None and i < len(lines) else None
+
+        def check() -> Checked:
+            book, models = self.costs(), set(self.models())
+            machines = self.machines()
+            known = {"model": models, "site": {m.site for m in machines.values()}, "machine": set(machines)}
+            problems, items, present, notes, seen = [], [], 0, [], set()
+            for i, row in enumerate(rows):
+                line = line_of(i)
+                scope, name = (row.get("scope") or "").strip().lower(), row.get("name")
+                if scope not in known:
+                    problems.append(Problem("scope", row.get("scope") or "", "must be model, site or machine", line=line))
+                    continue
+                if (scope, name) in seen:
+                    problems.append(Problem("name", name, f"appears twice in this file for {scope}", line=line))
+                    continue
+                seen.add((scope, name))
+                if name not in known[scope]:
+                    listed = ", ".join(sorted(known[scope])[:8]) or "none recorded"
+                    problems.append(Problem("name", name, f"is not a known {scope} (known: {listed})", line=line))
+                    continue
+                own, other = (MODEL_COLUMNS, DOWNTIME_COLUMNS) if scope == "model" else (DOWNTIME_COLUMNS, MODEL_COLUMNS)
+                here = []
+                for col in own:
+                    _amount(col, row.get(col), "h" if col.endswith("hours") else "", here)
+                for col in other:
+                    if row.get(col) is not None:
+                        here.append(Problem(col, row[col], f"must be blank for a {scope} row "
+                                                           f"(a {scope} row takes {', '.join(own)})"))
+                if here:
+                    problems += [dataclasses.replace(p, line=line) for p in here]
+                    continue
+                if scope == "model":
+                    new = ModelCosts(name, float(row["planned_cost"]), float(row["failure_cost"]))
+                    old = book.models.get(name)
+                    notes += [f"line {line}: {n}" if line is not None else n for n in cost_notes(new)]
+                else:
+                    new = Downtime(scope, name, *(float(row[c]) for c in DOWNTIME_COLUMNS))
+                    old = (book.sites if scope == "site" else book.machines).get(name)
+                if old == new:
+                    present += 1
+                else:
+                    items.append((scope, new, old))
+            return Checked(problems, items, present, notes)
+
+        def write(checked: Checked) -> None:
+            for scope, new, old in checked.items:
+                if scope == "model":
+                    self.conn.execute(
+                        "INSERT INTO costs (scope, name, planned_cost, failure_cost) VALUES ('model', ?, ?, ?) "
+                        "ON CONFLICT(scope, name) DO UPDATE SET planned_cost = excluded.planned_cost, "
+                        "failure_cost = excluded.failure_cost", (new.model, new.planned, new.failure))
+                    key = f"model {new.model}"
+                else:
+                    self.conn.execute(
+                        "INSERT INTO costs (scope, name, downtime_cost_per_hour, planned_downtime_hours, "
+                        "failure_downtime_hours) VALUES (?, ?, ?, ?, ?) ON CONFLICT(scope, name) DO UPDATE SET "
+                        "downtime_cost_per_hour = excluded.downtime_cost_per_hour, "
+                        "planned_downtime_hours = excluded.planned_downtime_hours, "
+                        "failure_downtime_hours = excluded.failure_downtime_hours",
+                        (scope, new.name, new.cost_per_hour, new.planned_hours, new.failure_hours))
+                    key = f"{scope} {new.name}"
+                self._audit("set", "costs", key, None, dataclasses.asdict(old) if old else None, dataclasses.asdict(new))
+
+        checked, _ = self._check_then_write(check, write, dry_run=dry_run)
+        added = 0 if checked.problems else len(checked.items)
+        return ImportReport("costs", added=added, already_present=checked.present, problems=checked.problems,
+                            flagged=list(checked.notes), dry_run=dry_run)

@@ -1,0 +1,65 @@
+"""A costs file (logbook import costs FILE): model job costs and site or machine downtime,
+every row checked first, all written in one transaction (audited) or none."""
+
+from __future__ import annotations
+
+from logbook.cli import main
+from logbook.imports import import_bytes
+from tests.store.conftest import TODAY
+
+GOOD = b"""scope,name,planned_cost,failure_cost,downtime_cost_per_hour,planned_downtime_hours,failure_downtime_hours
+model,TX-90,4000,15000,,,
+site,North Yard,,,120,8,40
+machine,M-2,,,300,6,30
+"""
+
+
+def _costs(store):
+    return store.conn.execute("SELECT count(*) FROM audit WHERE table_name = 'costs'").fetchone()[0]
+
+
+def test_a_costs_file_is_stored_audited_and_a_second_import_finds_it_present(store):
+    report = import_bytes(store, "costs", GOOD, name="costs.csv", today=TODAY)
+    assert report.problems == [] and report.added == 3
+    book = store.costs()
+    assert (book.models["TX-90"].planned, book.models["TX-90"].failure) == (4000.0, 15000.0)
+    assert book.downtime("M-1", "North Yard").cost_per_hour == 120.0  # the site's
+    assert book.downtime("M-2", "North Yard").failure_hours == 30.0  # the machine's own
+    assert _costs(store) == 3
+    again = import_bytes(store, "costs", GOOD, name="costs.csv", today=TODAY)
+    assert again.added == 0 and again.already_present == 3 and _costs(store) == 3
+
+
+def test_bad_rows_name_column_value_and_line_and_nothing_is_written(store):
+    bad = (b"scope,name,planned_cost,failure_cost,downtime_cost_per_hour,planned_downtime_hours,failure_downtime_hours\n"
+           b"model,TX-90,4000,15000,,,\n"          # line 2: fine on its own
+           b"model,TX-99,4000,15000,,,\n"          # line 3: no such model
+           b"site,North Yard,,,-5,8,40\n"          # line 4: negative cost
+           b"machine,M-1,100,,300,6,30\n"          # line 5: a model column on a machine row
+           b"fleet,M-1,,,1,1,1\n"                  # line 6: unknown scope
+           b"model,TX-90,1,,,,\n")                 # line 7: twice, and failure_cost missing
+    before = store.change_count()
+    report = import_bytes(store, "costs", bad, name="costs.csv", today=TODAY)
+    seen = {(p.line, p.field) for p in report.problems}
+    assert {(3, "name"), (4, "downtime_cost_per_hour"), (5, "planned_cost"), (6, "scope"), (7, "name")} <= seen
+    text = " ".join(str(p) for p in report.problems)
+    assert "TX-99" in text and "-5" in text and "model, site or machine" in text
+    assert report.added == 0 and store.change_count() == before and store.costs().models == {}
+
+
+def test_a_failure_no_dearer_than_the_job_is_accepted_and_its_consequence_said(store):
+    data = GOOD.replace(b"4000,15000", b"4000,3000")
+    report = import_bytes(store, "costs", data, name="costs.csv", today=TODAY)
+    assert report.problems == [] and report.added == 3
+    assert any("run to failure is cheapest" in line for line in report.flagged)
+
+
+def test_import_costs_from_the_command_line(store, tmp_path, capsys):
+    path = tmp_path / "costs.csv"
+    path.write_bytes(GOOD)
+    db = str(tmp_path / "t.db")
+    store.close()
+    assert main(["--db", db, "--today", TODAY.isoformat(), "import", "costs", str(path)]) == 0
+    assert main(["--db", db, "costs"]) == 0
+    out = capsys.readouterr().out
+    assert "TX-90" in out and "North Yard" in out
