@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 from collections import Counter
 from datetime import date
 
@@ -26,11 +27,11 @@ PLAN_COLUMNS = (
     ("p10_date", "P10 date"),
     ("p50_date", "P50 date"),
     ("p90_date", "P90 date"),
-    ("p10_hours", "P10 hours left"),
-    ("p50_hours", "P50 hours left"),
-    ("p90_hours", "P90 hours left"),
-    ("chance_by_month_start", "chance crossed by month start"),
-    ("chance_by_month_end", "chance crossed by month end"),
+    ("p10_hours", "P10 operating hours left (h)"),
+    ("p50_hours", "P50 operating hours left (h)"),
+    ("p90_hours", "P90 operating hours left (h)"),
+    ("chance_by_month_start", "chance crossed by month start (%)"),
+    ("chance_by_month_end", "chance crossed by month end (%)"),
     ("months_early", "months early"),
     ("expected_cost", "expected cost"),
     ("cost_month_earlier", "expected cost one month earlier"),
@@ -44,7 +45,7 @@ PLAN_COLUMNS = (
 )
 
 #: Short table for md/html (the full set is in csv and json).
-PLAN_BRIEF = ("month", "serial", "model", "machine", "site", "reading", "latest", "limit", "p10_date", "p50_date",
+PLAN_BRIEF = ("month", "serial", "model", "machine", "site", "reading", "unit", "latest", "limit", "p10_date", "p50_date",
               "p10_hours", "chance_by_month_end", "note")
 
 
@@ -69,8 +70,24 @@ def day(value: date | None) -> str:
     return value.isoformat() if value is not None else ""
 
 
+_BREAKABLE = re.compile(r"(?<![^\s>])([^\s<>]*[-/][^\s<>]*)(?![^\s<])")
+
+
+def keep_whole(html_text: str) -> str:
+    """Escaped HTML text with every word that holds a hyphen or slash (a serial, a date,
+    an ISO 4406 code, a range) in ``<span class="k">``, which the print CSS keeps on one
+    line: browsers otherwise break 2026-11-22 after a hyphen at a line end."""
+    return _BREAKABLE.sub(r'<span class="k">\1</span>', html_text)
+
+
 def flag_words(flags) -> str:
-    return ", ".join(sorted(flags))
+    """Flags in words for people: ``step_detected`` -> ``step detected``."""
+    return ", ".join(sorted(flag.replace("_", " ") for flag in flags))
+
+
+def percent(chance: float | None, digits: int = 1) -> str:
+    """A chance (0..1) as a percentage number, e.g. 0.255 -> '25.5' (the header says %)."""
+    return "" if chance is None or not math.isfinite(chance) else f"{100.0 * chance:.{digits}f}"
 
 
 def pumps_by_serial(report) -> dict[str, PumpForecast]:
@@ -116,8 +133,8 @@ def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
         "p10_hours": num(line.p10_hours, 0),
         "p50_hours": num(line.p50_hours, 0),
         "p90_hours": num(line.p90_hours, 0),
-        "chance_by_month_start": num(line.chance_by_month_start, 3),
-        "chance_by_month_end": num(line.chance_by_month_end, 3),
+        "chance_by_month_start": percent(line.chance_by_month_start),
+        "chance_by_month_end": percent(line.chance_by_month_end),
         "months_early": "" if line.months_early is None else str(line.months_early),
         "expected_cost": num(line.expected_cost, 0),
         "cost_month_earlier": num(line.cost_month_earlier, 0),
@@ -231,16 +248,16 @@ def life_rows(report) -> list[dict[str, str]]:
         out.append(
             {
                 "model": fig.model,
-                "intervals": str(fig.intervals),
-                "overhauls": str(fig.failures),
-                "running": str(fig.censored),
-                "shape": num(fig.fit.shape, 3) if fig.fit else "",
-                "scale_hours": num(fig.fit.scale_hours, 0) if fig.fit else "",
-                "b10_hours": b10,
-                f"b10_{conf}_bounds": b10_b,
-                "median_hours": num(fig.median_hours, 0),
-                f"median_{conf}_bounds": med_b,
-                "expected_overhauls_in_horizon": expected,
+                "service intervals": str(fig.intervals),
+                "ended in overhaul": str(fig.failures),
+                "still running": str(fig.censored),
+                "Weibull shape": num(fig.fit.shape, 3) if fig.fit else "",
+                "Weibull scale (h)": num(fig.fit.scale_hours, 0) if fig.fit else "",
+                "B10 life (h)": b10,
+                f"B10 {conf} bounds (h)": b10_b,
+                "median life (h)": num(fig.median_hours, 0),
+                f"median {conf} bounds (h)": med_b,
+                "overhauls expected in the plan's months": expected,
                 "note": fig.reason,
             }
         )

@@ -13,6 +13,7 @@ from logbook.exports.common import (
     PLAN_COLUMNS,
     PUMP_HEADERS,
     economy_rows,
+    keep_whole,
     kind_of,
     life_rows,
     plan_brief_keys,
@@ -42,19 +43,41 @@ td.num { text-align: right; font-variant-numeric: tabular-nums; }
 .provenance li { margin: 0; }
 figure { margin: 1em 0; break-inside: avoid; } figcaption { font-size: 12px; color: #444; }
 svg { max-width: 100%; height: auto; }
-@media print { body { max-width: none; } }
+th, td { overflow-wrap: break-word; hyphens: manual; }
+.k { white-space: nowrap; }
+/* Printing (A4 or Letter, as the printer is set up): nothing wider than the page, a serial,
+   date or number never broken (.k), rows whole, headings kept with what follows, table
+   headers repeated on every page. */
+@page { size: auto; margin: 12mm 10mm; }
+@media print {
+  body { max-width: none; margin: 0; padding: 0; font-size: 9pt; }
+  table { font-size: 7pt; width: 100%; }
+  th, td { padding: 1px 3px; }
+  thead { display: table-header-group; }
+  tr, figure, li { break-inside: avoid; }
+  h1, h2, h3 { break-after: avoid; }
+  h2 + table, h2 + p, h2 + figure { break-before: avoid; }
+  svg { max-height: 80mm; }
+}
 """
 
 _NUMERIC = {"latest", "limit", "p10_hours", "p50_hours", "p90_hours", "chance_by_month_start", "chance_by_month_end",
             "months_early"}
 
 
+def _cell(text: str, numeric: bool) -> str:
+    """One cell; a single word (a serial, a date, a number) is kept whole on one line."""
+    classes = (["num"] if numeric else []) + (["k"] if text and len(text) <= 24 and not any(c.isspace() for c in text)
+                                              else [])
+    if classes:
+        return f'<td class="{" ".join(classes)}">{escape(text)}</td>'
+    return f"<td>{keep_whole(escape(text))}</td>"
+
+
 def _table(headers: list[str], rows: list[list[str]], numeric: set[int] = frozenset()) -> list[str]:
     out = ["<table>", "<thead><tr>" + "".join(f"<th>{escape(h)}</th>" for h in headers) + "</tr></thead>", "<tbody>"]
     for row in rows:
-        cells = "".join(
-            f'<td class="num">{escape(c)}</td>' if i in numeric else f"<td>{escape(c)}</td>" for i, c in enumerate(row)
-        )
+        cells = "".join(_cell(c, i in numeric) for i, c in enumerate(row))
         out.append(f"<tr>{cells}</tr>")
     out += ["</tbody>", "</table>"]
     return out

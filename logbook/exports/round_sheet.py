@@ -21,6 +21,7 @@ from logbook.analysis.results import FleetForecast
 from logbook.cautions import SAFETY, Safety
 from logbook.csvread import quote_formula
 from logbook.exports import safety
+from logbook.exports.common import keep_whole
 from logbook.imports import COLUMNS
 from logbook.model import ALL_KINDS, Fleet, Kind, PumpModel, Reading
 from logbook.rounds import NextTest
@@ -219,11 +220,50 @@ def render_md(sheet: RoundSheet) -> str:
     return "\n".join(lines) + "\n"
 
 
-# -- html --------------------------------------------------------------------------------
-_CSS = """body{font-family:sans-serif;margin:1.5em;max-width:60em}
-table{border-collapse:collapse;margin:.4em 0 1.2em}th,td{border:1px solid #666;padding:.25em .5em;text-align:left}
-td.fill{min-width:10em}
-section.pump{break-inside:avoid}@media print{body{margin:0}}"""
+# -- html ---------------------------------------------------------------------------------
+#: Printed compactly (several pumps a page, A4 or Letter): the readings side by side, a tall
+#: blank cell under each to write in, a pump never split across pages, a machine's heading
+#: kept with its first pump; a serial, a date or a value never broken at a line end.
+_CSS = """body{font-family:sans-serif;margin:1.5em;max-width:60em;font-size:11pt}
+table{border-collapse:collapse;margin:.2em 0 .4em;width:100%}th,td{border:1px solid #666;padding:.15em .35em;text-align:left;
+vertical-align:top}
+th{background:#eee;font-weight:600}td.fill{height:9mm;min-width:14mm}.k{white-space:nowrap}
+table.values th.what{width:6.5em}table.values th.note{width:35%}table.values td,table.values th{font-size:9pt}
+h2{margin:.8em 0 .2em;font-size:13pt;break-after:avoid}h3{margin:.5em 0 0;font-size:11pt;break-after:avoid}
+p.facts{margin:.1em 0;font-size:9pt}
+section.pump{break-inside:avoid;margin-bottom:.6em}
+@page{size:auto;margin:10mm 12mm}
+@media print{body{margin:0;max-width:none;font-size:10pt}h2+section.pump{break-before:avoid}}"""
+
+#: form_rows rows shown side by side (a column each), and the ones shown as a line each
+_SIDE_BY_SIDE = 7
+
+
+def _cell(text: str) -> str:
+    word = text and len(text) <= 24 and not any(c.isspace() for c in text)
+    return f'<td class="k">{escape(text)}</td>' if word else f"<td>{keep_whole(escape(text))}</td>"
+
+
+def _pump_html(stop: Stop, sheet: RoundSheet) -> list[str]:
+    rows = form_rows(stop, sheet.units)
+    side, lines = rows[:_SIDE_BY_SIDE], rows[_SIDE_BY_SIDE:]
+    out = ['<section class="pump">', f"<h3>{escape(_pump_title(stop))}</h3>"]
+    out += [f'<p class="facts">{keep_whole(escape(f))}</p>' for f in _pump_facts(stop, sheet)]
+    out.append('<table class="values"><thead><tr><th class="what"></th>'
+               + "".join(f"<th>{escape(what)}</th>" for what, *_ in side) + "</tr></thead><tbody>")
+    out.append('<tr><th class="what">last</th>' + "".join(_cell(last) for _, last, _, _ in side) + "</tr>")
+    out.append('<tr><th class="what">limit / target</th>' + "".join(_cell(limit) for _, _, limit, _ in side) + "</tr>")
+    out.append('<tr><th class="what">now</th>' + '<td class="fill"></td>' * len(side) + "</tr>")
+    out.append("</tbody></table>")
+    out.append('<table class="values"><thead><tr><th class="what"></th>'
+               + "".join(f'<th class="{"note" if what == "note" else ""}">{escape(what)}</th>' for what, *_ in lines)
+               + "</tr></thead><tbody>")
+    out.append('<tr><th class="what">last</th>' + "".join(_cell(last if last != "-" else "") for _, last, _, _ in lines)
+               + "</tr>")
+    out.append('<tr><th class="what">now</th>' + '<td class="fill"></td>' * len(lines) + "</tr>")
+    out.append("</tbody></table>")
+    out.append("</section>")
+    return out
 
 
 def render_html(sheet: RoundSheet) -> str:
@@ -238,13 +278,6 @@ def render_html(sheet: RoundSheet) -> str:
         desc = sheet.machines.get(machine, "")
         out.append(f"<h2>Machine {escape(machine)}" + (f" ({escape(desc)})" if desc else "") + "</h2>")
         for stop in stops:
-            out += ['<section class="pump">', f"<h3>{escape(_pump_title(stop))}</h3>", "<ul>"]
-            out += [f"<li>{escape(f)}</li>" for f in _pump_facts(stop, sheet)] + ["</ul>", "<table>"]
-            out.append("<thead><tr>" + "".join(f"<th>{h}</th>" for h in ("what", "last", "limit / target", "now"))
-                       + "</tr></thead><tbody>")
-            for what, last, limit, _ in form_rows(stop, sheet.units):
-                out.append(f"<tr><td>{escape(what)}</td><td>{escape(last)}</td><td>{escape(limit)}</td>"
-                           '<td class="fill"></td></tr>')
-            out += ["</tbody></table>", "</section>"]
+            out += _pump_html(stop, sheet)
     out.append("</body></html>")
     return "\n".join(out) + "\n"
