@@ -211,8 +211,9 @@ def cell_parser(
     if col.kind == "number":
         spec = col.spec
         unit_id = unit if unit is not None else spec.quantity.canonical
-        tolerance = 1e-9 * max(1.0, abs(spec.maximum))
-        lo, hi = spec.minimum - tolerance, spec.maximum + tolerance
+        # rounding room at each bound, relative to that bound (as validate.parse_number)
+        lo = spec.minimum - 1e-9 * max(1.0, abs(spec.minimum))
+        hi = spec.maximum + 1e-9 * max(1.0, abs(spec.maximum))
         plain = unit_id == spec.quantity.canonical
         integer = spec.integer
         to_canonical = units.to_canonical

@@ -120,8 +120,9 @@ def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = N
     if spec.integer and value != int(value):
         return None, Problem(spec.name, text, "must be a whole number", shown_unit)
     canonical = units.to_canonical(value, unit_id)
-    tolerance = 1e-9 * max(1.0, abs(spec.maximum))
-    if canonical < spec.minimum - tolerance or canonical > spec.maximum + tolerance:
+    # rounding room at each bound, relative to that bound (a range of 0 to 1e9 must not let -1 in)
+    if canonical < spec.minimum - 1e-9 * max(1.0, abs(spec.minimum)) \
+            or canonical > spec.maximum + 1e-9 * max(1.0, abs(spec.maximum)):
         return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}", shown_unit)
     return canonical, None
 

@@ -1,4 +1,5 @@
-"""logbook model [CODE] [--limit KIND=VALUE]: show pump models, change limits."""
+"""logbook model [CODE] [--limit KIND=VALUE] [--planned AMOUNT --failure AMOUNT]: show pump models,
+change limits and job costs (the same audited store calls as the models screen and logbook costs)."""
 
 from __future__ import annotations
 
@@ -7,19 +8,46 @@ from rich.table import Table
 from logbook import fmt
 from logbook.commands.record import parse_with_unit
 from logbook.model import ALL_KINDS, InputRejected, Kind, Problem
+from logbook.validate import COST_FIELDS, parse_number
 
 _LIMIT_FIELD = {Kind.CASE_DRAIN: "case_drain", Kind.SERVO_PRESSURE: "servo_pressure", Kind.NEUTRAL_DRIFT: "neutral_drift"}
 
 
 def register(sub) -> None:
-    p = sub.add_parser("model", help="show pump models and their limits; change a limit (audited)")
+    p = sub.add_parser("model", help="show pump models, their limits and job costs; change a limit or the costs (audited)")
     p.add_argument("code", nargs="?", default=None)
     p.add_argument("--limit", action="append", default=[], metavar="KIND=VALUE",
                    help="set a limit, e.g. case_drain=9.5 or servo_pressure=250psi; KIND=none removes it")
+    p.add_argument("--planned", metavar="AMOUNT", help="with --failure: the cost of a planned overhaul or exchange "
+                                                       "(parts, shop labour), in the logbook's currency")
+    p.add_argument("--failure", metavar="AMOUNT", help="with --planned: the cost of an in-service failure "
+                                                       "(parts, secondary damage, circuit flush)")
     p.set_defaults(func=run)
 
 
+def _costs_given(args) -> tuple[float, float] | None:
+    """(planned, failure) from --planned and --failure, both or neither; raises InputRejected naming the option."""
+    given = {"--planned": args.planned, "--failure": args.failure}
+    if all(v is None for v in given.values()):
+        return None
+    problems = [Problem(k, "", "is needed too: give --planned and --failure together") for k, v in given.items() if v is None]
+    if args.code is None:
+        problems.append(Problem("model", "", "name the model whose costs to set"))
+    values = {}
+    for option, key in (("--planned", "planned"), ("--failure", "failure")):
+        if given[option] is not None:
+            value, problem = parse_number(COST_FIELDS[key], given[option])
+            if problem is not None:
+                problems.append(problem)
+            values[key] = value
+    if problems:
+        raise InputRejected(problems)
+    return values["planned"], values["failure"]
+
+
 def run(args, ctx) -> int:
+    costs = _costs_given(args)  # checked before the store opens: nothing written on a bad amount
+    notes: list[str] = []
     with ctx.open_store() as store:
         if args.code is not None and args.code not in (known := store.models()):
             ctx.err.print(f"logbook model: {Problem('model', args.code, 'no such model; models: ' + ', '.join(sorted(known)))}",
@@ -42,7 +70,12 @@ def run(args, ctx) -> int:
                 if problem or value is None:
                     raise InputRejected([problem or Problem("limit", item, "needs a value")])
                 store.set_limit(args.code, kind, abs(value))
+        if costs is not None:
+            _, notes = store.set_model_costs(args.code, planned=costs[0], failure=costs[1])
         models = store.models()
+        book = store.costs()
+    for note in notes:
+        ctx.err.print(f"note: {note}", markup=False, soft_wrap=True)
     table = Table(box=None, header_style="bold")
     for col in ("model", "Vg cm3/rev", "rated", "ref temp", "ref press.", "oil", *[k.label + " limit" for k in ALL_KINDS]):
         table.add_column(col)
@@ -56,4 +89,9 @@ def run(args, ctx) -> int:
               for k in ALL_KINDS]),
         )
     ctx.console.print(table)
+    cur = book.currency or "(no currency set)"
+    for m in models.values():
+        if (args.code is None or m.code == args.code) and (c := book.models.get(m.code)) is not None:
+            ctx.console.print(fmt.text(f"{m.code} job costs: planned {c.planned:,.0f} {cur}, failure {c.failure:,.0f} {cur}"))
     return 0
+

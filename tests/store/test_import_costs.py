@@ -63,3 +63,32 @@ def test_import_costs_from_the_command_line(store, tmp_path, capsys):
     assert main(["--db", db, "costs"]) == 0
     out = capsys.readouterr().out
     assert "TX-90" in out and "North Yard" in out
+
+
+def test_model_command_sets_job_costs_through_the_store(store, tmp_path, capsys):
+    db = str(tmp_path / "t.db")
+    store.close()
+    assert main(["--db", db, "model", "TX-90", "--planned", "4000", "--failure", "15000"]) == 0
+    assert "TX-90 job costs: planned 4,000" in capsys.readouterr().out
+    # bad amounts and a lone option name the option and write nothing
+    assert main(["--db", db, "model", "TX-90", "--planned", "-1", "--failure", "15000"]) == 2
+    assert main(["--db", db, "model", "TX-90", "--failure", "9000"]) == 2
+    err = capsys.readouterr().err
+    assert "--planned = '-1'" in err and "--planned = '': is needed too" in err
+    from logbook.store import Store
+
+    with Store(db, create=False) as again:
+        assert (again.costs().models["TX-90"].planned, again.costs().models["TX-90"].failure) == (4000.0, 15000.0)
+        assert again.conn.execute("SELECT count(*) FROM audit WHERE row_key = 'model TX-90'").fetchone()[0] == 1
+    assert main(["--db", db, "model", "TX-90", "--planned", "4000", "--failure", "3000"]) == 0
+    assert "run to failure is cheapest" in capsys.readouterr().err
+
+
+def test_a_small_negative_amount_is_refused_on_a_wide_range(store):
+    # the rounding room at a bound is relative to that bound: 0 to 1e9 must not let -1 in
+    from logbook.validate import COST_FIELDS, parse_number
+
+    assert parse_number(COST_FIELDS["planned"], "-1")[1] is not None
+    assert parse_number(COST_FIELDS["planned"], "0")[1] is None and parse_number(COST_FIELDS["planned"], "1e9")[1] is None
+    report = import_bytes(store, "costs", GOOD.replace(b"4000,15000", b"-1,15000"), name="costs.csv", today=TODAY)
+    assert [(p.line, p.field) for p in report.problems] == [(2, "planned_cost")] and report.added == 0
