@@ -270,7 +270,7 @@ class LogbookApp(App):
     # -- actions -----------------------------------------------------------------------
     def check_action(self, action: str, parameters) -> bool | None:
         """No quitting from an entry form with one key: Esc leaves the form first."""
-        if action == "quit":
+        if action in ("quit", "toggle_theme"):  # a stray letter on a form must not quit or restyle
             return not getattr(self.screen, "HOLDS_INPUT", False)
         return True
 
