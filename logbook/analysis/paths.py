@@ -333,11 +333,11 @@ class PathMixture:
         what a chart draws as the mixture's path and band."""
         lo_y = np.full(np.shape(x), 1e-9)
         hi_y = np.full(np.shape(x), 1.0)
-        while True:  # an upper bracket: the value below which the mixture puts almost everything
-            below = self._value_cdf(hi_y, x, rows)
-            if (below >= 0.999).all() or (hi_y > 1e9).any():
+        while True:  # an upper bracket per point: the value below which the mixture puts almost everything
+            need = (self._value_cdf(hi_y, x, rows) < 0.999) & (hi_y <= 1e9)  # each point on its own: rows batch
+            if not need.any():
                 break
-            hi_y = np.where(below < 0.999, hi_y * 4.0, hi_y)
+            hi_y = np.where(need, hi_y * 4.0, hi_y)
         out = np.empty(np.shape(x) + (len(quantiles),))
         for j, qq in enumerate(quantiles):
             lo, hi = np.log(lo_y), np.log(hi_y)

@@ -11,6 +11,7 @@ ids carry a prefix so several charts share one HTML page; text stays text.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from html import escape
 
@@ -45,23 +46,54 @@ class ChartData:
 
 def chart_data(kf: KindForecast) -> ChartData | None:
     """What a pump's forecast of one kind puts on its chart; None when there is no fit to draw."""
-    fit = kf.fit
-    if fit is None or not fit.x_hours:
-        return None
-    x = np.asarray(fit.x_hours, float)
+    return charts_data([kf])[0]
+
+
+def _grid(kf: KindForecast):
+    """(hours along the chart, hours today, the named crossings) of one forecast with a fit."""
+    x = np.asarray(kf.fit.x_hours, float)
     now = kf.hours_in_segment if kf.hours_in_segment is not None else float(x.max())
     named = [(n, now + h) for n, h in (("P10", kf.p10_hours), ("P50", kf.p50_hours), ("P90", kf.p90_hours))
              if h is not None]
     x_end = max([float(x.max()), now] + [h for _, h in named]) * 1.05 or 1.0
-    grid = np.linspace(0.0, x_end, 80)
-    with np.errstate(all="ignore"):
-        lower, middle, upper = fit.band(grid, 0.8)
-    return ChartData(
-        x=grid, p10=np.asarray(lower, float), p50=np.asarray(middle, float), p90=np.asarray(upper, float),
-        readings_x=x, readings_y=np.asarray(fit.y_value, float), used=np.asarray(fit.used, bool),
-        limit=kf.limit.value if kf.limit is not None else None, now=float(now),
-        crossings=tuple(named) if kf.limit is not None else (),
-        y_label=f"{kf.kind.label} [{kf.kind.unit}]", middle_label="median of the wear paths" if fit.mixture is not None else f"{fit.path} path")
+    return np.linspace(0.0, x_end, 80), float(now), named
+
+
+def charts_data(kfs: Sequence[KindForecast | None], coverage: float = 0.8) -> list[ChartData | None]:
+    """``chart_data`` of many forecasts at once: the bands of the series that share one path
+    mixture (one fleet's forecast) are computed in one batch, the same values as one by one."""
+    drawn = [i for i, kf in enumerate(kfs) if kf is not None and kf.fit is not None and kf.fit.x_hours]
+    grids = {i: _grid(kfs[i]) for i in drawn}
+    bands: dict[int, tuple] = {}
+    shared: dict[int, list[int]] = {}
+    for i in drawn:
+        fit = kfs[i].fit
+        if fit.mixture is not None and fit.row >= 0:
+            shared.setdefault(id(fit.mixture), []).append(i)
+    q = (0.5 - coverage / 2, 0.5, 0.5 + coverage / 2)
+    for members in shared.values():
+        mixture = kfs[members[0]].fit.mixture
+        xs = np.stack([grids[i][0] for i in members])
+        rows = np.array([kfs[i].fit.row for i in members])
+        with np.errstate(all="ignore"):
+            got = mixture.value_bands(xs, rows, quantiles=q)
+        for j, i in enumerate(members):
+            bands[i] = (got[j, :, 0], got[j, :, 1], got[j, :, 2])
+    out: list[ChartData | None] = [None] * len(kfs)
+    for i in drawn:
+        kf, fit = kfs[i], kfs[i].fit
+        grid, now, named = grids[i]
+        if i not in bands:
+            with np.errstate(all="ignore"):
+                bands[i] = fit.band(grid, coverage)
+        lower, middle, upper = bands[i]
+        out[i] = ChartData(
+            x=grid, p10=np.asarray(lower, float), p50=np.asarray(middle, float), p90=np.asarray(upper, float),
+            readings_x=np.asarray(fit.x_hours, float), readings_y=np.asarray(fit.y_value, float),
+            used=np.asarray(fit.used, bool), limit=kf.limit.value if kf.limit is not None else None, now=now,
+            crossings=tuple(named) if kf.limit is not None else (), y_label=f"{kf.kind.label} [{kf.kind.unit}]",
+            middle_label="median of the wear paths" if fit.mixture is not None else f"{fit.path} path")
+    return out
 
 
 def kind_chart_svg(kf: KindForecast, title: str, salt: str = "", id_prefix: str = "c") -> str | None:

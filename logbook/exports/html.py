@@ -5,7 +5,7 @@ from __future__ import annotations
 from html import escape as _escape_html
 
 from logbook.exports import PROBABILITY_NOTE, safety
-from logbook.exports.charts import kind_chart_svg
+from logbook.exports.charts import chart_svg, charts_data
 from logbook.exports.common import (
     RETEST_HEADERS,
     retest_rows,
@@ -94,10 +94,11 @@ def _charts(report, pumps) -> list[str]:
     lines = report.plan.lines
     if len(lines) > report.max_charts:
         out.append(f"<p>Charts of the first {report.max_charts} of {len(lines)} planned pumps, in plan order.</p>")
-    for index, line in enumerate(lines[: report.max_charts], start=1):
-        kf = kind_of(pumps.get(line.serial), line)
+    shown = lines[: report.max_charts]
+    drawn = charts_data([kind_of(pumps.get(line.serial), line) for line in shown])  # the bands in one batch
+    for index, (line, data) in enumerate(zip(shown, drawn), start=1):
         title = visible(f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}")
-        svg = kind_chart_svg(kf, title, salt=f"logbook-{index}-{line.serial}", id_prefix=f"c{index}") if kf else None
+        svg = chart_svg(data, title, id_prefix=f"c{index}") if data is not None else None
         month = line.month.isoformat()[:7] if line.month else ""
         out.append(f'<figure id="chart-{index}">')
         out.append(svg if svg is not None else f"<p>{escape(title)}: no fitted trend to draw.</p>")

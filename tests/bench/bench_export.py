@@ -2,8 +2,10 @@
 
 A synthetic fleet of 10,000 pumps (invented numbers) is forecast by the engine
 (``forecast_fleet``) and then exported: fleet life, the plan, and each format.
-Baseline, measured in the same run: the engine's forecast alone. Prints the export
-time per format and its ratio to that baseline (the export overhead).
+Baselines, measured in the same run: the engine's forecast alone (the export overhead
+per format), and the csv plan: the whole html plan (forecast, fleet life, plan and the
+page with its charts) against the whole csv plan, target <= 3x. Also the peak memory
+the forecast adds (tracemalloc) against the fleet it read.
 """
 
 from __future__ import annotations
@@ -108,11 +110,27 @@ def main() -> None:
     print(f"baseline engine forecast_fleet : {t_engine:8.2f} s")
     print(f"fleet life (Weibull per model) : {t_life:8.2f} s   ratio {t_life / t_engine:6.3f}")
     print(f"plan                           : {t_plan:8.2f} s   ratio {t_plan / t_engine:6.3f}")
+    whole = {}
     for fmt in FORMATS:
         data, t_render = timed(lambda: render(report, fmt))
         total = t_life + t_plan + t_render
+        whole[fmt] = t_engine + total
         print(f"export {fmt:<5} render {t_render:6.2f} s, life+plan+render {total:6.2f} s, "
               f"overhead vs engine {total / t_engine:6.3f}  ({len(data) / 2**20:.1f} MiB)")
+    ratio = whole["html"] / whole["csv"]
+    print(f"whole html plan / whole csv plan: {ratio:6.2f}  (target <= 3: {'met' if ratio <= 3 else 'MISSED'}; "
+          f"{min(args.max_charts, len(plan.lines))} charts)")
+    import tracemalloc
+
+    tracemalloc.start()
+    held = make_fleet(args.pumps)
+    read_peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.reset_peak()
+    forecast_fleet(held, TODAY)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    print(f"peak traced memory while forecasting / the fleet built: {peak / read_peak:5.2f}  "
+          f"({peak / 2**20:.0f} MiB against {read_peak / 2**20:.0f} MiB; target <= 2: {'met' if peak <= 2 * read_peak else 'MISSED'})")
     print(f"process max RSS {resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MiB")
 
 

@@ -225,13 +225,16 @@ def run(pumps: int, repeat: int, old: bool) -> None:
     print(f"forecast_fleet          : {t_new:7.3f} s  {t_new / n * 1e6:7.0f} us/pump (best of {repeat})")
     print(f"  of which packing      : {t_pack:7.3f} s  (records to arrays, utilisation, batch)")
     print(f"  and the result records: {t_new - t_pack - t_core:7.3f} s  (the rest, core excluded)")
-    print(f"forecast_fleet / core   : {t_new / t_core:7.2f}")
+    ratio = t_new / t_core
+    print(f"forecast_fleet / core   : {ratio:7.2f}   (target <= 3: {'met' if ratio <= 3 else f'missed by {ratio / 3:.1f}x'}; "
+          "the core is the fastest honest floor: the same arrays fitted, no records read or written)")
     over = t_new - 3 * t_core
     print(f"forecast_fleet - 3 core : {over:7.3f} s  = {over / n_read * 1e6:.2f} us per reading record")
     if old:
         t_old = best_of(lambda: reference_forecast_fleet(fleet, TODAY), 1)
         print(f"old per-pump packing    : {t_old:7.3f} s  {t_old / n * 1e6:7.0f} us/pump (once)")
-        print(f"old / forecast_fleet    : {t_old / t_new:7.1f}   (target >= 5)")
+        print(f"old / forecast_fleet    : {t_old / t_new:7.1f}   (target >= 5; a slow baseline, for information: "
+              "the ratio to the core above is the one that counts)")
 
 
 def main() -> None:

@@ -96,3 +96,21 @@ def test_no_limit_and_endless_band_still_draw_inside_the_plot():
     to_y, per_px_y = _scale(root, "ytick", "y")
     dots = root.findall(".//s:circle[@class='reading']", NS)
     assert np.allclose(to_y([float(c.get("cy")) for c in dots]), d.readings_y, atol=per_px_y)
+
+
+def test_bands_batched_across_charts_equal_the_bands_one_by_one():
+    # one call of the forecast's path mixture for every chart of a page gives each chart's own band
+    from logbook.analysis.fleet import forecast_fleet
+    from logbook.exports.charts import chart_data, charts_data
+    from tests.unit.test_forecast import TODAY, small_fleet
+
+    forecast = forecast_fleet(small_fleet([4e-4, 6e-4, 9e-4, 5e-4, 2e-4]), TODAY)
+    kfs = [k for p in forecast.pumps for k in p.kinds] + [None]
+    batched = charts_data(kfs)
+    assert sum(1 for d, kf in zip(batched, kfs) if d is not None and kf.fit.mixture is not None) >= 3
+    for kf, got in zip(kfs, batched):
+        alone = chart_data(kf) if kf is not None else None
+        assert (got is None) == (alone is None)
+        if got is not None:
+            for a, b in ((got.p10, alone.p10), (got.p50, alone.p50), (got.p90, alone.p90)):
+                assert np.allclose(a, b, rtol=1e-9, atol=0, equal_nan=True)
