@@ -31,10 +31,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date
 
-from logbook import fmt
-from logbook import units
+from logbook import fmt, units
 from logbook.model import ALL_KINDS, SEGMENT_RESETS, Event, EventKind, Fleet, Kind, PumpModel, Reading
 from logbook.units import UnitPrefs
+from logbook.validate import FIELD_LABELS
 
 MAX_HOURS_PER_DAY = 24.0
 SLACK_DAYS = 1
@@ -43,22 +43,7 @@ RATE_SLACK_H = 100.0
 CHANGE_SHARE = 0.5
 
 #: The labels of the entry forms, also used in every message about a field.
-LABELS = {
-    "date": "Date",
-    "machine_hours": "Hour meter",
-    "case_drain": "Case drain",
-    "servo_pressure": "Servo pressure",
-    "neutral_drift": "Neutral drift",
-    "oil_temp": "Oil temperature",
-    "test_pressure": "Test pressure",
-    "test_speed": "Test speed",
-    "oil_grade": "Oil ISO VG",
-    "oil_vi": "Oil VI",
-    "charge_pressure": "Charge pressure",
-    "iso4406": "ISO 4406",
-    "technician": "Technician",
-    "note": "Note",
-}
+LABELS = FIELD_LABELS
 
 CONFIRM_FLAG = "--confirm"
 

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from datetime import date
 
 from logbook import units
-from logbook.model import EventKind, Problem, PumpModel, Reading
+from logbook.model import EventKind, Problem, PumpModel, Reading, echo
 from logbook.units import Quantity
 
 #: ISO 3448 viscosity grades (mid-point kinematic viscosity at 40 C in cSt).
@@ -93,6 +93,16 @@ COST_FIELDS: dict[str, FieldSpec] = {
     "failure_hours": FieldSpec("--failure-hours", units.HOURS, 0, 10_000, help="downtime of a failure"),
 }
 
+#: On-screen labels of the entry forms' fields, used in every message a form shows.
+FIELD_LABELS = {
+    "date": "Date", "machine_hours": "Hour meter", "case_drain": "Case drain", "servo_pressure": "Servo pressure",
+    "neutral_drift": "Neutral drift", "oil_temp": "Oil temperature", "test_pressure": "Test pressure",
+    "test_speed": "Test speed", "oil_grade": "Oil ISO VG", "oil_vi": "Oil VI", "charge_pressure": "Charge pressure",
+    "iso4406": "ISO 4406", "technician": "Technician", "note": "Note", "hours": "Hour meter",
+    "to_machine": "To machine", "to_position": "To position", "to_hours": "Target meter", "serial": "Pump serial",
+    "case_drain/servo_pressure/neutral_drift": "Case drain, servo pressure or neutral drift",
+}
+
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")
 _ISO4406_RE = re.compile(r"^([0-9]{1,2}|-|\*)/([0-9]{1,2})/([0-9]{1,2})$")  # ASCII digits only
 #: YYYY-MM-DD and nothing else: date.fromisoformat (3.11) also takes 20260203 and 2026-W05-2.
@@ -125,6 +135,78 @@ def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = N
             or canonical > spec.maximum + 1e-9 * max(1.0, abs(spec.maximum)):
         return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}", shown_unit)
     return canonical, None
+
+
+#: Fields a person types with thousands separators (the app prints them so: 22,950 h):
+#: a comma followed by three digits is a thousands separator there, never a decimal comma.
+THOUSANDS_FIRST = frozenset({"machine_hours", "hours", "to_hours", "machine_hours_at_fit", "pump_hours_at_fit"})
+
+_GROUPED = re.compile(r"[-+]?[0-9]{1,3}(?:,[0-9]{3})+(?:\.[0-9]+)?")  # 22,950 or 1,234,567.5
+_GROUPED_DOT = re.compile(r"[-+]?[0-9]{1,3}(?:\.[0-9]{3})+,[0-9]+")  # 1.234,5 (comma decimal, dot groups)
+_DECIMAL_COMMA = re.compile(r"[-+]?[0-9]*,[0-9]+")  # 28,9
+_NUMBER_TEXT = re.compile(r"([-+]?[0-9.,]*[0-9][0-9.,]*(?:[eE][-+]?[0-9]+)?)\s*((?:[^\W\d_]|°|/).*)?")
+
+
+def number_readings(text: str, spec: FieldSpec, unit: str) -> tuple[list[str], str]:
+    """The plain numbers (NUMBER form) ``text`` can mean, and why when there are two.
+    '28,9' -> ['28.9']; '22,950' -> ['22950'] for an hour meter (THOUSANDS_FIRST), and for
+    other fields the reading that is in the field's range; '1.234,5' -> ['1234.5']."""
+    if units.is_number(text):
+        return [text], ""
+    if _GROUPED_DOT.fullmatch(text):
+        return [text.replace(".", "").replace(",", ".")], ""
+    grouped = _GROUPED.fullmatch(text) is not None
+    decimal = _DECIMAL_COMMA.fullmatch(text) is not None
+    if grouped and decimal:  # one comma and three digits after it: 1,800 or 1.8?
+        if spec.name in THOUSANDS_FIRST:
+            return [text.replace(",", "")], ""
+        both = [text.replace(",", ""), text.replace(",", ".")]
+        fits = [t for t in both if spec.minimum <= units.to_canonical(float(t), unit) <= spec.maximum]
+        if len(fits) == 1:
+            return fits, ""
+        return [], f"could be {both[0]} or {both[1]}: write it without the comma, or with a decimal point"
+    if grouped:
+        return [text.replace(",", "")], ""
+    if decimal:
+        return [text.replace(",", ".")], ""
+    return [], ""
+
+
+def parse_quantity(spec: FieldSpec, text: str | None, default_unit: str) -> tuple[float | None, Problem | None]:
+    """A number as a person types it, in ``default_unit`` unless a unit follows it
+    ('1.8gpm', '265 psi', '122F', '20lpm', '22,950 h'), with a decimal comma ('28,9') or
+    thousands separators ('22,950', '1,234.5', '1.234,5') where unambiguous; returns the
+    canonical value. The problem names the field's unit as shown and what is allowed."""
+    if text is None or text.strip() == "":
+        return None, None
+    raw = text.strip()
+    allowed_units = units.allowed_units(spec.quantity)
+    example = {"pressure": ", 250psi", "flow": ", 1.1gpm", "temperature": ", 122F"}.get(spec.quantity.name, "")
+    form = f"e.g. 4.2, 4,2{example}" if spec.name not in THOUSANDS_FIRST else "e.g. 22950, 22,950 or 22950.5"
+    m = _NUMBER_TEXT.fullmatch(raw)
+    if m is None:
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(default_unit)} ({form})", default_unit)
+    number, unit_text = m.group(1), (m.group(2) or "").strip()
+    unit = units.resolve_unit(spec.quantity, unit_text) if unit_text else default_unit
+    if unit is None:
+        zero = "; a zero is 0, not the letter O" if "o" in unit_text.lower() else ""
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(default_unit)}: {unit_text!r} is not a unit "
+                             f"of {spec.quantity.name} (allowed: {allowed_units or 'no unit'}{zero})", default_unit)
+    readings, why = number_readings(number, spec, unit)
+    if not readings:
+        return None, Problem(spec.name, text, why or f"must be {spec.describe_range(unit)} ({form})", unit)
+    value, problem = parse_number(spec, readings[0], unit)
+    if problem is not None:
+        problem = Problem(spec.name, text, problem.allowed, problem.unit)
+    return value, problem
+
+
+def say(problem: Problem, label: str | None = None) -> str:
+    """A problem in the words of a form: its on-screen label, the text as typed, what is
+    allowed (in the display unit), rather than the internal field name."""
+    name = label or FIELD_LABELS.get(problem.field, problem.field)
+    value = "(empty)" if problem.value in ("", None) else echo(problem.value)
+    return f"{name} {value}: {problem.allowed}"
 
 
 def parse_date(field_name: str, text: str | date | None, today: date, required: bool = True) -> tuple[date | None, Problem | None]:
@@ -278,7 +360,7 @@ def check_hour_meter(
             field_name,
             hours,
             f"runs backwards: the machine read {earlier[1]:g} h on {earlier[0].isoformat()}; allowed {earlier[1]:g} h or more "
-            "(record a meter_replaced event if the hour meter was changed)",
+            "(if the hour meter was changed, record the event 'Hour meter replaced' first)",
             "h",
         )
     if later is not None and hours > later[1] + 1e-9:

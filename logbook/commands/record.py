@@ -33,19 +33,10 @@ def default_unit(spec: validate.FieldSpec, prefs: units.UnitPrefs) -> str:
 
 
 def parse_with_unit(name: str, text: str | None, prefs: units.UnitPrefs) -> tuple[float | None, Problem | None]:
-    """'4.2', '4.2gpm', '61 psi' -> canonical value; a bare number is in the user's units."""
-    if text is None:
-        return None, None
+    """'4.2', '4.2gpm', '61 psi', '28,9', '22,950' -> canonical value; a bare number is in
+    the user's units (validate.parse_quantity, as on the entry forms)."""
     spec = validate.READING_FIELDS[name]
-    split = units.split_value_unit(text)
-    if split is None:
-        return None, Problem(name, text, f"must be {spec.describe_range(default_unit(spec, prefs))}, written with "
-                             f"{units.NUMBER_FORM}, optionally with a unit ({units.allowed_units(spec.quantity) or 'none'})")
-    number, unit_text = split
-    unit = units.resolve_unit(spec.quantity, unit_text) if unit_text else default_unit(spec, prefs)
-    if unit is None:
-        return None, Problem(name, text, f"the unit is not allowed; allowed: {units.allowed_units(spec.quantity) or 'no unit'}")
-    return validate.parse_number(spec, number, unit)
+    return validate.parse_quantity(spec, text, default_unit(spec, prefs))
 
 
 def register(sub) -> None:

@@ -27,7 +27,7 @@ def _number(spec_name: str, unit: str, *, required: str = "", specs=validate.REA
     spec = specs[spec_name]
 
     def parse(text: str):
-        value, problem = validate.parse_number(spec, text, unit)
+        value, problem = validate.parse_quantity(spec, text, unit)
         if problem is None and value is None and required:
             return None, Problem(spec_name, text, required, unit)
         return value, problem

@@ -22,15 +22,22 @@ def shown(form) -> str:
 
 def words(text: str) -> str:
     """Screen text with the box's wrapping and borders taken out."""
-    return " ".join(text.replace("│", " ").split())
+    return " ".join(text.replace("│", " ").replace("▌", " ").split())
 
 
 async def opened(app, pilot, key: str, screen):
-    """The form ``key`` opens at 80x24, checked to show the short box: the title and the warning."""
+    """The form ``key`` opens at 80x24: the first form of the program shows the whole list,
+    every later one the warning alone (checked on a second opening)."""
     await settle(app, pilot)
     form = await open_form(app, pilot, crossing_pump(app).serial, key)
     assert isinstance(form, screen)
     assert form.query_one(SafetyBox).border_title == "Safety"
+    text = shown(form)
+    assert text.splitlines()[0] == SAFETY.warning_line  # the whole list, once per program start
+    assert all(item in text for item in SAFETY.items) and text.endswith(SAFETY.deferral)
+    await pilot.press("escape")
+    await settle(app, pilot)
+    form = await open_form(app, pilot, crossing_pump(app).serial, key)
     assert shown(form) == SAFETY.warning_line  # short: the warning only
     assert SAFETY.warning_line in words(screen_text(app))
     return form

@@ -12,6 +12,7 @@ from textual.widgets import Input, Static
 from textual.worker import get_current_worker
 
 from logbook.model import InputRejected, Problem
+from logbook.validate import say
 from logbook.tui.forms import FieldDef, field_of
 from logbook.tui.gate import trouble_text
 from logbook.tui.messages import Checked, Doubted, Rejected, Saved
@@ -125,7 +126,7 @@ class EntryScreen(Screen):
         values, problems = self.parse_all()
         self._token += 1
         if problems:
-            self.show_check([], f"{len(problems)} field(s) to fix (see the messages under them)")
+            self.show_check([], self._to_fix(problems))
             return
         try:
             record = self.build_record(values)
@@ -167,6 +168,12 @@ class EntryScreen(Screen):
         check.update(f"? {head}\n" + "\n".join(f"  • {d}" for d in doubts))
         check.add_class("-bad")
 
+    def _to_fix(self, problems: list[Problem]) -> str:
+        """The fields' own problems in full (each field's line under it is cut to one row)."""
+        names = self.active_fields()
+        said = [say(p, names[p.field].label_text if p.field in names else None) for p in problems]
+        return f"{len(problems)} field(s) to fix:\n" + "\n".join(f"  • {t}" for t in said)
+
     def show_check(self, problems: list[Problem] | None, text: str = "") -> None:
         check = self.query_one("#check", Static)
         if problems is None:  # no dry run for this record: only the fields were checked
@@ -174,19 +181,17 @@ class EntryScreen(Screen):
             check.remove_class("-bad")
             return
         names = self.active_fields()
-        general = []
         for field in names.values():
             field.show_problem("")
         for p in problems:
             name = field_of(p, names)
             if name is not None:
-                names[name].show_problem(str(p))
-            else:
-                general.append(str(p))
+                names[name].show_problem(say(p, names[name].label_text))
         if text:
             check.update(f"✗ {text}")
         elif problems:
-            check.update("✗ The logbook would refuse this:\n" + "\n".join(f"  • {g}" for g in general or ["see the fields marked"]))
+            said = [say(p, names[p.field].label_text if p.field in names else None) for p in problems]
+            check.update("✗ The logbook would refuse this:\n" + "\n".join(f"  • {g}" for g in said))
         else:
             check.update("✓ The logbook accepts this (not saved yet: F2 saves)")
         check.set_class(bool(problems or text), "-bad")
@@ -199,7 +204,7 @@ class EntryScreen(Screen):
             self._timer.stop()  # the save's own verdict must not be overwritten by a late check
         values, problems = self.parse_all()
         if problems:
-            self.show_check([], f"not saved: {len(problems)} field(s) to fix")
+            self.show_check([], "not saved: " + self._to_fix(problems))
             first = next(f for f in self.active_fields().values() if f.has_class("-bad"))
             first.input.focus()
             return
@@ -241,7 +246,7 @@ class EntryScreen(Screen):
         self.show_check(message.problems, ("not saved: " + message.text) if message.text else "")
         if message.problems:
             check = self.query_one("#check", Static)
-            check.update("✗ Not saved, nothing was written:\n" + "\n".join(f"  • {p}" for p in message.problems))
+            check.update("✗ Not saved, nothing was written:\n" + "\n".join(f"  • {say(p)}" for p in message.problems))
         self.rejected(message)
 
     def on_saved(self, message: Saved) -> None:

@@ -39,7 +39,6 @@ class EventScreen(SafetyKey, EntryScreen):
         yield Plain(f"New event · pump {self.serial}", id="title")
         with VerticalScroll(classes="form", id="form"):
             yield Plain("", id="pump-line", classes="form-hint")
-            yield SafetyBox(self._safety_extra())
             with Horizontal(classes="field-row", id="kind-row"):
                 yield Label("Event", classes="field-label")
                 yield Select([(words, k.value) for k, words in forms.EVENT_KIND_WORDS.items()], value=self.kind.value,
@@ -49,6 +48,7 @@ class EventScreen(SafetyKey, EntryScreen):
                 for d in forms.event_fields(self.app.today, self.kind):
                     yield self.make_field(d, self._prefill().get(d.name, ""))
             yield Plain("Fill in the event; the logbook checks it as you type.", id="check")
+            yield SafetyBox(self._safety_extra())
             yield Plain("", id="result")
         yield Footer(compact=True)
 

@@ -41,11 +41,11 @@ class ReadingScreen(SafetyKey, EntryScreen):
         with VerticalScroll(classes="form", id="form"):
             yield Plain("", id="saved-line")
             yield Plain("", id="pump-line", classes="form-hint")
-            yield SafetyBox()
             with Container(classes="fields"):
                 for d in forms.reading_fields(self.app.units, self.app.today):
                     yield self.make_field(d)
             yield Plain("Fill in what you measured; the logbook checks it as you type.", id="check")
+            yield SafetyBox()
             yield Plain("", id="result")
         yield Footer(compact=True)
 
@@ -72,12 +72,13 @@ class ReadingScreen(SafetyKey, EntryScreen):
         last = history.readings[-1] if history.readings else None
         where = present.where(pf) if pf else "not fitted"
         left = f" · {len(self.following)} more in the round" if self.following else ""
-        self.query_one("#title", Static).update(f"New reading · pump {serial} · {m.code} · {where}{left}")
-        last_text = (f"last reading {fmt.day(last.taken_on)} at {fmt.hours(last.machine_hours)}"
-                     f" by {last.technician or last.entered_by}") if last else "no reading yet"
+        status = f" · {pf.status}" if pf else ""
+        left = f" · {len(self.following)} more" if self.following else ""
+        self.query_one("#title", Static).update(f"Reading · {serial} {m.code} · {where}{status}{left}")
+        last_text = f"last {fmt.day(last.taken_on)}, {fmt.hours(last.machine_hours)}" if last else "no reading yet"
         self.query_one("#pump-line", Static).update(
-            f"{last_text}. Test at {m.test_speed_rpm:g} rpm, oil {fmt.temperature(m.test_temp_min_c, u)}-"
-            f"{fmt.temperature(m.test_temp_max_c, u)}; status now {pf.status if pf else '-'}"
+            f"{last_text} · test {m.test_speed_rpm:g} rpm, oil {fmt.temperature(m.test_temp_min_c, u).split()[0]}-"
+            f"{fmt.temperature(m.test_temp_max_c, u)} · italic = prefilled"
         )
         self.query_one("#check", Static).update(
             "Fill in what you measured; the logbook checks it as you type."

@@ -10,6 +10,7 @@ from textual.containers import Horizontal, Vertical
 from textual.widgets import Input, Label, Static
 
 from logbook.model import Problem
+from logbook.validate import say
 from logbook.tui.widgets.plain import Plain
 
 Parser = Callable[[str], tuple[object, Problem | None]]
@@ -92,9 +93,11 @@ class FormField(Vertical):
         self._show()
 
     def _show(self) -> None:
-        message = str(self._own_problem) if self._own_problem else self._store_problem
+        message = say(self._own_problem, self.label_text) if self._own_problem else self._store_problem
         self.query_one(".field-message", Static).update(message)
         self.set_class(bool(message), "-bad")
+        mark = ("?" if message.startswith("?") else "✗") if message else ""
+        self.query_one(".field-unit", Static).update(f"{self.unit} {mark}".strip() if mark else self.unit)
 
     @on(Input.Changed)
     def _changed(self, event: Input.Changed) -> None:

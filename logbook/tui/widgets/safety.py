@@ -30,6 +30,11 @@ class SafetyBox(Static):
         self.border_title = SAFETY.title
 
     def on_mount(self) -> None:
+        # The whole list once each time the program starts (on the first form opened), then
+        # the warning alone: a bordered list would push the fields out of an 80x24 screen.
+        if not getattr(self.app, "safety_list_shown", False):
+            self.app.safety_list_shown = True
+            self.expanded = True
         self._show()
 
     def set_extra(self, extra: tuple[str, ...]) -> None:
