@@ -48,8 +48,8 @@ class EventScreen(SafetyKey, EntryScreen):
                 for d in forms.event_fields(self.app.today, self.kind):
                     yield self.make_field(d, self._prefill().get(d.name, ""))
             yield Plain("Fill in the event; the logbook checks it as you type.", id="check")
-            yield SafetyBox(self._safety_extra())
             yield Plain("", id="result")
+            yield SafetyBox(self._safety_extra())
         yield Footer(compact=True)
 
     def focus_order(self):

@@ -45,8 +45,8 @@ class ReadingScreen(SafetyKey, EntryScreen):
                 for d in forms.reading_fields(self.app.units, self.app.today):
                     yield self.make_field(d)
             yield Plain("Fill in what you measured; the logbook checks it as you type.", id="check")
-            yield SafetyBox()
             yield Plain("", id="result")
+            yield SafetyBox()
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
