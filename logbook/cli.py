@@ -37,6 +37,7 @@ COMMAND_MODULES = (
     "correct",
     "remove",
     "costs",
+    "backtest",
 )
 
 
@@ -78,6 +79,7 @@ class Context:
     user: str | None
     today: date
     units: UnitPrefs
+    as_of: date | None = None  # --as-of: read the fleet as the logbook knew it on this day (logbook.asof)
     console: Console = field(default_factory=lambda: TextConsole(highlight=False, width=_stdout_width()))
     # Not a terminal (cron, a log file): lines are never broken (a log line stays one line).
     err: Console = field(default_factory=lambda: TextConsole(stderr=True, highlight=False, soft_wrap=not sys.stderr.isatty()))
@@ -89,6 +91,10 @@ class Context:
         store = Store(self.db_path, create=create, user=self.user)
         self.stores.append(store)
         return store
+
+    def read_fleet(self, store):
+        """The fleet the read commands work on: everything now, or with --as-of what stood on that day."""
+        return store.fleet() if self.as_of is None else store.fleet_as_of(self.as_of)
 
 
 def whole_number(text: str) -> int:
@@ -182,6 +188,27 @@ def _add_global_options(parser: argparse.ArgumentParser, *, suppress: bool) -> N
     parser.add_argument("--units", choices=("metric", "us"), default=default(os.environ.get("LOGBOOK_UNITS", "metric")),
                         help="units to show and to read bare numbers in: metric (bar, L/min, C) or us (psi, gpm, F)")
     parser.add_argument("--today", type=iso_day, default=default(None), help=argparse.SUPPRESS)
+    parser.add_argument("--as-of", dest="as_of", type=iso_day, default=default(None), metavar="YYYY-MM-DD",
+                        help="forecast, pumps, show, round and the fleet view see only what the logbook "
+                        "knew on this day (readings and events dated on or before it, corrections and removals "
+                        "entered by then); read-only")
+
+
+#: Commands that read the fleet and take --as-of (the fleet view too: no command).
+AS_OF_COMMANDS = frozenset({None, "forecast", "pumps", "show", "round"})
+
+
+def _as_of_problem(args, real_today: date) -> str | None:
+    """--as-of with a command that writes, or a day after today: what is wrong, else None."""
+    as_of = getattr(args, "as_of", None)
+    if as_of is None:
+        return None
+    if args.command not in AS_OF_COMMANDS:
+        allowed = ", ".join(sorted(c for c in AS_OF_COMMANDS if c)) + " and the fleet view (no command)"
+        return f"--as-of = {as_of.isoformat()}: not with `{args.command}`; allowed with {allowed}"
+    if as_of > real_today:
+        return f"--as-of = {as_of.isoformat()}: a day after today ({real_today.isoformat()}); allowed: today or earlier"
+    return None
 
 
 def _options_only(argv: list[str] | None) -> argparse.Namespace | None:
@@ -203,12 +230,19 @@ def main(argv: list[str] | None = None) -> int:
     args = _options_only(argv)
     if args is None:
         args = build_parser().parse_args(argv)
+    real_today = args.today or date.today()
+    as_of = getattr(args, "as_of", None)
     ctx = Context(
         db_path=args.db if args.db is not None else default_db_path(),
         user=args.user,
-        today=args.today or date.today(),
+        today=as_of or real_today,
         units=UnitPrefs.us() if args.units == "us" else UnitPrefs(),
+        as_of=as_of,
     )
+    problem = _as_of_problem(args, real_today)
+    if problem:
+        ctx.err.print(f"logbook: {problem}", markup=False, soft_wrap=True)
+        return 2
     try:
         if args.command is None:
             from logbook.tui.launch import run  # not via logbook.commands: light until the frame

@@ -65,12 +65,14 @@ def forecast_fleet(
     options: FitOptions | None = None,
     thresholds: StatusThresholds | None = None,
     with_noise: bool = False,
+    calibration: bool = True,
 ) -> FleetForecast:
-    """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
+    """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump;
+    ``calibration=False`` leaves the bands as the paths give them (no spread factors from later readings)."""
     packed = pack_fleet(fleet, today)
     sites = {unit: m.site for unit, m in fleet.machines.items()}
     pumps = _forecasts(packed.serials, packed.models, packed.pack, today, sites, horizon_hours, options, thresholds,
-                       with_noise) if packed.serials else []  # fmt: skip
+                       with_noise, calibration) if packed.serials else []  # fmt: skip
     notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
              "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
              "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
@@ -103,10 +105,11 @@ def _timeline_of(histories: list[PumpHistory]) -> Timeline:
     return Timeline([f for h in histories for f in h.fitments], [r for h in histories for r in h.readings], events)
 
 
-def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, options, thresholds, with_noise):
+def _forecasts(serials, models, pk: FleetPack, today, sites, horizon_hours, options, thresholds, with_noise,
+               calibration=True):
     """Fit and forecast the packed batch, then the result records."""
     fit = fit_batch(pk.batch, options)
-    fc = forecast_batch(pk.batch, fit, horizon_hours=horizon_hours, with_noise=with_noise)
+    fc = forecast_batch(pk.batch, fit, horizon_hours=horizon_hours, with_noise=with_noise, calibration=calibration)
     rows = RowFigures.of(pk, fit, fc)
     kinds = kind_records(serials, pk, fit, fc, rows, today)
     return pump_records(serials, models, pk, fit, rows, kinds, today, sites, thresholds)

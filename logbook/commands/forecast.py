@@ -43,6 +43,8 @@ def register(sub) -> None:
                    help="place pumps by the greedy pass even when costs are set (logbook costs), for comparison")
     p.add_argument("--allow-late", action="store_true",
                    help="with costs: the least-cost plan may put a pump after the month of its P10 date")
+    p.add_argument("--no-calibration", action="store_true",
+                   help="raw bands: leave out the spread factors learnt from the fleet's later readings (docs/forecast.md)")
     p.add_argument("--no-charts", action="store_true", help="html: leave out the trend charts")
     p.add_argument("--max-charts", type=int, default=200, metavar="N",
                    help="html: chart at most the first N planned pumps (default 200)")
@@ -161,7 +163,7 @@ def run(args, ctx) -> int:
     with _Steps(ctx.err, total=6) as steps:
         steps.step("reading the database")
         with ctx.open_store() as store:
-            fleet = store.fleet()
+            fleet = ctx.read_fleet(store)
             book = store.costs()
             stored = store.plan_setup()  # the plan settings stored (audited); flags override them for this run
             sites = {m.site for m in fleet.machines.values()}
@@ -184,7 +186,7 @@ def run(args, ctx) -> int:
         from logbook.plan import make_plan
 
         steps.step(f"forecasting {len(fleet.pumps)} pumps")
-        forecast = forecast_fleet(fleet, ctx.today)
+        forecast = forecast_fleet(fleet, ctx.today, calibration=not args.no_calibration)
         steps.step("fitting fleet life")
         horizon_days = (add_months(start, settings.horizon_months) - ctx.today).days
         life = fleet_life(fleet, forecast, horizon_days=max(horizon_days, 1))
@@ -198,8 +200,13 @@ def run(args, ctx) -> int:
         plan = make_plan(forecast, settings, costs)
         steps.step(f"writing {fmt}")
         provenance = Provenance.from_models(str(fleet.source or ctx.db_path), ctx.today, fleet.models)
+        from logbook.analysis.backtest import calibration_notes
+
+        notes = calibration_notes(forecast, calibrated=not args.no_calibration)
+        if ctx.as_of is not None:
+            notes = (f"as of {ctx.as_of.isoformat()}: only what the logbook knew that day (logbook --as-of)", *notes)
         report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts,
-                        economies=economies)
+                        economies=economies, notes=notes)
         data = render(report, fmt)
         steps.step("saving")
         from logbook.outfile import OutputError, OutputRefused, write_bytes

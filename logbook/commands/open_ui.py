@@ -11,7 +11,7 @@ def print_summary(ctx) -> int:
     from logbook.commands.pumps import fleet_table
 
     with ctx.open_store() as store:
-        fleet = store.fleet()
+        fleet = ctx.read_fleet(store)
     forecast = forecast_fleet(fleet, today=ctx.today)
     counts = Counter(p.status for p in forecast.pumps)
     ctx.console.print(f"{len(forecast.pumps)} pumps on {ctx.today.isoformat()}: "

@@ -84,7 +84,7 @@ def run(args, ctx) -> int:
     from logbook.rounds import next_tests
 
     with ctx.open_store() as store:
-        fleet = store.fleet()
+        fleet = ctx.read_fleet(store)
     problems = filter_problems(fleet, site=args.site, model=args.model, status=args.status)
     if problems:
         for problem in problems:

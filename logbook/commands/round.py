@@ -86,7 +86,7 @@ def run(args, ctx) -> int:
         ctx.err.print(f"logbook round: {problem}", markup=False)
         return 2
     with ctx.open_store() as store:
-        fleet = store.fleet()
+        fleet = ctx.read_fleet(store)
     problem = _check(args, {m.site for m in fleet.machines.values()})
     if problem:
         ctx.err.print(f"logbook round: {problem}", markup=False)

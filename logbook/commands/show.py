@@ -26,9 +26,11 @@ def run(args, ctx) -> int:
         if args.serial not in pumps:
             ctx.err.print(f"logbook show: serial {args.serial!r} is not a known pump", markup=False)
             return 2
-        fleet = store.fleet()
+        fleet = ctx.read_fleet(store)
         history = fleet.history(args.serial)
         all_readings = store.readings(args.serial, include_superseded=True) if args.all_readings else history.readings
+    if ctx.as_of is not None and args.all_readings:  # nothing taken after the day (corrections as they stood then)
+        all_readings = [r for r in all_readings if r.taken_on <= ctx.as_of]
     forecast = forecast_in_fleet(fleet, args.serial, ctx.today)
     if args.format != "text":
         from logbook.exports import listings
@@ -80,12 +82,12 @@ def run(args, ctx) -> int:
              kf.path, fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), OUTCOME_WORDS[kf.outcome],
              ", ".join(sorted(kf.flags)).replace("_", " "))
     c.print(fit(c, cols, title="forecast (normalized to reference conditions)", more="--format json has them all")[0])
+    from logbook.analysis.backtest import kind_calibration_words
+
     checked = max((kf.calibrated_on for kf in forecast.kinds), default=0)
     c.print("P10 / P50 / P90: dates by which the pump's true condition (not one noisy reading) is past the limit "
-            "with 10 / 50 / 90 % chance, weighing several wear paths (path: the heaviest)"
-            + (f"; the band's width was checked on up to {checked} later readings of its model's fleet." if checked
-               else "; too little fleet history to check the band's width on later readings."),
-            markup=False, highlight=False)
+            "with 10 / 50 / 90 % chance, weighing several wear paths (path: the heaviest); bands "
+            + kind_calibration_words(checked, m.code) + ".", markup=False, highlight=False)
     return 0
 
 

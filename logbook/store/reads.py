@@ -193,6 +193,12 @@ class ReadMixin:
         """The fleet as the logbook knew it on ``day`` (see ``logbook.asof``), read in one transaction."""
         from logbook.asof import fleet_as_of
 
+        fleet, known = self.fleet_history()
+        return fleet_as_of(fleet, known, day)
+
+    def fleet_history(self):
+        """Every row, superseded and removed ones too, with when each became known (``asof.Known``), read in
+        one transaction: ``asof.fleet_as_of(fleet, known, day)`` then gives any past day without reading again."""
         self.conn.execute("BEGIN")
         try:
             fleet = Fleet(
@@ -208,7 +214,7 @@ class ReadMixin:
             known = self.known_spans(fleet)
         finally:
             self.conn.execute("COMMIT")
-        return fleet_as_of(fleet, known, day)
+        return fleet, known
 
     def known_spans(self, fleet: Fleet):
         """When each reading and event of ``fleet`` came to be known and, if corrected or removed,
