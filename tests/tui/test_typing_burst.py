@@ -118,3 +118,22 @@ async def test_a_burst_with_a_slow_check_is_stored_exactly(demo_app, demo_store)
     async with demo_app.run_test(size=(80, 24)) as pilot:
         form = await type_reading_at_once(demo_app, pilot, demo_store, slow_check=0.6)
         assert form.fields["note"].text == "typed at once"  # a late check rewrote nothing
+
+
+async def test_editing_keys_in_a_burst_apply_in_key_order(demo_app, demo_store):
+    """Backspace, Ctrl+U, Home and Left are the input's own keys: the framework runs them
+    only after they bubble up to the app, when the next characters have already been
+    typed in; the form's inputs run them in place, in order."""
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        app = demo_app
+        await settle(app, pilot)
+        form = await open_form(app, pilot, crossing_pump(app).serial, "r")
+        keys = [*"26.3", "backspace", "2", "tab", *"1x", "backspace", "5", "home", "2", "tab",
+                *"1.0", "left", "left", "left", "-", "tab", "ctrl+u", *"55", "tab"]
+        form.fields["case_drain"].input.focus()
+        await pilot.pause()
+        burst(app, keys)
+        await pilot.pause(0.2)
+        await settle(app, pilot)
+        assert [form.fields[n].text for n in ("case_drain", "servo_pressure", "neutral_drift", "oil_temp")] == [
+            "26.2", "215", "-1.0", "55"]

@@ -20,6 +20,22 @@ def no_check(text: str) -> tuple[object, Problem | None]:
     return text.strip(), None
 
 
+class FieldInput(Input):
+    """An input that runs its own editing keys (Backspace, Delete, Ctrl+U, Home, Left...)
+    where it handles characters, in key order. The framework runs a widget's bindings
+    only once the key has bubbled up to the app, by which time the characters typed
+    after it have been inserted: "26.3", Backspace, "2" typed fast became 26.32."""
+
+    async def _on_key(self, event) -> None:
+        for binding in self._bindings.key_to_bindings.get(event.key, ()):
+            if not binding.priority:
+                event.stop()
+                event.prevent_default()
+                await self.run_action(binding.action)
+                return
+        await super()._on_key(event)
+
+
 class FormField(Vertical):
     """``parse`` turns the text into (value, problem); the problem is shown under the field.
 
@@ -33,7 +49,7 @@ class FormField(Vertical):
         self.label_text = label
         self.parse = parse
         self.unit = unit
-        self._input = input_widget or Input(value=value, placeholder=placeholder, compact=True, id=f"in-{name}")
+        self._input = input_widget or FieldInput(value=value, placeholder=placeholder, compact=True, id=f"in-{name}")
         self._own_problem: Problem | None = None
         self._store_problem: str = ""
         self._programmatic: str | None = value  # a prefill's own change event is not the user's edit
