@@ -91,6 +91,7 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
     details = fit_details(pk, fit, rows.detail, fc)
     flags = [_FLAG_SETS[b] for b in (fit.flags & 15).tolist()]
     path, share = _path_words(fc, rows)
+    theo = _percent_of_theoretical(pk, latest_y, seen)
     calibrated = (fc.calibrated_on if fc.calibrated_on is not None else np.zeros(len(rows.code), dtype=int)).tolist()
     outcome = [OUTCOMES[c] for c in rows.code.tolist()]
     x_now = pk.batch.x_now.tolist()
@@ -103,10 +104,23 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
             p10_hours=hours[0][i], p50_hours=hours[1][i], p90_hours=hours[2][i],
             p10_date=when[0][i], p50_date=when[1][i], p90_date=when[2][i], flags=flags[i],
             fit=details[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
-            path_share=share[i], calibrated_on=int(calibrated[i]),
+            path_share=share[i], calibrated_on=int(calibrated[i]), percent_of_theoretical=theo[i],
         )
         for i, serial in enumerate(serial for serial in serials for _ in range(KINDS))
     ]  # fmt: skip
+
+
+def _percent_of_theoretical(pk: FleetPack, latest: list, seen: list) -> list[float | None]:
+    """Per row: the case drain row's latest normalized value as a percentage of the pump's theoretical
+    flow at its model's test speed (Q_th = Vg n / 1000); None for the other kinds and without readings."""
+    out: list[float | None] = [None] * len(seen)
+    if pk.theoretical_lpm is None:
+        return out
+    for p, q in enumerate(pk.theoretical_lpm.tolist()):
+        r = KINDS * p  # case drain is the first kind of each pump
+        if seen[r] and q > 0 and latest[r] is not None:
+            out[r] = 100.0 * latest[r] / q
+    return out
 
 
 def _path_words(fc: BatchForecast, rows: RowFigures) -> tuple[list[str], list[float | None]]:

@@ -105,6 +105,7 @@ class KindForecast:
     rate_per_1000h: float | None = None  # wear rate near today, units per 1000 h (sign as reading)
     path_share: float | None = None  # weight of that path in the mixture (0..1)
     calibrated_on: int = 0  # later readings of the model's fleet the band's width was checked on
+    percent_of_theoretical: float | None = None  # case drain only: latest value as % of theoretical flow
 
     @property
     def percent_of_limit(self) -> float | None:

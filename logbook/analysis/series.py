@@ -21,6 +21,7 @@ from logbook.analysis.normalize import ReadingConditions, normalized_value, tren
 from logbook.analysis.segments import KINDS, PumpReadings, SegmentStarts
 from logbook.analysis.timeline import Timeline, codes, floats
 from logbook.analysis.utilisation import pump_rate_spread
+from logbook.units import theoretical_flow_lpm
 from logbook.model import ALL_KINDS, Fitment, Kind, Limit, PumpModel
 
 
@@ -45,6 +46,7 @@ class FleetPack:
     day: np.ndarray  # day ordinal
     rank: np.ndarray  # position of the entry among its row's entries in x order (the batch column)
     spread: tuple[np.ndarray, ...] = ()  # per pump: utilisation.rate_spread's (v, L, T, last meter day)
+    theoretical_lpm: np.ndarray | None = None  # per pump: theoretical flow at its model's test speed
 
 
 @dataclass(slots=True)
@@ -90,6 +92,7 @@ def pack(timeline: Timeline, pump_serials: Sequence[str], pump_models: Sequence[
         limits=limits, start_on=_start_days(starts, entries, day),
         started=starts.start.reshape(-1) >= 0, origin=origin, before=entries.before, bounds=entries.bounds, x=x,
         y=entries.y, raw=entries.raw, day=day, rank=rank,
+        theoretical_lpm=floats([theoretical_flow_lpm(m.displacement_cc, m.test_speed_rpm) for m in pump_models]),
         spread=pump_rate_spread(timeline, [f.machine if f is not None else None for f in current], per_day, today),
     )  # fmt: skip
 

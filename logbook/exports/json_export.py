@@ -72,6 +72,7 @@ def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
         "latest_raw": _f(kf.latest_raw),
         "latest_on": _d(kf.latest_on),
         "percent_of_limit": _f(kf.percent_of_limit, 1),
+        "percent_of_theoretical_flow": _f(kf.percent_of_theoretical, 2),
         "n_readings": kf.n_readings,
         "segment_start": _d(kf.segment_start),
         "hours_in_segment": _f(kf.hours_in_segment, 1),

@@ -204,7 +204,16 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         rate_per_1000h=rate,
         path_share=path_words[1],
         calibrated_on=int(fc.calibrated_on[i]),
+        percent_of_theoretical=_percent(row, s),
     )
+
+
+def _percent(row: _Row, s: Series) -> float | None:
+    """Case drain as % of theoretical flow, Q_th [L/min] = Vg [cm3/rev] x n [rpm] / 1000."""
+    if s.kind is not Kind.CASE_DRAIN or not s.y_value:
+        return None
+    m = row.history.model
+    return 100.0 * s.y_value[-1] / (m.displacement_cc * m.test_speed_rpm / 1000.0)
 
 
 def _path(i: int, fc: BatchForecast, outcome: Outcome) -> tuple[str, float | None]:

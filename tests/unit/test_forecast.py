@@ -286,3 +286,14 @@ def test_path_mixture_quantiles_solve_the_mixture_exactly():
         with np.errstate(invalid="ignore", divide="ignore"):
             total += np.where(wk > 0, wk * special.stdtr(line.nu[rows][:, None], np.nan_to_num(gap / scale, nan=-np.inf)), 0.0)
     assert np.abs(total - np.array([0.1, 0.5, 0.9])).max() < 2e-3
+
+
+def test_case_drain_is_shown_as_a_share_of_theoretical_flow():
+    # Q_th [L/min] = Vg [cm3/rev] x n [rpm] / 1000, the fluid power identity: 50 cm3/rev at 1450 rpm
+    # gives 72.5 L/min (the identity of fluid power texts such as Esposito, Fluid Power with Applications;
+    # the book named from memory). The other
+    # kinds have no such figure.
+    ff = forecast_fleet(small_fleet([4e-4]), TODAY)
+    drain, servo, drift = ff.pumps[0].kinds
+    assert drain.percent_of_theoretical == pytest.approx(100.0 * drain.latest_value / 72.5, rel=1e-12)
+    assert servo.percent_of_theoretical is None and drift.percent_of_theoretical is None

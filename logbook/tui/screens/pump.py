@@ -3,7 +3,7 @@ per reading kind, a chart of the engine's fitted trend with the projected dates.
 
 from __future__ import annotations
 
-from textual import on
+from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
@@ -16,7 +16,7 @@ from logbook.tui import present
 from logbook.tui.widgets.chart import TrendChart
 from logbook.tui.widgets.plain import Plain
 
-TABS = ("trends", "readings", "events", "fitted")
+TABS = ("trends", "readings", "events", "fitted", "history")
 EVENT_WORDS = {
     "overhaul": "overhaul", "exchange": "exchange", "neutral_reset": "neutral re-set", "control_repair": "control repair",
     "oil_change": "oil change", "move": "move", "meter_replaced": "hour meter replaced",
@@ -38,6 +38,14 @@ class PumpScreen(Screen):
         Binding("2", "tab('readings')", "Readings", show=False, tooltip="the readings tab", id="pump.tab2"),
         Binding("3", "tab('events')", "Events", show=False, tooltip="the events tab", id="pump.tab3"),
         Binding("4", "tab('fitted')", "Fitted in", show=False, tooltip="the machines it sat in", id="pump.tab4"),
+        Binding("5", "tab('history')", "History", show=False, tooltip="who recorded, corrected or removed what",
+                id="pump.tab5"),
+        Binding("h", "tab('history')", "History", tooltip="who recorded, corrected or removed what, and why",
+                id="pump.history"),
+        Binding("c", "correct", "Correct", tooltip="correct the reading under the cursor (Readings tab)",
+                id="pump.correct"),
+        Binding("d", "remove", "Remove", tooltip="remove the reading or event under the cursor, with a reason",
+                id="pump.remove"),
     ]
 
     def __init__(self, serial: str, following: list[str] | None = None) -> None:
@@ -64,6 +72,8 @@ class PumpScreen(Screen):
                 yield DataTable(id="events-table", cursor_type="row", zebra_stripes=True)
             with TabPane("Fitted in", id="fitted"):
                 yield DataTable(id="fitted-table", cursor_type="row", zebra_stripes=True)
+            with TabPane("History", id="history"):
+                yield DataTable(id="history-table", cursor_type="row", zebra_stripes=True)
         yield Footer(compact=True)
 
     def on_mount(self) -> None:
@@ -82,6 +92,9 @@ class PumpScreen(Screen):
         self._show_readings(history)
         self._show_events(history)
         self._show_fitted(history, fleet)
+        self._events = {str(e.id): e for e in history.events}
+        if self.query_one("#pump-tabs", TabbedContent).active == "history":
+            self._load_history()
 
     def _show_identity(self, history, pf) -> None:
         m, u = history.model, self.app.units
@@ -146,6 +159,8 @@ class PumpScreen(Screen):
         path = ""
         if kf.path != "none":
             path = f" · {kf.path} path {kf.path_share:.0%}" if kf.path_share is not None else f" · {kf.path} path"
+        if kf.percent_of_theoretical is not None:
+            left += f" · {kf.percent_of_theoretical:.1f} % of theoretical flow"
         summary.update(
             f"{kf.kind.label}: {words}{left}{path} · trend {trend} · {kf.n_readings} reading(s) {segment}"
             + (f" · flags: {flags}" if flags else "")
@@ -188,7 +203,8 @@ class PumpScreen(Screen):
         for e in reversed(history.events):
             to = f"{e.to_machine} {e.to_position or ''}".strip() if e.to_machine else (fmt.hours(e.to_hours) if e.to_hours is not None else "")
             table.add_row(*fmt.cells(fmt.day(e.happened_on), EVENT_WORDS.get(e.kind.value, e.kind.value), e.machine or "",
-                                     fmt.hours(e.hours), to, e.technician or "-", e.note or "", e.entered_by or "-"))
+                                     fmt.hours(e.hours), to, e.technician or "-", e.note or "", e.entered_by or "-"),
+                          key=str(e.id))
         if not history.events:
             table.add_row(*fmt.cells("-", "no events recorded", "", "", "", "", "", ""))
 
@@ -227,6 +243,99 @@ class PumpScreen(Screen):
         if kind is not self.kind:
             self.kind = kind
             self._show_chart()
+
+    # -- history, corrections, removals (the store's, as on the command line) ---------------
+    @on(TabbedContent.TabActivated, "#pump-tabs")
+    def _tab_shown(self, event: TabbedContent.TabActivated) -> None:
+        if event.pane.id == "history":
+            self._load_history()
+
+    @work(thread=True, exclusive=True, group="pump-history")
+    def _load_history(self) -> None:
+        from logbook.tui.gate import trouble_text
+
+        try:
+            with self.app.gate.open() as store:
+                trail = store.pump_trail(self.serial)
+        except Exception as exc:
+            self.app.call_from_thread(self.notify, trouble_text(exc), severity="error")
+            return
+        self.app.call_from_thread(self._show_history, trail)
+
+    def _show_history(self, trail) -> None:
+        from logbook.commands.history import describe
+
+        table = self.query_one("#history-table", DataTable)
+        if not table.columns:
+            for label in ("When (UTC)", "Who", "What", "Before -> after", "Reason"):
+                table.add_column(label, key=label)
+        table.clear()
+        for entry in reversed(trail):
+            what, change = describe(entry)
+            table.add_row(*fmt.cells(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or ""))
+        if not trail:
+            table.add_row(*fmt.cells("-", "", "no recorded changes", "", ""))
+
+    def _under_cursor(self, table_id: str, records: dict):
+        table = self.query_one(table_id, DataTable)
+        if table.row_count == 0:
+            return None
+        key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key
+        return records.get(key.value) if key is not None else None
+
+    def action_correct(self) -> None:
+        tabs = self.query_one("#pump-tabs", TabbedContent)
+        reading = self._under_cursor("#readings-table", self._readings) if tabs.active == "readings" else None
+        if reading is None:
+            tabs.active = "readings"
+            self.notify("Choose the reading to correct (Readings tab), then c.", timeout=4)
+            return
+        from logbook.tui.screens.correct import CorrectReadingScreen
+
+        self.app.push_screen(CorrectReadingScreen(reading))
+
+    def action_remove(self) -> None:
+        from logbook.tui.screens.confirm import AskReason
+
+        tabs = self.query_one("#pump-tabs", TabbedContent)
+        if tabs.active == "readings":
+            r = self._under_cursor("#readings-table", self._readings)
+            if r is None:
+                return
+            question = (f"Remove reading {r.id} of {fmt.day(r.taken_on)} ({fmt.hours(r.machine_hours)})? It is kept, "
+                        "marked removed, and leaves every trend and check. Why?")
+            self.app.push_screen(AskReason(question), lambda why: why and self._remove("reading", r.id, why))
+        elif tabs.active == "events":
+            e = self._under_cursor("#events-table", getattr(self, "_events", {}))
+            if e is None:
+                return
+            question = (f"Remove the {EVENT_WORDS.get(e.kind.value, e.kind.value)} of {fmt.day(e.happened_on)} "
+                        f"(event {e.id})? It is kept, marked removed. Why?")
+            self.app.push_screen(AskReason(question), lambda why: why and self._remove("event", e.id, why))
+        else:
+            self.notify("Choose a reading (Readings tab) or an event (Events tab) to remove, then d.", timeout=4)
+
+    @work(thread=True, group="pump-remove")
+    def _remove(self, what: str, record_id: int, why: str) -> None:
+        from logbook.model import InputRejected
+        from logbook.tui.gate import trouble_text
+        from logbook.validate import say
+
+        try:
+            with self.app.gate.open() as store:
+                if what == "reading":
+                    store.remove_reading(record_id, reason=why)
+                else:
+                    store.remove_event(record_id, reason=why)
+        except InputRejected as exc:
+            text = "; ".join(say(p) for p in exc.problems)
+            self.app.call_from_thread(self.notify, f"Not removed: {text}", severity="error", timeout=8)
+            return
+        except Exception as exc:
+            self.app.call_from_thread(self.notify, f"Not removed: {trouble_text(exc)}", severity="error", timeout=8)
+            return
+        self.app.call_from_thread(self.notify, f"Removed {what} {record_id} (kept in the history).", timeout=5)
+        self.app.call_from_thread(self.app.reload, "removed")
 
     # -- actions -----------------------------------------------------------------------------
     def action_back(self) -> None:
