@@ -180,9 +180,24 @@ def _x_sums(x: np.ndarray, used: np.ndarray):
     return first, xs, n, sx, cxx, dx
 
 
-def one_step_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams=LAMBDAS, min_fit: int = 3):
+#: Series scored together in one_step_scores: its two dozen (series x readings) temporaries stay small
+#: (the scores of a series never depend on another's, so the blocks give the same numbers).
+SCORE_BLOCK = 4096
+
+
+def one_step_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams=LAMBDAS, min_fit: int = 3,
+                    block: int = SCORE_BLOCK):
     """(S, K) per series and path: summed log predictive density (reading scale) of each used reading
-    from a line through the used readings before it (at least ``min_fit``), and how many were scored."""
+    from a line through the used readings before it (at least ``min_fit``), and how many were scored.
+    Computed ``block`` series at a time (the peak memory of a block, not of the fleet)."""
+    if x.shape[0] <= block:
+        return _one_step_block(x, y, w, lams, min_fit)
+    parts = [_one_step_block(x[i:i + block], y[i:i + block], w[i:i + block], lams, min_fit)
+             for i in range(0, x.shape[0], block)]
+    return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
+
+
+def _one_step_block(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams, min_fit: int):
     log_y = np.log(np.where(y > 0, y, np.nan))
     masks = {True: (w > 0), False: (w > 0) & (y > 0)}  # the straight path takes any value, the others y > 0
     sums = {straight: _x_sums(x, m) for straight, m in masks.items()}
@@ -233,14 +248,15 @@ def stacking_weights(scores: np.ndarray, comparable: np.ndarray, group: np.ndarr
     dens = np.exp(dens - dens.max(axis=1, keepdims=True))  # exp(-inf) = 0: a path not allowed
     starts = np.flatnonzero(np.r_[True, g[1:] != g[:-1]])
     present = g[starts]
+    active = np.ones(present.size, dtype=bool)  # each group iterates until its own weights settle
     for _ in range(iterations):
         r = dens * weights[g]
         r /= r.sum(axis=1, keepdims=True)
-        new = weights.copy()
-        new[present] = np.add.reduceat(r, starts, axis=0) / counts[present][:, None]
-        done = np.abs(new - weights).max() < tol
-        weights = new
-        if done:
+        new = np.add.reduceat(r, starts, axis=0) / counts[present][:, None]
+        old = weights[present]
+        weights[present] = np.where(active[:, None], new, old)
+        active &= np.abs(new - old).max(axis=1) >= tol  # a group's result never depends on the others
+        if not active.any():
             break
     return weights
 
@@ -374,6 +390,7 @@ class PathMixture:
 # ------------------------------------------------------------------ calibration on the fleet's own later readings
 
 ORIGINS = (0.4, 0.55, 0.7, 0.85)  # forecast origins, as shares of each series' used readings
+GROUP_BLOCK = 4096  # series calibrated together: whole groups (a group's series share their fleet's paths)
 MIN_SCORES = 30  # later readings a group needs before its bands are calibrated
 SPREAD_RANGE = (0.2, 50.0)
 
@@ -464,10 +481,34 @@ def _leave_out_quantile(scores: np.ndarray, owner: np.ndarray, rows: np.ndarray,
     return out, counts
 
 
+def _group_blocks(rows: np.ndarray, group: np.ndarray, block: int):
+    """``rows`` in blocks of whole groups (a series without a group alone counts as one), each block
+    at most ``block`` series unless one group is larger: the mixture never looks across groups."""
+    if rows.size <= block:
+        if rows.size:
+            yield rows
+        return
+    key = np.where(group[rows] >= 0, group[rows], -1 - rows)  # ungrouped series: a group of their own
+    order = np.argsort(key, kind="stable")
+    keys = key[order]
+    starts = np.flatnonzero(np.r_[True, keys[1:] != keys[:-1]])
+    ends = np.r_[starts[1:], keys.size]
+    taken = 0
+    for a, b in zip(starts, ends):
+        if b - taken > block and a > taken:  # this group would overflow the block: close it before
+            yield np.sort(rows[order[taken:a]])
+            taken = a
+    if taken < keys.size:
+        yield np.sort(rows[order[taken:]])
+
+
 def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
-              group: np.ndarray, tail: float = 0.1, lambdas: tuple[float, ...] = LAMBDAS) -> Calibration:
+              group: np.ndarray, tail: float = 0.1, lambdas: tuple[float, ...] = LAMBDAS,
+              block: int = GROUP_BLOCK) -> Calibration:
     """Spread factors from forecasts of each series made at earlier origins of its own readings and
-    scored on its later ones, per group, each side apart, the series itself left out."""
+    scored on its later ones, per group, each side apart, the series itself left out. The mixtures
+    of an origin are fitted ``block`` series at a time, whole groups each (the same numbers, a
+    smaller peak of memory)."""
     x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
     used = w > 0
     n_used = used.sum(axis=1)
@@ -477,16 +518,15 @@ def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, di
         cut = np.maximum(np.floor(share * n_used), 3)
         train = used & (position <= cut[:, None])
         later = used & (position > cut[:, None])
-        rows = np.flatnonzero(later.any(axis=1) & (cut < n_used))
-        if not rows.size:
-            continue
-        mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
-                          lambdas=lambdas)
-        r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
-        if not r_local.size:
-            continue
-        worn, score = _required_spread(_LaterReadings(mix, r_local, x[rows][r_local, cols], y[rows][r_local, cols]), tail)
-        cells.append((rows[r_local], worn, score))
+        for rows in _group_blocks(np.flatnonzero(later.any(axis=1) & (cut < n_used)), group, block):
+            mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
+                              lambdas=lambdas)
+            r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
+            if not r_local.size:
+                continue
+            worn, score = _required_spread(_LaterReadings(mix, r_local, x[rows][r_local, cols], y[rows][r_local, cols]),
+                                           tail)
+            cells.append((rows[r_local], worn, score))
     cal = Calibration.none(x.shape[0])
     if not cells:
         return cal
