@@ -40,8 +40,8 @@ def _cut_copy(master, dest, day: date):
         for (new_id,) in con.execute(
             "SELECT id FROM readings WHERE entered_at > ? AND id IN (SELECT superseded_by FROM readings)", (end,)
         ).fetchall():
+            con.execute("DELETE FROM readings WHERE id = ?", (new_id,))  # first: one current row per reading
             con.execute("UPDATE readings SET superseded_by = NULL WHERE superseded_by = ?", (new_id,))
-            con.execute("DELETE FROM readings WHERE id = ?", (new_id,))
         # removals entered after the day are undone
         for table in ("readings", "events"):
             for (key,) in con.execute(
