@@ -125,6 +125,51 @@ def build_reading(serial: str, values: dict[str, object]) -> Reading:
     )
 
 
+def reason_field() -> FieldDef:
+    """Why a reading is corrected or removed (kept in the audit trail): required."""
+    def parse(text: str):
+        if not text.strip():
+            return None, Problem("reason", text, "is required: say why, for the audit trail")
+        return validate.parse_free_text("reason", text)
+
+    return FieldDef("reason", "Reason", parse, "", "why (kept in the history)")
+
+
+def reading_texts(reading: Reading, prefs: UnitPrefs) -> dict[str, str]:
+    """A stored reading's values as the form shows them (the user's units), to correct it."""
+    p, f, t = prefs.pressure, prefs.flow, prefs.temperature
+    return {
+        "date": reading.taken_on.isoformat(),
+        "machine_hours": f"{reading.machine_hours:g}",
+        "case_drain": _shown(reading.case_drain_lpm, f),
+        "servo_pressure": _shown(reading.servo_pressure_bar, p),
+        "neutral_drift": _shown(reading.neutral_drift_bar, p),
+        "oil_temp": _shown(reading.oil_temp_c, t),
+        "test_pressure": _shown(reading.test_pressure_bar, p),
+        "test_speed": _shown(reading.test_speed_rpm, ""),
+        "oil_grade": str(reading.oil_grade) if reading.oil_grade else "",
+        "oil_vi": _shown(reading.oil_vi, ""),
+        "charge_pressure": _shown(reading.charge_pressure_bar, p),
+        "iso4406": reading.iso4406 or "",
+        "technician": reading.technician if fmt.visible(reading.technician) == reading.technician else "",
+        "note": reading.note if fmt.visible(reading.note) == reading.note else "",
+    }
+
+
+def corrections(old: Reading, new: Reading, texts: dict[str, str], typed: dict[str, str]) -> dict[str, object]:
+    """The fields a correction changes: those whose text was changed on the form (a value
+    shown rounded and left alone is not rewritten by its rounding)."""
+    field_of = {
+        "date": "taken_on", "machine_hours": "machine_hours", "case_drain": "case_drain_lpm",
+        "servo_pressure": "servo_pressure_bar", "neutral_drift": "neutral_drift_bar", "oil_temp": "oil_temp_c",
+        "test_pressure": "test_pressure_bar", "test_speed": "test_speed_rpm", "oil_grade": "oil_grade",
+        "oil_vi": "oil_vi", "charge_pressure": "charge_pressure_bar", "iso4406": "iso4406",
+        "technician": "technician", "note": "note",
+    }
+    return {attr: getattr(new, attr) for name, attr in field_of.items()
+            if typed.get(name, "") != texts.get(name, "") and getattr(new, attr) != getattr(old, attr)}
+
+
 # -- events ------------------------------------------------------------------------------
 
 EVENT_KIND_WORDS = {

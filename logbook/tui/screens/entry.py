@@ -253,7 +253,7 @@ class EntryScreen(Screen):
         self.saving = False
         self._confirmed = None
         self._touched = False
-        self.app.reload("saved", message.record)  # its pump first, then the fleet
+        self.reload_after_save(message.record)
         self.saved(message.record)
 
     # -- hooks -------------------------------------------------------------------------------------
@@ -272,6 +272,9 @@ class EntryScreen(Screen):
 
     def saved(self, record) -> None:
         pass
+
+    def reload_after_save(self, record) -> None:
+        self.app.reload("saved", record)  # its pump first, then the fleet
 
     def rejected(self, message: Rejected) -> None:
         pass

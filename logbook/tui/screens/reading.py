@@ -42,12 +42,15 @@ class ReadingScreen(SafetyKey, EntryScreen):
             yield Plain("", id="saved-line")
             yield Plain("", id="pump-line", classes="form-hint")
             with Container(classes="fields"):
-                for d in forms.reading_fields(self.app.units, self.app.today):
+                for d in self.field_defs():
                     yield self.make_field(d)
             yield Plain("Fill in what you measured; the logbook checks it as you type.", id="check")
             yield Plain("", id="result")
             yield SafetyBox()
         yield Footer(compact=True)
+
+    def field_defs(self):
+        return forms.reading_fields(self.app.units, self.app.today)
 
     def on_mount(self) -> None:
         self.watch(self.app, "data_generation", self._forecast_arrived, init=False)
