@@ -170,3 +170,31 @@ def test_the_chart_band_is_the_mixture_that_gives_the_dates():
         assert lo[2] == pytest.approx(kf.limit.value, rel=2e-3)
         checked += 1
     assert checked >= 2
+
+
+def test_a_near_perfect_short_series_does_not_move_its_neighbours():
+    # Regression: one three-reading pump lying almost exactly on a line once raised the fleet's
+    # between-pump spread sevenfold and pushed a neighbour's P90 past the horizon. The fleet's
+    # residual variance is now its median over series (robust to a few extreme ones: Huber,
+    # Robust Statistics, 1981, ch. 1), so adding such a pump barely moves anyone.
+    from logbook.analysis.batch import RISING, TrendBatch
+    from logbook.analysis.fit import fit_batch
+    from logbook.analysis.forecast import forecast_batch
+
+    rng = np.random.default_rng(3)
+    series = []
+    for _ in range(10):
+        x = np.cumsum(rng.uniform(300, 600, 6))
+        series.append((x, 1.5 + 3e-4 * x * rng.uniform(0.7, 1.3) + rng.normal(0, 0.08, 6)))
+    xp = np.array([400.0, 800.0, 1200.0])
+    near_line = (xp, 1.5 + 2e-4 * xp + np.array([0.0, 1e-6, -1e-6]))
+
+    def remaining(ss):
+        b = TrendBatch.pack(ss, [6.0] * len(ss), [RISING] * len(ss), [0] * len(ss), [x[-1] + 100 for x, _ in ss])
+        return forecast_batch(b, fit_batch(b)).remaining[:10]
+
+    before, after = remaining(series), remaining(series + [near_line])
+    assert (np.isfinite(before) == np.isfinite(after)).all()
+    finite = np.isfinite(before)
+    assert finite[:, 2].sum() >= 3
+    assert np.abs(after[finite] / before[finite] - 1).max() < 0.03
