@@ -115,6 +115,25 @@ class RecordsMixin:
             by_serial[f.serial].append(f)
         return by_serial
 
+    #: Up to this many records, a check reads only the pumps it is about (one save of a
+    #: reading reads its pump and machine, not the fleet: issue 14, bench_record.py).
+    FEW = 20
+
+    def _pumps_and_fitments(self, serials) -> tuple[dict, dict[str, list[Fitment]]]:
+        """The pumps and fitments a check needs: of ``serials`` only, for a few records."""
+        wanted = sorted(set(serials))
+        if len(wanted) > self.FEW:
+            return self.pumps(), self._all_fitments()
+        from logbook.model import Pump
+
+        pumps, fits = {}, defaultdict(list)
+        for serial in wanted:
+            row = self.conn.execute("SELECT serial, model, note FROM pumps WHERE serial = ?", (serial,)).fetchone()
+            if row is not None:
+                pumps[row[0]] = Pump(row[0], row[1], row[2])
+                fits[serial] = self._fitments_of(serial)
+        return pumps, fits
+
     def _replacements(self) -> dict[str, list[Event]]:
         by_machine: dict[str, list[Event]] = defaultdict(list)
         for e in self.events():
@@ -178,8 +197,8 @@ class RecordsMixin:
         """Every problem of a batch of readings, and the accepted ones as (index, reading, machine).
         ``without``: reading ids left out of the comparison (the one being corrected).
         ``from_file``: kept originals (corrected or removed readings) count as present too."""
-        pumps, models = self.pumps(), self.models()
-        fits = self._all_fitments()
+        pumps, fits = self._pumps_and_fitments(r.serial for r in readings)
+        models = self.models()
         stored = self._stored_readings(readings, without, kept=from_file)
         given = "file" if from_file else "given"
         problems: list[Problem] = []

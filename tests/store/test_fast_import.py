@@ -51,8 +51,10 @@ def batches(draw, kept_originals: bool = False):
     for serial in serials + ([stranger] if stranger else []):
         day, hours = LAST[serial]
         for _ in range(draw(st.integers(1, 6))):
-            day += timedelta(days=draw(st.integers(0, 40)))
-            hours += pick(draw(st.sampled_from([0.0, 10.0, 55.5])), -30.0, -0.5)
+            days = draw(st.integers(0, 40))
+            day += timedelta(days=days)
+            # a clean meter gains at most 24 h a day (logbook check asks about more)
+            hours += pick(draw(st.sampled_from([0.0, 10.0, 55.5 if days >= 2 else 10.0])), -30.0, -0.5)
             rows.append({
                 "serial": serial, "date": day, "machine_hours": hours,
                 "case_drain": draw(st.sampled_from([None, 3.5, 4.0])) if pick(True, False) else 181.0,
