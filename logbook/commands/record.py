@@ -130,7 +130,7 @@ def run(args, ctx) -> int:
         ctx.console.print(f"recorded reading {saved.id} for {saved.serial} on {saved.taken_on} ({saved.machine})", markup=False)
         from logbook.analysis.fleet import forecast_in_fleet
 
-        fleet = store.fleet()
+        fleet = store.fleet_for_pump(saved.serial)  # what its forecast depends on, not the whole file
     forecast = forecast_in_fleet(fleet, saved.serial, ctx.today)
     before = {k: next((r.value(k) for r in reversed(previous) if r.value(k) is not None), None) for k in Kind}
     for kf in forecast.kinds:

@@ -303,6 +303,44 @@ class RecordsMixin:
         self._audit("import", kind, cur.lastrowid, None, None, {"file": source[0], "sha256": source[1], "rows": count})
         return int(cur.lastrowid)
 
+    # -- what one pump's forecast needs ---------------------------------------------------
+    def fleet_for_pump(self, serial: str):
+        """The part of the fleet that one pump's forecast in its fleet
+        (``analysis.fleet.forecast_in_fleet``) depends on, read in one transaction: the
+        pumps of its model (pooling never crosses models), the machines they sat in and
+        every record on those machines (their utilisation), all models and machines.
+        The same forecast as from ``fleet()``, reading a part of the file
+        (tests/store/test_record_speed.py holds the two to the same result)."""
+        from logbook.model import Fleet, Pump
+        from logbook.store.reads import event_from_row, fitment_from_row, reading_from_row
+
+        self.conn.execute("BEGIN")
+        try:
+            row = self.conn.execute("SELECT model FROM pumps WHERE serial = ?", (serial,)).fetchone()
+            if row is None:
+                return self.fleet()
+            pumps = {r[0]: Pump(r[0], r[1], r[2]) for r in self.conn.execute(
+                "SELECT serial, model, note FROM pumps WHERE model = ? OR serial = ? ORDER BY serial", (row[0], serial))}
+            serials = json.dumps(sorted(pumps))
+            machines = json.dumps(sorted({r[0] for r in self.conn.execute(
+                "SELECT DISTINCT machine FROM fitments WHERE serial IN (SELECT value FROM json_each(?))", (serials,))}))
+            fits = tuple(fitment_from_row(dict(r)) for r in self.db.query(
+                "SELECT * FROM fitments WHERE serial IN (SELECT value FROM json_each(?)) "
+                "OR machine IN (SELECT value FROM json_each(?)) ORDER BY fitted_on, id", [serials, machines]))
+            readings = tuple(reading_from_row(dict(r)) for r in self.db.query(
+                "SELECT * FROM readings WHERE (serial IN (SELECT value FROM json_each(?)) "
+                "OR machine IN (SELECT value FROM json_each(?))) AND superseded_by IS NULL AND removed_reason IS NULL "
+                "ORDER BY taken_on, machine_hours, id", [serials, machines]))
+            events = tuple(event_from_row(dict(r)) for r in self.db.query(
+                "SELECT * FROM events WHERE (serial IN (SELECT value FROM json_each(?)) "
+                "OR machine IN (SELECT value FROM json_each(?)) OR to_machine IN (SELECT value FROM json_each(?))) "
+                "AND removed_reason IS NULL ORDER BY happened_on, id", [serials, machines, machines]))
+            fleet = Fleet(models=self.models(), machines=self.machines(), pumps=pumps, fitments=fits,
+                          readings=readings, events=events, source=self.path, data_version=self.change_count())
+        finally:
+            self.conn.execute("COMMIT")
+        return fleet
+
     # -- plausibility (the rules are logbook.plausible's; the store gathers their context) --
     def plausibility_context(self, reading: Reading, *, without: Sequence[int] = ()):
         """What ``logbook.plausible`` needs to question ``reading``: its pump's model, earlier
