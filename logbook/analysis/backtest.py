@@ -438,6 +438,19 @@ def origin_dates(first: date, last: date, every: int, unit: str) -> list[date]:
         i += 1
 
 
+FIRST_AFTER_DAYS = 183  # the default first origin: this long after the first reading
+LAST_BEFORE_DAYS = 30  # the default last origin: this long before today (later readings to score on)
+
+
+def default_span(fleet: Fleet, today: date) -> tuple[date, date] | None:
+    """The default first and last origin: six months after the first reading, a month before today
+    (None without readings)."""
+    if not fleet.readings:
+        return None
+    return (min(r.taken_on for r in fleet.readings) + timedelta(days=FIRST_AFTER_DAYS),
+            today - timedelta(days=LAST_BEFORE_DAYS))
+
+
 # ------------------------------------------------------------------------- words for the forecast
 
 
@@ -473,7 +486,7 @@ def kind_calibration_words(calibrated_on: int, model: str) -> str:
 
 
 __all__ = [
-    "BacktestResult", "Figures", "LaterReadings", "NOMINAL", "PIT_BINS", "calibration_notes", "figures_of",
+    "BacktestResult", "Figures", "default_span", "LaterReadings", "NOMINAL", "PIT_BINS", "calibration_notes", "figures_of",
     "kaplan_meier", "kind_calibration_words", "origin_dates", "reading_cdf", "reading_median", "run_backtest",
     "summarize",
 ]

@@ -9,7 +9,7 @@ file or stdout. A progress bar appears only when stderr is a terminal.
 from __future__ import annotations
 
 import re
-from datetime import date, timedelta
+from datetime import date
 from pathlib import Path
 
 from logbook.model import Problem
@@ -95,10 +95,10 @@ def run(args, ctx) -> int:
         problems.append(Problem("readings", "none", "a backtest needs readings on record (logbook record, logbook import)"))
     if problems:
         return _bad(ctx, problems)
-    from logbook.analysis.backtest import origin_dates, run_backtest
+    from logbook.analysis.backtest import default_span, origin_dates, run_backtest
 
-    start = first or min(r.taken_on for r in now.readings) + timedelta(days=183)
-    end = last or ctx.today - timedelta(days=30)
+    span = default_span(now, ctx.today)
+    start, end = first or span[0], last or span[1]
     origins = origin_dates(start, end, *every)
     if not origins:
         return _bad(ctx, [Problem("--from", start.isoformat(), f"origins before --to ({end.isoformat()}); "

@@ -68,10 +68,11 @@ class LogbookApp(App):
     data_generation: reactive[int] = reactive(0)
 
     def __init__(self, store, *, today: date, units: UnitPrefs | None = None, poll_seconds: float = 3.0,
-                 light: bool = False, blink: bool = True, export_dir=None) -> None:
+                 light: bool = False, blink: bool = True, export_dir=None, as_of: date | None = None) -> None:
         super().__init__()
         self.gate = StoreGate(store)  # an open Store, or a StoreOpener used by the first load
-        self.today = today
+        self.as_of = as_of  # --as-of: the logbook as it stood on that day, read-only (logbook.asof)
+        self.today = as_of or today
         self.units = units or UnitPrefs()
         self.poll_seconds = poll_seconds
         self.fleet: Fleet | None = None
@@ -138,7 +139,7 @@ class LogbookApp(App):
             with self.gate.open() as store:  # opens the store on the first load
                 count = store.change_count()
                 if fleet is None or count != basis.data_version + 1:  # someone else wrote too: read it all
-                    fleet = store.fleet()
+                    fleet = store.fleet() if self.as_of is None else store.fleet_as_of(self.as_of)
                     count = fleet.data_version
                 else:
                     fleet = replace(fleet, data_version=count)
@@ -273,6 +274,18 @@ class LogbookApp(App):
         if action in ("quit", "toggle_theme"):  # a stray letter on a form must not quit or restyle
             return not getattr(self.screen, "HOLDS_INPUT", False)
         return True
+
+    def push_screen(self, screen, *args, **kwargs):
+        """As of a past day (--as-of) nothing is recorded: the entry forms and the round stay shut."""
+        if self.as_of is not None and not isinstance(screen, str):
+            from logbook.tui.screens.entry import EntryScreen
+            from logbook.tui.screens.round import RoundScreen
+
+            if isinstance(screen, (EntryScreen, RoundScreen)):
+                self.notify(f"The logbook as of {self.as_of.isoformat()} (--as-of) is read-only: nothing is recorded "
+                            "here. Start logbook without --as-of to record.", timeout=6, markup=False)
+                return None
+        return super().push_screen(screen, *args, **kwargs)
 
     def action_help(self) -> None:
         from logbook.tui.screens.help import HelpScreen

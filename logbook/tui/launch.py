@@ -27,7 +27,8 @@ def run(args, ctx) -> int:
         from logbook.tui.gate import StoreOpener
     except ImportError:
         return _summary(ctx)
-    app = make_app(StoreOpener(Path(ctx.db_path), ctx.user), today=ctx.today, units=ctx.units)
+    app = make_app(StoreOpener(Path(ctx.db_path), ctx.user), today=ctx.today, units=ctx.units,
+                   as_of=ctx.as_of)
     try:
         app.run()
     finally:

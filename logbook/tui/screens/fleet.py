@@ -54,6 +54,8 @@ class FleetScreen(Screen):
         Binding("x", "clear_filters", "Clear filters", show=False, tooltip="show every pump again", id="fleet.clear"),
         Binding("m", "models", "Models", tooltip="pump models: limits and reference conditions", id="fleet.models"),
         Binding("p", "plan", "Plan", tooltip="the month-by-month overhaul plan and its export", id="fleet.plan"),
+        Binding("b", "backtest", "Backtest", show=False, tooltip="how past forecasts did, per pump model",
+                id="fleet.backtest"),
         Binding("o", "round", "Round", show=False, tooltip="a reading round: a site's pumps due for a reading, one after another",
                 id="fleet.round"),
         Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from the serial box",
@@ -390,6 +392,11 @@ class FleetScreen(Screen):
         from logbook.tui.screens.round import RoundScreen
 
         self.app.push_screen(RoundScreen(site=self._filter_value("site")))
+
+    def action_backtest(self) -> None:
+        from logbook.tui.screens.backtest import BacktestScreen
+
+        self.app.push_screen(BacktestScreen())
 
     def action_plan(self) -> None:
         from logbook.tui.screens.plan import PlanScreen

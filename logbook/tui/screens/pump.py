@@ -14,6 +14,7 @@ from logbook.analysis.results import OUTCOME_WORDS
 from logbook.model import ALL_KINDS, Kind
 from logbook.tui import present
 from logbook.tui.widgets.chart import TrendChart
+from logbook.tui.screens.backtest import PastForecasts
 from logbook.tui.widgets.plain import Plain
 
 TABS = ("trends", "readings", "events", "fitted", "history")
@@ -33,6 +34,8 @@ class PumpScreen(Screen):
         Binding("e", "record_event", "Event", tooltip="record an event for this pump", id="pump.event"),
         Binding("k", "next_kind", "Kind", tooltip="chart the next reading kind (case drain, servo, drift)", id="pump.kind"),
         Binding("v", "next_tab", "View", tooltip="next tab: trends, readings, events, fitted in", id="pump.view"),
+        Binding("b", "past_forecasts", "Past", show=False, tooltip="how past forecasts of this pump did (the backtest "
+                "of its model)", id="pump.past"),
         Binding("n", "next_pump", "Next pump", tooltip="the next pump in the fleet view's order", id="pump.next"),
         Binding("1", "tab('trends')", "Trends", show=False, tooltip="the trends tab", id="pump.tab1"),
         Binding("2", "tab('readings')", "Readings", show=False, tooltip="the readings tab", id="pump.tab2"),
@@ -63,6 +66,7 @@ class PumpScreen(Screen):
             with TabPane("Trends", id="trends"):
                 yield DataTable(id="kind-table", cursor_type="row", cell_padding=1)
                 yield Plain("", id="kind-summary")
+                yield PastForecasts(self.serial, id="past-forecasts")
                 yield TrendChart(self.app.units, id="chart")
             with TabPane("Readings", id="readings"):
                 yield Plain("", id="readings-note", classes="form-hint")
@@ -362,6 +366,9 @@ class PumpScreen(Screen):
         from logbook.tui.screens.event import EventScreen
 
         self.app.push_screen(EventScreen(self.serial))
+
+    def action_past_forecasts(self) -> None:
+        self.query_one(PastForecasts).score()
 
     def action_next_pump(self) -> None:
         if not self.following:
