@@ -298,7 +298,26 @@ def _open(table: str, data: bytes):
     for name, col in columns.items():
         if col.required and name not in present:
             problems.append(Problem("header", name, "required column is missing", line=at))
+    if problems:
+        problems = _separator_hint(header, text, at) + problems  # the cause first
     return reader, fields, problems, text
+
+
+_SPLIT_DECIMAL = re.compile(r"(?:^|,)-?[0-9]+,[0-9]+(?:,|$)")
+_DECIMAL_COMMA = re.compile(r"(?:^|;)\s*-?[0-9]+,[0-9]+\s*(?:;|$)", re.M)
+
+
+def _separator_hint(header: list[str], text: str, line: int) -> list[Problem]:
+    """A header that reads as one cell holding ';' is a file saved with semicolons between the
+    columns (spreadsheets do so where the decimal mark is a comma): say so, and how to fix it."""
+    if len(header) != 1 or ";" not in header[0]:
+        return []
+    how = ("the file uses ';' between columns: save it as CSV with commas between columns "
+           "(in the spreadsheet: CSV UTF-8, comma-separated), or replace the ';' with ','")
+    if _DECIMAL_COMMA.search(text):
+        how += ("; its numbers are written with a decimal comma (e.g. 4,2): write them with a decimal "
+                "point (4.2), e.g. by setting the spreadsheet's language to one that uses the point, before saving")
+    return [Problem("file", "';' separators", how, line=line)]
 
 
 def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[int], list[Problem], int]:
@@ -324,7 +343,10 @@ def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[i
             if len(record) != width:
                 if not "".join(record).strip():
                     continue
-                problems.append(Problem("row", f"{len(record)} cells", f"must have {width} cells like the header", line=line))
+                comma = (" (a number with a decimal comma, e.g. 4,2, splits into two cells: write it 4.2)"
+                         if len(record) > width and _SPLIT_DECIMAL.search(",".join(record)) else "")
+                problems.append(Problem("row", f"{len(record)} cells", f"must have {width} cells like the header{comma}",
+                                        line=line))
                 continue
             values = dict(zip(names, [parse(raw) for parse, raw in zip(parsers, record)]))
             row_problems = []

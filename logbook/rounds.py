@@ -217,7 +217,7 @@ def next_tests(
     from logbook.analysis.timeline import Timeline
 
     rules = rules or TestRules()
-    timeline = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    timeline = Timeline.of(fleet)  # the engine's, when it forecast this snapshot
     clocks = MachineClocks(timeline, today)
     fitted = _fitted_today(timeline, sorted(fleet.pumps), today)
     last_of = _last_readings(timeline)
@@ -329,36 +329,90 @@ def second_look(
     before: Fleet, forecast: FleetForecast, new: Sequence[Reading], *, coverage: float = 0.95
 ) -> list[str]:
     """Lines for new readings whose normalized value falls outside the trend's prediction band
-    (central ``coverage``) at their operating hours, as the trend stood before the import."""
+    (central ``coverage``) at their operating hours, as the trend stood before the import.
+
+    The band is where a new reading is expected (the fitted path's prediction band, measurement
+    scatter included: ``reading=True``), not the narrower band of the true condition. Per fitted
+    pump and kind, one call of its distribution function on all its new readings at once
+    (``FitDetail.below``) and one band call for the readings outside it (their line names the
+    band); not one quantile per reading. Lines come in the readings' order."""
+    import numpy as np
+
     from logbook.analysis.fleet import pack_fleet
-    from logbook.analysis.normalize import normalized_value
     from logbook.analysis.timeline import Timeline
 
-    lines: list[str] = []
     packed = pack_fleet(before, forecast.today)
     position = {s: i for i, s in enumerate(packed.serials)}
+    pumps = {p.serial: p for p in forecast.pumps}
     new = sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours))
-    hours = Timeline(before.fitments, new, before.events).hours  # pump hours of the new readings
+    hours = np.asarray(Timeline(before.fitments, new, before.events).hours, dtype=float)  # pump hours of the new readings
     low_q, high_q = round(50 - 50 * coverage, 1), round(50 + 50 * coverage, 1)
+    by_pump: dict[str, list[int]] = {}
     for i, r in enumerate(new):
-        pf = forecast.pump(r.serial)
-        if pf is None or r.serial not in before.pumps or r.serial not in position:
-            continue
-        model = before.models[before.pumps[r.serial].model]
-        for kf in pf.kinds:
-            if kf.fit is None or r.value(kf.kind) is None:
+        if r.serial in pumps and r.serial in before.pumps and r.serial in position:
+            by_pump.setdefault(r.serial, []).append(i)
+    trended = _trended(before, new)
+    found: list[tuple[int, int, str]] = []
+    for serial, at in by_pump.items():
+        model = before.models[before.pumps[serial].model]
+        for kf in pumps[serial].kinds:
+            if kf.fit is None:
                 continue
-            row = 3 * position[r.serial] + ALL_KINDS.index(kf.kind)
+            k = ALL_KINDS.index(kf.kind)
+            row = 3 * position[serial] + k
             start_on = packed.pack.start_on[row]
-            if packed.pack.started[row] and r.taken_on < start_on:
-                continue  # an older wear segment: the current trend says nothing about it
-            x = float(hours[i] - packed.pack.origin[row])
-            value = normalized_value(r, kf.kind, model)
-            lo, _, hi = (float(v[0]) for v in kf.fit.band([x], coverage=coverage))
-            if lo <= value <= hi:
+            older = packed.pack.started[row]  # readings of an older wear segment: the current trend says nothing of them
+            take = [i for i in at if new[i].value(kf.kind) is not None and not (older and new[i].taken_on < start_on)]
+            if not take:
                 continue
-            lines.append(_look_line(r, kf.kind, value, (lo, hi), (low_q, high_q), x, start_on))
-    return lines
+            xs = hours[take] - float(packed.pack.origin[row])
+            values = trended[k][take]
+            p = kf.fit.below(xs, values, reading=True)  # one call for all of them; the band only where outside
+            out = np.flatnonzero((p < 0.5 - coverage / 2) | (p > 0.5 + coverage / 2))
+            if not len(out):
+                continue
+            lo, hi = kf.fit.bounds(xs[out], coverage=coverage, reading=True)
+            for j, at_j in enumerate(out.tolist()):
+                if lo[j] <= values[at_j] <= hi[j]:
+                    continue  # on the band's edge (the band's quantiles are found to 1e-12 by bisection)
+                i = take[at_j]
+                found.append((i, k, _look_line(new[i], kf.kind, float(values[at_j]), (float(lo[j]), float(hi[j])),
+                                               (low_q, high_q), float(xs[at_j]), start_on)))
+    return [line for _, _, line in sorted(found)]
+
+
+def _trended(fleet: Fleet, readings: Sequence[Reading]):
+    """Per kind, every reading's trended value (``normalize.normalized_value``, computed for all
+    at once with the engine's ``trended_values``); NaN where the reading has none."""
+    import numpy as np
+
+    from logbook.analysis.normalize import ReadingConditions, normalized_value, trended_values
+
+    codes = sorted(fleet.models)
+    models = [fleet.models[c] for c in codes]
+    index = {c: i for i, c in enumerate(codes)}
+    model_of = np.array([index[fleet.pumps[r.serial].model] if r.serial in fleet.pumps else 0 for r in readings], dtype=int)
+
+    def column(get) -> np.ndarray:
+        return np.array([np.nan if (v := get(r)) is None else v for r in readings], dtype=float)
+
+    def refuse(i: int):
+        normalized_value(readings[i], Kind.CASE_DRAIN, models[model_of[i]])  # raises the one reading's own error
+        raise ValueError(f"reading {readings[i].id} cannot be normalized")
+
+    conditions = ReadingConditions(column(lambda r: r.test_pressure_bar), column(lambda r: r.oil_temp_c),
+                                   column(lambda r: r.oil_grade), column(lambda r: r.oil_vi), models, model_of, refuse)
+    out = []
+    for kind in ALL_KINDS:
+        raw = column(lambda r, kind=kind: r.value(kind))
+        have = np.isfinite(raw)
+        values = np.full(len(readings), np.nan)
+        if have.any():
+            part = ReadingConditions(conditions.dp[have], conditions.temp[have], conditions.grade[have],
+                                     conditions.vi[have], models, model_of[have], lambda i: refuse(int(np.flatnonzero(have)[i])))
+            values[have] = trended_values(kind, raw[have], part)
+        out.append(values)
+    return out
 
 
 def _look_line(r: Reading, kind: Kind, value: float, band, quantiles, x: float, start_on: date | None) -> str:

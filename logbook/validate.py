@@ -285,10 +285,12 @@ def parse_oil_grade(text: str | int | None) -> tuple[int | None, Problem | None]
 def parse_iso4406(text: str | None) -> tuple[str | None, Problem | None]:
     """ISO 4406 code: three scale numbers (>=4, >=6, >=14 um(c)) like 18/16/13, each
     0-28 and not increasing (a count at a larger size cannot exceed one at a smaller);
-    the first may be '-' or '*' when not counted."""
+    the first may be '-' or '*' when not counted. Stored in the standard's form: scale
+    numbers without leading zeros, no spaces (``12/10/08`` as a spreadsheet writes it back,
+    or ``18 / 16 / 13``, is ``12/10/8``, ``18/16/13``), so that one code is one text."""
     if text is None or text.strip() == "":
         return None, None
-    value = text.strip()
+    value = re.sub(r"\s*/\s*", "/", text.strip())
     allowed = "must be three ISO 4406 scale numbers 0-28 like 18/16/13, not increasing left to right"
     m = _ISO4406_RE.match(value)
     if not m:
@@ -296,7 +298,7 @@ def parse_iso4406(text: str | None) -> tuple[str | None, Problem | None]:
     nums = [int(g) for g in m.groups() if g not in ("-", "*")]
     if any(n > 28 for n in nums) or any(a < b for a, b in zip(nums, nums[1:])):
         return None, Problem("iso4406", text, allowed)
-    return value, None
+    return "/".join(g if g in ("-", "*") else str(int(g)) for g in m.groups()), None
 
 
 def parse_event_kind(text: str | None) -> tuple[EventKind | None, Problem | None]:

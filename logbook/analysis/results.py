@@ -59,14 +59,41 @@ class FitDetail:
     mixture: object = field(default=None, compare=False, repr=False)
     row: int = field(default=-1, compare=False, repr=False)
 
-    def band(self, x: "list[float] | tuple[float, ...]", coverage: float = 0.8):
+    def below(self, x, value, *, reading: bool = False):
+        """P(the value at hours ``x`` is below ``value``), for many points in one call: the
+        distribution whose quantiles ``band`` draws (a value lies outside the central band of
+        coverage c exactly when this is below (1 - c) / 2 or above (1 + c) / 2). ``reading``:
+        of a new reading (the fitted path's prediction band, measurement scatter included),
+        not of the true condition."""
+        import numpy as np
+        from scipy import special
+
+        xs, vs = np.atleast_1d(np.asarray(x, dtype=float)), np.atleast_1d(np.asarray(value, dtype=float))
+        if self.mixture is not None and self.row >= 0 and not reading:
+            return self.mixture._value_cdf(np.maximum(vs, 1e-9)[None, :], xs[None, :], np.array([self.row]))[0]
+        a, b = self.params
+        var_mean = self.cov[0][0] + 2 * xs * self.cov[0][1] + xs * xs * self.cov[1][1]
+        se = np.sqrt(np.maximum(var_mean + self.sigma**2, 0.0))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            shown = np.log(np.maximum(vs, 1e-300)) if self.path == "exponential" else vs
+            return special.stdtr(max(self.dof, 1), (shown - (a + b * xs)) / se)  # = scipy.stats.t.cdf
+
+    def bounds(self, x, coverage: float = 0.8, *, reading: bool = False):
+        """(lower, upper) of ``band`` without its middle; ``reading`` as in ``below``."""
+        import numpy as np
+
+        lo, _, hi = self.band(x, coverage, reading=reading)
+        return np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
+
+    def band(self, x: "list[float] | tuple[float, ...]", coverage: float = 0.8, *, reading: bool = False):
         """(lower, middle, upper) band on the reading's scale at hours ``x``: of the true condition under
-        the path mixture when the forecast kept it, else the prediction band of the least-squares path."""
+        the path mixture when the forecast kept it, else (or with ``reading``) the prediction band of the
+        least-squares path, where a new reading is expected."""
         import numpy as np
         from scipy import special
 
         xs = np.asarray(x, dtype=float)
-        if self.mixture is not None and self.row >= 0:
+        if self.mixture is not None and self.row >= 0 and not reading:
             return self.mixture.band_of(self.row, xs, coverage)
         a, b = self.params
         mid = a + b * xs

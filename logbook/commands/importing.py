@@ -34,9 +34,13 @@ def run(args, ctx) -> int:
     except OSError as exc:
         ctx.err.print(f"logbook import: cannot read {args.file}: {exc.strerror}", markup=False)
         return 2
-    with ctx.open_store() as store:
-        check = args.table == "readings" and not args.dry_run
+    from logbook.commands.progress import Steps
+
+    check = args.table == "readings" and not args.dry_run
+    with Steps(ctx.err, total=5 if check else 2) as steps, ctx.open_store() as store:
+        steps.step("reading the logbook")
         before = store.fleet() if check else None
+        steps.step(f"checking and writing {args.file.name} ({size / 1e6:.1f} MB)")
         report = import_bytes(store, args.table, data, name=args.file.name, today=ctx.today, dry_run=args.dry_run)
         if check and report.added and not report.problems:
             from dataclasses import replace
@@ -44,7 +48,11 @@ def run(args, ctx) -> int:
             from logbook.plausible import fleet_doubts
             from logbook.rounds import import_second_look, new_readings
 
+            steps.step("reading the logbook again")
             after = store.fleet()
-            report = replace(report, flagged=[*report.flagged, *import_second_look(before, after, ctx.today),
+            steps.step(f"second look at {report.added} new readings against their trends")
+            looks = import_second_look(before, after, ctx.today)
+            steps.step("plausibility of the new readings")
+            report = replace(report, flagged=[*report.flagged, *looks,
                                               *fleet_doubts(after, new_readings(before, after), ctx.units)])
-    return print_report(ctx, report, str(args.file))
+    return print_report(ctx, report, str(args.file), lists_beside=args.file)
