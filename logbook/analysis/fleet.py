@@ -41,7 +41,7 @@ class PackedFleet:
 
 def pack_fleet(fleet: Fleet, today: date) -> PackedFleet:
     """Pumps to forecast (fitted now, or unfitted with current readings; by serial) and their series."""
-    timeline = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    timeline = Timeline.of(fleet)  # shared with the rounds and fleet life of the same snapshot
     fits, current = timeline.fits, timeline.latest
     known = set(np.unique(timeline.serial[current]).tolist()) | set(fits.serial[fits.removed == NEVER].tolist())
     serials = [s for s in sorted(fleet.pumps) if timeline.serial_index.get(s, -1) in known]

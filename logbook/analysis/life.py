@@ -291,7 +291,7 @@ def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dic
     events and the latest ones are the engine's (``Timeline``), from current readings.
     """
     ages_now = ages_now or {}
-    timeline = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    timeline = Timeline.of(fleet)  # the engine's, when it forecast this snapshot
     ends = sorted((e for e in fleet.events if e.serial in fleet.pumps and e.kind in (EventKind.OVERHAUL, EventKind.EXCHANGE)),
                   key=lambda e: (e.happened_on, e.id or 0))  # fmt: skip
     at_end = dict(zip(map(id, ends), timeline.event_pump_hours(ends, timeline.latest).tolist()))

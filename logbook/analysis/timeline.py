@@ -15,6 +15,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from datetime import date
 from operator import attrgetter
+import weakref
 
 import numpy as np
 
@@ -162,8 +163,23 @@ VALUE_FIELDS = ("case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar")  # 
 _NUMBERS = ("machine_hours", *VALUE_FIELDS, "oil_temp_c", "test_pressure_bar", "oil_grade", "oil_vi", "superseded_by")
 
 
+_SHARED: dict[int, tuple[weakref.ref, "Timeline"]] = {}  # id(fleet) -> (the fleet, its timeline)
+
+
 class Timeline:
     """Fitments, meter replacements and readings of a fleet as columns, and the pump hours of every reading."""
+
+    @classmethod
+    def of(cls, fleet) -> "Timeline":
+        """The timeline of a ``Fleet`` snapshot's records, built once per snapshot and shared by the
+        engine, the rounds and fleet life (its arrays are read, never changed); dropped with the snapshot."""
+        key = id(fleet)
+        held = _SHARED.get(key)
+        if held is not None and held[0]() is fleet:
+            return held[1]
+        timeline = cls(fleet.fitments, fleet.readings, fleet.events)
+        _SHARED[key] = (weakref.ref(fleet, lambda _, key=key: _SHARED.pop(key, None)), timeline)
+        return timeline
 
     def __init__(self, fitments: Sequence[Fitment], readings: Sequence[Reading], events: Sequence[Event]):
         self.serial_index: dict[str, int] = {}

@@ -48,3 +48,22 @@ def test_group_blocks_keep_groups_whole_and_cover_every_row_once():
             holding = [i for i, b in enumerate(blocks) if (group[b] == g).any()]
             assert len(holding) == 1  # a group is never split
         assert all(b.size <= block or len({*group[b]} - {-1}) == 1 for b in blocks)
+
+
+def test_one_timeline_per_snapshot_shared_and_dropped_with_it():
+    import gc
+    from dataclasses import replace
+
+    from logbook.analysis.timeline import _SHARED, Timeline
+
+    fleet = small_fleet([4e-4, 6e-4])
+    first = Timeline.of(fleet)
+    assert Timeline.of(fleet) is first  # the engine, the rounds and fleet life read the same arrays
+    other = replace(fleet, readings=fleet.readings[:-1])  # another snapshot: its own timeline
+    assert Timeline.of(other) is not first and len(Timeline.of(other).hours) == len(first.hours) - 1
+    built = Timeline(fleet.fitments, fleet.readings, fleet.events)
+    assert np.array_equal(built.hours, first.hours) and np.array_equal(built.fit, first.fit)
+    key = id(other)
+    del other
+    gc.collect()
+    assert key not in _SHARED
