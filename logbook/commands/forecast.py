@@ -10,6 +10,7 @@ from __future__ import annotations
 import dataclasses
 from pathlib import Path
 
+from logbook.commands.progress import Steps as _Steps  # the progress line (also backtest's)
 from logbook.model import InputRejected, Problem
 from logbook.validate import whole_number
 
@@ -115,31 +116,6 @@ def _month_in_range(start, this_month, text: str) -> list[Problem]:
         return []
     return [Problem("--month", text, f"a month from {month_label(first)} to {month_label(last)} "
                     f"({MONTHS_BACK // 12} years before to {MONTHS_AHEAD // 12} years after this month)")]
-
-
-class _Steps:
-    """A rich progress line on a terminal; silent otherwise (pipes, cron)."""
-
-    def __init__(self, console, total: int):
-        self.progress = None
-        if console.is_terminal:
-            from rich.progress import BarColumn, Progress, TextColumn
-
-            self.progress = Progress(TextColumn("{task.description}"), BarColumn(), console=console, transient=True)
-            self.task = self.progress.add_task("starting", total=total)
-
-    def __enter__(self):
-        if self.progress is not None:
-            self.progress.start()
-        return self
-
-    def step(self, what: str) -> None:
-        if self.progress is not None:
-            self.progress.update(self.task, description=what, advance=1)
-
-    def __exit__(self, *exc) -> None:
-        if self.progress is not None:
-            self.progress.stop()
 
 
 def run(args, ctx) -> int:
