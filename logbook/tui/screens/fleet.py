@@ -200,14 +200,20 @@ class FleetScreen(Screen):
             return False
         if len(self._shown_tests) != len(tests) or len(self._shown_costs) != len(costs):
             return False
-        changed = [i for i, (was, now, was_t, now_t, was_c, now_c)
-                   in enumerate(zip(self._shown, pumps, self._shown_tests, tests, self._shown_costs, costs))
-                   if was is not now or was_t != now_t or was_c != now_c]
+        changed = [i for i, (was, now, was_t, now_t) in enumerate(zip(self._shown, pumps, self._shown_tests, tests))
+                   if was is not now or was_t != now_t]
         if len(changed) > self.IN_PLACE_ROWS:
             return False
         for row in changed:
             for col, column in enumerate(columns):
                 table.update_cell_at(Coordinate(row, col), Cell(column.cell(pumps[row])))
+        # the costs arrive after the forecast: only their cells change, however many
+        cost = next((col for col, column in enumerate(columns) if column.key == "cost"), None)
+        if cost is not None:
+            done = set(changed)
+            for row, (was_c, now_c) in enumerate(zip(self._shown_costs, costs)):
+                if was_c != now_c and row not in done:
+                    table.update_cell_at(Coordinate(row, cost), Cell(columns[cost].cell(pumps[row])))
         return True
 
     def _ensure_columns(self, table: DataTable) -> bool:
