@@ -56,7 +56,7 @@ class FilterScreen(ModalScreen[dict]):
         self._count(self.apply(self.chosen))
 
     def _count(self, shown: int) -> None:
-        self.query_one("#filter-count", Static).update(f"{shown} pumps match")
+        self.query_one("#filter-count", Static).update(f"{shown} pump{'' if shown == 1 else 's'} match{'es' if shown == 1 else ''}")
 
     def action_clear(self) -> None:
         for name, _, _ in FILTERS:

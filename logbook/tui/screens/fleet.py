@@ -286,10 +286,21 @@ class FleetScreen(Screen):
         return self.serials[i + 1:]
 
     # -- events ------------------------------------------------------------------------------
+    #: Keys that, typed after a serial in the serial box, act on the pump found (as on the table).
+    FIND_KEYS = {"r": "record_reading", "e": "record_event"}
+
     @on(Input.Changed, "#find")
     def _find_changed(self, event: Input.Changed) -> None:
         text = event.value.strip().lower()
         if not text or not self.serials:
+            return
+        key, before = text[-1], text[:-1]
+        if key in self.FIND_KEYS and before and not any(text in s.lower() for s in self.serials) \
+                and any(before in s.lower() for s in self.serials):
+            # r after a serial: the pump found gets its reading form (the letter is no part of any serial)
+            event.input.value = event.value[:-1]
+            self.query_one("#fleet-table", DataTable).focus()
+            getattr(self, f"action_{self.FIND_KEYS[key]}")()
             return
         match = next((i for i, s in enumerate(self.serials) if s.lower().startswith(text)), None)
         if match is None:
@@ -313,7 +324,9 @@ class FleetScreen(Screen):
         if self.focused is not table or event.character is None:
             return
         ch = event.character
-        if ch.isdigit() or (ch.isalpha() and ch.isupper() and ch != "S") or ch == "-":
+        # a letter no key is bound to (a lowercase c) is part of a serial too
+        free = ch.isalpha() and ch.islower() and ch not in self.app.active_bindings
+        if ch.isdigit() or (ch.isalpha() and ch.isupper() and ch != "S") or ch == "-" or free:
             find = self.query_one("#find", Input)
             if not self._jumping:  # a new search; keys typed before the focus moves are appended
                 self._jumping = True

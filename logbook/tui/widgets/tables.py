@@ -27,9 +27,17 @@ class Cell:
 
 
 class OpenTable(DataTable):
-    """Enter opens the row under the cursor."""
+    """Enter opens the row under the cursor; Home and End go to the first and last row."""
 
-    BINDINGS = [Binding("enter", "select_cursor", "Open", tooltip="open the row under the cursor", id="table.open")]
+    BINDINGS = [
+        Binding("enter", "select_cursor", "Open", tooltip="open the row under the cursor", id="table.open"),
+        Binding("home", "row_at('first')", "First", show=False, tooltip="the first row", id="table.first"),
+        Binding("end", "row_at('last')", "Last", show=False, tooltip="the last row", id="table.last"),
+    ]
+
+    def action_row_at(self, which: str) -> None:
+        if self.row_count:
+            self.move_cursor(row=0 if which == "first" else self.row_count - 1, animate=False)
 
 
 class EditTable(DataTable):
