@@ -1,5 +1,8 @@
 """JSON export: provenance, plan settings and lines, fleet life, and one record per pump and reading.
 
+Schema ``logbook.forecast``, ``schema_version`` as the listings (docs/json.md,
+docs/logbook.schema.json); a status is a code with words and symbol.
+
 Keys keep a fixed order; floats are rounded (values 4 decimals, hours 1) and
 non-finite numbers become null, so the same report always gives the same text.
 """
@@ -12,6 +15,10 @@ import math
 from logbook.analysis.results import KindForecast, PumpForecast
 from logbook.exports import PROBABILITY_NOTE
 from logbook.exports.common import plan_lines
+from logbook.exports.listings import SCHEMA_VERSION, status_json
+
+#: The plan's values are in the logbook's own units (each line and record also names its ``unit``).
+CANONICAL_UNITS = {"flow": "L/min", "pressure": "bar", "temperature": "C", "hours": "h"}
 from logbook.plan import PlanLine, month_label
 
 
@@ -35,6 +42,7 @@ def _line(line: PlanLine) -> dict:
         "latest_month": month_label(line.target_month),
         "work": ("shop" if line.shop else "on machine") if line.month else "does not fit",
         "kind": line.kind.value,
+        "unit": line.kind.unit,
         "outcome": line.outcome.value,
         "latest_value": _f(line.latest_value),
         "limit": _f(line.limit_value),
@@ -87,7 +95,7 @@ def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
         "p50_date": _d(kf.p50_date),
         "p90_date": _d(kf.p90_date),
         "rate_per_1000h": _f(kf.rate_per_1000h),
-        "status": pf.status,
+        "status": status_json(pf.status),
         "flags": sorted(kf.flags),
         "planned_month": month_label(planned.month) if planned and planned.month else None,
         "plan": (("shop" if planned.shop else "on machine") if planned.month else "does not fit") if planned else None,
@@ -154,6 +162,10 @@ def report_dict(report) -> dict:
     s = plan.settings
     by_serial = {line.serial: line for line in plan_lines(report)}
     return {
+        "schema": "logbook.forecast",
+        "schema_version": SCHEMA_VERSION,
+        "today": report.forecast.today.isoformat(),
+        "units": CANONICAL_UNITS,
         "provenance": report.provenance.as_dict(),
         "forecast_date": report.forecast.today.isoformat(),
         "notes": list(report.forecast.notes) + list(report.notes),

@@ -41,6 +41,15 @@ def test_json_output_matches_the_documented_schema(demo, capsys, args):
     assert doc["schema"] == f"logbook.{args[0]}" and doc["schema_version"] == 1
 
 
+def test_forecast_json_matches_the_documented_schema(demo, capsys):
+    doc = _json(capsys, demo, "forecast", "--capacity", "2")
+    errors = [f"{list(e.absolute_path)}: {e.message}" for e in VALIDATOR.iter_errors(doc)]
+    assert not errors, errors[:5]
+    assert doc["schema"] == "logbook.forecast" and doc["units"]["flow"] == "L/min"
+    assert all(line["unit"] in ("L/min", "bar") for line in doc["plan"]["lines"])
+    assert {r["status"]["code"] for r in doc["forecasts"]} <= set(SCHEMA["$defs"]["status"]["properties"]["code"]["enum"])
+
+
 def test_the_schema_rejects_what_it_must(demo, capsys):
     doc = _json(capsys, demo, "pumps")
     bad = json.loads(json.dumps(doc))
