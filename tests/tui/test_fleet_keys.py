@@ -45,3 +45,15 @@ async def test_home_and_end_go_to_the_first_and_last_pump(demo_app):
         assert table.cursor_row == table.row_count - 1 and fleet.current_serial() == fleet.serials[-1]
         await pilot.press("home")
         assert table.cursor_row == 0 and fleet.current_serial() == fleet.serials[0]
+
+
+async def test_the_round_screen_opens_on_its_site_chooser(demo_app):
+    from textual.widgets import Select
+
+    app = demo_app
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(app, pilot)
+        app.screen.query_one("#fleet-table").focus()
+        await pilot.press("o")
+        await settle(app, pilot)
+        assert isinstance(app.focused, Select) and app.focused.id == "round-site"

@@ -61,8 +61,10 @@ class RoundScreen(Screen):
         table = self.query_one("#round-table", DataTable)
         for label in ("", "machine/pos", "serial", "model", "last reading", "next test"):
             table.add_column(label)
+        chosen = self.site is not None
         self.watch(self.app, "data_generation", self._data_changed, init=True)
-        table.focus()
+        # opened without a site: the chooser first (its first site is shown meanwhile)
+        (table if chosen else self.query_one("#round-site", Select)).focus()
 
     # -- data ---------------------------------------------------------------------------
     def _data_changed(self, generation: int) -> None:
