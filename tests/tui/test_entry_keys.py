@@ -179,3 +179,29 @@ async def test_the_keystrokes_for_one_reading_are_the_values_plus_seven(demo_app
         assert len(keys) - typed == 7
         saved = [r for r in demo_store.readings(pf.serial) if r.technician == "tester"]
         assert len(saved) == 1 and f"{saved[0].machine_hours:.0f}" == "".join(keys[len(pf.serial) + 2:]).split("tab")[0]
+
+
+def _luminance(c) -> float:
+    """Relative luminance (WCAG 2.1, definition of relative luminance: sRGB linearized)."""
+    def lin(v):
+        v /= 255
+        return v / 12.92 if v <= 0.04045 else ((v + 0.055) / 1.055) ** 2.4
+    return 0.2126 * lin(c.r) + 0.7152 * lin(c.g) + 0.0722 * lin(c.b)
+
+
+async def test_input_boxes_stand_out_in_every_theme(demo_store):
+    from logbook.tui.app import make_app
+
+    for theme in ("textual-dark", "textual-light", "ansi-dark", "ansi-light"):
+        app = make_app(demo_store, today=TODAY, poll_seconds=0, blink=False)
+        app.theme = theme
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(app, pilot)
+            form = await open_form(app, pilot, crossing_pump(app).serial, "r")
+            box = form.fields["case_drain"].input.background_colors[1]
+            around = form.background_colors[1]
+            if theme.startswith("ansi"):  # 16 colours: another colour than the terminal's own background
+                assert box.ansi is not None and box.ansi != around.ansi, theme
+            else:  # contrast ratio (L1 + 0.05) / (L2 + 0.05), WCAG 2.1; 1.5 is our own floor
+                hi, lo = sorted((_luminance(box), _luminance(around)), reverse=True)
+                assert (hi + 0.05) / (lo + 0.05) >= 1.5, theme
