@@ -26,6 +26,8 @@ record shows them now:
 
 from __future__ import annotations
 
+import copy
+import dataclasses
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from datetime import date, timedelta
@@ -34,6 +36,7 @@ import numpy as np
 from scipy import special
 
 from logbook.analysis import paths
+from logbook.analysis.batch import TrendBatch
 from logbook.analysis.fit import FitOptions, fit_batch
 from logbook.analysis.fleet import pack_fleet
 from logbook.analysis.forecast import O_CROSSING, O_NO_CROSSING, forecast_batch
@@ -91,7 +94,7 @@ def reading_cdf(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, y: 
 
 
 def reading_median(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, near: np.ndarray,
-                   iterations: int = 16) -> np.ndarray:
+                   iterations: int = 12) -> np.ndarray:
     """The median of one new reading at hours ``x``, searched within a factor 16 of ``near`` (positive
     values; bisection of ``reading_cdf`` on the log value: the bracket's end where the median lies beyond)."""
     base = np.log(np.where(near > 0, near, 1.0))
@@ -183,6 +186,58 @@ class LaterReadings:
         return owner, start + np.arange(n.sum())
 
 
+# ------------------------------------------------------------------------- many origins as one batch
+
+
+def forecast_together(batches: Sequence[TrendBatch], *, calibration: bool = True, options: FitOptions | None = None):
+    """Fit and forecast several batches as one (``fit.fit_batch``, ``forecast.forecast_batch``), each
+    batch's pooling groups kept apart, so that the engine's fixed cost per call is paid once; per batch
+    its own (BatchFit, BatchForecast), rows and columns cut back to it. Each row's figures are those of
+    its batch forecast alone, but for the stacking weights' stopping rule (all groups are iterated until
+    the slowest has converged: differences far below the bisections' resolution)."""
+    width = max(b.x.shape[1] for b in batches)
+    sizes = [b.x.shape[0] for b in batches]
+    offsets, group_base, groups = np.r_[0, np.cumsum(sizes)], 0, []
+    for b in batches:
+        groups.append(np.where(b.group >= 0, b.group + group_base, -1))
+        group_base += int(b.group.max(initial=-1)) + 1
+
+    def padded(a):
+        return np.pad(a, ((0, 0), (0, width - a.shape[1])), constant_values=np.nan)
+
+    big = TrendBatch(x=np.vstack([padded(b.x) for b in batches]), y=np.vstack([padded(b.y) for b in batches]),
+                     limit=np.concatenate([b.limit for b in batches]),
+                     direction=np.concatenate([b.direction for b in batches]), group=np.concatenate(groups),
+                     x_now=np.concatenate([b.x_now for b in batches]))
+    fit = fit_batch(big, options)
+    fc = forecast_batch(big, fit, calibration=calibration)
+    total = int(offsets[-1])
+    return [(_rows(fit, slice(lo, hi), b.x.shape[1], total, width), _rows(fc, slice(lo, hi), b.x.shape[1], total, width))
+            for b, lo, hi in zip(batches, offsets[:-1].tolist(), offsets[1:].tolist())]
+
+
+def _rows(obj, rows: slice, n: int, total: int, width: int):
+    """``obj`` (an engine result: dataclass or path mixture) with every per-row array cut to ``rows`` and
+    every per-column one to the first ``n`` columns."""
+    if isinstance(obj, np.ndarray):
+        if obj.ndim >= 1 and obj.shape[0] == total:
+            obj = obj[rows]
+            return obj[:, :n] if obj.ndim == 2 and obj.shape[1] == width else obj
+        return obj
+    if isinstance(obj, (list, tuple)):
+        return type(obj)(_rows(v, rows, n, total, width) for v in obj)
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return dataclasses.replace(obj, **{f.name: _rows(getattr(obj, f.name), rows, n, total, width)
+                                           for f in dataclasses.fields(obj) if f.init})
+    if isinstance(obj, paths.PathMixture):
+        cut = copy.copy(obj)
+        for name, value in vars(obj).items():
+            setattr(cut, name, _rows(value, rows, n, total, width))
+        cut.size = rows.stop - rows.start
+        return cut
+    return obj
+
+
 # ------------------------------------------------------------------------- the run
 
 
@@ -219,27 +274,32 @@ def horizon_words(i: int) -> str:
 
 def run_backtest(fleet_now: Fleet, fleet_history: Fleet, known: Known, origins: Sequence[date], *,
                  site: str | None = None, model: str | None = None, calibration: bool = True,
-                 options: FitOptions | None = None, step: Callable[[date], None] | None = None) -> "BacktestResult":
+                 options: FitOptions | None = None, step: Callable[[date], None] | None = None,
+                 together: int = 12) -> "BacktestResult":
     """Forecast as of each origin (``fleet_history``: every row with superseded and removed ones, ``known``:
-    when each became known) and score on the later record (``fleet_now``: the current readings)."""
+    when each became known) and score on the later record (``fleet_now``: the current readings). The
+    origins are forecast ``together`` at a time in one batch (``forecast_together``)."""
     later = LaterReadings(fleet_now)
     sc = Scores()
     sites = {unit: m.site for unit, m in fleet_now.machines.items()}
-    for origin in origins:
-        if step is not None:
-            step(origin)
-        _score_origin(fleet_as_of(fleet_history, known, origin), origin, later, sites, site, model, calibration,
-                      options, sc)
+    origins = list(origins)
+    for start in range(0, len(origins), max(together, 1)):
+        chunk = origins[start:start + max(together, 1)]
+        packed = [(day, pack_fleet(fleet_as_of(fleet_history, known, day), day)) for day in chunk]
+        packed = [(day, p) for day, p in packed if p.serials]
+        results = forecast_together([p.pack.batch for _, p in packed], calibration=calibration, options=options) \
+            if packed else []
+        done = {day: (p, fit, fc) for (day, p), (fit, fc) in zip(packed, results)}
+        for day in chunk:
+            if step is not None:
+                step(day)
+            if day in done:
+                _score_origin(*done[day], day, later, sites, site, model, sc)
     return summarize(sc, tuple(origins), calibration, site=site, model=model)
 
 
-def _score_origin(fleet: Fleet, origin: date, later: LaterReadings, sites, site, model, calibration, options, sc):
-    packed = pack_fleet(fleet, origin)
-    if not packed.serials:
-        return
+def _score_origin(packed, fit, fc, origin: date, later: LaterReadings, sites, site, model, sc):
     pk, batch = packed.pack, packed.pack.batch
-    fit = fit_batch(batch, options)
-    fc = forecast_batch(batch, fit, calibration=calibration)
     mix = fc.mixture
     figures = RowFigures.of(pk, fit, fc)
     kinds = kind_records(packed.serials, pk, fit, fc, figures, origin)

@@ -191,3 +191,26 @@ def test_later_readings_are_counted_as_a_plain_loop_counts_them(demo):
     assert sum(f.readings for f in result.groups["model"].values()) == expected
     assert sum(result.overall.pit) == expected
     assert ALL_KINDS  # every kind was looked at above
+
+
+def test_origins_forecast_together_equal_each_forecast_alone(demo):
+    """``forecast_together`` stacks several origins' batches into one engine call, each one's pooling
+    groups kept apart: every figure equals the figure of that batch forecast on its own."""
+    from logbook.analysis.fit import fit_batch
+    from logbook.analysis.fleet import pack_fleet
+    from logbook.analysis.forecast import forecast_batch
+    from logbook.asof import Known, fleet_as_of
+
+    days = [date(2024, 9, 1), date(2025, 5, 1), date(2026, 3, 1)]
+    batches = [pack_fleet(fleet_as_of(demo, Known(), d), d).pack.batch for d in days]
+    assert len({b.x.shape[1] for b in batches}) > 1  # different widths: the stacked batch pads
+    for batch, (fit2, fc2) in zip(batches, bt.forecast_together(batches)):
+        fit = fit_batch(batch)
+        fc = forecast_batch(batch, fit)
+        assert np.array_equal(fit.weights, fit2.weights) and np.array_equal(fit.n_used, fit2.n_used)
+        assert np.array_equal(fc.outcome, fc2.outcome) and np.array_equal(fc.calibrated_on, fc2.calibrated_on)
+        assert np.array_equal(np.isfinite(fc.remaining), np.isfinite(fc2.remaining))
+        finite = np.isfinite(fc.remaining)
+        assert fc2.remaining[finite] == pytest.approx(fc.remaining[finite], rel=1e-6)
+        assert fc2.mixture.weights == pytest.approx(fc.mixture.weights, abs=1e-9)
+        assert fc2.mixture.spread[0] == pytest.approx(fc.mixture.spread[0]) and fc2.mixture.size == batch.x.shape[0]
