@@ -111,10 +111,10 @@ def test_import_killed_at_any_moment_leaves_nothing_and_a_rerun_completes(tmp_pa
         code, out = _run_child(db, big_file, "plain", kill_after_s)
         integrity, readings, imports = _state(db)
         assert integrity == "ok"
-        finished = out.startswith("done")
+        finished = out.startswith("done") or (readings, imports) != (0, 0)
         outcomes.append((kill_after_s, code, finished))
-        if finished:  # the child beat the clock: then the whole file is in, once
-            assert (readings, imports) == (PUMPS * PER_PUMP, 1)
+        if finished:  # the child beat the clock (or was killed after its commit): the whole file is in, once
+            assert (readings, imports) == (PUMPS * PER_PUMP, 1), outcomes
             break
         assert code == -signal.SIGKILL and (readings, imports) == (0, 0), outcomes
     print(f"kill points (s after ready, exit code, finished): {outcomes}")
