@@ -84,20 +84,10 @@ class Context:
 
     @property
     def meter_before(self) -> tuple[date, float] | None:
-        """The highest earlier record (the one a meter running backwards is told against)."""
-        return max(self.meter_points, key=lambda p: (p[1], p[0]), default=None)
+        return meter_before(self.meter_points)
 
     def hours_per_day(self, today: date) -> float | None:
-        """The machine's utilisation from these records: the engine's own rule."""
-        if len(self.meter_points) < 2:
-            return None
-        import numpy as np
-
-        from logbook.analysis.utilisation import utilisation
-
-        day = np.array([d.toordinal() for d, _ in self.meter_points], dtype=np.int64)
-        hours = np.array([h for _, h in self.meter_points], dtype=float)
-        return utilisation(np.zeros(len(day), dtype=np.int64), day, hours, [0], today)[0]
+        return hours_per_day(self.meter_points, today)
 
     def previous(self, kind: Kind, before: date) -> Reading | None:
         """The pump's latest reading of ``kind`` before ``before`` in the current trend
@@ -110,6 +100,24 @@ class Context:
             if kind in SEGMENT_RESETS.get(e.kind, ()) and last.taken_on <= e.happened_on <= before:
                 return None
         return last
+
+
+def meter_before(points) -> tuple[date, float] | None:
+    """The highest earlier record (the one a meter running backwards is told against)."""
+    return max(points, key=lambda p: (p[1], p[0]), default=None)
+
+
+def hours_per_day(points, today: date) -> float | None:
+    """A machine's utilisation from its meter records (date, hours): the engine's own rule."""
+    if len(points) < 2:
+        return None
+    import numpy as np
+
+    from logbook.analysis.utilisation import utilisation
+
+    day = np.array([d.toordinal() for d, _ in points], dtype=np.int64)
+    hours = np.array([h for _, h in points], dtype=float)
+    return utilisation(np.zeros(len(day), dtype=np.int64), day, hours, [0], today)[0]
 
 
 def meter_doubt(when: date, hours: float, before: tuple[date, float] | None, hours_per_day: float | None,

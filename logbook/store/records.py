@@ -380,6 +380,27 @@ class RecordsMixin:
             "ORDER BY happened_on, id", [reading.serial, day]))
         return Context(model, points, earlier, events)
 
+    def event_doubts(self, event: Event) -> list:
+        """``logbook.plausible.meter_doubt`` for an event's hour meter on its machine (the
+        machine's records before that day on the same meter, and its utilisation)."""
+        from logbook.plausible import hours_per_day, meter_before, meter_doubt
+        from logbook.store.writes import _METER_POINTS
+
+        if event.machine is None or event.hours is None:
+            return []
+        day = event.happened_on.isoformat()
+        reps = [r[0] for r in self.conn.execute(
+            "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
+            (event.machine,))]
+        start = max((d for d in reps if d < day or (d == day and event.kind is not EventKind.METER_REPLACED)),
+                    default="0000-00-00")
+        points = tuple((date.fromisoformat(on), hours) for on, hours in self.conn.execute(
+            _METER_POINTS + "on_day < ? ORDER BY on_day",
+            (event.machine, "[]", event.machine, event.machine, event.machine, start, day, day)) if hours is not None)
+        doubt = meter_doubt(event.happened_on, event.hours, meter_before(points),
+                            hours_per_day(points, event.happened_on), field_name="hours")
+        return [doubt] if doubt else []
+
     def reading_doubts(self, reading: Reading, prefs=None, *, without: Sequence[int] = ()) -> list:
         """``logbook.plausible.reading_doubts`` for ``reading`` against what is stored."""
         from logbook.plausible import reading_doubts

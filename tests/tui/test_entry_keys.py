@@ -205,3 +205,19 @@ async def test_input_boxes_stand_out_in_every_theme(demo_store):
             else:  # contrast ratio (L1 + 0.05) / (L2 + 0.05), WCAG 2.1; 1.5 is our own floor
                 hi, lo = sorted((_luminance(box), _luminance(around)), reverse=True)
                 assert (hi + 0.05) / (lo + 0.05) >= 1.5, theme
+
+
+async def test_an_event_hour_meter_that_jumps_is_asked_about(demo_app, demo_store):
+    app = demo_app
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        form = await open_form(app, pilot, pf.serial, "e")
+        before = len(demo_store.events())
+        fill(form, hours=f"{meter_now(app, pf.machine) + 50_000:.0f}", note="rebuilt")
+        await pilot.press("f2")
+        await settle(app, pilot)
+        assert "more than 24 h a day" in text(form.query_one("#check")) and len(demo_store.events()) == before
+        await pilot.press("f2")
+        await settle(app, pilot)
+        assert len(demo_store.events()) == before + 1

@@ -105,6 +105,9 @@ class EventScreen(SafetyKey, EntryScreen):
     def dry_run(self, store, record: Event) -> list[Problem]:
         return store.add_events([record], today=self.app.today, dry_run=True).problems
 
+    def doubts(self, store, record: Event) -> list:
+        return store.event_doubts(record)
+
     def write(self, store, record: Event) -> Event:
         return store.add_event(record, today=self.app.today)
 
