@@ -94,11 +94,12 @@ def reading_cdf(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, y: 
 
 
 def reading_median(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, near: np.ndarray,
-                   iterations: int = 12) -> np.ndarray:
-    """The median of one new reading at hours ``x``, searched within a factor 16 of ``near`` (positive
-    values; bisection of ``reading_cdf`` on the log value: the bracket's end where the median lies beyond)."""
+                   iterations: int = 10) -> np.ndarray:
+    """The median of one new reading at hours ``x``, searched within a factor 4 of ``near`` (positive
+    values; bisection of ``reading_cdf`` on the log value, to 0.3 %: the bracket's end where the median
+    lies beyond, so an error past 300 % counts as 300 %)."""
     base = np.log(np.where(near > 0, near, 1.0))
-    lo, hi = base - np.log(16.0), base + np.log(16.0)
+    lo, hi = base - np.log(4.0), base + np.log(4.0)
     for _ in range(iterations):
         mid = 0.5 * (lo + hi)
         up = reading_cdf(mixture, rows, x, np.exp(mid), exact=False) >= 0.5
@@ -457,20 +458,26 @@ def _cat(parts, dtype=float, width=None):
     return np.zeros((0, width), dtype=object) if width else np.zeros(0, dtype=dtype)
 
 
+def _split(codes: list[int], n: int) -> list[np.ndarray]:
+    """Positions of each code 0..n-1 in ``codes`` (one sort, not a mask per code)."""
+    codes_a = np.asarray(codes, dtype=np.int64)
+    order = np.argsort(codes_a, kind="stable")
+    return np.split(order, np.searchsorted(codes_a[order], np.arange(1, n)))
+
+
 def summarize(sc: Scores, origins: tuple[date, ...], calibration: bool, *, site=None, model=None) -> BacktestResult:
     u, err, rk = _cat(sc.r_u), _cat(sc.r_err), _cat(sc.r_keys, width=5)
     cu, cev, cerr, ck = _cat(sc.c_u), _cat(sc.c_event, dtype=bool), _cat(sc.c_err), _cat(sc.c_keys, width=5)
     labels = {"readings": readings_words, "horizon": horizon_words}
 
     def grouped(col: int) -> dict[str, Figures]:
-        out = {}
         keys = sorted(set(rk[:, col].tolist()) | set(ck[:, col].tolist()), key=lambda v: (str(type(v)), v))
-        for key in keys:
-            a, b = rk[:, col] == key, ck[:, col] == key
-            name = GROUPINGS[col - 1] if col else "pump"
-            label = labels[name](int(key)) if name in labels else str(key)
-            out[label] = figures_of(u[a], err[a], cu[b], cev[b], cerr[b])
-        return out
+        index = {key: i for i, key in enumerate(keys)}
+        name = GROUPINGS[col - 1] if col else "pump"
+        r_of = _split([index[k] for k in rk[:, col].tolist()], len(keys))
+        c_of = _split([index[k] for k in ck[:, col].tolist()], len(keys))
+        return {(labels[name](int(key)) if name in labels else str(key)):
+                figures_of(u[a], err[a], cu[b], cev[b], cerr[b]) for key, a, b in zip(keys, r_of, c_of)}
 
     return BacktestResult(
         origins=origins, calibration=calibration, site=site, model=model,
