@@ -107,3 +107,22 @@ def test_the_database_is_never_the_output(demo, capsys):
     assert main(["backtest", "--db", str(demo), *SPAN, "--format", "json", "--out", str(demo)]) == 2
     assert "it is the database itself" in capsys.readouterr().err
     assert demo.read_bytes() == before
+
+
+def test_forecast_says_what_its_bands_were_calibrated_on(demo, capsys):
+    def forecast(*extra):
+        capsys.readouterr()
+        assert main(["forecast", "--db", str(demo), "--today", TODAY, "--format", "json", *extra]) == 0
+        return json.loads(capsys.readouterr().out)
+
+    calibrated, raw = forecast(), forecast("--no-calibration")
+    most = {}
+    for row in calibrated["forecasts"]:
+        key = (row["model"], row["kind"])
+        most[key] = max(most.get(key, 0), row["band_checked_on_readings"])
+    line = next(n for n in calibrated["notes"] if n.startswith("TQ-55 bands"))
+    assert f"case drain {most[('TQ-55', 'case_drain')]:,}" in line and most[("TQ-55", "case_drain")] >= 30
+    assert any("uncalibrated bands (--no-calibration)" in n for n in raw["notes"])
+    assert all(row["band_checked_on_readings"] == 0 for row in raw["forecasts"])
+    p10 = {(r["serial"], r["kind"]): r["p10_hours"] for r in calibrated["forecasts"]}
+    assert any(p10[(r["serial"], r["kind"])] != r["p10_hours"] for r in raw["forecasts"])  # the raw bands differ

@@ -214,3 +214,21 @@ def test_origins_forecast_together_equal_each_forecast_alone(demo):
         assert fc2.remaining[finite] == pytest.approx(fc.remaining[finite], rel=1e-6)
         assert fc2.mixture.weights == pytest.approx(fc.mixture.weights, abs=1e-9)
         assert fc2.mixture.spread[0] == pytest.approx(fc.mixture.spread[0]) and fc2.mixture.size == batch.x.shape[0]
+
+
+def test_a_model_with_too_few_later_readings_is_said_to_be_uncalibrated(demo):
+    """Below paths.MIN_SCORES later readings the bands are the paths' own, and the forecast says so."""
+    from dataclasses import replace
+
+    from logbook.analysis.fleet import forecast_fleet
+
+    one = sorted(s for s, p in demo.pumps.items() if p.model == "TQ-250")[:1]  # its own later readings are left out
+    small = forecast_fleet(replace(demo, pumps={s: demo.pumps[s] for s in one}), date(2026, 12, 1))
+    assert all(kf.calibrated_on == 0 for pf in small.pumps for kf in pf.kinds)
+    (line,) = bt.calibration_notes(small)
+    assert line.startswith("TQ-250 bands uncalibrated for case drain") and f"fewer than {paths.MIN_SCORES}" in line
+    whole = forecast_fleet(demo, date(2026, 12, 1))
+    n = max(kf.calibrated_on for pf in whole.pumps if pf.model == "TQ-250" for kf in pf.kinds if kf.kind.label == "case drain")
+    assert n >= paths.MIN_SCORES
+    assert f"case drain {n:,}" in next(t for t in bt.calibration_notes(whole) if t.startswith("TQ-250"))
+    assert bt.kind_calibration_words(0, "TQ-250").startswith("uncalibrated (fewer than")
