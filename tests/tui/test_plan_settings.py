@@ -75,7 +75,7 @@ async def test_a_bad_setting_is_refused_naming_the_field_and_nothing_is_stored(d
         await pilot.press("f2")
         await settle(demo_app, pilot)
         assert "not saved" in _said(form, "#check")
-        assert "capacity = 'two'" in _said(form, "#field-capacity .field-message")
+        assert "Shop capacity 'two'" in _said(form, "#field-capacity .field-message")  # the label on screen
         assert demo_store.plan_setup() == PlanSetup()
         form.fields["capacity"].input.value = ""
         await pilot.press("f2")
