@@ -77,3 +77,12 @@ def test_as_of_is_refused_where_it_makes_no_sense(master, capsys):
     assert "--as-of = 2025-01-01: not with `record`" in capsys.readouterr().err
     assert main(["pumps", "--db", str(master), "--as-of", "2027-01-01", "--today", TODAY]) == 2
     assert "a day after today (2026-12-01)" in capsys.readouterr().err
+
+
+def test_the_fleet_summary_without_a_terminal_is_as_of_the_day(master, tmp_path, capsys):
+    day = "2025-07-15"
+    cut = tmp_path / "cut.db"
+    _cut_copy(master, cut, date.fromisoformat(day))
+    as_of = _out(capsys, ["--db", str(master), "--as-of", day, "--today", TODAY])  # no command, no terminal: the summary
+    assert as_of.startswith(f"{as_of.split()[0]} pumps on {day}:")
+    assert as_of == _out(capsys, ["--db", str(cut), "--today", day])
