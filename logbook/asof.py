@@ -59,6 +59,20 @@ def _fitment_on(f: Fitment, day: date) -> Fitment | None:
     return f
 
 
+def readings_known_on(readings, known: Known, day: date) -> list[Reading]:
+    """Every reading of ``readings`` (superseded and removed ones too) as the logbook listed it on ``day``:
+    taken by then and entered by then; corrected or removed only where that was entered by then."""
+    out = []
+    for r in readings:
+        span = known.readings.get(r.id) if r.id is not None else None
+        if r.taken_on > day or (span is not None and span[0] > day):
+            continue
+        if _stands(span, day):
+            r = dataclasses.replace(r, superseded_by=None, removed_reason=None)
+        out.append(r)
+    return out
+
+
 def fleet_as_of(fleet: Fleet, known: Known, day: date) -> Fleet:
     """The records of ``fleet`` (read with every superseded and removed row) that stood on ``day``."""
     readings = tuple(r2 for r in fleet.readings if (r2 := _reading_on(r, known, day)) is not None)

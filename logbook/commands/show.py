@@ -29,8 +29,10 @@ def run(args, ctx) -> int:
         fleet = ctx.read_fleet(store)
         history = fleet.history(args.serial)
         all_readings = store.readings(args.serial, include_superseded=True) if args.all_readings else history.readings
-    if ctx.as_of is not None and args.all_readings:  # nothing taken after the day (corrections as they stood then)
-        all_readings = [r for r in all_readings if r.taken_on <= ctx.as_of]
+        if ctx.as_of is not None and args.all_readings:  # as listed on the day: later corrections not yet made
+            from logbook.asof import readings_known_on
+
+            all_readings = readings_known_on(all_readings, store.fleet_history()[1], ctx.as_of)
     forecast = forecast_in_fleet(fleet, args.serial, ctx.today)
     if args.format != "text":
         from logbook.exports import listings

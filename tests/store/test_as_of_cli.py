@@ -86,3 +86,22 @@ def test_the_fleet_summary_without_a_terminal_is_as_of_the_day(master, tmp_path,
     as_of = _out(capsys, ["--db", str(master), "--as-of", day, "--today", TODAY])  # no command, no terminal: the summary
     assert as_of.startswith(f"{as_of.split()[0]} pumps on {day}:")
     assert as_of == _out(capsys, ["--db", str(cut), "--today", day])
+
+
+def test_show_all_readings_as_of_a_day_lists_them_as_they_stood(master, tmp_path, capsys):
+    path = tmp_path / "corrected.db"
+    shutil.copy(master, path)
+    with Store(path, user="tester") as store:
+        reading = next(r for r in store.readings() if r.case_drain_lpm is not None and r.taken_on < date(2025, 6, 1))
+        fixed = store.correct_reading(reading.id, reason="typed in the wrong unit", today=DEMO_TODAY,
+                                      case_drain_lpm=round(reading.case_drain_lpm * 1.5, 2))
+
+    def states(*clock):
+        shown = json.loads(_out(capsys, ["show", reading.serial, "--all-readings", "--format", "json", "--db", str(path),
+                                         *clock]))
+        return {r["id"]: r["state"] for r in shown["readings"]}
+
+    before = states("--as-of", reading.taken_on.isoformat(), "--today", TODAY)
+    assert before[reading.id] == "current" and fixed.id not in before  # the correction was not entered yet
+    now = states("--today", TODAY)
+    assert now[reading.id] == "corrected" and now[fixed.id] == "current"
