@@ -193,9 +193,8 @@ class LaterReadings:
 def forecast_together(batches: Sequence[TrendBatch], *, calibration: bool = True, options: FitOptions | None = None):
     """Fit and forecast several batches as one (``fit.fit_batch``, ``forecast.forecast_batch``), each
     batch's pooling groups kept apart, so that the engine's fixed cost per call is paid once; per batch
-    its own (BatchFit, BatchForecast), rows and columns cut back to it. Each row's figures are those of
-    its batch forecast alone, but for the stacking weights' stopping rule (all groups are iterated until
-    the slowest has converged: differences far below the bisections' resolution)."""
+    its own (BatchFit, BatchForecast), rows and columns cut back to it: the figures of each batch
+    forecast alone (every step of the engine works per pooling group; test_backtest holds them equal)."""
     width = max(b.x.shape[1] for b in batches)
     sizes = [b.x.shape[0] for b in batches]
     offsets, group_base, groups = np.r_[0, np.cumsum(sizes)], 0, []
@@ -213,27 +212,30 @@ def forecast_together(batches: Sequence[TrendBatch], *, calibration: bool = True
     fit = fit_batch(big, options)
     fc = forecast_batch(big, fit, calibration=calibration)
     total = int(offsets[-1])
-    return [(_rows(fit, slice(lo, hi), b.x.shape[1], total, width), _rows(fc, slice(lo, hi), b.x.shape[1], total, width))
+    return [(_rows(fit, slice(lo, hi), total, (width, b.x.shape[1])), _rows(fc, slice(lo, hi), total))
             for b, lo, hi in zip(batches, offsets[:-1].tolist(), offsets[1:].tolist())]
 
 
-def _rows(obj, rows: slice, n: int, total: int, width: int):
-    """``obj`` (an engine result: dataclass or path mixture) with every per-row array cut to ``rows`` and
-    every per-column one to the first ``n`` columns."""
+def _rows(obj, rows: slice, total: int, columns: tuple[int, int] | None = None):
+    """``obj`` (an engine result: dataclass or path mixture) with every per-row array cut to ``rows``;
+    with ``columns`` = (width, n), every (rows, width) array also to its first n columns (the fit's
+    per-reading arrays: only for the fit, whose other arrays are per row; a forecast's per-quantile or
+    a mixture's per-path columns are never cut, whatever their number)."""
     if isinstance(obj, np.ndarray):
         if obj.ndim >= 1 and obj.shape[0] == total:
             obj = obj[rows]
-            return obj[:, :n] if obj.ndim == 2 and obj.shape[1] == width else obj
+            if columns is not None and obj.ndim == 2 and obj.shape[1] == columns[0]:
+                obj = obj[:, :columns[1]]
         return obj
     if isinstance(obj, (list, tuple)):
-        return type(obj)(_rows(v, rows, n, total, width) for v in obj)
+        return type(obj)(_rows(v, rows, total, columns) for v in obj)
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        return dataclasses.replace(obj, **{f.name: _rows(getattr(obj, f.name), rows, n, total, width)
+        return dataclasses.replace(obj, **{f.name: _rows(getattr(obj, f.name), rows, total, columns)
                                            for f in dataclasses.fields(obj) if f.init})
     if isinstance(obj, paths.PathMixture):
         cut = copy.copy(obj)
         for name, value in vars(obj).items():
-            setattr(cut, name, _rows(value, rows, n, total, width))
+            setattr(cut, name, _rows(value, rows, total))
         cut.size = rows.stop - rows.start
         return cut
     return obj
@@ -276,7 +278,7 @@ def horizon_words(i: int) -> str:
 def run_backtest(fleet_now: Fleet, fleet_history: Fleet, known: Known, origins: Sequence[date], *,
                  site: str | None = None, model: str | None = None, calibration: bool = True,
                  options: FitOptions | None = None, step: Callable[[date], None] | None = None,
-                 together: int = 12) -> "BacktestResult":
+                 together: int = 6) -> "BacktestResult":
     """Forecast as of each origin (``fleet_history``: every row with superseded and removed ones, ``known``:
     when each became known) and score on the later record (``fleet_now``: the current readings). The
     origins are forecast ``together`` at a time in one batch (``forecast_together``)."""

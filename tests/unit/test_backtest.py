@@ -232,3 +232,24 @@ def test_a_model_with_too_few_later_readings_is_said_to_be_uncalibrated(demo):
     assert n >= paths.MIN_SCORES
     assert f"case drain {n:,}" in next(t for t in bt.calibration_notes(whole) if t.startswith("TQ-250"))
     assert bt.kind_calibration_words(0, "TQ-250").startswith("uncalibrated (fewer than")
+
+
+def test_cutting_rows_back_never_cuts_a_forecasts_quantile_or_path_columns():
+    """A stacked batch 3 readings wide: the fit's per-reading columns are cut to each batch's width, a
+    forecast's three quantile columns (as wide by chance) are not."""
+    from dataclasses import dataclass as dc
+
+    @dc
+    class Fit:
+        weights: np.ndarray
+        n_used: np.ndarray
+
+    @dc
+    class Forecast:
+        remaining: np.ndarray
+
+    fit = Fit(np.arange(15.0).reshape(5, 3), np.arange(5))
+    fc = Forecast(np.arange(15.0).reshape(5, 3))
+    cut_fit = bt._rows(fit, slice(1, 3), 5, (3, 2))
+    assert cut_fit.weights.tolist() == [[3.0, 4.0], [6.0, 7.0]] and cut_fit.n_used.tolist() == [1, 2]
+    assert bt._rows(fc, slice(1, 3), 5).remaining.tolist() == [[3.0, 4.0, 5.0], [6.0, 7.0, 8.0]]
