@@ -40,7 +40,7 @@ async def test_pump_view_shows_history_readings_and_a_chart_per_kind(demo_app, d
         chart = screen.query_one("#chart", TrendChart)
         assert chart.kf.kind is pf.worst.kind  # opens on the kind closest to its limit
         drawn = text(chart)
-        for words in ("● reading", "fitted path", "P10-P90 band", "─ limit", "┊ today", "◆ P50 crossing"):
+        for words in ("● reading", "median of the wear paths", "P10-P90 band", "─ limit", "┊ today", "◆ P50 crossing"):
             assert words in drawn
         assert "●" in drawn.split("\n")[0] + drawn  # points are drawn
         assert any(0x2800 < ord(ch) <= 0x28FF for ch in drawn)  # the fitted path in braille
@@ -87,7 +87,7 @@ async def test_editing_a_limit_changes_the_statuses(demo_app, demo_store):
         assert isinstance(form, ModelEditScreen) and form.fields["case_drain_limit"].text == "24"
         form.fields["case_drain_limit"].input.value = "-3"
         await pilot.pause()
-        assert "case_drain_limit = '-3'" in text(form.fields["case_drain_limit"].query_one(".field-message"))
+        assert "Case drain limit '-3'" in text(form.fields["case_drain_limit"].query_one(".field-message"))  # the label
         await pilot.press("f2")
         await settle(app, pilot)
         assert demo_store.models()["TQ-250"].limit(Kind.CASE_DRAIN).value == 24.0  # nothing written
