@@ -18,7 +18,7 @@ KEY_NAMES = {
 
 EXTRA = {
     "FleetScreen": (
-        ("A-Z 0-9 -", "typing a serial (capital letters, digits, '-') on the table jumps to it"),
+        ("A-Z 0-9 -", "typing a serial (letters, digits, '-') on the table jumps to it; r or e after it opens its form"),
         ("Tab", "moves between the table and the serial box"),
         ("click header", "sorts by that column; again reverses"),
         ("Up/Down", "move through the pumps (PgUp/PgDn: a page)"),

@@ -78,7 +78,8 @@ class ReadingScreen(SafetyKey, EntryScreen):
         status = f" · {pf.status}" if pf else ""
         left = f" · {len(self.following)} more" if self.following else ""
         self.query_one("#title", Static).update(f"Reading · {serial} {m.code} · {where}{status}{left}")
-        last_text = f"last {fmt.day(last.taken_on)}, {fmt.hours(last.machine_hours)}" if last else "no reading yet"
+        last_text = (f"last {fmt.day(last.taken_on)}, {fmt.hours(last.machine_hours)} by "
+                     f"{last.technician or last.entered_by}") if last else "no reading yet"
         self.query_one("#pump-line", Static).update(
             f"{last_text} · test {m.test_speed_rpm:g} rpm, oil {fmt.temperature(m.test_temp_min_c, u).split()[0]}-"
             f"{fmt.temperature(m.test_temp_max_c, u)} · italic = prefilled"

@@ -31,8 +31,8 @@ class OpenTable(DataTable):
 
     BINDINGS = [
         Binding("enter", "select_cursor", "Open", tooltip="open the row under the cursor", id="table.open"),
-        Binding("home", "row_at('first')", "First", show=False, tooltip="the first row", id="table.first"),
-        Binding("end", "row_at('last')", "Last", show=False, tooltip="the last row", id="table.last"),
+        Binding("home", "row_at('first')", "First", show=False, key_display="Home", tooltip="the first row", id="table.first"),
+        Binding("end", "row_at('last')", "Last", show=False, key_display="End", tooltip="the last row", id="table.last"),
     ]
 
     def action_row_at(self, which: str) -> None:
