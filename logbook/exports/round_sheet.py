@@ -65,10 +65,13 @@ def build_sheet(
     test_by: date, units: UnitPrefs | None = None,
 ) -> RoundSheet:  # fmt: skip
     """Collect what the sheet shows for the chosen tests (from ``rounds.plan_round``)."""
-    last: dict[str, Reading] = {}
-    for r in sorted(fleet.readings, key=lambda r: (r.taken_on, r.machine_hours)):
-        if r.superseded_by is None:
-            last[r.serial] = r
+    wanted = {t.serial for t in tests}
+    last: dict[str, Reading] = {}  # the newest current reading of each pump on the sheet, in one pass
+    for r in fleet.readings:  # (by date and meter; of equal ones the later record, as a stable sort gives)
+        if r.serial in wanted and r.superseded_by is None:
+            held = last.get(r.serial)
+            if held is None or (r.taken_on, r.machine_hours) >= (held.taken_on, held.machine_hours):
+                last[r.serial] = r
     stops = []
     for t in tests:
         pf = forecast.pump(t.serial) if forecast is not None else None

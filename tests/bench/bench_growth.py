@@ -157,7 +157,11 @@ with Store(sys.argv[1], create=False) as s:
 if sys.argv[2] == "forecast":
     from logbook.analysis.fleet import forecast_fleet
     forecast_fleet(fleet, date.fromisoformat(sys.argv[3]))
-print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
+# the peak of this process's own memory (VmHWM: ru_maxrss would start at the parent's peak at the fork)
+try:
+    print(next(int(line.split()[1]) for line in open("/proc/self/status") if line.startswith("VmHWM:")))
+except (OSError, StopIteration):
+    print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
 """
 
 
