@@ -89,6 +89,7 @@ COLUMNS: dict[str, dict[str, Column]] = {
         "serial": Column("name", True),
         "date": Column("date", True),
         "machine": Column("name"),
+        "position": Column("name"),  # checked against the pump's fitment, not stored (round sheets carry it)
         "machine_hours": _num(R, "machine_hours", True),
         "case_drain": _num(R, "case_drain"),
         "servo_pressure": _num(R, "servo_pressure"),

@@ -120,10 +120,35 @@ def _readings_from_columns(columns: dict[str, list], n: int) -> list[Reading]:
     ]
 
 
+def position_problems(store, rows: list[tuple[str, date, str | None, int]]) -> list[Problem]:
+    """A readings file's ``position`` column (a round sheet carries it) is checked, not stored: each
+    (serial, date, position, line) given must be where the pump sat that day; a move is an event."""
+    from collections import defaultdict
+
+    wanted = [(s, d, p, line) for s, d, p, line in rows if p not in (None, "")]
+    if not wanted:
+        return []
+    fits = defaultdict(list)
+    for f in store.fitments():
+        fits[f.serial].append(f)
+    problems = []
+    for serial, day, position, line in wanted:
+        fit = next((f for f in fits.get(serial, []) if f.fitted_on <= day and (f.removed_on is None or day < f.removed_on)), None)
+        if fit is not None and fit.position != position:
+            problems.append(Problem("position", position, f"pump {serial} sat at {fit.position} on {fit.machine} on {day}; "
+                                    "a move is recorded as an event (logbook event move)", line=line))
+    return problems  # a pump not fitted that day: the store's own check says so
+
+
 def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_run: bool = False) -> ImportReport:
     """Import one CSV file's bytes into ``table``; all rows or none."""
     source = (name, hashlib.sha256(data).hexdigest())
     fast = read_columns(table, data, today) if table == "readings" else None
+    if fast is not None and "position" in fast[0]:
+        columns, lines = fast
+        wrong = position_problems(store, list(zip(columns["serial"], columns["date"], columns["position"], lines)))
+        if wrong:
+            return ImportReport(table, problems=wrong, dry_run=dry_run)
     if fast is not None:  # a clean readings file: parsed column by column
         columns, lines = fast
         report = store.add_reading_columns(columns, lines=lines, today=today, dry_run=dry_run, source=source)
@@ -148,7 +173,10 @@ def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_
             items.append(item)
         report = store.add_pumps(items, lines=lines, dry_run=write_dry or bool(problems))
     elif table == "readings":
-        report = store.add_readings([_reading(v) for v in rows], lines=lines, today=today, dry_run=write_dry, source=source)
+        problems += position_problems(store, [(v["serial"], v["date"], v.get("position"), line) for v, line in zip(rows, lines)
+                                              if v.get("serial") and v.get("date")])
+        report = store.add_readings([_reading(v) for v in rows], lines=lines, today=today,
+                                    dry_run=write_dry or bool(problems), source=source)
     elif table == "costs":
         report = store.add_costs(rows, lines=lines, dry_run=write_dry)
     else:

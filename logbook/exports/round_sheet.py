@@ -118,6 +118,7 @@ def render_csv(sheet: RoundSheet) -> str:
         row = dict.fromkeys(CSV_COLUMNS, "")
         row["serial"] = stop.test.serial
         row["machine"] = stop.test.machine
+        row["position"] = stop.test.position  # checked on import: where the pump sits
         row["test_pressure"] = _number(units.from_canonical(stop.model.ref_pressure_bar, _unit_of("test_pressure", prefs) or "bar"))
         row["test_speed"] = _number(stop.model.test_speed_rpm, 0)
         writer.writerow([quote_formula(row[name]) for name in CSV_COLUMNS])  # read back by csvread

@@ -182,3 +182,24 @@ def test_progress_is_shown_only_on_a_terminal():
         steps.step("reading the logbook")
         steps.step("second look")
         assert steps.progress.tasks[0].completed == 2 and steps.progress.tasks[0].description == "second look"
+
+
+@pytest.mark.parametrize("lane", ["column-wise", "row by row"])
+def test_the_round_sheet_position_is_checked_on_import(store, monkeypatch, lane):
+    from logbook import imports
+    from logbook.exports.round_sheet import CSV_COLUMNS
+    from logbook.imports import import_bytes
+
+    if lane == "row by row":
+        monkeypatch.setattr(imports, "read_columns", lambda *a, **k: None)
+    assert CSV_COLUMNS.index("position") == CSV_COLUMNS.index("machine") + 1  # where a technician looks for it
+    today = date(2026, 12, 1)
+    before = store.counts()["readings"]
+    wrong = b"serial,date,machine,position,machine_hours,servo_pressure\nS-100,2025-06-01,M-1,swing,1700,25\n"
+    report = import_bytes(store, "readings", wrong, name="r.csv", today=today)
+    assert [p.field for p in report.problems] == ["position"] and report.added == 0
+    assert "sat at main on M-1" in report.problems[0].allowed and report.problems[0].line == 2
+    assert store.counts()["readings"] == before  # nothing written
+    right = wrong.replace(b"swing", b"main")
+    report = import_bytes(store, "readings", right, name="r.csv", today=today)
+    assert report.problems == [] and report.added == 1

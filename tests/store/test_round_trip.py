@@ -46,7 +46,7 @@ def _bytes(rows: list[list[str]]) -> bytes:
 
 def test_filled_sheet_imports_and_blank_rows_are_skipped(store):
     rows = _sheet(store)
-    assert rows[COMMENTS + 1][:4] == ["S-100", "", "M-1", ""]  # date and meter left for the technician
+    assert rows[COMMENTS + 1][:5] == ["S-100", "", "M-1", "main", ""]  # date and meter left for the technician
     _fill(rows, "S-100", date="2026-11-30", machine_hours=2900, case_drain=4.4, servo_pressure=24.8,
           neutral_drift=-1.9, oil_temp=52, technician="Ana")
     before = store.counts()

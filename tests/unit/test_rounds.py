@@ -202,7 +202,7 @@ def test_us_units_go_into_the_headers_and_convert_back():
     sheet = round_sheet.build_sheet(fleet, None, tests, site="North Yard", made_on=today, test_by=today, units=UnitPrefs.us())
     text = round_sheet.render_csv(sheet)
     assert "test_pressure [psi]" in next(line for line in text.splitlines() if line.startswith("serial"))
-    filled = text.replace(",,M-1,,,,,", ",2026-03-20,M-1,1600,,380,,", 1)  # servo pressure 380 psi
+    filled = text.replace(",,M-1,main,,,,", ",2026-03-20,M-1,main,1600,,380,", 1)  # servo pressure 380 psi
     parsed, _, problems, _ = read_table("readings", filled.encode(), today)
     assert problems == []
     # 400 bar = 5801.5 psi (1 bar = 14.5038 psi, NIST SP 811); written to 0.1 psi, read back within 0.01 bar
