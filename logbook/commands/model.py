@@ -3,13 +3,12 @@ change limits and job costs (the same audited store calls as the models screen a
 
 from __future__ import annotations
 
-from rich.table import Table
-
 from logbook import fmt
 from logbook.commands.record import parse_with_unit
 from logbook.model import ALL_KINDS, InputRejected, Kind, Problem
 from logbook.validate import COST_FIELDS, parse_number
 
+_SHORT = {Kind.CASE_DRAIN: "drain", Kind.SERVO_PRESSURE: "servo", Kind.NEUTRAL_DRIFT: "drift"}
 _LIMIT_FIELD = {Kind.CASE_DRAIN: "case_drain", Kind.SERVO_PRESSURE: "servo_pressure", Kind.NEUTRAL_DRIFT: "neutral_drift"}
 
 
@@ -23,6 +22,11 @@ def register(sub) -> None:
     p.add_argument("--failure", metavar="AMOUNT", help="with --planned: the cost of an in-service failure "
                                                        "(parts, secondary damage, circuit flush)")
     p.set_defaults(func=run)
+
+
+def _bare(shown: str) -> str:
+    """'420.0 bar' -> '420.0' (the unit is in the column's header)."""
+    return shown.split(" ")[0]
 
 
 def _costs_given(args) -> tuple[float, float] | None:
@@ -76,19 +80,24 @@ def run(args, ctx) -> int:
         book = store.costs()
     for note in notes:
         ctx.err.print(f"note: {note}", markup=False, soft_wrap=True)
-    table = Table(box=None, header_style="bold")
-    for col in ("model", "Vg cm3/rev", "rated", "ref temp", "ref press.", "oil", *[k.label + " limit" for k in ALL_KINDS]):
-        table.add_column(col)
+    from logbook.commands.tables import Col, fit
+
+    u = ctx.units
+    cols = [Col("model", 0), Col("Vg cm3/rev", 5, justify="right"), Col(f"rated {u.pressure}", 6, justify="right"),
+            Col(f"ref temp {u.temperature}", 7, justify="right"), Col(f"ref press. {u.pressure}", 8, justify="right"),
+            Col("oil", 9), *[Col(f"{_SHORT[k]} limit {fmt.unit_for(k, u)}", 1 + i, keep=True, justify="right")
+                             for i, k in enumerate(ALL_KINDS)]]
     for m in models.values():
         if args.code and m.code != args.code:
             continue
-        table.add_row(*fmt.cells(
-            m.code, f"{m.displacement_cc:g}", fmt.pressure(m.rated_pressure_bar, ctx.units), fmt.temperature(m.ref_temp_c, ctx.units),
-            fmt.pressure(m.ref_pressure_bar, ctx.units), f"VG {m.oil_grade} VI {m.oil_vi:g}",
-            *[(("<" if lim.direction == "below" else ">") + " " + fmt.value(k, lim.value, ctx.units)) if (lim := m.limit(k)) else "-"
-              for k in ALL_KINDS]),
-        )
-    ctx.console.print(table)
+        values = [m.code, f"{m.displacement_cc:g}", _bare(fmt.pressure(m.rated_pressure_bar, u)),
+                  _bare(fmt.temperature(m.ref_temp_c, u)), _bare(fmt.pressure(m.ref_pressure_bar, u)),
+                  f"VG {m.oil_grade} VI {m.oil_vi:g}",
+                  *[(("<" if lim.direction == "below" else ">") + " " + fmt.value(k, lim.value, u, with_unit=False))
+                    if (lim := m.limit(k)) else "-" for k in ALL_KINDS]]
+        for col, v in zip(cols, values):
+            col.cells.append(v)
+    ctx.console.print(fit(ctx.console, cols, more="a wider terminal shows them")[0])
     cur = book.currency or "(no currency set)"
     for m in models.values():
         if (args.code is None or m.code == args.code) and (c := book.models.get(m.code)) is not None:

@@ -77,14 +77,18 @@ def test_show_at_80_columns_keeps_dates_whole(demo, capsys, monkeypatch, serial)
     assert "drain L/min" in out and "servo bar" in out  # the unit once, in the header
 
 
-def test_history_round_and_costs_fit_80_columns(demo, capsys, monkeypatch):
-    for args in (("history", "C-28412"), ("round", "--all"), ("costs",), ("check",)):
+def test_history_round_costs_and_models_fit_80_columns(demo, capsys, monkeypatch):
+    for args in (("history", "C-28412"), ("round", "--all"), ("costs",), ("check",), ("model",), ("model", "--units", "us")):
         code, out, _ = _run(capsys, monkeypatch, demo, *args)
         assert code == 0, args
         _fits(out)
     _, out, _ = _run(capsys, monkeypatch, demo, "history", "C-28412")
     assert "when (UTC)" in out.splitlines()[1]  # the header row under the title, not after it on one line
     assert all(re.match(r"\d{4}-\d{2}-\d{2} \d{2}:\d{2}", line) for line in out.splitlines()[2:] if line[:1].isdigit())
+    _, out, _ = _run(capsys, monkeypatch, demo, "model")
+    header = out.splitlines()[0]
+    assert "drain limit L/min" in header and "servo limit bar" in header  # units once, in the header
+    assert re.search(r"TQ-90 .*> \d+\.\d\d .*< \d+\.\d\d", out)
 
 
 def test_stderr_is_not_wrapped_when_it_is_not_a_terminal(demo):
