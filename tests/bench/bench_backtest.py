@@ -27,7 +27,6 @@
 from __future__ import annotations
 
 import argparse
-import dataclasses
 import functools
 import math
 import sys
