@@ -62,49 +62,73 @@ DAYS_PER_MONTH = 365.2425 / 12
 # ------------------------------------------------------------------------- the predictive CDF of a reading
 
 
+class ReadingPredictive:
+    """The forecast distribution of one new reading at hours ``x`` for series ``rows`` of ``mixture``
+    (1-D, same length). Per path k the reading's value on its Box-Cox scale is Student t with the
+    line's degrees of freedom, location the line at ``x`` and variance f^2 (path variance) + (reading
+    noise), f the spread factor of the side the value lies on (toward wear: ``spread[0]``, the other:
+    ``spread[1]``), as ``PathMixture.crossed_by`` spreads them with ``noise=True``. The per-path terms
+    are taken once, so that a search (the median) evaluates only the t CDFs."""
+
+    def __init__(self, mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray):
+        rows = np.asarray(rows, dtype=np.int64)
+        x = np.asarray(x, dtype=float)
+        self.size = rows.size
+        self.sign = mixture.sign[rows]
+        fast, slow = mixture.spread[0][rows], mixture.spread[1][rows]
+        self.parts = []  # (weight, lam, location, fast variance, slow variance, dof)
+        for k, line in enumerate(mixture.lines):
+            wk = mixture.weights[rows, k]
+            if not wk.any():
+                continue
+            d = x - line.xbar[rows]
+            path_var = line.var_a[rows] + d * d * line.var_b[rows]
+            s2 = line.s2[rows]
+            self.parts.append((wk, line.lam, line.z0[rows] + line.b[rows] * d, fast * fast * path_var + s2,
+                               slow * slow * path_var + s2, np.clip(line.nu[rows], 1.0, 1e6)))
+
+    def _sum(self, z_of, exact: bool) -> np.ndarray:
+        out = np.zeros(self.size)
+        for wk, lam, loc, var_fast, var_slow, nu in self.parts:
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                gap = z_of(lam) - loc
+                t = np.nan_to_num(gap / np.sqrt(np.where(self.sign * gap > 0, var_fast, var_slow)), nan=-np.inf)
+                p = special.stdtr(nu, t) if exact else paths.t_cdf(t, nu)
+            out += np.where(wk > 0, wk * p, 0.0)
+        return np.clip(out, 0.0, 1.0)
+
+    def cdf(self, y: np.ndarray, *, exact: bool = True) -> np.ndarray:
+        """P(the reading <= y): exact t (``special.stdtr``), or with ``exact=False`` the engine's fast
+        approximation (``paths.t_cdf``, error under 1e-3)."""
+        y = np.asarray(y, dtype=float)
+        return self._sum(lambda lam: paths.box_cox(y, lam), exact)
+
+    def cdf_of_log(self, log_y: np.ndarray, *, exact: bool = False) -> np.ndarray:
+        """``cdf(exp(log_y))`` with each Box-Cox value taken from the log directly ((e^(lam t) - 1) / lam)."""
+        return self._sum(lambda lam: log_y if lam == 0.0 else np.expm1(lam * log_y) / lam, exact)
+
+    def median(self, near: np.ndarray, iterations: int = 10) -> np.ndarray:
+        """The median, searched within a factor 4 of ``near`` (positive values; bisection on the log value,
+        to 0.3 %: the bracket's end where the median lies beyond, so an error past 300 % counts as 300 %)."""
+        base = np.log(np.where(near > 0, near, 1.0))
+        lo, hi = base - np.log(4.0), base + np.log(4.0)
+        for _ in range(iterations):
+            mid = 0.5 * (lo + hi)
+            up = self.cdf_of_log(mid) >= 0.5
+            hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
+        return np.exp(0.5 * (lo + hi))
+
+
 def reading_cdf(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, y: np.ndarray, *,
                 exact: bool = True) -> np.ndarray:
-    """P(one new reading at hours ``x`` <= ``y``) for series ``rows`` of ``mixture`` (1-D, same length).
-
-    Per path k the reading's value on its Box-Cox scale is Student t with the line's degrees of
-    freedom, location the line at ``x`` and variance f^2 (path variance) + (reading noise), f the
-    spread factor of the side the value lies on (toward wear: ``spread[0]``, the other: ``spread[1]``),
-    as ``PathMixture.crossed_by`` spreads them with ``noise=True``. Exact t (``special.stdtr``), or with
-    ``exact=False`` the engine's fast approximation (``paths.t_cdf``, error under 1e-3)."""
-    rows = np.asarray(rows, dtype=np.int64)
-    x, y = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
-    out = np.zeros(rows.shape)
-    sign = mixture.sign[rows]
-    fast, slow = mixture.spread[0][rows], mixture.spread[1][rows]
-    for k, line in enumerate(mixture.lines):
-        wk = mixture.weights[rows, k]
-        if not wk.any():
-            continue
-        d = x - line.xbar[rows]
-        loc = line.z0[rows] + line.b[rows] * d
-        path_var = line.var_a[rows] + d * d * line.var_b[rows]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            gap = paths.box_cox(y, line.lam) - loc
-            factor = np.where(sign * gap > 0, fast, slow)
-            t = gap / np.sqrt(factor * factor * path_var + line.s2[rows])
-            t = np.nan_to_num(t, nan=-np.inf)
-            p = special.stdtr(np.clip(line.nu[rows], 1.0, 1e6), t) if exact else paths.t_cdf(t, line.nu[rows])
-        out += np.where(wk > 0, wk * p, 0.0)
-    return np.clip(out, 0.0, 1.0)
+    """P(one new reading at hours ``x`` <= ``y``) for series ``rows`` of ``mixture`` (``ReadingPredictive``)."""
+    return ReadingPredictive(mixture, rows, x).cdf(y, exact=exact)
 
 
 def reading_median(mixture: paths.PathMixture, rows: np.ndarray, x: np.ndarray, near: np.ndarray,
                    iterations: int = 10) -> np.ndarray:
-    """The median of one new reading at hours ``x``, searched within a factor 4 of ``near`` (positive
-    values; bisection of ``reading_cdf`` on the log value, to 0.3 %: the bracket's end where the median
-    lies beyond, so an error past 300 % counts as 300 %)."""
-    base = np.log(np.where(near > 0, near, 1.0))
-    lo, hi = base - np.log(4.0), base + np.log(4.0)
-    for _ in range(iterations):
-        mid = 0.5 * (lo + hi)
-        up = reading_cdf(mixture, rows, x, np.exp(mid), exact=False) >= 0.5
-        hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
-    return np.exp(0.5 * (lo + hi))
+    """The median of one new reading at hours ``x`` (``ReadingPredictive.median``)."""
+    return ReadingPredictive(mixture, rows, x).median(near, iterations)
 
 
 MIN_AT_RISK = 10  # series still followed at the point a tail is read (common practice, no published source)
@@ -329,8 +353,9 @@ def _score_origin(packed, fit, fc, origin: date, later: LaterReadings, sites, si
         ahead_months = (d_[entry] - day) / DAYS_PER_MONTH
         horizon_b = _bucket(ahead_months, HORIZON_BUCKETS_MONTHS)
         if r.size:
-            u = reading_cdf(mix, r, x, y)
-            med = reading_median(mix, r, x, y)
+            predictive = ReadingPredictive(mix, r, x)
+            u = predictive.cdf(y)
+            med = predictive.median(y)
             with np.errstate(invalid="ignore", divide="ignore"):
                 err = np.abs(y / med - 1.0)
             sc.r_u.append(u)
@@ -556,6 +581,6 @@ def kind_calibration_words(calibrated_on: int, model: str) -> str:
 
 __all__ = [
     "BacktestResult", "Figures", "default_span", "LaterReadings", "NOMINAL", "PIT_BINS", "calibration_notes", "figures_of",
-    "kaplan_meier", "kind_calibration_words", "origin_dates", "reading_cdf", "reading_median", "run_backtest",
+    "ReadingPredictive", "kaplan_meier", "kind_calibration_words", "origin_dates", "reading_cdf", "reading_median", "run_backtest",
     "summarize",
 ]
