@@ -103,10 +103,10 @@ def run(args, ctx) -> int:
     if not origins:
         return _bad(ctx, [Problem("--from", start.isoformat(), f"origins before --to ({end.isoformat()}); "
                                   "the record is too short for the default, give --from and --to")])
-    from logbook.commands.forecast import _Steps
+    from logbook.commands.progress import Steps
 
     fmt = _format(args)
-    with _Steps(ctx.err, total=len(origins) + 1) as steps:
+    with Steps(ctx.err, total=len(origins) + 1) as steps:
         result = run_backtest(now, history, known, origins, site=args.site, model=args.model,
                               calibration=not args.no_calibration,
                               step=lambda day: steps.step(f"forecasting as of {day.isoformat()}"))
