@@ -198,11 +198,36 @@ def reading_doubts(reading: Reading, ctx: Context, prefs: UnitPrefs | None = Non
                                     f"the limit ({fmt.value(kind, limit.value, prefs)}) in one step"))
                 continue
         band = ctx.bands.get(kind)
+        if band is not None and value is not None:
+            value = abs(value) if kind is Kind.NEUTRAL_DRIFT else value  # the trend is of its magnitude
         if band is not None and value is not None and not band[0] <= value <= band[1]:
+            at_ref = f" ({fmt.value(kind, value, prefs)} at reference conditions)" if kind is Kind.CASE_DRAIN else ""
             doubts.append(Doubt(kind.value, shown,
-                                f"outside the forecast band {fmt.value(kind, band[0], prefs)} to "
-                                f"{fmt.value(kind, band[1], prefs)} for these hours"))
+                                f"outside where the pump's trend expects a reading now{at_ref}: "
+                                f"{fmt.value(kind, band[0], prefs)} to {fmt.value(kind, band[1], prefs)}"))
     return doubts
+
+
+#: The share of new readings the forecast's prediction band holds when it is used to ask.
+BAND_COVERAGE = 0.99
+
+
+def forecast_bands(pump_forecast, when: date, today: date, coverage: float = BAND_COVERAGE) -> dict:
+    """Per kind, where a new reading on ``when`` is expected: the prediction band of the
+    pump's current trend (``FitDetail.band(..., reading=True)``) at its operating hours then
+    (today's hours in the segment, moved by the machine's hours a day). Empty without a fit."""
+    bands = {}
+    if pump_forecast is None:
+        return bands
+    per_day = pump_forecast.hours_per_day or 0.0
+    for kf in pump_forecast.kinds:
+        if kf.fit is None or kf.hours_in_segment is None or kf.n_readings < 3:
+            continue
+        x = max(0.0, kf.hours_in_segment + (when - today).days * per_day)
+        lo, _, hi = (float(v[0]) for v in kf.fit.band([x], coverage=coverage, reading=True))
+        if lo == lo and hi == hi:
+            bands[kf.kind] = (lo, hi)
+    return bands
 
 
 def confirm_hint(doubts: list[Doubt]) -> str:

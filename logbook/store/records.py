@@ -401,11 +401,14 @@ class RecordsMixin:
                             hours_per_day(points, event.happened_on), field_name="hours")
         return [doubt] if doubt else []
 
-    def reading_doubts(self, reading: Reading, prefs=None, *, without: Sequence[int] = ()) -> list:
-        """``logbook.plausible.reading_doubts`` for ``reading`` against what is stored."""
+    def reading_doubts(self, reading: Reading, prefs=None, *, without: Sequence[int] = (), bands=None) -> list:
+        """``logbook.plausible.reading_doubts`` for ``reading`` against what is stored
+        (``bands``: the forecast's, when the caller has them: plausible.forecast_bands)."""
         from logbook.plausible import reading_doubts
 
         ctx = self.plausibility_context(reading, without=without)
+        if ctx is not None and bands:
+            ctx = dataclasses.replace(ctx, bands=dict(bands))
         return [] if ctx is None else reading_doubts(reading, ctx, prefs)
 
     def add_reading(self, reading: Reading, *, today: date) -> Reading:

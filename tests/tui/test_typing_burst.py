@@ -10,6 +10,7 @@ import time
 from textual import events
 from textual.keys import _character_to_key
 
+from logbook.model import Kind
 from logbook.tui.screens.reading import ReadingScreen
 from tests.tui.conftest import TODAY, settle
 from tests.tui.test_entry import crossing_pump, meter_now, open_form
@@ -34,16 +35,23 @@ def typed(text: str) -> list[str]:
     return list(text)
 
 
+def expected_values(app, pf) -> tuple[str, str, str]:
+    """Case drain, servo pressure and neutral drift as the pump's trend stands (its latest
+    trended values; drift with the sign of its last reading): a reading nobody asks about."""
+    latest = {kf.kind: kf.latest_value for kf in pf.kinds}
+    last = app.fleet.history(pf.serial).readings[-1]
+    sign = -1.0 if (last.neutral_drift_bar or 0) < 0 else 1.0
+    return (f"{latest.get(Kind.CASE_DRAIN) or 2.0:.2f}", f"{latest.get(Kind.SERVO_PRESSURE) or 25.0:.1f}",
+            f"{sign * (latest.get(Kind.NEUTRAL_DRIFT) or 1.0):.1f}")
+
+
 def plan(app, pf):
     """What is typed into each field, in the form's order from the hour meter on, with
     the key that moves on after it (Tab, Enter or Down, mixed)."""
-    last = app.fleet.history(pf.serial).readings[-1]
     model = app.fleet.models[pf.model]
     hours = f"{meter_now(app, pf.machine) + 0.4:.1f}"
-    drain = f"{(last.case_drain_lpm or 2.0) * 1.01:.2f}"
-    servo = f"{(last.servo_pressure_bar or 25.0):.1f}"
-    drift = f"{(last.neutral_drift_bar or 1.0):.1f}"
-    temp = f"{(model.test_temp_min_c + model.test_temp_max_c) / 2:.1f}"
+    drain, servo, drift = expected_values(app, pf)
+    temp = f"{model.ref_temp_c:.1f}"  # at reference conditions the normalized value is the reading
     pressure = f"{model.ref_pressure_bar:g}"
     speed = f"{model.test_speed_rpm:g}"
     return [

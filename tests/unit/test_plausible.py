@@ -91,5 +91,5 @@ def test_an_event_restarting_the_trend_makes_a_big_step_expected():
 def test_outside_the_forecast_band_is_asked_about():
     ctx = Context(MODEL, bands={Kind.SERVO_PRESSURE: (22.0, 25.0)})
     (doubt,) = reading_doubts(reading(servo_pressure_bar=21.0), ctx)
-    assert "outside the forecast band 22.00 bar to 25.00 bar" in doubt.reason
+    assert "where the pump's trend expects a reading now: 22.00 bar to 25.00 bar" in doubt.reason
     assert reading_doubts(reading(servo_pressure_bar=23.0), ctx) == []

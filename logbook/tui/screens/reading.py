@@ -101,7 +101,10 @@ class ReadingScreen(SafetyKey, EntryScreen):
         return store.add_reading(record, today=self.app.today)
 
     def doubts(self, store, record: Reading) -> list:
-        return store.reading_doubts(record, self.app.units)
+        from logbook.plausible import forecast_bands
+
+        bands = forecast_bands(self.app.pump_forecast(record.serial), record.taken_on, self.app.today)
+        return store.reading_doubts(record, self.app.units, bands=bands)
 
     def saved(self, reading: Reading) -> None:
         fleet = self.app.fleet
