@@ -236,10 +236,14 @@ def confirm_hint(doubts: list[Doubt]) -> str:
             f"again with {CONFIRM_FLAG}")
 
 
-def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None = None) -> list[str]:
+def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None = None,
+                 already: Sequence[str] = ()) -> list[str]:
     """Doubts about readings just added to ``fleet`` (an import), one line each, naming the
     reading (serial and date). Each is judged against the fleet's other records, the
-    imported ones included (a jump between two rows of the file is found too)."""
+    imported ones included (a jump between two rows of the file is found too). A value
+    that a line of ``already`` (the import's second look against the trend) names is
+    not told again."""
+    said = " | ".join(already).lower()
     from collections import defaultdict
 
     from logbook import meter as meters
@@ -300,7 +304,8 @@ def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None =
         earlier = tuple(x for x in rs[max(0, j - RECENT):j] if x.id != r.id)
         ctx = Context(fleet.models[pump.model], before, earlier, tuple(events[r.serial]))
         for d in reading_doubts(r, ctx, prefs, rate_rule=False):
-            lines.append(f"{r.serial} {r.taken_on.isoformat()}: {d}")
+            if f"{r.serial} {r.taken_on.isoformat()} {d.label} ".lower() not in said:
+                lines.append(f"{r.serial} {r.taken_on.isoformat()}: {d}")
     return lines
 
 

@@ -54,5 +54,5 @@ def run(args, ctx) -> int:
             looks = import_second_look(before, after, ctx.today)
             steps.step("plausibility of the new readings")
             report = replace(report, flagged=[*report.flagged, *looks,
-                                              *fleet_doubts(after, new_readings(before, after), ctx.units)])
+                                              *fleet_doubts(after, new_readings(before, after), ctx.units, looks)])
     return print_report(ctx, report, str(args.file), lists_beside=args.file)
