@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from logbook import validate
 from logbook.cautions import SAFETY
+from logbook.commands.record import add_confirm, stopped_at_doubts
 from logbook.model import Event, EventKind, InputRejected
 
 
@@ -25,6 +26,7 @@ def register(sub) -> None:
     p.add_argument("--to-hours", default=None)
     p.add_argument("--technician", default="")
     p.add_argument("--note", default="")
+    add_confirm(p)
     p.set_defaults(func=run)
 
 
@@ -41,8 +43,8 @@ def run(args, ctx) -> int:
 
     kind = take(validate.parse_event_kind(args.kind))
     happened_on = take(validate.parse_date("date", args.date, ctx.today))
-    hours = take(validate.parse_number(validate.HOURS_FIELDS["hours"], args.hours))
-    to_hours = take(validate.parse_number(validate.HOURS_FIELDS["to_hours"], args.to_hours))
+    hours = take(validate.parse_quantity(validate.HOURS_FIELDS["hours"], args.hours, "h"))
+    to_hours = take(validate.parse_quantity(validate.HOURS_FIELDS["to_hours"], args.to_hours, "h"))
     serial = take(validate.parse_name("serial", args.serial, required=False))
     machine = take(validate.parse_name("machine", args.machine, required=False))
     to_machine = take(validate.parse_name("to_machine", args.to_machine, required=False))
@@ -54,6 +56,11 @@ def run(args, ctx) -> int:
         to_machine=to_machine, to_position=to_position, to_hours=to_hours, technician=args.technician, note=args.note,
     )
     with ctx.open_store() as store:
+        report = store.add_events([event], today=ctx.today, dry_run=True)
+        if report.problems:
+            raise InputRejected(report.problems)  # refusals first: a doubt is only a question
+        if stopped_at_doubts(ctx, store.event_doubts(event), args.confirm):
+            return 2
         saved = store.add_event(event, today=ctx.today)
     where = f" on {saved.machine}" if saved.machine else ""
     ctx.console.print(f"recorded {saved.kind.value} {saved.serial or ''}{where} on {saved.happened_on} (event {saved.id})", markup=False)

@@ -365,8 +365,8 @@ class RecordsMixin:
         start = max((d for d in reps if d <= day), default="0000-00-00")
         points = tuple(
             (date.fromisoformat(on), hours) for on, hours in self.conn.execute(
-                _METER_POINTS + "on_day < ? ORDER BY on_day",
-                (fit.machine, json.dumps(sorted(skip)), fit.machine, fit.machine, fit.machine, start, day, day))
+                _METER_POINTS + "on_day <= ? ORDER BY on_day",  # the same day's records too
+                (fit.machine, json.dumps(sorted(skip)), fit.machine, fit.machine, fit.machine, start, "9999-99-99", day))
             if hours is not None
         )
         earlier = tuple(
@@ -386,8 +386,13 @@ class RecordsMixin:
         from logbook.plausible import hours_per_day, meter_before, meter_doubt
         from logbook.store.writes import _METER_POINTS
 
-        if event.machine is None or event.hours is None:
+        machine = event.machine
+        if machine is None and event.serial is not None:  # a pump's event: the machine it sat in that day
+            fit = meter.fitment_on(self._fitments_of(event.serial), event.happened_on)
+            machine = fit.machine if fit else None
+        if machine is None or event.hours is None:
             return []
+        event = dataclasses.replace(event, machine=machine)
         day = event.happened_on.isoformat()
         reps = [r[0] for r in self.conn.execute(
             "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
@@ -395,8 +400,9 @@ class RecordsMixin:
         start = max((d for d in reps if d < day or (d == day and event.kind is not EventKind.METER_REPLACED)),
                     default="0000-00-00")
         points = tuple((date.fromisoformat(on), hours) for on, hours in self.conn.execute(
-            _METER_POINTS + "on_day < ? ORDER BY on_day",
-            (event.machine, "[]", event.machine, event.machine, event.machine, start, day, day)) if hours is not None)
+            _METER_POINTS + "on_day <= ? ORDER BY on_day",  # the same day's records too
+            (event.machine, "[]", event.machine, event.machine, event.machine, start, "9999-99-99", day))
+            if hours is not None)
         doubt = meter_doubt(event.happened_on, event.hours, meter_before(points),
                             hours_per_day(points, event.happened_on), field_name="hours")
         return [doubt] if doubt else []

@@ -100,3 +100,19 @@ def test_an_import_lists_the_readings_that_look_wrong_per_line(demo, tmp_path, c
     out = capsys.readouterr().out
     lines = [line for line in out.splitlines() if "Hour meter" in line]
     assert len(lines) == 1 and f"{last.serial} {TODAY}: Hour meter {last.machine_hours + 60000:,.0f} h" in lines[0]
+
+
+def test_event_stops_at_an_hour_meter_jump_and_names_the_flag(demo, capsys):
+    last = latest(demo)
+    argv = ["--db", str(demo), "--today", TODAY, "event", "overhaul", last.serial, "--date", TODAY,
+            "--hours", f"{last.machine_hours + 90_000:g}"]
+    with Store(demo) as store:
+        before = len(store.events())
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert "Not recorded" in err and "Hour meter" in err and "--confirm" in err
+    assert main([*argv, "--confirm"]) == 0
+    with Store(demo) as store:
+        assert len(store.events()) == before + 1
+    assert main(["--db", str(demo), "--today", TODAY, "event", "oil_change", last.serial, "--date", TODAY,
+                 "--hours", f"{last.machine_hours + 90_004:,.0f}"]) == 0  # 22,950 as printed; 4 h later: no question
