@@ -237,13 +237,15 @@ def confirm_hint(doubts: list[Doubt]) -> str:
 
 
 def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None = None,
-                 already: Sequence[str] = ()) -> list[str]:
+                 already: Sequence[str] = (), lines=None) -> list[str]:
     """Doubts about readings just added to ``fleet`` (an import), one line each, naming the
     reading (serial and date). Each is judged against the fleet's other records, the
     imported ones included (a jump between two rows of the file is found too). A value
     that a line of ``already`` (the import's second look against the trend) names is
-    not told again."""
+    not told again. ``lines``: (serial, date, hours) -> the file's line number, named first
+    (or a function giving that mapping, called only when there is something to tell)."""
     said = " | ".join(already).lower()
+    lines = lines or {}
     from collections import defaultdict
 
     from logbook import meter as meters
@@ -291,7 +293,7 @@ def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None =
             highest[(machine, era)] = ([d for d, _ in recs], tops)
     for rs in by_pump.values():
         rs.sort(key=lambda x: (x.taken_on, x.machine_hours, x.id or 0))
-    lines: list[str] = []
+    out: list[str] = []
     for r in sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours)):
         pump = fleet.pumps.get(r.serial)
         if pump is None or r.machine is None or r.machine not in timelines:
@@ -305,8 +307,11 @@ def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None =
         ctx = Context(fleet.models[pump.model], before, earlier, tuple(events[r.serial]))
         for d in reading_doubts(r, ctx, prefs, rate_rule=False):
             if f"{r.serial} {r.taken_on.isoformat()} {d.label} ".lower() not in said:
-                lines.append(f"{r.serial} {r.taken_on.isoformat()}: {d}")
-    return lines
+                if callable(lines):
+                    lines = lines()
+                at = lines.get((r.serial, r.taken_on, r.machine_hours))
+                out.append(f"{f'line {at}, ' if at else ''}{r.serial} {r.taken_on.isoformat()}: {d}")
+    return out
 
 
 #: Readings before a new one looked at for its previous value of each kind (an import).

@@ -54,5 +54,18 @@ def run(args, ctx) -> int:
             looks = import_second_look(before, after, ctx.today)
             steps.step("plausibility of the new readings")
             report = replace(report, flagged=[*report.flagged, *looks,
-                                              *fleet_doubts(after, new_readings(before, after), ctx.units, looks)])
+                                              *fleet_doubts(after, new_readings(before, after), ctx.units, looks,
+                                                            lambda: _file_lines(data, ctx.today))])
     return print_report(ctx, report, str(args.file), lists_beside=args.file)
+
+
+def _file_lines(data: bytes, today) -> dict:
+    """(serial, date, machine hours) -> line number of each reading row of the file."""
+    from logbook.imports import read_columns, read_table
+
+    fast = read_columns("readings", data, today)
+    if fast is not None:
+        columns, lines = fast
+        return dict(zip(zip(columns["serial"], columns["date"], columns["machine_hours"]), lines))
+    rows, lines, _, _ = read_table("readings", data, today)
+    return {(v.get("serial"), v.get("date"), v.get("machine_hours")): n for v, n in zip(rows, lines)}

@@ -99,7 +99,7 @@ def test_an_import_lists_the_readings_that_look_wrong_per_line(demo, tmp_path, c
     assert main(["--db", str(demo), "--today", TODAY, "import", "readings", str(csv)]) == 0
     out = capsys.readouterr().out
     lines = [line for line in out.splitlines() if "Hour meter" in line]
-    assert len(lines) == 1 and f"{last.serial} {TODAY}: Hour meter {last.machine_hours + 60000:,.0f} h" in lines[0]
+    assert len(lines) == 1 and f"line 3, {last.serial} {TODAY}: Hour meter {last.machine_hours + 60000:,.0f} h" in lines[0]
 
 
 def test_event_stops_at_an_hour_meter_jump_and_names_the_flag(demo, capsys):
