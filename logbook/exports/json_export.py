@@ -10,26 +10,16 @@ non-finite numbers become null, so the same report always gives the same text.
 from __future__ import annotations
 
 import json
-import math
 
 from logbook.analysis.results import KindForecast, PumpForecast
 from logbook.exports import PROBABILITY_NOTE
 from logbook.exports.common import plan_lines
 from logbook.exports.listings import SCHEMA_VERSION, status_json
+from logbook.exports.listings import _d, _f  # one rounding rule for every JSON document
 
 #: The plan's values are in the logbook's own units (each line and record also names its ``unit``).
 CANONICAL_UNITS = {"flow": "L/min", "pressure": "bar", "temperature": "C", "hours": "h"}
 from logbook.plan import PlanLine, month_label
-
-
-def _f(value: float | None, digits: int = 4) -> float | None:
-    if value is None or not math.isfinite(value):
-        return None
-    return round(float(value), digits)
-
-
-def _d(value) -> str | None:
-    return value.isoformat() if value is not None else None
 
 
 def _line(line: PlanLine) -> dict:
