@@ -354,7 +354,6 @@ def second_look(
     trended = _trended(before, new)
     found: list[tuple[int, int, str]] = []
     for serial, at in by_pump.items():
-        model = before.models[before.pumps[serial].model]
         for kf in pumps[serial].kinds:
             if kf.fit is None:
                 continue

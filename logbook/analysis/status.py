@@ -16,7 +16,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import date
 
+from typing import TYPE_CHECKING
+
 from logbook.analysis.results import Outcome, PumpForecast
+
+if TYPE_CHECKING:  # annotations only: the views import this module without numpy
+    import numpy as np
 
 OVER_LIMIT = "✖ over limit"
 RETEST = "? test again"  # the newest reading is far off the trend: read it again before acting on it

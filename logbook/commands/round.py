@@ -6,7 +6,6 @@ from datetime import timedelta
 
 from rich.table import Table
 
-from logbook import fmt
 
 FORMATS = ("text", "md", "html", "csv")
 

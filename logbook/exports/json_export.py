@@ -17,9 +17,10 @@ from logbook.exports.common import plan_lines
 from logbook.exports.listings import SCHEMA_VERSION, status_json
 from logbook.exports.listings import _d, _f  # one rounding rule for every JSON document
 
+from logbook.plan import PlanLine, month_label
+
 #: The plan's values are in the logbook's own units (each line and record also names its ``unit``).
 CANONICAL_UNITS = {"flow": "L/min", "pressure": "bar", "temperature": "C", "hours": "h"}
-from logbook.plan import PlanLine, month_label
 
 
 def _line(line: PlanLine) -> dict:

@@ -42,7 +42,7 @@ from scipy import stats
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # the repository, for tests.bench.truth_fleet
 
 from logbook.analysis.fleet import forecast_fleet  # noqa: E402
-from logbook.model import ALL_KINDS, Kind  # noqa: E402
+from logbook.model import Kind  # noqa: E402
 from tests.bench.truth_fleet import PATHS, USAGES, WEARING_PATHS, TruthFleet, make_truth_fleet, reference_value  # noqa: E402
 
 HORIZON_HOURS = 20_000.0  # the engine's default horizon

@@ -32,12 +32,10 @@ import io
 import multiprocessing as mp
 import shutil
 import sqlite3
-import statistics
 import subprocess
 import sys
 import tempfile
 import time
-from datetime import date
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
@@ -257,7 +255,7 @@ def main() -> int:
 
     shared = copy_of(large, "logbook-bench-record-shared.db")
     t_conc = concurrent(shared, args.writers, max(10, args.saves // args.writers))
-    print(line(f"{args.writers} wrt", t_conc) + f"  (target: none over 2 s)")
+    print(line(f"{args.writers} wrt", t_conc) + "  (target: none over 2 s)")
     ok &= max(t_conc) <= 2.0
     t_cmd = record_commands(shared, args.writers)
     print(f"`logbook record` x{args.writers} at once on the large fleet: "

@@ -12,7 +12,7 @@ import csv
 import io
 import re
 import shutil
-from datetime import date, timedelta
+from datetime import date
 
 import pytest
 from hypothesis import HealthCheck, assume, given, settings

@@ -9,7 +9,6 @@ import re
 import shutil
 
 from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
 from textual.app import App
 from textual.widgets import DataTable, Select
 

@@ -11,7 +11,7 @@ import pytest
 from logbook.costing import ModelEconomy, PlanCosts, PumpCosts
 from logbook.economics import JobCosts, optimal_age
 from logbook.exports import Report, render
-from logbook.plan import PlanSettings, make_plan
+from logbook.plan import make_plan
 from tests.unit.test_exports import MADE_ON, build_report
 
 

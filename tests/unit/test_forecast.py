@@ -133,7 +133,7 @@ TODAY = date(2025, 6, 1)
 
 def small_fleet(rates, step_pump=None, hours_per_day=10.0, seed=1):
     rng = np.random.default_rng(seed)
-    machines, pumps, fits, reads, events = {}, {}, [], [], []
+    machines, pumps, fits, reads = {}, {}, [], []
     for i, rate in enumerate(rates):
         unit, serial = f"U{i}", f"S{i}"
         machines[unit] = Machine(unit, "north yard")

@@ -1,6 +1,6 @@
 """Dates carry the machine's utilisation uncertainty (logbook.analysis.utilisation.rate_spread / dates_ahead)."""
 
-from datetime import date, timedelta
+from datetime import date
 
 import numpy as np
 import pytest
