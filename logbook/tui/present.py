@@ -20,6 +20,7 @@ from logbook.analysis.results import (
     Outcome,
     PumpForecast,
 )
+from logbook.analysis.status import status_rank as status_rank  # re-exported: the views rank statuses by it
 from logbook.analysis.status import urgency_key  # the engine's one most-urgent-first order
 from logbook.model import Kind
 from logbook.tui.layout import clip, fleet_columns
