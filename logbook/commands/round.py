@@ -28,18 +28,6 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def _check(args, sites: set[str]) -> str | None:
-    if args.within < 0 or args.within > 3650:
-        return f"--within = {args.within}: allowed 0 to 3650 days"
-    if args.site is not None and args.site not in sites:
-        return f"--site = {args.site!r}: not a known site; known: {', '.join(sorted(sites)) or 'none'}"
-    if args.format != "text" and args.site is None:
-        return f"--site is required with --format {args.format}: a round sheet is for one site; known: {', '.join(sorted(sites))}"
-    if args.out is not None and args.format == "text":
-        return "--out needs --format md, html or csv"
-    return None
-
-
 def _check_args(args) -> str | None:
     """What the arguments alone can tell, before the fleet is read."""
     if args.within < 0 or args.within > 3650:

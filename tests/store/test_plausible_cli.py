@@ -4,28 +4,9 @@ stored hour-meter jump; an import lists such readings per line."""
 
 from __future__ import annotations
 
-import shutil
-
-import pytest
-
 from logbook.cli import main
 from logbook.store import Store
-
-TODAY = "2026-12-01"
-
-
-@pytest.fixture(scope="module")
-def demo_master(tmp_path_factory):
-    path = tmp_path_factory.mktemp("plausible") / "demo.db"
-    assert main(["demo", "--no-ui", "--db", str(path), "--today", TODAY]) == 0
-    return path
-
-
-@pytest.fixture
-def demo(demo_master, tmp_path):
-    path = tmp_path / "demo.db"
-    shutil.copy(demo_master, path)
-    return path
+from tests.store.test_cli import TODAY, demo, demo_master  # noqa: F401  (the demo fleet fixtures)
 
 
 def latest(path):
