@@ -366,9 +366,8 @@ class StoreCore:
             # Re-read inside the write lock: another process may have migrated meanwhile.
             version = self.schema_version()
             for number in range(version, SCHEMA_VERSION):
-                for statement in MIGRATIONS[number].split(";"):
-                    if statement.strip():
-                        self.conn.execute(statement)
+                for statement in MIGRATIONS[number]:  # one statement each, run as written
+                    self.conn.execute(statement)
                 self.conn.execute(f"PRAGMA user_version = {number + 1}")
             self._pending_label = f"the database schema was brought to version {SCHEMA_VERSION}"
 
