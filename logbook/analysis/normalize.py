@@ -90,6 +90,7 @@ def trended_values(kind: Kind, raw: np.ndarray, conditions: "ReadingConditions |
         return np.abs(raw)
     if kind is Kind.SERVO_PRESSURE or not len(raw):
         return raw
+    assert conditions is not None, "case drain readings are normalized with their conditions"
     return conditions.case_drain_at_reference(raw)
 
 
@@ -135,7 +136,7 @@ class ReadingConditions:
 def _oil_groups(grade: np.ndarray, vi: np.ndarray) -> list[np.ndarray]:
     """Indices of the readings of each oil (grade, viscosity index); a NaN grade or index is an oil of its own."""
     todo = np.ones(len(grade), dtype=bool)
-    groups = []
+    groups: list[np.ndarray] = []
     while todo.any() and len(groups) < 16:  # peel one oil at a time: a fleet uses a handful
         i = int(np.argmax(todo))
         mine = todo & (grade == grade[i]) & (vi == vi[i])

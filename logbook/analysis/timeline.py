@@ -15,12 +15,16 @@ from __future__ import annotations
 from collections.abc import Sequence
 from datetime import date
 from operator import attrgetter
+from typing import TYPE_CHECKING, cast
 import weakref
 
 import numpy as np
 
 from logbook.meter import read_on_new_meter
 from logbook.model import Event, EventKind, Fitment, Reading
+
+if TYPE_CHECKING:
+    from logbook.model import Fleet
 
 DAY_BITS = 21  # day ordinals (to year 5741) fit below 2**21: key = index * 2**21 + day
 NEVER = (1 << DAY_BITS) - 1  # removed_on of a fitment still in place
@@ -61,8 +65,11 @@ class MeterTable:
         self.day = np.array([t[1] for t in reps], dtype=np.int64)
         self.key = (self.machine << DAY_BITS) + self.day
         # offset after the first k replacements of a machine, summed as meter.continuous_hours sums it
-        prefix, running, last = [], [], None
+        prefix: list[float] = []
+        running: list[float] = []
+        last: int | None = None
         for m, e in zip(self.machine.tolist(), self.events):
+            assert e.hours is not None and e.to_hours is not None  # only such replacements are kept above
             running = [] if m != last else running
             running = [*running, e.hours - e.to_hours]
             prefix.append(sum(running))
@@ -89,7 +96,8 @@ class MeterTable:
         for q in np.flatnonzero(upto > before).tolist():  # read on a replacement day: rare, done as meter does
             mine = self.events[self.first[before[q]] : self.last[before[q]]]
             on = date.fromordinal(int(day[q]))
-            out[q] = float(meter_hours[q]) + sum(e.hours - e.to_hours for e in mine if read_on_new_meter(e, on, meter_hours[q]))
+            out[q] = float(meter_hours[q]) + sum(cast(float, e.hours) - cast(float, e.to_hours)
+                                                 for e in mine if read_on_new_meter(e, on, meter_hours[q]))  # fmt: skip
         return out
 
 
@@ -170,7 +178,7 @@ class Timeline:
     """Fitments, meter replacements and readings of a fleet as columns, and the pump hours of every reading."""
 
     @classmethod
-    def of(cls, fleet) -> "Timeline":
+    def of(cls, fleet: Fleet) -> "Timeline":
         """The timeline of a ``Fleet`` snapshot's records, built once per snapshot and shared by the
         engine, the rounds and fleet life (its arrays are read, never changed); dropped with the snapshot."""
         key = id(fleet)
@@ -178,7 +186,11 @@ class Timeline:
         if held is not None and held[0]() is fleet:
             return held[1]
         timeline = cls(fleet.fitments, fleet.readings, fleet.events)
-        _SHARED[key] = (weakref.ref(fleet, lambda _, key=key: _SHARED.pop(key, None)), timeline)
+
+        def forget(_: object, key: int = key) -> None:
+            _SHARED.pop(key, None)
+
+        _SHARED[key] = (weakref.ref(fleet, forget), timeline)
         return timeline
 
     def __init__(self, fitments: Sequence[Fitment], readings: Sequence[Reading], events: Sequence[Event]):
@@ -225,7 +237,7 @@ class Timeline:
         if not events:
             return np.zeros(0)
         fits = self.fits
-        serial = np.array([self.serial_index.get(e.serial, -1) for e in events], dtype=np.int64)
+        serial = np.array([-1 if e.serial is None else self.serial_index.get(e.serial, -1) for e in events], dtype=np.int64)
         day = ordinals([e.happened_on for e in events])
         meter = floats([e.hours for e in events])
         fit = fits.on(serial, day)

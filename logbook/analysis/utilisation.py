@@ -44,7 +44,8 @@ MAX_HOURS_PER_DAY = 24.0
 
 
 def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Event], machine_index: dict[str, int],
-                   read_fit: np.ndarray, read_day: np.ndarray, read_meter: np.ndarray, read_cont: np.ndarray):  # fmt: skip
+                   read_fit: np.ndarray, read_day: np.ndarray, read_meter: np.ndarray,
+                   read_cont: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
     """(machine code, day, continuous hours) of every point, as three arrays.
 
     ``read_fit`` is the fitment of each reading (-1 for none) and ``read_cont`` its continuous
@@ -58,11 +59,17 @@ def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Even
     ev_m, ev_d, ev_h = [], [], []
     for e in events:
         if e.machine is not None and e.hours is not None:
-            ev_m.append(e.machine), ev_d.append(e.happened_on), ev_h.append(e.hours)
+            ev_m.append(e.machine)
+            ev_d.append(e.happened_on)
+            ev_h.append(e.hours)
         if e.kind is EventKind.METER_REPLACED and e.machine is not None and e.to_hours is not None:
-            ev_m.append(e.machine), ev_d.append(e.happened_on), ev_h.append(e.to_hours)
+            ev_m.append(e.machine)
+            ev_d.append(e.happened_on)
+            ev_h.append(e.to_hours)
         elif e.kind is EventKind.MOVE and e.to_machine is not None and e.to_hours is not None:
-            ev_m.append(e.to_machine), ev_d.append(e.happened_on), ev_h.append(e.to_hours)
+            ev_m.append(e.to_machine)
+            ev_d.append(e.happened_on)
+            ev_h.append(e.to_hours)
     mach.append(codes(ev_m, machine_index))
     day.append(ordinals(ev_d))
     meter.append(floats(ev_h))
