@@ -422,15 +422,18 @@ class _LaterReadings:
             d = x - line.xbar[rows]
             with np.errstate(invalid="ignore"):
                 gap = box_cox(y, line.lam) - line.z0[rows] - line.b[rows] * d
-            self.parts.append((wk, np.nan_to_num(gap), line.var_a[rows] + d * d * line.var_b[rows], line.s2[rows]))
+            self.parts.append((wk, np.nan_to_num(gap), line.var_a[rows] + d * d * line.var_b[rows], line.s2[rows],
+                               line.nu[rows]))
 
     def cdf(self, factor: np.ndarray) -> np.ndarray:
-        """P(a new reading <= the one observed) with the path spread times ``factor``, plus the noise."""
+        """P(a new reading <= the one observed) with the path spread times ``factor``, plus the noise: per
+        path the Student t of the line's degrees of freedom, as the forecast itself spreads it
+        (``PathMixture.crossed_by``, ``t_cdf``), so the factors fitted here mean the same there."""
         out = np.zeros(self.worn_sign.size)
         f2 = factor * factor
-        for wk, gap, var_path, s2 in self.parts:
+        for wk, gap, var_path, s2, nu in self.parts:
             with np.errstate(invalid="ignore", divide="ignore"):
-                out += wk * special.ndtr(np.nan_to_num(gap / np.sqrt(f2 * var_path + s2)))
+                out += wk * t_cdf(np.nan_to_num(gap / np.sqrt(f2 * var_path + s2)), nu)
         return out
 
 

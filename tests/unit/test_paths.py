@@ -198,3 +198,33 @@ def test_a_near_perfect_short_series_does_not_move_its_neighbours():
     finite = np.isfinite(before)
     assert finite[:, 2].sum() >= 3
     assert np.abs(after[finite] / before[finite] - 1).max() < 0.03
+
+
+def test_calibration_scores_later_readings_with_the_forecasts_student_t():
+    # The spread factors are fitted on the predictive of a later reading and then used by the
+    # forecast's Student t (PathMixture.crossed_by); both must be the same distribution. Reference:
+    # scipy.stats.t.cdf per path, location the line at x, scale sqrt(f^2 path variance + noise),
+    # the line's degrees of freedom, mixed with the path weights. (A normal CDF here made the bands
+    # of series with few readings too wide.) Tolerance: Wallace's approximation, under 1e-3 per term.
+    rng = np.random.default_rng(31)
+    s, n = 12, 5
+    x = np.sort(rng.uniform(0, 5000, (s, n)), axis=1)
+    y = 1.5 * (1 + x / 8000) ** 3 * np.exp(rng.normal(0, 0.05, (s, n)))
+    w = np.ones((s, n))
+    w[:, 3:] = 0.0  # three readings fitted, two later ones scored
+    mix = P.PathMixture(x, y, w, np.full(s, 9.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
+    rows, cols = np.repeat(np.arange(s), 2), np.tile([3, 4], s)
+    later = P._LaterReadings(mix, rows, x[rows, cols], y[rows, cols])
+    for f in (0.5, 1.0, 3.0):
+        got = later.cdf(np.full(rows.size, f))
+        expected = np.zeros(rows.size)
+        for k, line in enumerate(mix.lines):
+            wk = mix.weights[rows, k]
+            d = x[rows, cols] - line.xbar[rows]
+            loc = line.z0[rows] + line.b[rows] * d
+            scale = np.sqrt(f * f * (line.var_a[rows] + d * d * line.var_b[rows]) + line.s2[rows])
+            z = stats.boxcox(y[rows, cols], lmbda=line.lam)
+            term = stats.t.cdf(z, line.nu[rows], loc=loc, scale=scale)
+            expected += np.where(wk > 0, wk * np.nan_to_num(term), 0.0)
+        assert np.abs(got - expected).max() < 1.5e-3
+    assert (mix.lines[0].nu[:s] < 10).all()  # few degrees of freedom: where a normal CDF differs most
