@@ -146,6 +146,8 @@ class Reading:
     superseded_by: int | None = None  # id of the correcting reading, if corrected
     machine: str | None = None  # machine the pump sat in when read (set by the store)
     removed_reason: str | None = None  # set when the reading was removed (kept, never deleted)
+    nu40_cst: float | None = None  # measured kinematic viscosity of the oil at 40 C (mm^2/s)
+    nu100_cst: float | None = None  # ... and at 100 C
 
     def value(self, kind: Kind) -> float | None:
         if kind is Kind.CASE_DRAIN:
@@ -171,6 +173,7 @@ class Event:
     entered_by: str = ""
     entered_at: datetime | None = None
     removed_reason: str | None = None  # set when the event was removed (kept, never deleted)
+    serial_in: str | None = None  # exchange: serial of the pump fitted in its place
 
 
 @dataclass(frozen=True)

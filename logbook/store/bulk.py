@@ -27,7 +27,7 @@ from logbook.units import theoretical_flow_lpm
 #: read_columns' column names, in READING_COLUMNS order up to ``note``.
 _INPUT = (
     "serial date machine machine_hours case_drain servo_pressure neutral_drift charge_pressure oil_temp test_pressure "
-    "test_speed oil_grade oil_vi iso4406 technician note"
+    "test_speed oil_grade oil_vi nu40_cst nu100_cst iso4406 technician note"
 ).split()
 _INSERT = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
 _ALL_METER_POINTS = """
@@ -114,7 +114,7 @@ class BulkMixin:
         texts = [[t or "" for t in columns.get(name) or none] for name in ("technician", "note")]
         if any(len(t) > 500 or not t.isprintable() for t in texts[0] + texts[1] if t):
             raise _Declined  # long or unusual text: add_readings words the rule
-        values = [serials, isos, machine_of, hours] + [columns.get(name) or none for name in _INPUT[4:14]] + texts
+        values = [serials, isos, machine_of, hours] + [columns.get(name) or none for name in _INPUT[4:16]] + texts
         return Checked([], values, 0)
 
     @staticmethod

@@ -18,7 +18,7 @@ from logbook.store.writes import READING_COLUMNS
 #: Fields of a reading that a correction may change (the rest is who/when/where).
 CORRECTABLE = (
     "taken_on machine_hours case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar oil_temp_c "
-    "test_pressure_bar test_speed_rpm oil_grade oil_vi iso4406 technician note"
+    "test_pressure_bar test_speed_rpm oil_grade oil_vi nu40_cst nu100_cst iso4406 technician note"
 ).split()
 MAX_REASON = 500
 
@@ -96,7 +96,8 @@ class CorrectionsMixin:
             values = [
                 new.serial, new.taken_on.isoformat(), machine, new.machine_hours, new.case_drain_lpm, new.servo_pressure_bar,
                 new.neutral_drift_bar, new.charge_pressure_bar, new.oil_temp_c, new.test_pressure_bar, new.test_speed_rpm,
-                new.oil_grade, new.oil_vi, new.iso4406, new.technician, new.note, self.user, now, None,
+                new.oil_grade, new.oil_vi, new.nu40_cst, new.nu100_cst, new.iso4406, new.technician, new.note, self.user, now,
+                None,
             ]
             self.conn.execute(
                 f"INSERT INTO readings (id, {', '.join(READING_COLUMNS)}) VALUES (?, {', '.join('?' * len(READING_COLUMNS))})",

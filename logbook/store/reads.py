@@ -51,6 +51,8 @@ def reading_from_row(row: dict) -> Reading:
         superseded_by=row["superseded_by"],
         machine=row["machine"],
         removed_reason=row.get("removed_reason"),
+        nu40_cst=row.get("nu40_cst"),
+        nu100_cst=row.get("nu100_cst"),
     )
 
 
@@ -70,6 +72,7 @@ def event_from_row(row: dict) -> Event:
         entered_by=row["entered_by"],
         entered_at=_dt(row["entered_at"]),
         removed_reason=row.get("removed_reason"),
+        serial_in=row.get("serial_in"),
     )
 
 

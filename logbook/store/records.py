@@ -24,7 +24,7 @@ from logbook.validate import check_hour_meter, check_reading_against_model
 MAX_TEXT = 500
 _VALUE_FIELDS = (
     "case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar oil_temp_c test_pressure_bar "
-    "test_speed_rpm oil_grade oil_vi iso4406"
+    "test_speed_rpm oil_grade oil_vi nu40_cst nu100_cst iso4406"
 ).split()
 
 
@@ -44,7 +44,7 @@ def _text_problems(technician: str, note: str) -> list[Problem]:
 def _values(r: Reading) -> tuple:
     """The measured values of a reading, in _VALUE_FIELDS order (to spot a re-import)."""
     return (r.case_drain_lpm, r.servo_pressure_bar, r.neutral_drift_bar, r.charge_pressure_bar, r.oil_temp_c,
-            r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.iso4406)
+            r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.nu40_cst, r.nu100_cst, r.iso4406)
 
 
 # A stored reading or event that a new row may repeat, kept as the tuple it is read in (big files
@@ -281,7 +281,7 @@ class RecordsMixin:
             (
                 r.serial, r.taken_on.isoformat(), machine, r.machine_hours, r.case_drain_lpm, r.servo_pressure_bar,
                 r.neutral_drift_bar, r.charge_pressure_bar, r.oil_temp_c, r.test_pressure_bar, r.test_speed_rpm,
-                r.oil_grade, r.oil_vi, r.iso4406, r.technician, r.note, user, now, import_id,
+                r.oil_grade, r.oil_vi, r.nu40_cst, r.nu100_cst, r.iso4406, r.technician, r.note, user, now, import_id,
             )
             for _, r, machine in accepted
         ]
@@ -569,7 +569,7 @@ class RecordsMixin:
         for _, e, before, closed, opened in plan:
             row = (
                 e.kind.value, e.happened_on.isoformat(), e.serial, e.machine, e.hours, e.to_machine, e.to_position,
-                e.to_hours, e.technician, e.note, self.user, now, import_id,
+                e.to_hours, e.technician, e.note, self.user, now, import_id, e.serial_in,
             )
             cur = self.conn.execute(_INSERT_EVENT, row)
             ids.append(cur.lastrowid)

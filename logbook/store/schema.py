@@ -182,6 +182,15 @@ MIGRATIONS: list[Migration] = [
         )
         """,
     ),
+    # 4: what an oil analysis measured and which pump an exchange fitted. The measured
+    # kinematic viscosity of the reading's oil at 40 C and 100 C (ASTM D445; the
+    # temperatures of ISO 3448 and ASTM D2270), and the serial of the pump fitted by an
+    # exchange. All nullable: rows before this version have none.
+    (
+        "ALTER TABLE readings ADD COLUMN nu40_cst REAL",
+        "ALTER TABLE readings ADD COLUMN nu100_cst REAL",
+        "ALTER TABLE events ADD COLUMN serial_in TEXT",
+    ),
 ]
 
 SCHEMA_VERSION = len(MIGRATIONS)

@@ -29,10 +29,11 @@ MODEL_COLUMNS = (
 ).split()
 READING_COLUMNS = (
     "serial taken_on machine machine_hours case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar "
-    "oil_temp_c test_pressure_bar test_speed_rpm oil_grade oil_vi iso4406 technician note entered_by entered_at import_id"
+    "oil_temp_c test_pressure_bar test_speed_rpm oil_grade oil_vi nu40_cst nu100_cst iso4406 technician note entered_by entered_at import_id"
 ).split()
 EVENT_COLUMNS = (
-    "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id"
+    "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id "
+    "serial_in"
 ).split()
 
 

@@ -105,7 +105,7 @@ def time_raw(folder: Path, rows: list[tuple], pumps: int) -> tuple[float, float,
     fresh_store(folder, "raw.db", pumps).close()
     now = "2026-01-01T00:00:00+00:00"
     tuples = [
-        (s, d, m, h, cd, sp, nd, None, t, tp, ts, None, None, None, "", "", "bench", now, None)
+        (s, d, m, h, cd, sp, nd, None, t, tp, ts, None, None, None, None, None, "", "", "bench", now, None)
         for s, d, m, h, cd, sp, nd, t, tp, ts in rows
     ]
     conn = sqlite3.connect(folder / "raw.db", isolation_level=None)

@@ -9,8 +9,11 @@ from datetime import date
 import pytest
 
 import logbook.store.core as core
+from logbook.model import Event, EventKind, Reading
 from logbook.store import Store
 from logbook.store.schema import MIGRATIONS, SCHEMA_VERSION
+
+from .conftest import TODAY
 
 # Rows every schema version can hold (all these tables and columns exist from version 1).
 ROWS = (
@@ -52,7 +55,7 @@ def _schema(conn: sqlite3.Connection) -> dict[str, object]:
 
 
 def test_migrations_are_lists_of_single_statements():
-    assert SCHEMA_VERSION == len(MIGRATIONS) >= 3
+    assert SCHEMA_VERSION == len(MIGRATIONS) >= 4
     for number, migration in enumerate(MIGRATIONS, 1):
         assert isinstance(migration, (list, tuple)) and migration, number
         for statement in migration:
@@ -76,7 +79,9 @@ def test_a_database_at_every_earlier_version_migrates_with_its_rows(tmp_path, ve
             (reading,) = s.readings("P-1")
             assert (reading.taken_on, reading.machine_hours, reading.case_drain_lpm, reading.servo_pressure_bar) == (
                 date(2025, 3, 1), 1200, 3.5, 26.0)
-            assert len(s.fleet().events) == 1
+            assert reading.nu40_cst is None and reading.nu100_cst is None  # migration 4: nullable, none before
+            (event,) = s.fleet().events
+            assert event.serial_in is None
     # Opening again finds nothing to do.
     with Store(old) as s:
         assert s.schema_version() == SCHEMA_VERSION and s.commits == []
@@ -107,3 +112,37 @@ def test_a_failing_migration_leaves_the_file_at_its_version(tmp_path, monkeypatc
         assert "costs" not in {r[0] for r in conn.execute("SELECT name FROM sqlite_master")}
     finally:
         conn.close()
+
+
+def test_measured_viscosity_and_the_exchanged_serial_are_stored_and_read_back(store):
+    """Migration 4: the store writes the new fields (None by default) and every read returns them."""
+    saved = store.add_reading(Reading(id=None, serial="S-100", taken_on=date(2025, 8, 1), machine_hours=1900,
+                                      servo_pressure_bar=24.5, nu40_cst=44.1, nu100_cst=6.7), today=TODAY)
+    plain = store.add_reading(Reading(id=None, serial="S-200", taken_on=date(2025, 8, 1), machine_hours=5900,
+                                      servo_pressure_bar=24.0), today=TODAY)
+    assert (saved.nu40_cst, saved.nu100_cst) == (44.1, 6.7) and (plain.nu40_cst, plain.nu100_cst) == (None, None)
+    by_id = {r.id: r for r in store.fleet().readings}
+    assert (by_id[saved.id].nu40_cst, by_id[saved.id].nu100_cst) == (44.1, 6.7)
+    assert by_id[plain.id].nu40_cst is None and by_id[plain.id].nu100_cst is None
+    # A correction keeps them (nothing the user entered is lost) and can change them.
+    fixed = store.correct_reading(saved.id, reason="servo typo", today=TODAY, servo_pressure_bar=25.0)
+    assert (fixed.nu40_cst, fixed.nu100_cst) == (44.1, 6.7)
+    fixed = store.correct_reading(fixed.id, reason="lab report", today=TODAY, nu40_cst=45.0)
+    assert (fixed.nu40_cst, fixed.nu100_cst) == (45.0, 6.7)
+    assert store.pump_trail("S-100")[-1].after["nu40_cst"] == 45.0
+    ex = store.add_event(Event(id=None, kind=EventKind.EXCHANGE, happened_on=date(2025, 9, 1), serial="S-100",
+                               hours=2000, serial_in="S-300"), today=TODAY)
+    assert ex.serial_in == "S-300"
+    (read,) = [e for e in store.fleet().events if e.id == ex.id]
+    assert read.serial_in == "S-300"
+    assert store.fleet_for_pump("S-100").events[-1].serial_in == "S-300"
+    assert store.pump_trail("S-100")[-1].after["serial_in"] == "S-300"
+
+
+def test_the_column_wise_import_lane_stores_measured_viscosity(store):
+    columns = {"serial": ["S-100", "S-200"], "date": [date(2025, 8, 1), date(2025, 8, 1)], "machine_hours": [1900.0, 5900.0],
+               "servo_pressure": [24.5, 24.0], "nu40_cst": [44.1, None], "nu100_cst": [6.7, None]}
+    report = store.add_reading_columns(columns, today=TODAY, lines=[2, 3], source=("r.csv", "0" * 64))
+    assert report is not None and report.added == 2
+    got = {r.serial: (r.nu40_cst, r.nu100_cst) for r in store.readings() if r.taken_on == date(2025, 8, 1)}
+    assert got == {"S-100": (44.1, 6.7), "S-200": (None, None)}
