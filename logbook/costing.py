@@ -189,6 +189,7 @@ def pump_costs(book: CostBook, forecast, economies: dict[str, ModelEconomy]) -> 
         eco = economies.get(pf.model)
         rate = None
         if eco is not None and eco.optimum is not None and eco.shape is not None:
+            assert eco.scale_hours is not None  # a Weibull fit gives shape and scale together
             rate = float(cost_rate(eco.optimum.age_hours, eco.shape, eco.scale_hours, costs)) \
                 if eco.optimum.age_hours is not None else costs.failure / (eco.scale_hours * math.gamma(1 + 1 / eco.shape))
         if rate is None:

@@ -129,18 +129,18 @@ def level(jobs: Sequence[Job], limits: ShopLimits, *, time_limit: float = 60.0) 
 
     every = np.arange(n)[:, None] * width
     constraints(every + np.arange(width)[None, :], n, 1.0, 1.0)  # each job once
-    months = np.arange(limits.months)
+    month_no = np.arange(limits.months)
     if limits.capacity is not None:
-        constraints((every + months[None, :]).T, limits.months, 0.0, float(limits.capacity))
+        constraints((every + month_no[None, :]).T, limits.months, 0.0, float(limits.capacity))
     for site, cap in limits.site_capacity.items():
         at = np.flatnonzero([job.site == site for job in jobs])
         if at.size:
-            constraints((at[:, None] * width + months[None, :]).T, limits.months, 0.0, float(cap))
+            constraints((at[:, None] * width + month_no[None, :]).T, limits.months, 0.0, float(cap))
     for model, pool in limits.spares.items():
         of = np.flatnonzero([job.model == model for job in jobs])
         if not of.size or limits.turnaround <= 0:
             continue
-        for m in months:  # a job started in m - turnaround + 1 .. m still holds a spare in m
+        for m in range(limits.months):  # a job started in m - turnaround + 1 .. m still holds a spare in m
             starts = np.arange(max(0, m - limits.turnaround + 1), m + 1)
             constraints((of[:, None] * width + starts[None, :]).reshape(1, -1), 1, 0.0, float(pool))
     rows = np.concatenate([b[0] for b in blocks])

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import bisect
 from datetime import date
-from typing import Iterable
+from typing import Iterable, cast
 
 from logbook.model import Event, EventKind, Fitment
 
@@ -34,13 +34,14 @@ def read_on_new_meter(rep: Event, on: date, meter_hours: float) -> bool:
     replacement day itself, the meter whose reading is nearer decides."""
     if on != rep.happened_on:
         return on > rep.happened_on
+    assert rep.hours is not None and rep.to_hours is not None  # a replacement that carries both readings
     return abs(meter_hours - rep.to_hours) < abs(meter_hours - rep.hours)
 
 
 def continuous_hours(meter_hours: float, on: date, replacements: list[Event]) -> float:
     """Hour-meter reading taken on ``on`` expressed on the machine's continuous scale
     (in the first meter's terms)."""
-    offset = sum(rep.hours - rep.to_hours for rep in replacements if read_on_new_meter(rep, on, meter_hours))
+    offset = sum(cast(float, rep.hours) - cast(float, rep.to_hours) for rep in replacements if read_on_new_meter(rep, on, meter_hours))
     return float(meter_hours) + offset
 
 
@@ -109,6 +110,7 @@ class MeterTimeline:
         with the lowest hours) within the same meter era."""
         if self._index is None:
             self._build()
+        assert self._index is not None  # _build sets it
         entry = self._index.get(self.era(on))
         if not entry:
             return None, None

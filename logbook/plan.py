@@ -30,6 +30,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date, timedelta
 
+import numpy as np
+
 from logbook.analysis.results import FLAG_JUMP, FleetForecast, KindForecast, Outcome, PumpForecast
 from logbook.analysis.status import urgency_key
 from logbook.costing import Candidate, CostedPlan, PlanCosts, cost_plan, job_days
@@ -97,7 +99,7 @@ def crossing_probability(kf: KindForecast, today: date, by: date) -> float | Non
     ahead = (by - today).days
     if ahead <= 0:
         return 0.0
-    return float(split_lognormal_chance(*days)(ahead))
+    return float(split_lognormal_chance(*days)(np.asarray(ahead, dtype=float)))
 
 
 def _p_days(kf: KindForecast, today: date) -> tuple[float, float, float | None] | None:
@@ -457,9 +459,9 @@ def _least_cost(candidates, settings: PlanSettings, today: date, costs: PlanCost
                                pf.hours_per_day or 0.0))
     limits = ShopLimits(settings.horizon_months, settings.capacity_per_month, dict(settings.site_capacity),
                         dict(settings.exchange_on_hand), settings.turnaround_months)
-    days = job_days(today, settings.months, add_months(settings.start_month, settings.horizon_months))
+    month_days = job_days(today, settings.months, add_months(settings.start_month, settings.horizon_months))
     greedy_index = {c.serial: index.get(greedy[c.serial]) if c.serial in greedy else None for c in cands}
-    return cost_plan(cands, costs, limits, days, greedy_index), ""
+    return cost_plan(cands, costs, limits, month_days, greedy_index), ""
 
 
 def make_plan(forecast: FleetForecast, settings: PlanSettings, costs: PlanCosts | None = None) -> Plan:

@@ -517,7 +517,8 @@ def summarize(sc: Scores, origins: tuple[date, ...], calibration: bool, *, site=
 def origin_dates(first: date, last: date, every: int, unit: str) -> list[date]:
     """Origins from ``first`` to ``last`` every ``every`` days or months (``unit``: "days" or "months";
     a month step keeps the day of the month, the last day where a month is shorter)."""
-    out, i = [], 0
+    out: list[date] = []
+    i = 0
     while True:
         if unit == "days":
             day = first + timedelta(days=every * i)

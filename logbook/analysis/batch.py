@@ -65,8 +65,9 @@ class TrendBatch:
         position = np.arange(len(row)) - np.repeat(np.cumsum([0, *lengths[:-1]]), lengths).astype(np.int64)
         bx, by, _, kept = pad_rows(row, x, y, len(series), position, width)
         last = np.where(kept > 0, bx[np.arange(len(series)), np.maximum(np.minimum(kept, bx.shape[1]) - 1, 0)], 0.0)
-        grp = np.full(len(series), -1) if group is None else group
-        return cls(x=bx, y=by, limit=limit, direction=direction, group=grp, x_now=last if x_now is None else x_now)
+        grp = np.full(len(series), -1) if group is None else np.asarray(group, dtype=np.int64)
+        return cls(x=bx, y=by, limit=np.asarray(limit, dtype=float), direction=np.asarray(direction, dtype=np.int8), group=grp,
+                   x_now=last if x_now is None else np.asarray(x_now, dtype=float))  # fmt: skip
 
 
 def in_order(group: np.ndarray, *keys: np.ndarray) -> np.ndarray:

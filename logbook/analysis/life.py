@@ -18,13 +18,14 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from scipy import optimize, special
 
 from logbook.analysis.results import FleetForecast
 from logbook.analysis.timeline import Timeline
-from logbook.model import Event, EventKind, Fleet
+from logbook.model import Event, EventKind, Fitment, Fleet
 
 MIN_FAILURES = 2
 FEW_FAILURES = 5  # below this the bounds are wide: say so
@@ -187,7 +188,7 @@ def life_figures(
     """
     t = np.asarray(hours, float)
     d = np.asarray(observed, bool)
-    base = dict(model=model, intervals=int(t.size), failures=int(d.sum()), censored=int((~d).sum()))
+    base: dict[str, Any] = dict(model=model, intervals=int(t.size), failures=int(d.sum()), censored=int((~d).sum()))
     try:
         fit = fit_weibull(t, d, entry)
     except NoFit as exc:
@@ -296,10 +297,10 @@ def tbo_intervals(fleet: Fleet, ages_now: dict[str, float] | None = None) -> dic
                   key=lambda e: (e.happened_on, e.id or 0))  # fmt: skip
     at_end = dict(zip(map(id, ends), timeline.event_pump_hours(ends, timeline.latest).tolist()))
     highest = timeline.highest_pump_hours(timeline.latest)
-    own: dict[str, list[Event]] = {}
+    own: dict[str | None, list[Event]] = {}  # the serials of ``ends`` are pumps of the fleet
     for e in ends:
         own.setdefault(e.serial, []).append(e)
-    first_fit = {}
+    first_fit: dict[str, Fitment] = {}
     for f in sorted(fleet.fitments, key=lambda f: (f.fitted_on, f.id or 0)):
         first_fit.setdefault(f.serial, f)
     found: dict[str, _Bucket] = {}

@@ -6,8 +6,12 @@ from dataclasses import dataclass, field
 from datetime import date
 from functools import cached_property
 from enum import Enum
+from typing import TYPE_CHECKING
 
 from logbook.model import Kind, Limit
+
+if TYPE_CHECKING:
+    from logbook.analysis.paths import PathMixture
 
 
 class Outcome(str, Enum):
@@ -56,7 +60,7 @@ class FitDetail:
     dof: int
     # the forecast's path mixture and this series' row in it: band() then draws the same mixture that
     # gives P50 and the P10-P90 dates (not compared: the figures above are the fit itself)
-    mixture: object = field(default=None, compare=False, repr=False)
+    mixture: PathMixture | None = field(default=None, compare=False, repr=False)
     row: int = field(default=-1, compare=False, repr=False)
 
     def below(self, x, value, *, reading: bool = False):

@@ -160,7 +160,8 @@ def series_batch(entries: Entries, x: np.ndarray, pumps: PumpReadings, origin: n
     group = [KINDS * model_rank.setdefault(m.code, len(model_rank)) + k for m in pump_models for k in range(KINDS)]
     direction = [limit_direction(kind, lim) for lim, kind in zip(limits, ALL_KINDS * pumps.pumps)]
     limit = [np.nan if lim is None else lim.value for lim in limits]
-    return TrendBatch(x=bx, y=by, limit=limit, direction=direction, group=group, x_now=x_now), rank
+    return TrendBatch(x=bx, y=by, limit=np.asarray(limit, dtype=float), direction=np.asarray(direction, dtype=np.int8),
+                      group=np.asarray(group, dtype=np.int64), x_now=x_now), rank  # fmt: skip
 
 
 def limit_direction(kind: Kind, limit: Limit | None) -> int:
