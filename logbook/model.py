@@ -198,7 +198,7 @@ class Fleet:
     readings: tuple[Reading, ...]
     events: tuple[Event, ...]
     source: str = ""  # database path, for provenance lines
-    data_version: int = 0
+    change_count: int = 0  # the store's change_count() when read: rises with every committed write
 
     def history(self, serial: str) -> PumpHistory:
         return self.histories([serial])[0]

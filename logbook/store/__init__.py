@@ -23,15 +23,18 @@ from logbook.store.core import (
 )
 from logbook.store.corrections import CORRECTABLE, CorrectionsMixin
 from logbook.store.costs import CostsMixin
+from logbook.store.equipment import EquipmentMixin
+from logbook.store.events import EventsMixin
 from logbook.store.maintenance import BackupResult, Finding, MaintenanceMixin
+from logbook.store.meters import MetersMixin
 from logbook.store.plansetup import PlanSetupMixin
+from logbook.store.readings import ReadingsMixin
 from logbook.store.reads import ReadMixin
-from logbook.store.records import RecordsMixin
 from logbook.store.trail import TrailEntry, TrailMixin
-from logbook.store.writes import WriteMixin
 
 
-class Store(PlanSetupMixin, CostsMixin, CorrectionsMixin, MaintenanceMixin, TrailMixin, BulkMixin, RecordsMixin, WriteMixin, ReadMixin, StoreCore):
+class Store(PlanSetupMixin, CostsMixin, CorrectionsMixin, MaintenanceMixin, TrailMixin, BulkMixin, ReadingsMixin, EventsMixin,
+            EquipmentMixin, MetersMixin, ReadMixin, StoreCore):
     """A logbook database. Reads return domain records; writes validate first and
     then commit all-or-nothing, recording who and when in the audit table.
 

@@ -21,7 +21,8 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import ImportReport
-from logbook.store.writes import READING_COLUMNS, Checked
+from logbook.store.batches import Checked
+from logbook.store.readings import READING_COLUMNS
 from logbook.units import theoretical_flow_lpm
 
 #: read_columns' column names, in READING_COLUMNS order up to ``note``.

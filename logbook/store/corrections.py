@@ -13,7 +13,7 @@ from datetime import date
 
 from logbook.model import Event, EventKind, Fitment, InputRejected, Problem, Reading
 from logbook.store.reads import fitment_from_row
-from logbook.store.writes import READING_COLUMNS
+from logbook.store.readings import READING_COLUMNS
 
 #: Fields of a reading that a correction may change (the rest is who/when/where).
 CORRECTABLE = (

@@ -111,7 +111,7 @@ class CostsMixin:
         ``planned_downtime_hours`` and ``failure_downtime_hours``. All checked first, then written
         in one transaction (audited); a row equal to what is stored counts as already present.
         ``flagged`` says what a model's costs mean when a failure costs no more than its job."""
-        from logbook.store.writes import Checked
+        from logbook.store.batches import Checked
 
         def line_of(i: int) -> int | None:
             return lines[i] if lines is not None and i < len(lines) else None

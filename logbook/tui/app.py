@@ -138,11 +138,11 @@ class LogbookApp(App):
                 quick = False
             with self.gate.open() as store:  # opens the store on the first load
                 count = store.change_count()
-                if fleet is None or count != basis.data_version + 1:  # someone else wrote too: read it all
+                if fleet is None or count != basis.change_count + 1:  # someone else wrote too: read it all
                     fleet = store.fleet() if self.as_of is None else store.fleet_as_of(self.as_of)
-                    count = fleet.data_version
+                    count = fleet.change_count
                 else:
-                    fleet = replace(fleet, data_version=count)
+                    fleet = replace(fleet, change_count=count)
                 book, setup = store.costs(), store.plan_setup()
             if worker.is_cancelled:
                 return
@@ -312,7 +312,7 @@ def with_pump(forecast, pump_forecast):
 def with_reading(fleet: Fleet, reading: Reading) -> Fleet:
     """``fleet`` plus a reading the store has just saved (its id and machine set by the
     store), in the store's reading order, so that it equals a fresh read when nothing
-    else changed. Keeps ``data_version``: the result is no snapshot of the store."""
+    else changed. Keeps ``change_count``: the result is no snapshot of the store."""
     if any(r.id == reading.id for r in fleet.readings):
         return fleet
     readings = list(fleet.readings)

@@ -32,7 +32,7 @@ from pathlib import Path
 
 from logbook.imports import import_bytes
 from logbook.store import Store
-from logbook.store.writes import READING_COLUMNS
+from logbook.store.readings import READING_COLUMNS
 
 TODAY = date(2026, 1, 1)
 START = date(2020, 1, 1)

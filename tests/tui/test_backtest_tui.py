@@ -54,7 +54,7 @@ async def test_pump_view_says_how_its_past_forecasts_did(demo_app):
         await settle(app, pilot)
         words = str(line.render())
         model = app.fleet.pumps[serial].model
-        assert words == pump_words(app.backtests[(model, app.fleet.data_version, None)], serial)
+        assert words == pump_words(app.backtests[(model, app.fleet.change_count, None)], serial)
         assert "later readings" in words and "below P10" in words and len(words) < 160
 
 

@@ -45,7 +45,7 @@ def cached(app, model: str | None):
 
 def _key(app, model):
     fleet = getattr(app, "fleet", None)
-    return None if fleet is None else (model, fleet.data_version, getattr(app, "as_of", None))
+    return None if fleet is None else (model, fleet.change_count, getattr(app, "as_of", None))
 
 
 def compute(app, model: str | None, step=None):

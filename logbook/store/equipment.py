@@ -1,14 +1,13 @@
-"""Validated writes. Every call checks all its records first, then writes them all
-in one transaction, or writes nothing and raises/reports every problem."""
+"""Pump models and limits, machines, pumps and fitments (the equipment the readings are
+about). Every call checks all its records first, then writes them all in one
+transaction, or writes nothing and raises/reports every problem."""
 
 from __future__ import annotations
 
 import dataclasses
-import json
 from datetime import date
 from typing import Sequence
 
-from logbook import meter
 from logbook.model import (
     Fitment,
     ImportReport,
@@ -20,50 +19,14 @@ from logbook.model import (
     Pump,
     PumpModel,
 )
-from logbook.store.reads import fitment_from_row
+from logbook.store.batches import Checked, _line, _shown, _with_line
 from logbook.validate import check_hour_meter
 
 MODEL_COLUMNS = (
     "code description displacement_cc rated_pressure_bar max_speed_rpm ref_temp_c ref_pressure_bar oil_grade oil_vi "
     "test_speed_rpm test_temp_min_c test_temp_max_c reading_interval_hours reading_interval_days"
 ).split()
-READING_COLUMNS = (
-    "serial taken_on machine machine_hours case_drain_lpm servo_pressure_bar neutral_drift_bar charge_pressure_bar "
-    "oil_temp_c test_pressure_bar test_speed_rpm oil_grade oil_vi nu40_cst nu100_cst iso4406 technician note entered_by entered_at import_id"
-).split()
-EVENT_COLUMNS = (
-    "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id "
-    "serial_in"
-).split()
 
-
-# Every hour-meter record of one machine (the same sources as WriteMixin._timeline),
-# limited to one meter era; parameters: machine, json list of reading ids to leave out,
-# machine x3, era start, era end, then the day for the caller's WHERE.
-_METER_POINTS = """
-    SELECT * FROM (
-        SELECT taken_on AS on_day, machine_hours AS hours FROM readings
-         WHERE machine = ? AND superseded_by IS NULL AND removed_reason IS NULL
-           AND id NOT IN (SELECT value FROM json_each(?))
-        UNION ALL
-        SELECT happened_on, hours FROM events
-         WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced' AND removed_reason IS NULL
-        UNION ALL
-        SELECT happened_on, to_hours FROM events
-         WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move' AND removed_reason IS NULL
-        UNION ALL
-        SELECT fitted_on, machine_hours_at_fit FROM fitments WHERE machine = ?
-    ) WHERE on_day >= ? AND on_day < ? AND """
-
-
-def _line(lines: Sequence[int] | None, i: int) -> int | None:
-    return lines[i] if lines is not None else None
-
-
-def _with_line(problems: list[Problem], line: int | None) -> list[Problem]:
-    for p in problems:
-        p.line = line
-    return problems
 
 
 #: Model fields as models.csv names them (the stored names without their unit).
@@ -81,13 +44,6 @@ def _model_differences(old: PumpModel, new: PumpModel) -> list[tuple[str, object
         if (a and (a.value, a.direction)) != (b and (b.value, b.direction)):
             diffs.append((f"{kind.value}_limit", a.value if a else None, b.value if b else None))
     return diffs
-
-
-def _shown(value: object) -> str:
-    """A stored or given value in a message: numbers plain, text quoted, nothing as 'blank'."""
-    if value is None or value == "":
-        return "blank"
-    return f"{value:g}" if isinstance(value, float) else repr(value) if isinstance(value, str) else str(value)
 
 
 def _model_change_message(code: str, diffs: list[tuple[str, object, object]]) -> str:
@@ -111,85 +67,8 @@ def _model_change_message(code: str, diffs: list[tuple[str, object, object]]) ->
             + "); an import does not change a model: " + "; ".join(hows))
 
 
-@dataclasses.dataclass
-class Checked:
-    """The outcome of checking a batch: what to write, what was already there, what is wrong."""
-
-    problems: list[Problem]
-    items: list
-    present: int = 0
-    notes: list[str] = dataclasses.field(default_factory=list)  # per line: present rows worth a word
-
-
-class WriteMixin:
-    """Adds, corrections and edits; the only place rows are written."""
-
-    # -- small context readers ----------------------------------------------------
-    def _timeline(self, machine: str, *, without_readings: Sequence[int] = ()) -> meter.MeterTimeline:
-        """Every hour-meter record of a machine (current readings, events, fitments),
-        leaving out the readings ``without_readings`` (one being corrected)."""
-        reps = [
-            date.fromisoformat(r[0])
-            for r in self.conn.execute(
-                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
-                (machine,),
-            )
-        ]
-        tl = meter.MeterTimeline(reps)
-        skip = set(without_readings)
-        for rid, on, hours in self.conn.execute(
-            "SELECT id, taken_on, machine_hours FROM readings WHERE machine = ? AND superseded_by IS NULL "
-            "AND removed_reason IS NULL",
-            (machine,),
-        ):
-            if rid not in skip:
-                tl.add(date.fromisoformat(on), hours)
-        for on, hours in self.conn.execute(
-            "SELECT happened_on, hours FROM events WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced' "
-            "AND removed_reason IS NULL",
-            (machine,),
-        ):
-            tl.add(date.fromisoformat(on), hours)
-        for on, hours in self.conn.execute(
-            "SELECT happened_on, to_hours FROM events WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move' "
-            "AND removed_reason IS NULL",
-            (machine,),
-        ):
-            tl.add(date.fromisoformat(on), hours)
-        for on, hours in self.conn.execute(
-            "SELECT fitted_on, machine_hours_at_fit FROM fitments WHERE machine = ?", (machine,)
-        ):
-            tl.add(date.fromisoformat(on), hours)
-        return tl
-
-    def _meter_neighbours(
-        self, machine: str, on: date, *, without_readings: Sequence[int] = ()
-    ) -> tuple[tuple[date, float] | None, tuple[date, float] | None]:
-        """``self._timeline(machine).neighbours(on)`` answered by SQL, for one new record:
-        no need to load the machine's whole history."""
-        reps = sorted(
-            r[0] for r in self.conn.execute(
-                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
-                (machine,),
-            )
-        )
-        day = on.isoformat()
-        start = max((d for d in reps if d <= day), default="0000-00-00")
-        end = min((d for d in reps if d > day), default="9999-99-99")
-        params = (machine, json.dumps(list(without_readings)), machine, machine, machine, start, end, day)
-        earlier = self.conn.execute(_METER_POINTS + "on_day < ? ORDER BY hours DESC, on_day LIMIT 1", params).fetchone()
-        later = self.conn.execute(_METER_POINTS + "on_day > ? ORDER BY hours ASC, on_day LIMIT 1", params).fetchone()
-        return (
-            (date.fromisoformat(earlier[0]), earlier[1]) if earlier else None,
-            (date.fromisoformat(later[0]), later[1]) if later else None,
-        )
-
-    def _fitments_of(self, serial: str) -> list[Fitment]:
-        return [
-            fitment_from_row(dict(zip([c[0] for c in cur.description], row)))
-            for cur in [self.conn.execute("SELECT * FROM fitments WHERE serial = ? ORDER BY fitted_on, id", (serial,))]
-            for row in cur.fetchall()
-        ]
+class EquipmentMixin:
+    """Pump models and their limits, machines, pumps and their first fitments: checked, then written."""
 
     def _report(self, table: str, dry_run: bool, added: int, present: int, problems: list[Problem], flagged=None) -> ImportReport:
         return ImportReport(table, added=added, already_present=present, problems=problems, flagged=list(flagged or []), dry_run=dry_run)
