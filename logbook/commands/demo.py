@@ -33,7 +33,7 @@ def run(args, ctx) -> int:
     path = demo_path(args)
     if path.exists():
         with Store(path, create=False) as old:
-            others = [r["who"] for r in old.db.query("SELECT DISTINCT who FROM audit WHERE who != 'demo'")]
+            others = old.writers(besides="demo")
         if others:
             ctx.err.print(
                 f"logbook demo: {path} holds data entered by {', '.join(others)}; not replacing it. "
@@ -57,12 +57,9 @@ def run(args, ctx) -> int:
         markup=False,
     )
     ctx.db_path = path
-    from logbook.tui.launch import can_draw
+    from logbook.commands.open_ui import print_summary
+    from logbook.tui.launch import can_draw, run as launch
 
     if args.no_ui or not os.isatty(1) or not can_draw():
-        from logbook.commands.open_ui import print_summary
-
         return print_summary(ctx)
-    from logbook.commands.open_ui import run as open_ui
-
-    return open_ui(args, ctx)
+    return launch(args, ctx)

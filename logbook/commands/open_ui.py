@@ -1,4 +1,8 @@
-"""`logbook` with no command: the fleet view (TUI), or a summary when no terminal."""
+"""The fleet summary that `logbook` with no command prints where the fleet view cannot
+run (no terminal, a terminal that cannot draw, Textual missing), and `logbook demo --no-ui`.
+
+The view itself is started by ``logbook.tui.launch``, which falls back to this summary;
+this module never imports the interface (the dependency runs one way: launch -> here)."""
 
 from __future__ import annotations
 
@@ -18,10 +22,3 @@ def print_summary(ctx) -> int:
                       + "; ".join(f"{n} {s}" for s, n in counts.most_common()), markup=False)
     ctx.console.print(fleet_table(forecast, ctx, limit=10))
     return 0
-
-
-def run(args, ctx) -> int:
-    """The fleet view at a terminal, else the summary (see ``logbook.tui.launch``)."""
-    from logbook.tui.launch import run as launch
-
-    return launch(args, ctx)

@@ -53,3 +53,9 @@ class TrailMixin:
                 entries.append((at, audit_id or 0, TrailEntry(datetime.fromisoformat(at), who, "import", table, f"import {iid}", None, after)))
         entries.sort(key=lambda item: (item[0], item[1]))
         return [entry for _, _, entry in entries]
+
+    def writers(self, *, besides: str | None = None) -> list[str]:
+        """Everyone who ever wrote to this database (the audit's ``who``), in name order,
+        leaving out ``besides`` (``logbook demo`` asks whether anyone but itself did)."""
+        rows = self.conn.execute("SELECT DISTINCT who FROM audit WHERE who IS NOT ? ORDER BY who", (besides,))
+        return [row[0] for row in rows]

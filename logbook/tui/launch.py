@@ -1,7 +1,8 @@
 """`logbook` with no command at a terminal: start the fleet view, importing as little
 as possible before its first frame (not the store, the analysis or the command modules).
 
-Elsewhere (no terminal, or Textual missing) it prints ``open_ui.print_summary`` instead.
+Elsewhere (no terminal, or Textual missing) it prints ``commands.open_ui.print_summary``
+instead; that module never imports this one (`logbook demo` starts the view from here too).
 """
 
 from __future__ import annotations
