@@ -166,6 +166,7 @@ def demo(tmp_path_factory):
         return store.fleet()
 
 
+@pytest.mark.slow
 def test_later_readings_are_counted_as_a_plain_loop_counts_them(demo):
     """At one origin the backtest scores exactly the readings a plain loop finds: of each series the
     forecast gives a path to, taken after the origin and before the next event restarting the kind."""
@@ -193,6 +194,7 @@ def test_later_readings_are_counted_as_a_plain_loop_counts_them(demo):
     assert ALL_KINDS  # every kind was looked at above
 
 
+@pytest.mark.slow
 def test_origins_forecast_together_equal_each_forecast_alone(demo):
     """``forecast_together`` stacks several origins' batches into one engine call, each one's pooling
     groups kept apart: every figure equals the figure of that batch forecast on its own."""
@@ -216,6 +218,7 @@ def test_origins_forecast_together_equal_each_forecast_alone(demo):
         assert fc2.mixture.spread[0] == pytest.approx(fc.mixture.spread[0]) and fc2.mixture.size == batch.x.shape[0]
 
 
+@pytest.mark.slow
 def test_a_model_with_too_few_later_readings_is_said_to_be_uncalibrated(demo):
     """Below paths.MIN_SCORES later readings the bands are the paths' own, and the forecast says so."""
     from dataclasses import replace

@@ -3,6 +3,8 @@ naming the field; the import's fast cell parsers agree with the reference path."
 
 from __future__ import annotations
 
+import pytest
+
 import bisect
 from datetime import date, timedelta
 
@@ -36,6 +38,7 @@ def _problem_ok(problem: Problem | None, name: str) -> bool:
     return problem is None or (isinstance(problem, Problem) and problem.field and str(problem) and problem.allowed)
 
 
+@pytest.mark.slow
 def test_every_import_cell_parser_agrees_with_the_reference_path():
     """cell_parser (fast path + memo) must give what parse_cell gives, value and message."""
     count = 0
@@ -70,6 +73,7 @@ def test_every_import_cell_parser_agrees_with_the_reference_path():
     assert count >= 100
 
 
+@pytest.mark.slow
 def test_field_parsers_never_raise_and_name_the_field():
     count = 0
     specs = list(validate.READING_FIELDS.values()) + list(validate.MODEL_FIELDS.values()) + list(validate.HOURS_FIELDS.values())
@@ -101,6 +105,7 @@ def test_field_parsers_never_raise_and_name_the_field():
     assert count >= 100
 
 
+@pytest.mark.slow
 def test_record_command_values_never_raise():
     count = 0
 
@@ -133,6 +138,7 @@ def _brute_neighbours(points, replacements, on):
     return earlier, later
 
 
+@pytest.mark.slow
 def test_meter_timeline_neighbours_match_their_definition():
     count = 0
     days = st.integers(min_value=0, max_value=60).map(lambda d: date(2025, 1, 1) + timedelta(days=d))

@@ -63,6 +63,7 @@ def readings_file(draw):
     return text.encode(draw(st.sampled_from(["utf-8", "utf-8-sig"])))
 
 
+@pytest.mark.slow
 def test_read_columns_agrees_with_read_table():
     stats = {"cases": 0, "fast": 0}
 

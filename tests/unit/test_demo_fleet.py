@@ -92,6 +92,7 @@ def test_demo_oils_have_the_stated_viscosity_index(key):
 # --- determinism and the command line ------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_same_today_and_seed_give_identical_bytes(tmp_path):
     a = demo_fleet.write_csvs(tmp_path / "a", TODAY, 7)
     b = demo_fleet.write_csvs(tmp_path / "b", TODAY, 7)
@@ -102,6 +103,7 @@ def test_same_today_and_seed_give_identical_bytes(tmp_path):
     assert a["readings"].read_bytes() != c["readings"].read_bytes()
 
 
+@pytest.mark.slow
 def test_command_line_writes_the_same_files(tmp_path):
     assert main([str(tmp_path / "cli"), "--today", TODAY.isoformat(), "--seed", "7"]) == 0
     api = demo_fleet.write_csvs(tmp_path / "api", TODAY, 7)
@@ -123,6 +125,7 @@ def test_headers_follow_the_csv_formats_document():
 # --- counts and scenarios ---------------------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_counts(demo):
     _, data = demo
     assert 38 <= len(data["machines"]) <= 44
@@ -136,6 +139,7 @@ def test_counts(demo):
     assert 100 <= len(fitted) < len(data["pumps"])  # some exchange units on the shelf
 
 
+@pytest.mark.slow
 def test_every_scenario_serial_is_present_with_readings(demo):
     _, data = demo
     serials = {p["serial"] for p in data["pumps"]}
@@ -146,6 +150,7 @@ def test_every_scenario_serial_is_present_with_readings(demo):
         assert all(r["case_drain"] and r["servo_pressure"] and r["neutral_drift"] for r in readings[story.serial])
 
 
+@pytest.mark.slow
 def test_linear_and_exponential_wear(demo):
     _, data = demo
     sse = {}
@@ -162,6 +167,7 @@ def test_linear_and_exponential_wear(demo):
     assert sse["exponential"][1] < 0.7 * sse["exponential"][0]  # and an exponential the accelerating one
 
 
+@pytest.mark.slow
 def test_step_is_one_jump_without_an_event(demo):
     _, data = demo
     _, model, readings, events = series(data, "step")
@@ -174,6 +180,7 @@ def test_step_is_one_jump_without_an_event(demo):
     assert sorted(jumps)[-2] < 0.4 * biggest
 
 
+@pytest.mark.slow
 def test_neutral_drift_fixed_by_a_reset(demo):
     _, data = demo
     _, model, readings, events = series(data, "neutral_reset")
@@ -184,6 +191,7 @@ def test_neutral_drift_fixed_by_a_reset(demo):
     assert max(before[-2:]) > 0.8 * limit and after[0] < 0.35 * limit
 
 
+@pytest.mark.slow
 def test_overhaul_restarts_wear_low(demo):
     _, data = demo
     _, model, readings, events = series(data, "overhaul")
@@ -195,6 +203,7 @@ def test_overhaul_restarts_wear_low(demo):
     assert date.fromisoformat(readings[len(before)]["date"]) - date.fromisoformat(overhaul["date"]) <= timedelta(3)
 
 
+@pytest.mark.slow
 def test_move_changes_machine_and_meter(demo):
     _, data = demo
     story, _, readings, events = series(data, "move")
@@ -207,6 +216,7 @@ def test_move_changes_machine_and_meter(demo):
     assert moved == {p["serial"] for p in data["pumps"] if p["machine"] == sc.RETIRED_MACHINE}
 
 
+@pytest.mark.slow
 def test_past_limit_new_pump_and_typo(demo):
     today, data = demo
     _, model, readings, events = series(data, "past_limit")
@@ -224,6 +234,7 @@ def test_past_limit_new_pump_and_typo(demo):
     assert len(outliers) == 1 and math.isclose(outliers[0] / 10, round(outliers[0] / 10, 1))
 
 
+@pytest.mark.slow
 def test_meter_replacement(demo):
     _, data = demo
     (event,) = [e for e in data["events"] if e["kind"] == "meter_replaced"]
@@ -236,6 +247,7 @@ def test_meter_replacement(demo):
     assert max(before) <= float(event["hours"]) and min(after) >= float(event["to_hours"])
 
 
+@pytest.mark.slow
 def test_servo_pressure_cases(demo):
     _, data = demo
     _, model, readings, _ = series(data, "servo_decline")
@@ -256,6 +268,7 @@ def test_servo_pressure_cases(demo):
 # --- consistency ------------------------------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_no_dates_after_today_and_recent_readings(demo):
     today, data = demo
     days = [r["date"] for r in data["readings"]] + [e["date"] for e in data["events"]]
@@ -272,6 +285,7 @@ def test_no_dates_after_today_and_recent_readings(demo):
     assert (today - date.fromisoformat(first)).days >= 2 * 365
 
 
+@pytest.mark.slow
 def test_hour_meters_never_run_backwards_except_at_a_replacement(demo):
     _, data = demo
     points = defaultdict(list)  # machine -> (date, hours)
@@ -300,6 +314,7 @@ def test_hour_meters_never_run_backwards_except_at_a_replacement(demo):
             assert hours == sorted(hours), machine
 
 
+@pytest.mark.slow
 def test_pump_hours_at_fit_are_consistent(demo):
     _, data = demo
     readings = by_serial(data["readings"])
@@ -313,6 +328,7 @@ def test_pump_hours_at_fit_are_consistent(demo):
         assert float(p["pump_hours_at_fit"]) >= 0
 
 
+@pytest.mark.slow
 def test_values_within_plausible_domains(demo):
     _, data = demo
     models = {m["model"]: m for m in data["models"]}
@@ -340,6 +356,7 @@ def test_values_within_plausible_domains(demo):
             assert float(r["charge_pressure"]) > float(r["servo_pressure"] or 0) - 2
 
 
+@pytest.mark.slow
 def test_most_pumps_are_healthy(demo):
     _, data = demo
     models = {m["model"]: m for m in data["models"]}
@@ -355,6 +372,7 @@ def test_most_pumps_are_healthy(demo):
 # --- through the real importer and store ------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_load_imports_without_problems(tmp_path):
     from logbook.meter import pump_hours, replacements_of
     from logbook.store import Store

@@ -45,6 +45,7 @@ def test_optimal_age_agrees_with_direct_numeric_minimization(shape, scale, cp, c
     assert opt.run_to_failure_cost_per_hour == pytest.approx(cf / (scale * math.gamma(1 + 1 / shape)))
 
 
+@pytest.mark.slow
 def test_optimal_age_agrees_with_the_reliability_package():
     # general-purpose reliability package (PyPI `reliability`, Reliability_systems.optimal_replacement_time,
     # as-good-as-new replacement q=0); it searches a grid, so agreement to its grid step (~0.1 %)

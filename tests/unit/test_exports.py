@@ -82,6 +82,7 @@ def test_byte_identical_across_runs(report, outputs, fmt):
     assert render(build_report(), fmt) == outputs[fmt]
 
 
+@pytest.mark.slow
 def test_html_identical_in_a_fresh_process(outputs):
     # Matplotlib's SVG ids come from a hash salt: a new interpreter must give the same bytes.
     code = (

@@ -212,6 +212,7 @@ def demo() -> Fleet:
     return store.fleet()
 
 
+@pytest.mark.slow
 def test_demo_fleet_forecast_is_unchanged(demo):
     today = date(2026, 12, 1)
     want = reference_forecast_fleet(demo, today)
@@ -220,6 +221,7 @@ def test_demo_fleet_forecast_is_unchanged(demo):
     assert_same(got, want)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 2, 3, 4])
 def test_edge_fleet_forecast_is_unchanged(seed):
     fleet = edge_fleet(seed)
@@ -229,6 +231,7 @@ def test_edge_fleet_forecast_is_unchanged(seed):
     assert_same(got, want)
 
 
+@pytest.mark.slow
 def test_options_noise_and_thresholds_pass_through():
     fleet = edge_fleet(5)
     kwargs = dict(horizon_hours=8000.0, options=FitOptions(pool=False, exponential=False), with_noise=True,
@@ -236,6 +239,7 @@ def test_options_noise_and_thresholds_pass_through():
     assert_same(forecast_fleet(fleet, TODAY, **kwargs), reference_forecast_fleet(fleet, TODAY, **kwargs))
 
 
+@pytest.mark.slow
 def test_forecast_histories_and_one_pump_in_its_fleet():
     fleet = edge_fleet(6)
     histories = fleet.histories(sorted(fleet.pumps)[:25])
@@ -246,6 +250,7 @@ def test_forecast_histories_and_one_pump_in_its_fleet():
         assert_same(forecast_in_fleet(fleet, serial, TODAY).kinds, want.pump(serial).kinds)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 9])
 def test_one_pump_is_the_engine_on_arrays_of_length_one(seed):
     fleet = edge_fleet(seed, pumps=40)
@@ -284,6 +289,7 @@ def test_a_bad_test_pressure_is_refused_as_before():
         forecast_fleet(bad, TODAY)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("part", ["events", "meter_replaced", "readings", "fitments", "all", "pumps"])
 def test_a_fleet_with_parts_missing(part):
     fleet = edge_fleet(8, pumps=30)

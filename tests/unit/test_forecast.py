@@ -52,6 +52,7 @@ def synthetic_fleet(seed: int, pumps: int = 1500):
     return batch, np.array(true_rem)
 
 
+@pytest.mark.slow
 def test_synthetic_fleet_coverage_width_and_error():
     # Ground truth built here with a fixed seed; target: P10-P90 covers the true crossing about
     # 80 % of the time. Bounds are deliberately loose; the figures are printed.
@@ -258,6 +259,7 @@ def test_a_unit_mix_up_reads_test_again_and_the_plan_retests_it():
     line = plan.line_for("S1")
     assert line is None or (line.outcome is not Outcome.PAST_LIMIT and "test again" in line.note)
 
+@pytest.mark.slow
 def test_path_mixture_quantiles_solve_the_mixture_exactly():
     # Where two or more wear paths carry weight, F(P_q) = sum_k w_k F_k must equal q, with the
     # exact Student t CDF (scipy.special.stdtr); the engine's bisection uses Wallace's fast

@@ -30,6 +30,7 @@ def run_cli(db, *args):
     return subprocess.run(cmd, capture_output=True, stdin=subprocess.DEVNULL, timeout=300)
 
 
+@pytest.mark.slow
 def test_json_to_stdout_in_a_pipe_has_no_progress_noise(demo_db):
     done = run_cli(demo_db, "--format", "json", "--capacity", "2", "--month", "2026-04", "--horizon", "4")
     assert done.returncode == 0, done.stderr
@@ -42,6 +43,7 @@ def test_json_to_stdout_in_a_pipe_has_no_progress_noise(demo_db):
     assert all("2026-04" <= m <= "2026-07" for m in months)
 
 
+@pytest.mark.slow
 def test_csv_file_is_written_and_same_bytes_twice(demo_db, tmp_path):
     out = tmp_path / "plan.csv"
     first = run_cli(demo_db, "--out", str(out), "--capacity", "3", "--site-capacity", "Lowmarsh Pit=1")
@@ -64,6 +66,7 @@ def test_csv_file_is_written_and_same_bytes_twice(demo_db, tmp_path):
         (("--out", "/no/such/folder/plan.csv"), ["--out", "existing folder"]),
     ],
 )
+@pytest.mark.slow
 def test_bad_arguments_exit_2_and_name_the_field(demo_db, args, words):
     done = run_cli(demo_db, *args)
     assert done.returncode == 2 and done.stdout == b""
@@ -71,6 +74,7 @@ def test_bad_arguments_exit_2_and_name_the_field(demo_db, args, words):
         assert word.encode() in done.stderr
 
 
+@pytest.mark.slow
 def test_missing_and_unreadable_database_exit_1(tmp_path):
     done = run_cli(tmp_path / "absent.db")
     assert done.returncode == 1 and b"no logbook database" in done.stderr
@@ -80,6 +84,7 @@ def test_missing_and_unreadable_database_exit_1(tmp_path):
     assert done.returncode == 1 and b"not a usable logbook database" in done.stderr
 
 
+@pytest.mark.slow
 def test_format_follows_the_out_suffix(demo_db, tmp_path, capsys):
     out = tmp_path / "plan.html"
     assert main(["--db", str(demo_db), "--today", TODAY, "forecast", "--out", str(out), "--capacity", "2"]) == 0

@@ -47,6 +47,7 @@ def _brute_force(jobs, limits):
     return best
 
 
+@pytest.mark.slow
 @settings(max_examples=150, deadline=None)
 @given(small_cases())
 def test_matches_exhaustive_search(case):
@@ -59,6 +60,7 @@ def test_matches_exhaustive_search(case):
     assert result.total_cost == pytest.approx(cost, abs=1e-6 * (1 + abs(cost)))
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(small_cases())
 def test_every_rule_holds(case):

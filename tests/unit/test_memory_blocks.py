@@ -4,6 +4,8 @@ against itself: the blocks only split work that never looks across series or gro
 
 from __future__ import annotations
 
+import pytest
+
 import numpy as np
 
 from logbook.analysis import paths
@@ -27,6 +29,7 @@ def test_one_step_scores_in_blocks_equal_the_whole_batch():
         assert np.array_equal(split[0], whole[0]) and np.array_equal(split[1], whole[1])
 
 
+@pytest.mark.slow
 def test_calibration_in_blocks_of_whole_groups_equals_the_whole_batch():
     batch, w = _batch()
     args = (batch.x, batch.y, w, batch.limit, batch.direction, batch.group)

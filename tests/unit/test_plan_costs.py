@@ -55,6 +55,7 @@ pump_spec = st.tuples(
     turnaround=st.integers(0, 2),
     ratio=st.floats(1.2, 12.0),
 )
+@pytest.mark.slow
 def test_least_cost_plan_is_never_costlier_than_the_greedy_plan(specs, capacity, site_cap, spares, turnaround, ratio):
     fc = _fleet(specs)
     s = PlanSettings(START, horizon_months=4, capacity_per_month=capacity, site_capacity=site_cap,

@@ -6,6 +6,8 @@ first when spares or sites make the order matter: both paths are covered here.""
 
 from __future__ import annotations
 
+import pytest
+
 from datetime import date
 
 from hypothesis import given, settings
@@ -64,6 +66,7 @@ def inversions(plan) -> list[tuple[str, str]]:
     spares=st.one_of(st.none(), st.integers(0, 2)),
     turnaround=st.integers(0, 3),
 )
+@pytest.mark.slow
 def test_an_earlier_p10_is_never_planned_after_a_later_one_of_its_site_and_model(specs, capacity, north, spares,
                                                                                   turnaround):
     cfg = PlanSettings(START, horizon_months=8, capacity_per_month=capacity,

@@ -9,6 +9,8 @@ A new module is covered the moment it is added.
 
 from __future__ import annotations
 
+import pytest
+
 import pkgutil
 import subprocess
 import sys
@@ -68,12 +70,14 @@ def test_discovery_finds_the_layers():
     assert not any(_inside(m, ("logbook.store", "logbook.tui")) for m in pure)
 
 
+@pytest.mark.slow
 def test_pure_modules_do_not_import_textual_or_sqlite():
     pure = [m for m in _all_modules() if not _inside(m, UI_AND_STORE)]
     assert len(pure) > 20
     assert _importers(pure, NOT_PURE) == {}, "pure modules imported the UI or the database"
 
 
+@pytest.mark.slow
 def test_the_core_does_not_import_rich_or_matplotlib():
     core = [m for m in _all_modules() if _inside(m, CORE)]
     assert _importers(core, NOT_CORE) == {}, "the core imported a UI, database, terminal or chart library"
@@ -93,6 +97,7 @@ def _scipy_after(argv: list[str]) -> str:
     return out.stdout.strip().split("\n")[-1]
 
 
+@pytest.mark.slow
 def test_help_and_a_command_without_forecast_import_no_scipy(tmp_path):
     db = str(tmp_path / "t.db")
     assert _scipy_after(["--help"]) == "False"

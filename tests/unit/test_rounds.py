@@ -332,6 +332,7 @@ def test_new_readings_are_found_by_id():
     assert rounds.new_readings(before, after) == [added]
 
 
+@pytest.mark.slow
 def test_rounds_is_pure():
     """The rules import neither a user interface nor a database driver."""
     import subprocess

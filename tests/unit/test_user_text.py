@@ -4,6 +4,8 @@ Markdown cells stay cells, HTML parses back to the text, JSON keeps it exactly."
 
 from __future__ import annotations
 
+import pytest
+
 import csv
 import io
 import json
@@ -126,6 +128,7 @@ _PIECES = st.sampled_from(["[/]", "x[/b]", "[link=https://example.invalid]", "|"
 _VALUE = st.lists(_PIECES | _ANY, min_size=1, max_size=6).map("".join).filter(lambda s: s.strip() == s and s)
 
 
+@pytest.mark.slow
 @settings(max_examples=50, deadline=None)
 @given(serial=_VALUE, site=_VALUE, machine=_VALUE, database=_VALUE)
 def test_any_text_in_an_export_reads_back_as_typed(serial, site, machine, database):
