@@ -1,8 +1,11 @@
 """Robust wear-path fits for a whole batch of series at once.
 
-Per series: detect a step change (breakage: a level shift of at least 4 residual sd,
-significant after Bonferroni over the split points, not resting on one reading and
-not explained by the exponential path) and keep only the readings after it; drop a
+Per series: detect a step change (breakage: a level shift of at least 3 noise sd,
+significant after Bonferroni over the split points against the series' residual
+variance blended with its model fleet's noise at the series' level (``fleet_noise``),
+not resting on one reading, and explaining the readings better than every smooth wear
+path of the Box-Cox family, exponential included, by a likelihood ratio) and keep only
+the readings after it; drop a
 single wild reading (externally studentized residual, Bonferroni test; Cook and
 Weisberg, Residuals and Influence in Regression, 1982); fit a linear and an
 exponential (log-linear) path and weigh them by AICc on the readings' own scale (the
@@ -10,7 +13,7 @@ log fit's likelihood carries the Jacobian -sum(log y)); then shrink each path's 
 toward the pump model's fleet (``pooling``). For a falling kind (servo pressure) the
 exponential path is a proportional decay, y = exp(a + b x) with b < 0. Steps and
 wild readings are screened on the linear path for every row and confirmed on the log
-path only for the few candidate rows.
+path only for the few candidate rows (steps: the smooth paths, for the candidates only).
 """
 from __future__ import annotations
 
@@ -36,9 +39,12 @@ class FitOptions:
     alpha_outlier: float = 0.01  # family-wise level of the wild-reading test
     max_drops: int = 1  # readings that may be dropped as wild per series
     min_outlier_points: int = 5
-    alpha_step: float = 0.001  # family-wise level of the step test
-    step_min_sigma: float = 4.0  # a step must also be this many residual sd
+    alpha_step: float = 0.01  # family-wise level of the step test (and of the split-against-paths comparison)
+    step_min_sigma: float = 3.0  # a step must also be this many noise sd (our choice, no published source)
     min_step_side: int = 2  # readings needed on each side of a step
+    step_fleet_dof: float = 40.0  # readings' worth of the model fleet's relative noise in the step test's variance
+    step_log_veto: bool = False  # the old rule (for comparison only): found on the log scale too, scanned again
+    # without the most extreme reading (with alpha_step=0.001, step_fleet_dof=0: the rule before issue 12 item 5)
     min_points: int = 3  # readings for a forecast of a pump's own
     aicc_margin: float = 0.0  # the exponential path must beat linear by this much
     exponential: bool = True  # consider the exponential path at all
@@ -137,11 +143,18 @@ def _rowsum(a: np.ndarray) -> np.ndarray:
     return np.einsum("ij->i", a)
 
 
-def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions, left_aligned: bool = False):
+def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions, left_aligned: bool = False,
+               prior_s2: np.ndarray | None = None, min_n: int | None = None):
     """Best single level shift per row (Frisch-Waugh on prefix sums) and whether it is a real step.
 
     Splitting after column j: the reduction in RSS is (sum of residuals up to j)^2 / e_j, with
     e_j = m - m^2/n - (sum of centred x up to j)^2 / Sxx and m the readings up to j.
+    With ``prior_s2`` (per row, NaN for none) the noise variance the shift is tested against is the
+    row's own residual variance combined with the fleet's at ``opt.step_fleet_dof`` readings' worth
+    (a scaled-inverse-chi-square prior: Gelman et al., Bayesian Data Analysis, 3rd ed., 2013,
+    sec. 3.3), and the F test has those extra degrees of freedom: six readings alone leave three,
+    under which no 8-sigma step can pass a family-wise test. ``min_n``: readings a row needs
+    (default two sides' worth and two more).
     """
     s, width = w.shape
     side = opt.min_step_side
@@ -168,11 +181,19 @@ def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions
         rmax, e_j = red[rows, j], ede[rows, j]
         dof1 = st.n - 3
         rss1 = np.maximum(st.rss - rmax, 1e-300)
-        fstat = rmax * dof1 / rss1
-        size = np.sqrt(rmax / e_j)  # |level shift|
-        big = size > opt.step_min_sigma * np.sqrt(rss1 / np.maximum(dof1, 1))
         n_int = st.n.astype(int)
-        found = (st.n >= 2 * side + 2) & (fstat > crit_f[n_int]) & big & (rmax > 0) & (e_j > 1e-9)
+        crit = crit_f[n_int]
+        var = rss1 / np.maximum(dof1, 1)
+        if prior_s2 is not None and opt.step_fleet_dof > 0:
+            has = np.isfinite(prior_s2) & (prior_s2 > 0)
+            d0 = np.where(has, opt.step_fleet_dof, 0.0)
+            var = np.where(has, (rss1 + d0 * np.nan_to_num(prior_s2)) / np.maximum(dof1 + d0, 1), var)
+            cand = np.maximum(st.n - 2 * side + 1, 1)
+            crit = np.where(has, special.fdtri(1, np.maximum(dof1 + d0, 1), 1.0 - opt.alpha_step / cand), crit)
+        fstat = rmax / var
+        size = np.sqrt(rmax / e_j)  # |level shift|
+        big = size > opt.step_min_sigma * np.sqrt(var)
+        found = (st.n >= (2 * side + 2 if min_n is None else min_n)) & (fstat > crit) & big & (rmax > 0) & (e_j > 1e-9)
     return found, j + 1
 
 
@@ -249,39 +270,131 @@ class _Block:
         self.lin.put(rows, ols_rows(self.x0[rows], self.y0[rows], self.w[rows]))
 
 
-def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions) -> _RowFits:
-    """Steps, wild readings and the two least-squares lines for a block of rows."""
+def _fit_rows(x: np.ndarray, y: np.ndarray, opt: FitOptions, prior_rel: np.ndarray | None = None) -> _RowFits:
+    """Steps, wild readings and the two least-squares lines for a block of rows (``prior_rel``: the
+    noise variance its fleet shows at the row's level, NaN for none; see ``fleet_noise``)."""
     block = _Block.of(x, y)
     n_valid = _rowsum(block.w)
     crit_t2, crit_f = _crit_tables(x.shape[1], opt.alpha_outlier, opt.alpha_step, opt.min_step_side)
-    _drop_before_step(block, crit_t2, crit_f, opt)
+    prior_s2 = prior_rel
+    _drop_before_step(block, crit_t2, crit_f, opt, prior_s2)
     last_col = n_valid.astype(np.int64) - 1
     _drop_wild(block, crit_t2, last_col, opt)
     lg = _both_paths(block)
     return _RowFits(block.lin, lg, block.w, block.flags, block.step_at, n_valid, block.all_pos, _latest(y, last_col))
 
 
-def _drop_before_step(block: _Block, crit_t2: np.ndarray, crit_f: np.ndarray, opt: FitOptions) -> None:
+def _drop_before_step(block: _Block, crit_t2: np.ndarray, crit_f: np.ndarray, opt: FitOptions,
+                      prior_s2: np.ndarray | None = None) -> None:
     """1. A step change: keep only the readings after it."""
     lin, w, x0, y0 = block.lin, block.w, block.x0, block.y0
-    found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True)
-    cand = np.flatnonzero(found & block.all_pos)
-    if cand.size:  # not a step if the exponential path explains it
-        f_log, c_log = _confirm_log(cand, block.ly, x0, w, _step_scan, crit_f, opt, left_aligned=True)  # w untouched yet
-        found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
+    found, col = _step_scan(lin, w, crit_f, opt, left_aligned=True, prior_s2=prior_s2)
+    if opt.step_log_veto:
+        cand = np.flatnonzero(found & block.all_pos)
+        if cand.size:  # (the old rule) not a step unless the log scale finds it too
+            f_log, c_log = _confirm_log(cand, block.ly, x0, w, _step_scan, crit_f, opt, left_aligned=True)
+            found[cand] = f_log & (np.abs(c_log - col[cand]) <= 1)
+    else:
+        cand = np.flatnonzero(found)
+        if cand.size:  # not a step if a smooth wear path explains the readings as well as the split does
+            found[cand] = _split_beats_paths(x0[cand], y0[cand], w[cand], col[cand], block.all_pos[cand], lin.n[cand],
+                                             opt)  # fmt: skip
     cand = np.flatnonzero(found)
-    if cand.size:  # nor if it rests on one reading: drop the most extreme one and look again
+    if cand.size:  # nor if it rests on one reading: drop the most extreme one, and the shift at the same
+        # place must keep its sign, half its size and the test's minimum size (a wild reading beside
+        # the split leaves almost nothing; a real step loses little)
         _, worst = _outlier_scan(_sub(lin, cand), crit_t2, 0)
         w_less = w[cand].copy()
         w_less[np.arange(cand.size), worst] = 0.0
-        f_rob, c_rob = _step_scan(ols_rows(x0[cand], y0[cand], w_less), w_less, crit_f, opt)
-        found[cand] = f_rob & (np.abs(c_rob - col[cand]) <= 1)
+        if opt.step_log_veto:  # (the old rule: the whole scan again without it)
+            f_rob, c_rob = _step_scan(ols_rows(x0[cand], y0[cand], w_less), w_less, crit_f, opt)
+            found[cand] = f_rob & (np.abs(c_rob - col[cand]) <= 1)
+        else:
+            found[cand] = _shift_stands(x0[cand], y0[cand], w[cand], w_less, col[cand],
+                                        None if prior_s2 is None else prior_s2[cand], opt)  # fmt: skip
     rows = np.flatnonzero(found)
     if rows.size:
         block.step_at[rows] = col[rows]
         block.flags[rows] |= B_STEP
         w[rows] = w[rows] * (np.arange(w.shape[1])[None, :] >= col[rows][:, None])
         block.refit(rows)
+
+
+#: Box-Cox powers of the smooth paths a step must beat (paths.LAMBDAS: straight, power laws, exponential,
+#: runaway, and the square for falling readings); written out here so the fit does not import the mixture
+SMOOTH_LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)
+
+
+def _split_rss(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """RSS of the line of ``z`` on hours, and of the line plus a level shift from column ``col`` on
+    (Frisch-Waugh: the shift's reduction is (sum of residuals before col)^2 / e, as in ``_step_scan``)."""
+    st = ols_rows(x0, z, w)
+    before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m = before.sum(axis=1).astype(float)
+        sdx = np.where(before, st.dx, 0.0).sum(axis=1)
+        e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
+        red = np.where(before, st.r, 0.0).sum(axis=1) ** 2 / e
+    return st.rss, np.maximum(st.rss - np.where(e > 1e-12, red, 0.0), 1e-300)
+
+
+def _shift_at(x0: np.ndarray, y0: np.ndarray, w: np.ndarray, col: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The level shift (after minus before) of the line-plus-shift fit at column ``col``, and that fit's
+    residual variance (Frisch-Waugh, as ``_split_rss``)."""
+    st = ols_rows(x0, y0, w)
+    before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m = before.sum(axis=1).astype(float)
+        sdx = np.where(before, st.dx, 0.0).sum(axis=1)
+        e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
+        lead = np.where(before, st.r, 0.0).sum(axis=1)
+        shift = np.where(e > 1e-12, -lead / e, 0.0)
+        var = np.maximum(st.rss - np.where(e > 1e-12, lead * lead / e, 0.0), 0.0) / np.maximum(st.n - 3, 1)
+    return shift, var
+
+
+def _shift_stands(x0, y0, w, w_less, col, prior_s2, opt: FitOptions) -> np.ndarray:
+    """Whether the shift at ``col`` survives without the most extreme reading (``w_less``): the same
+    sign, at least half the size, and still ``step_min_sigma`` noise sd (the fleet's blended in)."""
+    shift, _ = _shift_at(x0, y0, w, col)
+    shift_less, var_less = _shift_at(x0, y0, w_less, col)
+    if prior_s2 is not None and opt.step_fleet_dof > 0:
+        has = np.isfinite(prior_s2) & (prior_s2 > 0)
+        dof = np.maximum(_rowsum(w_less) - 3, 0)
+        var_less = np.where(has, (var_less * dof + opt.step_fleet_dof * np.nan_to_num(prior_s2)) / (dof + opt.step_fleet_dof),
+                            var_less)  # fmt: skip
+    with np.errstate(invalid="ignore"):
+        return ((np.sign(shift_less) == np.sign(shift)) & (np.abs(shift_less) >= 0.5 * np.abs(shift))
+                & (np.abs(shift_less) > opt.step_min_sigma * np.sqrt(var_less)))  # fmt: skip
+
+
+def _split_beats_paths(x0, y0, w, col, all_pos, n, opt: FitOptions) -> np.ndarray:
+    """Whether a level shift at ``col`` explains each row better than every smooth wear path: the
+    profile log likelihood on the readings' own scale (Box-Cox lines carry the Jacobian
+    (lam - 1) sum log y; Box and Cox, JRSS B 26, 1964) of the best split line (straight or on the log
+    scale) beats the best smooth path by more than half the chi-square(1) critical value at the step
+    test's family-wise level (Bonferroni over the split points): a likelihood-ratio comparison of a
+    shift against the path that explains the same rise by curvature. The exponential path alone
+    no longer vetoes a step the split explains better (issue 12, item 5)."""
+    ly = np.where(all_pos[:, None] & (w > 0), np.log(np.where(y0 > 0, y0, 1.0)), 0.0)
+    jac = _rowsum(np.where(w > 0, ly, 0.0))
+    half_n = 0.5 * n
+    rss_line, rss_split = _split_rss(x0, y0, w, col)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ll_split = -half_n * np.log(rss_split)
+        ll_smooth = -half_n * np.log(np.maximum(rss_line, 1e-300))
+        _, rss_log_split = _split_rss(x0, ly, w, col)
+        ll_split = np.where(all_pos, np.maximum(ll_split, -half_n * np.log(rss_log_split) - jac), ll_split)
+        for lam in SMOOTH_LAMBDAS:
+            if lam == 1.0:
+                continue
+            z = np.where(w > 0, (np.exp(lam * ly) - 1.0) / lam if lam != 0.0 else ly, 0.0)
+            st = ols_rows(x0, z, w, keep=False)
+            ll = -half_n * np.log(np.maximum(st.rss, 1e-300)) + (lam - 1.0) * jac
+            ll_smooth = np.where(all_pos, np.maximum(ll_smooth, ll), ll_smooth)
+        cand = np.maximum(n - 2 * opt.min_step_side + 1, 1)
+        margin = 0.5 * special.chdtri(1, opt.alpha_step / cand)
+    return np.isfinite(ll_split) & (ll_split - ll_smooth > margin)
 
 
 def _drop_wild(block: _Block, crit_t2: np.ndarray, last_col: np.ndarray, opt: FitOptions) -> None:
@@ -340,7 +453,9 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
     opt = opt or FitOptions()
     s = batch.size
     step = max(int(opt.block_rows), 1)
-    parts = [_fit_rows(batch.x[i : i + step], batch.y[i : i + step], opt) for i in range(0, s, step)]
+    prior_rel = fleet_noise(batch, opt)
+    parts = [_fit_rows(batch.x[i : i + step], batch.y[i : i + step], opt, None if prior_rel is None else prior_rel[i : i + step])
+             for i in range(0, s, step)]  # fmt: skip
     rf = parts[0] if len(parts) == 1 else _concat(parts)
     lin, lg, w, flags, step_at, n_valid, all_pos = rf.lin, rf.lg, rf.weights, rf.flags, rf.step_at, rf.n_valid, rf.all_pos
     n = lin.n
@@ -369,6 +484,50 @@ def fit_batch(batch: TrendBatch, opt: FitOptions | None = None) -> BatchFit:
         lin=p_lin, exp=p_exp, w_exp=w_exp, n_valid=n_valid, latest=rf.latest, pooled=opt.pool,
         exponential=opt.exponential,
     )  # fmt: skip
+
+
+def fleet_noise(batch: TrendBatch, opt: FitOptions) -> np.ndarray | None:
+    """Per row, the noise variance its pooling group's readings show about their straight lines,
+    at the row's level: the variance function sigma^2 = c |mean|^(2 beta) (Carroll and Ruppert,
+    Transformation and Weighting in Regression, 1988, ch. 2), beta in [0, 1] fitted per group as the
+    slope of log(noise) on log(level) over its series (1: noise proportional to the reading, as of
+    flow and pressure gauges; 0: the same noise at every level, as of a drift read about zero).
+    The noise comes from the differences of successive residuals about each series' line (a
+    difference-based estimator, Rice, Annals of Statistics 12, 1984), each divided by its own sd under
+    the line, sqrt(2 - h_ii - h_jj + 2 h_ij) in units of sigma (h the hat matrix: residuals of a short
+    series vary less than the noise), pooled as (1.4826 median |d|)^2 (the median absolute deviation,
+    Hampel, JASA 69, 1974): differences leave out the slow curvature
+    of a wear path, and a step or a wild reading spoils one or two differences, not the median.
+    NaN for a row outside a group or in a group of under 20 differences from 5 series; None when no
+    row has a group, pooling is off or the step test does not use it."""
+    if opt.step_fleet_dof <= 0 or not opt.pool or not (batch.group >= 0).any():
+        return None
+    valid = ~np.isnan(batch.y)
+    st = ols_rows(np.where(valid, batch.x, 0.0), np.where(valid, batch.y, 0.0), valid.astype(float))
+    level = np.abs(st.ybar)
+    with np.errstate(invalid="ignore", divide="ignore"):  # Var(r_i+1 - r_i) = sigma^2 (2 - h_ii - h_jj + 2 h_ij)
+        inv_n, inv_sxx = 1.0 / np.maximum(st.n, 1)[:, None], np.where(st.sxx > 0, 1.0 / st.sxx, 0.0)[:, None]
+        h = inv_n + st.dx * st.dx * inv_sxx
+        h_next = inv_n + st.dx[:, 1:] * st.dx[:, :-1] * inv_sxx
+        d = np.abs(st.r[:, 1:] - st.r[:, :-1]) / np.sqrt(np.maximum(2.0 - h[:, 1:] - h[:, :-1] + 2.0 * h_next, 1e-12))
+    pair = valid[:, 1:] & valid[:, :-1] & (st.n >= 4)[:, None] & (batch.group >= 0)[:, None] & (level > 0)[:, None]
+    out = np.full(batch.size, np.nan)
+    series = pair.any(axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        own = np.nanmedian(np.where(pair, d, np.nan)[series], axis=1) if series.any() else np.zeros(0)
+    rows = np.flatnonzero(series)
+    for g in np.unique(batch.group[rows]):
+        mine = rows[batch.group[rows] == g]
+        keep = own[batch.group[rows] == g] > 0
+        if keep.sum() < 5 or pair[mine].sum() < 20:
+            continue
+        lx, ly = np.log(level[mine][keep]), np.log(own[batch.group[rows] == g][keep])
+        beta = float(np.clip(np.polyfit(lx, ly, 1)[0], 0.0, 1.0)) if np.ptp(lx) > 0 else 1.0
+        scaled = (d[mine] / level[mine][:, None] ** beta)[pair[mine]]
+        c = (1.4826 * np.median(scaled)) ** 2
+        members = batch.group == g
+        out[members] = c * np.abs(st.ybar[members]) ** (2 * beta)
+    return out
 
 
 def _concat(parts: list[_RowFits]) -> _RowFits:

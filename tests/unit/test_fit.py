@@ -195,3 +195,70 @@ def test_results_do_not_depend_on_the_block_size():
     for name in ("a", "b", "c00", "c11", "sigma", "w_exp", "flags", "step_at", "latest"):
         assert np.array_equal(getattr(whole, name), getattr(blocks, name), equal_nan=True), name
     assert (whole.flags & B_STEP).sum() and (whole.flags & B_OUTLIER).sum()
+
+
+def _step_fleet(seed, s=400, noise=0.04, lo=6, hi=16):
+    """A pooled fleet (one group) of straight and exponential wear with lognormal noise; every other
+    series carries a step of exp(8 noise) between two readings, three or more on each side."""
+    rng = np.random.default_rng(seed)
+    n = rng.integers(lo, hi, s)
+    width = int(n.max())
+    x, y = np.full((s, width), np.nan), np.full((s, width), np.nan)
+    at = np.full(s, -1)
+    for i in range(s):
+        xs = np.cumsum(rng.uniform(200, 600, n[i]))
+        true = 1.5 + rng.uniform(1e-4, 4e-4) * xs if i % 4 < 2 else 1.5 * np.exp(rng.uniform(1e-4, 2e-4) * xs)
+        if i % 2:
+            at[i] = rng.integers(3, n[i] - 2)
+            true = np.where(np.arange(n[i]) >= at[i], true * np.exp(8 * noise), true)
+        x[i, : n[i]], y[i, : n[i]] = xs, true * np.exp(rng.normal(0, noise, n[i]))
+    batch = TrendBatch(np.nan_to_num(x), y, np.full(s, 9.0), np.ones(s), np.zeros(s, int), np.nanmax(x, axis=1))
+    return batch, at
+
+
+def test_eight_sigma_steps_in_short_series_are_found_and_clean_ones_are_not():
+    # Regression (issue 12 item 5): in series of 6 to 15 readings the step test used only the series'
+    # own residual sd (three degrees of freedom at six readings) and an exponential-path veto, and
+    # found about a quarter of 8-sigma steps. Truth: the generator above; the bench
+    # tests/bench/bench_steps.py measures the same on more paths (series of 6-7 readings: about 74 %).
+    # Targets: >= 80 % found overall, <= 1 % false flags.
+    batch, at = _step_fleet(5)
+    fit = fit_batch(batch)
+    flagged = (fit.flags & B_STEP) > 0
+    found = flagged & (np.abs(fit.step_at - at) <= 1)
+    stepped = at >= 0
+    print(f"found {found[stepped].mean():.3f}, false {flagged[~stepped].mean():.3f}")
+    assert found[stepped].mean() >= 0.8
+    assert flagged[~stepped].mean() <= 0.01
+    old = fit_batch(batch, FitOptions(alpha_step=0.001, step_fleet_dof=0.0, step_log_veto=True))
+    assert ((old.flags & B_STEP) > 0)[stepped].mean() < 0.5  # the rule before: the regression is real
+
+
+def test_an_exponential_path_does_not_veto_a_step_the_split_explains_better():
+    # 7 readings on an exponential path with an 8-sigma step after the fourth: the split line fits
+    # within the noise, the exponential path cannot (a shift is not a curve); the old log-scale
+    # veto threw such steps away.
+    batch, at = _step_fleet(9, s=200, lo=7, hi=8)
+    fit = fit_batch(batch)
+    expo_steps = (np.arange(batch.size) % 4 >= 2) & (at >= 0)
+    found = ((fit.flags & B_STEP) > 0) & (np.abs(fit.step_at - at) <= 1)
+    assert found[expo_steps].mean() >= 0.7
+
+
+def test_fleet_noise_recovers_the_noise_it_was_made_with():
+    # reference: the generating sd. Multiplicative noise (sd 0.04 of the reading) on straight wear at
+    # different levels: the variance function's power comes out near 1 and the noise near 0.04 of the
+    # level; additive noise (sd 0.2) about small levels: near 0.2 whatever the level.
+    from logbook.analysis.fit import fleet_noise
+
+    rng = np.random.default_rng(17)
+    s, n = 300, 8
+    x = np.tile(np.linspace(0, 4000, n), (s, 1))
+    level = rng.uniform(1.0, 8.0, (s, 1))
+    mult = level * (1 + 1e-4 * x) * np.exp(rng.normal(0, 0.04, (s, n)))
+    got = fleet_noise(TrendBatch(x, mult, np.full(s, 99.0), np.ones(s), np.zeros(s, int), x[:, -1]), FitOptions())
+    assert np.median(np.sqrt(got) / mult.mean(axis=1)) == pytest.approx(0.04, rel=0.12)
+    add = 0.2 * level + 1e-5 * x + rng.normal(0, 0.2, (s, n))
+    got = fleet_noise(TrendBatch(x, add, np.full(s, 99.0), np.ones(s), np.zeros(s, int), x[:, -1]), FitOptions())
+    assert np.median(np.sqrt(got)) == pytest.approx(0.2, rel=0.12)
+    assert np.ptp(np.sqrt(got)) < 0.1  # (nearly) the same at every level
