@@ -21,6 +21,7 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import ImportReport
+from logbook.store.base import StorePart
 from logbook.store.batches import Checked
 from logbook.store.readings import READING_COLUMNS
 from logbook.units import theoretical_flow_lpm
@@ -47,7 +48,7 @@ class _Declined(Exception):
     """The batch needs the row-by-row check."""
 
 
-class BulkMixin:
+class BulkMixin(StorePart):
     """add_reading_columns: add_readings for column batches, or None to fall back."""
 
     def add_reading_columns(

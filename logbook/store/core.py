@@ -16,14 +16,24 @@ from collections import Counter
 from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Callable, Iterator, TypeVar
+from typing import Callable, Iterator, Protocol, Sequence, TypeVar
 from urllib.parse import quote
 
 import sqlite_utils
 
 from logbook.store.schema import MIGRATIONS, SCHEMA_VERSION
 
-T = TypeVar("T")
+class CheckOutcome(Protocol):
+    """What ``StoreCore._check_then_write`` needs of a check's outcome (``batches.Checked``)."""
+
+    @property
+    def problems(self) -> Sequence[object]: ...
+
+    @property
+    def items(self) -> Sequence[object]: ...
+
+
+T = TypeVar("T", bound=CheckOutcome)
 R = TypeVar("R")
 
 #: A new database file is readable and writable by its owner and its group, whatever

@@ -12,6 +12,7 @@ import dataclasses
 from datetime import date
 
 from logbook.model import Event, EventKind, Fitment, InputRejected, Problem, Reading
+from logbook.store.base import StorePart
 from logbook.store.reads import fitment_from_row
 from logbook.store.readings import READING_COLUMNS
 
@@ -46,7 +47,7 @@ def _event_row(e: Event) -> dict:
     return d
 
 
-class CorrectionsMixin:
+class CorrectionsMixin(StorePart):
     """correct_reading, remove_reading, remove_event."""
 
     def _current_reading(self, reading_id: int) -> Reading:

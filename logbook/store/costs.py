@@ -8,6 +8,7 @@ import re
 from collections.abc import Sequence
 
 from logbook.model import CostBook, Downtime, ImportReport, InputRejected, ModelCosts, Problem
+from logbook.store.base import StorePart
 
 CURRENCY_RE = re.compile(r"^[A-Z]{3}$")
 SCOPES = ("site", "machine")
@@ -28,7 +29,7 @@ def cost_notes(costs: ModelCosts) -> list[str]:
     return []
 
 
-class CostsMixin:
+class CostsMixin(StorePart):
     """Per model job costs, per site and machine downtime, and the currency (settings 'currency')."""
 
     def costs(self) -> CostBook:

@@ -19,6 +19,7 @@ from logbook.model import (
     Pump,
     PumpModel,
 )
+from logbook.store.base import StorePart
 from logbook.store.batches import Checked, _line, _shown, _with_line
 from logbook.validate import check_hour_meter
 
@@ -67,7 +68,7 @@ def _model_change_message(code: str, diffs: list[tuple[str, object, object]]) ->
             + "); an import does not change a model: " + "; ".join(hows))
 
 
-class EquipmentMixin:
+class EquipmentMixin(StorePart):
     """Pump models and their limits, machines, pumps and their first fitments: checked, then written."""
 
     def _report(self, table: str, dry_run: bool, added: int, present: int, problems: list[Problem], flagged=None) -> ImportReport:

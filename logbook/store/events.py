@@ -11,6 +11,7 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import Event, EventKind, Fitment, ImportReport, InputRejected, Problem
+from logbook.store.base import StorePart
 from logbook.store.batches import Checked, _line, _repeats, _shown, _text_hint, _text_problems, _with_line
 from logbook.store.meters import _METER_POINTS
 from logbook.validate import check_hour_meter
@@ -29,7 +30,7 @@ def _destination(e: Event) -> tuple:
     return (e.to_machine, e.to_position, e.to_hours)
 
 
-class EventsMixin:
+class EventsMixin(StorePart):
     """add_events (a batch) and add_event.
 
     The identity of an event is its kind, date, pump (or machine, for meter_replaced),

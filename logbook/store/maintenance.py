@@ -10,6 +10,7 @@ from pathlib import Path
 
 from logbook import meter
 from logbook.plausible import meter_doubt
+from logbook.store.base import StorePart
 from logbook.store.core import StoreError, integrity_summary
 
 BACKUP_MODE = 0o660
@@ -34,7 +35,7 @@ class BackupResult:
 COUNTED = ("models", "machines", "pumps", "fitments", "readings", "events", "audit")
 
 
-class MaintenanceMixin:
+class MaintenanceMixin(StorePart):
     """backup(dest) and check()."""
 
     def backup(self, dest: str | Path, *, force: bool = False) -> BackupResult:

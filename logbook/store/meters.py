@@ -11,6 +11,7 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import Event, EventKind, Fitment, Pump
+from logbook.store.base import StorePart
 from logbook.store.reads import fitment_from_row
 
 # Every hour-meter record of one machine (the same sources as MetersMixin._timeline),
@@ -32,7 +33,7 @@ _METER_POINTS = """
     ) WHERE on_day >= ? AND on_day < ? AND """
 
 
-class MetersMixin:
+class MetersMixin(StorePart):
     """Hour-meter timelines and fitments, as the checks of readings, events and pumps need them."""
 
     def _timeline(self, machine: str, *, without_readings: Sequence[int] = ()) -> meter.MeterTimeline:

@@ -7,11 +7,12 @@ import json
 
 from logbook.model import InputRejected
 from logbook.plan_setup import PlanSetup
+from logbook.store.base import StorePart
 
 KEY = "plan"
 
 
-class PlanSetupMixin:
+class PlanSetupMixin(StorePart):
     def plan_setup(self) -> PlanSetup:
         """The stored plan assumptions, or the defaults when none were set."""
         row = next(iter(self.db.query("SELECT value FROM settings WHERE key = ?", [KEY])), None)

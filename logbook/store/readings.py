@@ -10,6 +10,7 @@ from typing import Sequence
 
 from logbook import meter
 from logbook.model import ImportReport, InputRejected, Problem, Reading
+from logbook.store.base import StorePart
 from logbook.store.batches import _ID_AT, Checked, _line, _repeats, _shown, _text_hint, _text_problems, _with_line
 from logbook.store.meters import _METER_POINTS
 from logbook.validate import check_hour_meter, check_reading_against_model
@@ -32,7 +33,7 @@ def _values(r: Reading) -> tuple:
             r.test_pressure_bar, r.test_speed_rpm, r.oil_grade, r.oil_vi, r.nu40_cst, r.nu100_cst, r.iso4406)
 
 
-class ReadingsMixin:
+class ReadingsMixin(StorePart):
     """add_readings (a batch) and add_reading, and what plausibility asks of the stored readings.
 
     The identity of a reading is its pump, date, hour meter and measured values. A row

@@ -19,6 +19,7 @@ from logbook.model import (
     PumpModel,
     Reading,
 )
+from logbook.store.base import StorePart
 
 
 def _d(text: str | None) -> date | None:
@@ -91,7 +92,7 @@ def fitment_from_row(row: dict) -> Fitment:
     )
 
 
-class ReadMixin:
+class ReadMixin(StorePart):
     """Queries returning dataclasses; no caller sees a row or SQL."""
 
     def models(self) -> dict[str, PumpModel]:

@@ -6,6 +6,8 @@ import json
 from dataclasses import dataclass
 from datetime import datetime
 
+from logbook.store.base import StorePart
+
 
 @dataclass(frozen=True)
 class TrailEntry:
@@ -26,7 +28,7 @@ def _json(text: str | None) -> dict | None:
     return json.loads(text) if text else None
 
 
-class TrailMixin:
+class TrailMixin(StorePart):
     """pump_trail(serial): the audit rows of a pump, its model's limits, and the imports
     that brought its readings and events (one line per import, via ``import_id``)."""
 
