@@ -49,6 +49,12 @@ class EventKind(str, Enum):
     OIL_CHANGE = "oil_change"
     MOVE = "move"  # pump moved to another machine or position
     METER_REPLACED = "meter_replaced"  # machine hour meter replaced
+    PARKED = "parked"  # machine stands still from this day: its pumps run no hours until it is back
+    BACK_IN_SERVICE = "back_in_service"  # a parked machine runs again from this day
+
+
+#: Events of a machine, not of a pump: recorded with ``machine`` and no serial.
+MACHINE_EVENTS = frozenset({EventKind.METER_REPLACED, EventKind.PARKED, EventKind.BACK_IN_SERVICE})
 
 
 #: Which reading kinds restart their trend at an event.
@@ -184,7 +190,7 @@ class PumpHistory:
     model: PumpModel
     fitments: tuple[Fitment, ...]
     readings: tuple[Reading, ...]  # current (not superseded) readings only
-    events: tuple[Event, ...]  # pump events and the meter replacements of its machines
+    events: tuple[Event, ...]  # pump events and the machine events (model.MACHINE_EVENTS) of its machines
 
 
 @dataclass(frozen=True)
@@ -206,7 +212,8 @@ class Fleet:
     def histories(self, serials: Iterable[str] | None = None) -> list[PumpHistory]:
         """Histories of the given pumps (default: all, by serial), indexes built once.
         Readings are the current ones (not superseded); events are the pump's own plus
-        the meter replacements of every machine it sat in, in date order."""
+        the machine events (meter replacements, parked, back in service) of every machine
+        it sat in, in date order."""
         fits: dict[str, list[Fitment]] = defaultdict(list)
         reads: dict[str, list[Reading]] = defaultdict(list)
         own: dict[str, list[Event]] = defaultdict(list)
@@ -217,7 +224,7 @@ class Fleet:
             if r.superseded_by is None:
                 reads[r.serial].append(r)
         for e in self.events:
-            if e.kind is EventKind.METER_REPLACED:
+            if e.kind in MACHINE_EVENTS:
                 if e.machine is not None:
                     meters[e.machine].append(e)
             elif e.serial is not None:

@@ -172,3 +172,34 @@ def viscosity_cst(temp_c, grade: int, vi: float):
 def viscosity_from_points(temp_c, t1_c: float, nu1_cst: float, t2_c: float, nu2_cst: float):
     """Kinematic viscosity (cSt) at ``temp_c`` from two measured points (ASTM D341)."""
     return walther_viscosity(temp_c, *walther_constants(t1_c, nu1_cst, t2_c, nu2_cst))
+
+
+#: Lowest kinematic viscosity for which ASTM D341's plain form log10(log10(nu + 0.7)) holds;
+#: below it the standard adds correction terms to the 0.7 (ASTM D341-09, section 5, as
+#: recalled from memory). A reading whose oil is thinner than this at its test
+#: temperature is not normalized (logbook.analysis.normalize).
+WALTHER_MIN_CST = 2.0
+
+
+@lru_cache(maxsize=4096)
+def measured_walther(nu40_cst: float, nu100_cst: float | None, vi: float) -> tuple[float, float]:
+    """Walther constants (A, B) of an oil whose viscosity at 40 C was measured: through the
+    measured 100 C value too when there is one (ASTM D341 through two points), else through
+    the 100 C value that gives index ``vi`` to that 40 C value (ASTM D2270 solved)."""
+    nu40 = float(nu40_cst)
+    if nu100_cst is None or nu100_cst != nu100_cst:
+        if not -100.0 <= vi <= 400.0:
+            raise ValueError(f"oil_vi = {vi!r}: allowed -100 to 400")
+        return walther_constants(40.0, nu40, 100.0, nu100_from_vi(nu40, float(vi)))
+    if not nu40 > float(nu100_cst):
+        raise ValueError(f"nu100 = {nu100_cst!r} cSt: must be below the viscosity at 40 C ({nu40_cst!r} cSt)")
+    return walther_constants(40.0, nu40, 100.0, float(nu100_cst))
+
+
+def oil_constants(grade: int, vi: float, nu40_cst: float | None = None, nu100_cst: float | None = None
+                  ) -> tuple[float, float]:  # fmt: skip
+    """Walther constants of a reading's oil: from its measured viscosity when it has one (``measured_walther``),
+    else from its ISO VG grade's midpoint and index ``vi`` (``oil_walther``)."""
+    if nu40_cst is not None and nu40_cst == nu40_cst:
+        return measured_walther(float(nu40_cst), None if nu100_cst is None else float(nu100_cst), float(vi))
+    return oil_walther(int(grade), float(vi))

@@ -23,7 +23,7 @@ from logbook.analysis.results import FleetForecast, PumpForecast
 from logbook.analysis.series import FleetPack, pack
 from logbook.analysis.status import StatusThresholds
 from logbook.analysis.timeline import NEVER, Timeline
-from logbook.analysis.utilisation import machine_utilisation
+from logbook.analysis.utilisation import machine_states, machine_utilisation
 from logbook.model import Fleet, PumpHistory, PumpModel
 
 DEFAULT_HORIZON_HOURS = 20_000.0
@@ -47,8 +47,9 @@ def pack_fleet(fleet: Fleet, today: date) -> PackedFleet:
     serials = [s for s in sorted(fleet.pumps) if timeline.serial_index.get(s, -1) in known]
     models = [fleet.models[fleet.pumps[s].model] for s in serials]
     fitted = [fits.items[i].machine for i in fits.current(timeline.pump_codes(serials)) if i >= 0]
-    per_day = machine_utilisation(timeline, fitted, today)
-    return PackedFleet(serials, models, timeline, pack(timeline, serials, models, per_day, today, use=current))
+    uses = machine_states(timeline, fitted, today)
+    per_day = {m: u.per_day for m, u in uses.items()}
+    return PackedFleet(serials, models, timeline, pack(timeline, serials, models, per_day, today, use=current, uses=uses))
 
 
 def fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
@@ -77,7 +78,17 @@ def forecast_fleet(
              "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
              "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
              "last reading moves every date later)")
+    notes += _machine_notes(pumps)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
+
+
+def _machine_notes(pumps) -> tuple[str, ...]:
+    """One note per machine whose hours do not run plainly (parked, by season), and one per pump with
+    readings left out of its trend."""
+    said = {p.machine: p.utilisation_basis for p in pumps if p.machine is not None and p.utilisation_basis}
+    notes = tuple(f"{m} {words}" for m, words in sorted(said.items()))
+    left = [(p.serial, k.kind.label, r) for p in pumps for k in p.kinds for r in k.not_used]
+    return notes + tuple(f"{serial} {label} reading of {r} - not used in the trend" for serial, label, r in left)
 
 
 def forecast_histories(

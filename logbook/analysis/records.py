@@ -37,7 +37,7 @@ from logbook.analysis.results import (
 from logbook.analysis.series import FleetPack
 from logbook.analysis.status import StatusThresholds, pump_statuses, worst_kinds
 from logbook.analysis.timeline import floats
-from logbook.analysis.utilisation import dates_ahead, days_ahead
+from logbook.analysis.utilisation import dates_ahead, days_ahead, seasonal_days
 from logbook.model import ALL_KINDS, PumpModel
 
 #: Outcome of each forecast.O_* code, and the flag name of each fit.B_* bit.
@@ -69,9 +69,13 @@ def _dates_ahead(pk: FleetPack, remaining: np.ndarray) -> np.ndarray:
     """Days ahead of each row's P10/P50/P90, with the machine's utilisation spread (``utilisation.dates_ahead``)."""
     rate = np.repeat(floats(pk.per_day), KINDS)
     if not pk.spread or remaining.shape[1] != 3:
-        return days_ahead(remaining, rate)
-    v, length, span, _ = (np.repeat(a, KINDS) for a in pk.spread)
-    return dates_ahead(remaining, rate, v, length, span)
+        days = days_ahead(remaining, rate)
+    else:
+        v, length, span, _ = (np.repeat(a, KINDS) for a in pk.spread)
+        days = dates_ahead(remaining, rate, v, length, span)
+    if pk.months is None or pk.today is None:
+        return days
+    return seasonal_days(days, rate, np.repeat(pk.months, KINDS, axis=0), pk.today)  # machines run by season
 
 
 def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchForecast, rows: RowFigures,
@@ -105,6 +109,7 @@ def kind_records(serials: list[str], pk: FleetPack, fit: BatchFit, fc: BatchFore
             p10_date=when[0][i], p50_date=when[1][i], p90_date=when[2][i], flags=flags[i],
             fit=details[i], rate_per_1000h=None if rate[i] != rate[i] else rate[i],
             path_share=share[i], calibrated_on=int(calibrated[i]), percent_of_theoretical=theo[i],
+            not_used=pk.not_used.get(i, ()),
         )
         for i, serial in enumerate(serial for serial in serials for _ in range(KINDS))
     ]  # fmt: skip
@@ -159,6 +164,7 @@ def pump_records(serials: list[str], models: list[PumpModel], pk: FleetPack, fit
             position=cur.position if cur else None, site=sites.get(cur.machine) if cur else None,
             hours_since_overhaul=pk.since_overhaul[p], hours_per_day=pk.per_day[p], kinds=mine,
             worst=mine[worst[p]] if worst[p] >= 0 else None, status=status[p], last_reading_on=pk.last_on[p],
+            utilisation_basis=pk.basis[p] if pk.basis else "",
         ))  # fmt: skip
     return out
 

@@ -137,6 +137,7 @@ class KindForecast:
     path_share: float | None = None  # weight of that path in the mixture (0..1)
     calibrated_on: int = 0  # later readings of the model's fleet the band's width was checked on
     percent_of_theoretical: float | None = None  # case drain only: latest value as % of theoretical flow
+    not_used: tuple[str, ...] = ()  # readings kept but not trended, "YYYY-MM-DD: why" (normalize.untrusted)
 
     @property
     def percent_of_limit(self) -> float | None:
@@ -160,6 +161,7 @@ class PumpForecast:
     worst: KindForecast | None = None  # the kind closest to its limit
     status: str = ""  # words, from logbook.analysis.status
     last_reading_on: date | None = None
+    utilisation_basis: str = ""  # how its machine's hours run ahead when not plainly (parked, by season)
 
 
 @dataclass(frozen=True)

@@ -168,7 +168,8 @@ class FitmentTable:
 
 
 VALUE_FIELDS = ("case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar")  # in ALL_KINDS order
-_NUMBERS = ("machine_hours", *VALUE_FIELDS, "oil_temp_c", "test_pressure_bar", "oil_grade", "oil_vi", "superseded_by")
+_NUMBERS = ("machine_hours", *VALUE_FIELDS, "oil_temp_c", "test_pressure_bar", "oil_grade", "oil_vi", "superseded_by",
+            "nu40_cst", "nu100_cst")
 
 
 _SHARED: dict[int, tuple[weakref.ref, "Timeline"]] = {}  # id(fleet) -> (the fleet, its timeline)
@@ -218,6 +219,7 @@ class Timeline:
         table = np.array(rows, dtype=float).reshape(n, len(_NUMBERS))
         self.meter, self.temp, self.dp, self.grade, self.vi = (table[:, i].copy() for i in (0, 4, 5, 6, 7))
         self.values = [table[:, 1 + k].copy() for k in range(3)]
+        self.nu40, self.nu100 = table[:, 9].copy(), table[:, 10].copy()  # measured oil viscosity, NaN for none
         self.latest = np.isnan(table[:, 8])  # not superseded by a correction (ids are never NaN)
         self.given = [~np.isnan(v) for v in self.values]
         row, col = np.nonzero(np.isnan(table[:, 1:4]))

@@ -19,11 +19,26 @@ rate itself from ``T`` days of history; our rule, in the spirit of batch means, 
 Kelton, Simulation Modeling and Analysis, ch. 9). Machines with under three intervals take
 the fleet's median ``v`` and ``L``. ``dates_ahead`` combines it with the crossing quantiles in
 log days (quadrature of the half-widths: exact when both are lognormal).
+
+Machines that stand still (docs/conditions.md). A machine's "parked" event stops its
+hours from that day, "back in service" restarts them; the days between (and from a
+parked day without a return up to today) are not running days: the rates above are
+taken against running days (calendar days less parked ones), a pump accrues no hours
+over them, and a machine parked now is assumed to restart tomorrow at its rate (the
+earliest it could: a plan must not come late), which its forecast says. Seasons: when
+the last three years of hour-meter evidence show months of near-zero use (month-of-year
+rate under ``LOW_SHARE`` of the year's average in one run of ``MIN_LOW_MONTHS`` to
+``MAX_LOW_MONTHS`` months, each of them low in two different years, and a positive rate
+otherwise), the machine runs by month-of-year rates: its hours
+a day are their year average and the dates count each future day at its month's rate
+(``seasonal_days``); the spread about that profile still widens P10 and P90. The
+thresholds are ours (common practice, no published source).
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 from datetime import date
 
 import numpy as np
@@ -41,6 +56,63 @@ from logbook.analysis.timeline import (
 from logbook.model import Event, EventKind
 
 MAX_HOURS_PER_DAY = 24.0
+
+#: Parked spans per machine code: [(first parked day, first running day again or NEVER)], in order.
+Spans = dict[int, list[tuple[int, int]]]
+
+
+def parked_spans(events: Sequence[Event], machine_index: dict[str, int]) -> Spans:
+    """The spans each machine stood still: from a "parked" event's day to the next "back in service"
+    (NEVER while it has none); a second "parked" before a return, or a return without one, changes nothing."""
+    marks = sorted(((e.machine, e.happened_on.toordinal(), e.id or 0, e.kind) for e in events
+                    if e.kind in (EventKind.PARKED, EventKind.BACK_IN_SERVICE) and e.machine is not None),
+                   key=lambda t: t[:3])  # fmt: skip
+    out: Spans = {}
+    since: dict[str, int] = {}
+    for machine, day, _, kind in marks:
+        if kind is EventKind.PARKED:
+            since.setdefault(machine, day)
+        elif machine in since:
+            start = since.pop(machine)
+            if day > start:
+                out.setdefault(machine_index.setdefault(machine, len(machine_index)), []).append((start, day))
+    for machine, start in since.items():
+        out.setdefault(machine_index.setdefault(machine, len(machine_index)), []).append((start, NEVER))
+    return out
+
+
+def running_day(machine: np.ndarray, day: np.ndarray, spans: Spans | None) -> np.ndarray:
+    """Each day less the parked days of its machine before it (a parked day counts as the span's
+    start): the axis the rates are taken on. Days of machines never parked come back unchanged."""
+    out = np.asarray(day, dtype=float).copy()
+    if not spans:
+        return out
+    for code, mine in spans.items():
+        rows = np.flatnonzero(machine == code)
+        if not len(rows):
+            continue
+        d = np.asarray(day, dtype=float)[rows]
+        lost = np.zeros(len(rows))
+        for start, end in mine:
+            lost += np.clip(d - start, 0.0, end - start)
+        out[rows] = d - lost
+    return out
+
+
+def running_days_between(machine: int, first: int, last: int, spans: Spans | None) -> int:
+    """Running days of ``machine`` from day ``first`` to day ``last`` (0 when ``last`` is not after it)."""
+    if last <= first:
+        return 0
+    both = running_day(np.array([machine, machine]), np.array([first, last]), spans)
+    return int(round(both[1] - both[0]))
+
+
+def parked_since(machine: int, today: int, spans: Spans | None) -> int | None:
+    """The day ``machine`` was parked when it still stands on ``today`` (None when it runs)."""
+    for start, end in (spans or {}).get(machine, ()):
+        if start <= today < end:
+            return start
+    return None
 
 
 def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Event], machine_index: dict[str, int],
@@ -96,8 +168,10 @@ def _median_slopes(days: np.ndarray, hours: np.ndarray) -> np.ndarray:
 
 
 def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted: Sequence[int], today: date,
-                window_days: int = 365, min_span_days: int = 28) -> dict[int, float | None]:  # fmt: skip
-    """Hours per day of the ``wanted`` machine codes (None where the points give none: see the module docstring)."""
+                window_days: int = 365, min_span_days: int = 28, spans: Spans | None = None
+                ) -> dict[int, float | None]:  # fmt: skip
+    """Hours per day of the ``wanted`` machine codes (None where the points give none: see the module docstring);
+    ``spans``: parked spans (``parked_spans``), whose days are not running days."""
     out: dict[int, float | None] = {m: None for m in wanted}
     t = today.toordinal()
     want = np.zeros(max([*wanted, int(machine.max(initial=-1))]) + 2, dtype=bool)
@@ -111,19 +185,22 @@ def utilisation(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
     starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
     ends = np.r_[starts[1:], len(m)]
     codes_ = m[starts]
-    slope, theil = _window_slopes(d, h, starts, ends, t - window_days, min_span_days)
-    few = ~theil & (ends - starts >= 2) & (d[ends - 1] - d[starts] > 0)
-    slope = np.where(few, _straight_slopes(d, h, starts, ends), slope)
+    run = running_day(m, d, spans)  # == d for machines never parked
+    slope, theil = _window_slopes(d, h, starts, ends, t - window_days, min_span_days, run)
+    few = ~theil & (ends - starts >= 2) & (run[ends - 1] - run[starts] > 0)
+    slope = np.where(few, _straight_slopes(run, h, starts, ends), slope)
     for g, code in enumerate(codes_.tolist()):
         if theil[g] or few[g]:
             out[code] = float(slope[g])
     return out
 
 
-def _window_slopes(d, h, starts, ends, since: int, min_span_days: int) -> tuple[np.ndarray, np.ndarray]:
+def _window_slopes(d, h, starts, ends, since: int, min_span_days: int, run=None) -> tuple[np.ndarray, np.ndarray]:
     """Theil-Sen slope of each machine's points (rows starts:ends, in day order) since ``since``, or of
-    all its points when those are under two or span under ``min_span_days``; and which machines have one."""
+    all its points when those are under two or span under ``min_span_days``; and which machines have one.
+    ``run``: the points' running days (``running_day``), which the spans and slopes are taken on."""
     recent = d >= since
+    d = d if run is None else run
     n_rec = np.add.reduceat(recent.astype(np.int64), starts)
     first_rec = starts + (ends - starts - n_rec)  # points are in day order: the recent ones come last
     span_rec = np.where(n_rec > 0, d[ends - 1] - d[np.minimum(first_rec, ends - 1)], 0.0)
@@ -152,11 +229,168 @@ def _straight_slopes(d, h, starts, ends) -> np.ndarray:
 
 def machine_utilisation(timeline: Timeline, machines: Sequence[str], today: date) -> dict[str, float | None]:
     """Hours per day of the named machines (None where the points give none)."""
+    return {m: u.per_day for m, u in machine_states(timeline, machines, today).items()}
+
+
+@dataclass(frozen=True)
+class MachineUse:
+    """How a machine's hours are counted ahead: its hours per day, the day it was parked when it stands now,
+    its month-of-year rates when it runs by season (January first), and the words the forecast shows."""
+
+    per_day: float | None
+    parked_on: date | None = None
+    months: tuple[float, ...] | None = None
+    words: str = ""  # empty: the plain rule (the fleet's note says it)
+
+
+def machine_states(timeline: Timeline, machines: Sequence[str], today: date) -> dict[str, MachineUse]:
+    """``MachineUse`` of each named machine (module docstring)."""
     points = machine_points(timeline.fits, timeline.meters, timeline.events, timeline.machine_index, timeline.fit,
                             timeline.day, timeline.meter, timeline.cont)  # fmt: skip
     wanted = sorted({timeline.machine_index.setdefault(m, len(timeline.machine_index)) for m in machines})
     names = {c: m for m, c in timeline.machine_index.items()}
-    return {names[c]: v for c, v in utilisation(*points, wanted, today).items()}
+    spans = timeline_spans(timeline)
+    rates = utilisation(*points, wanted, today, spans=spans)
+    seasons = month_rates(*points, wanted, today)
+    t = today.toordinal()
+    out: dict[str, MachineUse] = {}
+    for c, rate in rates.items():
+        months = seasons.get(c) if rate else None  # no positive rate: no season either
+        parked = parked_since(c, t, spans)
+        per_day = year_average(months) if months is not None else rate
+        words = []
+        if parked is not None:
+            restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
+            words.append(f"parked since {date.fromordinal(parked).isoformat()}: no hours counted since; dates assume "
+                         f"it restarts tomorrow {restart}")
+        if months is not None:
+            low = [_MONTHS[i] for i, r in enumerate(months) if r < LOW_SHARE * (per_day or 0.0)]
+            words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at "
+                         f"its own rate, {per_day:.1f} h a day over the year")
+        out[names[c]] = MachineUse(per_day, date.fromordinal(parked) if parked is not None else None, months,
+                                   "; ".join(words))  # fmt: skip
+    return out
+
+
+def timeline_spans(timeline: Timeline) -> Spans:
+    """The parked spans of a timeline's machines, found once per timeline."""
+    got = getattr(timeline, "_parked_spans", None)
+    if got is None:
+        got = parked_spans(timeline.events, timeline.machine_index)
+        timeline._parked_spans = got  # type: ignore[attr-defined]
+    return got
+
+
+_MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+SEASON_WINDOW_DAYS = 3 * 365 + 1  # evidence looked at for seasons
+MIN_SEASON_SPAN_DAYS = 700  # about two years of it
+LOW_SHARE = 0.2  # a month under this share of the year's average rate is near-zero use
+MIN_LOW_MONTHS = 2
+MAX_LOW_MONTHS = 8
+MIN_MONTH_DAYS = 15  # days of evidence a (year, month) needs to count
+_DAYS_IN_MONTH = np.array([31, 28.25, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+
+
+def year_average(months) -> float:
+    """Hours a day over a year of month-of-year rates (each month weighted by its days)."""
+    return float(np.dot(np.asarray(months, dtype=float), _DAYS_IN_MONTH) / _DAYS_IN_MONTH.sum())
+
+
+def month_rates(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted: Sequence[int], today: date
+                ) -> dict[int, tuple[float, ...]]:  # fmt: skip
+    """Month-of-year rates (h a day, January first) of the ``wanted`` machines that run by season (module
+    docstring); others are left out. Each interval between consecutive points spreads its hours evenly
+    over its days; a month's rate is the mean over the days of that month with evidence."""
+    t = today.toordinal()
+    out: dict[int, tuple[float, ...]] = {}
+    keep = (day <= t) & (day >= t - SEASON_WINDOW_DAYS) & np.isfinite(hours)
+    for c in wanted:
+        mine = keep & (machine == c)
+        if mine.sum() < 3:
+            continue
+        d, h = day[mine].astype(np.int64), hours[mine]
+        order = np.lexsort((h, d))
+        d, h = d[order], h[order]
+        if d[-1] - d[0] < MIN_SEASON_SPAN_DAYS:
+            continue
+        months = _season(d, h)
+        if months is not None:
+            out[c] = months
+    return out
+
+
+def _season(d: np.ndarray, h: np.ndarray) -> tuple[float, ...] | None:
+    dd, dh = np.diff(d), np.diff(h)
+    ok = dd >= 1
+    dd, dh, first = dd[ok], dh[ok], d[:-1][ok]
+    rate = np.clip(np.maximum(dh, 0.0) / np.maximum(dd, 1), 0.0, MAX_HOURS_PER_DAY)
+    days = np.concatenate([np.arange(f, f + n) for f, n in zip(first.tolist(), dd.tolist())]) if len(dd) else np.zeros(0)
+    if not len(days):
+        return None
+    per_day = np.repeat(rate, dd)
+    dates = [date.fromordinal(int(x)) for x in (days[0], days[-1])]
+    # (year, month) of every day from the first ordinal, by stepping the calendar once
+    ym = year_months(int(days[0]), int(days[-1]))[days - days[0]]
+    month = ym % 12
+    average = float(per_day.mean())
+    if not average > 0 or dates[1] <= dates[0]:
+        return None
+    count = np.bincount(month, minlength=12)
+    if (count == 0).any():
+        return None
+    months = np.bincount(month, weights=per_day, minlength=12) / count
+    is_low = months < LOW_SHARE * average
+    low = np.flatnonzero(is_low)
+    if not MIN_LOW_MONTHS <= len(low) <= MAX_LOW_MONTHS or int((is_low & ~np.roll(is_low, 1)).sum()) != 1:
+        return None  # a season is one run of months (circularly: Nov to Feb is one)
+    n_ym = np.bincount(ym - ym.min())
+    ym_rate = np.bincount(ym - ym.min(), weights=per_day) / np.maximum(n_ym, 1)
+    for m in low.tolist():
+        years = [i for i in range(len(n_ym)) if (i + ym.min()) % 12 == m and n_ym[i] >= MIN_MONTH_DAYS
+                 and ym_rate[i] < LOW_SHARE * average]  # fmt: skip
+        if len(years) < 2:
+            return None
+    return tuple(float(x) for x in months)
+
+
+def year_months(first: int, last: int) -> np.ndarray:
+    """12 * year + month - 1 of each day from ordinal ``first`` to ``last``."""
+    out = np.empty(last - first + 1, dtype=np.int64)
+    day = first
+    while day <= last:
+        dt = date.fromordinal(day)
+        nxt = date(dt.year + (dt.month == 12), dt.month % 12 + 1, 1).toordinal()
+        out[day - first : min(nxt, last + 1) - first] = 12 * dt.year + dt.month - 1
+        day = nxt
+    return out
+
+
+def seasonal_days(days: np.ndarray, per_day: np.ndarray, months: np.ndarray, today: date) -> np.ndarray:
+    """(S, Q) days ahead made at (S,) ``per_day`` hours a day, moved onto (S, 12) month-of-year rates (NaN rows:
+    unchanged): the first day by which the months' hours from tomorrow reach the hours those days hold at
+    ``per_day``. -1 (no date) and 0 stay; the year ahead repeats after its first 365 days."""
+    days = np.asarray(days)
+    out = days.copy()
+    rows = np.flatnonzero(np.isfinite(months).all(axis=1) & (np.asarray(per_day, dtype=float) > 0))
+    if not len(rows):
+        return out
+    t = today.toordinal()
+    month = year_months(t + 1, t + 365) % 12
+    for r in rows.tolist():
+        cum = np.cumsum(months[r][month])  # hours by the end of each of the next 365 days
+        year = cum[-1]
+        if not year > 0:
+            continue
+        for q in range(days.shape[1]):
+            d = int(days[r, q])
+            if d <= 0:
+                continue
+            need = d * float(per_day[r])
+            whole = int(need // year)
+            rest = need - whole * year
+            k = 0 if rest <= 0 else int(np.searchsorted(cum, rest - 1e-9)) + 1
+            out[r, q] = whole * 365 + k if rest > 0 else whole * 365
+    return out
 
 
 MIN_SPREAD_INTERVALS = 3  # intervals a machine needs for its own rate spread
@@ -165,8 +399,11 @@ Z90 = 1.2815515655446004  # scipy.stats.norm.ppf(0.9)
 
 
 def rate_spread(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, rates: dict[int, float | None],
-                today: date, window_days: int = 365) -> dict[int, tuple[float, float, float, int]]:  # fmt: skip
-    """Per machine code in ``rates``: (v, L, T, last point day) of the module docstring; NaN v for none."""
+                today: date, window_days: int = 365, spans: Spans | None = None,
+                months: dict[int, tuple[float, ...]] | None = None) -> dict[int, tuple[float, float, float, int]]:  # fmt: skip
+    """Per machine code in ``rates``: (v, L, T, last point day) of the module docstring; NaN v for none.
+    Intervals are counted in running days (``spans``); a machine with month-of-year rates (``months``)
+    is compared with what those rates give over each interval."""
     t = today.toordinal()
     out: dict[int, tuple[float, float, float, int]] = {}
     if not rates:
@@ -178,10 +415,16 @@ def rate_spread(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, rates: 
     order = np.lexsort((h, d, m))
     m, d, h = m[order], d[order].astype(float), h[order]
     same = m[1:] == m[:-1]
-    dd, dh = np.diff(d), np.diff(h)
+    run = running_day(m, d, spans)
+    dd, dh = np.diff(run), np.diff(h)
     use = same & (dd >= 1) & (d[1:] >= t - window_days)
     mi, dd, dh = m[1:][use], dd[use], dh[use]
     slope = np.array([np.nan if rates.get(c) is None else rates[c] for c in mi.tolist()], dtype=float)
+    if months:
+        first, last = d[:-1][use], d[1:][use]
+        for i in np.flatnonzero(np.isin(mi, list(months))).tolist():  # expected rate of the interval by season
+            profile = np.asarray(months[int(mi[i])], dtype=float)
+            slope[i] = float(profile[year_months(int(first[i]), int(last[i]) - 1) % 12].mean())
     with np.errstate(invalid="ignore", divide="ignore"):
         dev = np.where(slope > 0, (dh / dd - slope) / slope, np.nan)
     ok = np.isfinite(dev)
@@ -238,8 +481,9 @@ def dates_ahead(remaining: np.ndarray, per_day: np.ndarray, v: np.ndarray, lengt
 
 
 def pump_rate_spread(timeline: Timeline, machines: Sequence[str | None], per_day: Sequence[float | None],
-                     today: date) -> tuple[np.ndarray, ...]:  # fmt: skip
-    """(v, L, T, last point day) per pump of ``rate_spread`` for each pump's current machine (None: no machine)."""
+                     today: date, months: dict[int, tuple[float, ...]] | None = None) -> tuple[np.ndarray, ...]:  # fmt: skip
+    """(v, L, T, last point day) per pump of ``rate_spread`` for each pump's current machine (None: no machine);
+    ``months``: month-of-year rates of the machines that run by season, by machine code."""
     n = len(machines)
     v, length, span, last = np.full(n, np.nan), np.full(n, np.nan), np.full(n, np.nan), np.full(n, -1, dtype=np.int64)
     index = timeline.machine_index
@@ -251,7 +495,7 @@ def pump_rate_spread(timeline: Timeline, machines: Sequence[str | None], per_day
         return v, length, span, last
     points = machine_points(timeline.fits, timeline.meters, timeline.events, index, timeline.fit, timeline.day,
                             timeline.meter, timeline.cont)  # fmt: skip
-    got = rate_spread(*points, rates, today)
+    got = rate_spread(*points, rates, today, spans=timeline_spans(timeline), months=months)
     for i, m in enumerate(machines):
         if m is not None and m in index and index[m] in got:
             v[i], length[i], span[i], last[i] = got[index[m]]

@@ -205,6 +205,7 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         path_share=path_words[1],
         calibrated_on=int(fc.calibrated_on[i]),
         percent_of_theoretical=_percent(row, s),
+        not_used=s.not_used,
     )
 
 
@@ -297,6 +298,10 @@ def reference_forecast_fleet(
              "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
              "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
              "last reading moves every date later)")
+    said = {p.machine: p.utilisation_basis for p in pumps if p.machine is not None and p.utilisation_basis}
+    notes += tuple(f"{m} {words}" for m, words in sorted(said.items()))
+    notes += tuple(f"{p.serial} {k.kind.label} reading of {r} - not used in the trend"
+                   for p in pumps for k in p.kinds for r in k.not_used)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
 
 

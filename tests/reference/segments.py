@@ -31,6 +31,7 @@ class Series:
     dates: tuple[date, ...]
     pump_hours: tuple[float, ...]
     readings_before: int  # readings of this kind before the segment (0 with none at all)
+    not_used: tuple[str, ...] = ()  # "date: why" of readings in the segment kept but not trended
 
 
 def normalized_value(reading: Reading, kind: Kind, model: PumpModel) -> float | None:
@@ -44,16 +45,48 @@ def normalized_value(reading: Reading, kind: Kind, model: PumpModel) -> float | 
         return abs(raw)
     if kind is Kind.SERVO_PRESSURE:
         return float(raw)
-    dp, temp = reading.test_pressure_bar, reading.oil_temp_c  # none given (or NaN): the reference condition
+    dp = reading.test_pressure_bar  # none given (or NaN): the reference condition
     dp = model.ref_pressure_bar if dp is None or math.isnan(dp) else dp
     if dp <= 0:
         raise ValueError(f"test_pressure_bar = {reading.test_pressure_bar!r}: must be above 0 bar")
+    nu, nu_ref = _viscosities(reading, model)
+    return float(raw * (model.ref_pressure_bar / dp) * (nu / nu_ref))
+
+
+def _viscosities(reading: Reading, model: PumpModel) -> tuple[float, float]:
+    """(oil viscosity at the test temperature, reference oil at the reference temperature), cSt: through the
+    reading's measured 40 C (and 100 C) viscosity when it has one, else its grade's midpoint (ASTM D341, D2270)."""
+    temp = reading.oil_temp_c
     temp = model.ref_temp_c if temp is None or math.isnan(temp) else temp
     grade = model.oil_grade if reading.oil_grade is None else reading.oil_grade
     vi = model.oil_vi if reading.oil_vi is None else reading.oil_vi
-    nu = oil.viscosity_cst(temp, grade, vi)
-    nu_ref = float(oil.viscosity_cst(model.ref_temp_c, model.oil_grade, model.oil_vi))
-    return float(raw * (model.ref_pressure_bar / dp) * (nu / nu_ref))
+    if reading.nu40_cst is not None:
+        nu100 = reading.nu100_cst if reading.nu100_cst is not None else oil.nu100_from_vi(reading.nu40_cst, vi)
+        nu = float(oil.viscosity_from_points(temp, 40.0, reading.nu40_cst, 100.0, nu100))
+    else:
+        nu = float(oil.viscosity_cst(temp, grade, vi))
+    return nu, float(oil.viscosity_cst(model.ref_temp_c, model.oil_grade, model.oil_vi))
+
+
+def not_trusted(reading: Reading, model: PumpModel) -> str | None:
+    """Why a case drain reading is kept but not trended: its oil thinner than 2 cSt (ASTM D341's plain
+    form), nu / nu_ref outside 1/3 to 3, dp_ref / dp outside 1/2 to 2 (common practice, no published
+    source); None when it is trended. The words are the engine's (normalize._reason)."""
+    from logbook.analysis.normalize import PRESSURE_FACTOR, THIN_OIL, VISCOSITY_FACTOR, _reason
+
+    if reading.case_drain_lpm is None:
+        return None
+    dp = reading.test_pressure_bar
+    dp = model.ref_pressure_bar if dp is None or math.isnan(dp) else dp
+    nu, nu_ref = _viscosities(reading, model)
+    code = None
+    if nu < 2.0:
+        code = THIN_OIL
+    elif not 1 / 3 <= nu / nu_ref <= 3:
+        code = VISCOSITY_FACTOR
+    elif not 0.5 <= model.ref_pressure_bar / dp <= 2:
+        code = PRESSURE_FACTOR
+    return None if code is None else _reason(code, nu, dp, nu_ref, model.ref_pressure_bar, model)
 
 
 def segment_start(kind: Kind, history: PumpHistory) -> Event | None:
@@ -107,7 +140,7 @@ def build_series(history: PumpHistory, kind: Kind, hours_of: dict[int, float] | 
         hours_of = {i: reading_pump_hours(r, history) for i, r in enumerate(history.readings)}
     start = segment_start(kind, history)
     start_hours = event_pump_hours(start, history, hours_of) if start is not None else None
-    xs, ys, raws, dates, phs = [], [], [], [], []
+    xs, ys, raws, dates, phs, left = [], [], [], [], [], []
     before = 0
     for i, r in enumerate(history.readings):
         raw = r.value(kind)
@@ -117,8 +150,13 @@ def build_series(history: PumpHistory, kind: Kind, hours_of: dict[int, float] | 
         if start is not None and not _reading_after(r, h, start, start_hours):
             before += 1
             continue
+        y = normalized_value(r, kind, history.model)  # raises on a test pressure it cannot use
+        why = not_trusted(r, history.model) if kind is Kind.CASE_DRAIN else None
+        if why is not None:
+            left.append(f"{r.taken_on.isoformat()}: {why}")
+            continue
         xs.append(h)
-        ys.append(normalized_value(r, kind, history.model))
+        ys.append(y)
         raws.append(float(raw))
         dates.append(r.taken_on)
         phs.append(h)
@@ -136,6 +174,7 @@ def build_series(history: PumpHistory, kind: Kind, hours_of: dict[int, float] | 
         dates=tuple(dates),
         pump_hours=tuple(phs),
         readings_before=before,
+        not_used=tuple(left),
     )
 
 
