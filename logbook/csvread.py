@@ -100,6 +100,8 @@ COLUMNS: dict[str, dict[str, Column]] = {
         "test_speed": _num(R, "test_speed"),
         "oil_grade": Column("grade"),
         "oil_vi": _num(R, "oil_vi"),
+        "nu40_cst": _num(R, "nu40_cst"),
+        "nu100_cst": _num(R, "nu100_cst"),
         "iso4406": Column("iso4406"),
         "technician": Column("text"),
         "note": Column("text"),

@@ -91,6 +91,7 @@ def _reading(v: dict) -> Reading:
         None, v["serial"], v["date"], v["machine_hours"], get("case_drain"), get("servo_pressure"), get("neutral_drift"),
         get("charge_pressure"), get("oil_temp"), get("test_pressure"), get("test_speed"), get("oil_grade"), get("oil_vi"),
         get("iso4406"), get("technician") or "", get("note") or "", machine=get("machine"),
+        nu40_cst=get("nu40_cst"), nu100_cst=get("nu100_cst"),
     )
 
 
@@ -111,11 +112,13 @@ def _readings_from_columns(columns: dict[str, list], n: int) -> list[Reading]:
 
     texts = [[t or "" for t in col(name)] for name in ("technician", "note")]
     return [
-        Reading(None, s, d, h, cd, sp, nd, cp, ot, tp, ts, og, vi, iso, tech, note, machine=m)
-        for s, d, h, cd, sp, nd, cp, ot, tp, ts, og, vi, iso, tech, note, m in zip(
+        Reading(None, s, d, h, cd, sp, nd, cp, ot, tp, ts, og, vi, iso, tech, note, machine=m, nu40_cst=n40,
+                nu100_cst=n100)
+        for s, d, h, cd, sp, nd, cp, ot, tp, ts, og, vi, iso, tech, note, m, n40, n100 in zip(
             columns["serial"], columns["date"], columns["machine_hours"], col("case_drain"), col("servo_pressure"),
             col("neutral_drift"), col("charge_pressure"), col("oil_temp"), col("test_pressure"), col("test_speed"),
-            col("oil_grade"), col("oil_vi"), col("iso4406"), texts[0], texts[1], col("machine"),
+            col("oil_grade"), col("oil_vi"), col("iso4406"), texts[0], texts[1], col("machine"), col("nu40_cst"),
+            col("nu100_cst"),
         )
     ]
 

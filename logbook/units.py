@@ -69,6 +69,8 @@ HOURS = Quantity("hours", "h", {"h": "h", "hours": "h", "hr": "h"})
 SPEED = Quantity("speed", "rpm", {"rpm": "rpm", "1/min": "rpm"})
 DISPLACEMENT = Quantity("displacement", "cm3/rev", {"cm3/rev": "cm3/rev", "cc": "cm3/rev", "cm3": "cm3/rev", "cc/rev": "cm3/rev"})
 DAYS = Quantity("days", "d", {"d": "d", "days": "d"})
+#: Kinematic viscosity: 1 cSt is 1 mm^2/s exactly, so the two names are one unit.
+VISCOSITY = Quantity("viscosity", "cSt", {"cst": "cSt", "mm2/s": "cSt", "mm²/s": "cSt", "mm^2/s": "cSt"})
 NONE = Quantity("none", "", {"": ""})
 
 

@@ -58,6 +58,12 @@ READING_FIELDS: dict[str, FieldSpec] = {
     "test_pressure": FieldSpec("test_pressure", units.PRESSURE, 5, 700, help="system pressure during the case drain test"),
     "test_speed": FieldSpec("test_speed", units.SPEED, 100, 6000, help="pump speed during the test"),
     "oil_vi": FieldSpec("oil_vi", units.NONE, 0, 400, help="viscosity index"),
+    # measured kinematic viscosity of the reading's oil (an oil analysis, ASTM D445): 2 cSt is the
+    # lowest ASTM D341's plain Walther form holds to, 3,520 the top of ISO VG 3200 (+10 %)
+    "nu40_cst": FieldSpec("nu40_cst", units.VISCOSITY, 2, 3520,
+                          help="measured oil viscosity at 40 C, cSt = mm2/s (used instead of the grade's midpoint)"),
+    "nu100_cst": FieldSpec("nu100_cst", units.VISCOSITY, 2, 500,
+                           help="measured oil viscosity at 100 C, cSt = mm2/s (with the 40 C value; else from the VI)"),
 }
 
 MODEL_FIELDS: dict[str, FieldSpec] = {
@@ -101,6 +107,7 @@ FIELD_LABELS = {
     "iso4406": "ISO 4406", "technician": "Technician", "note": "Note", "hours": "Hour meter",
     "to_machine": "To machine", "to_position": "To position", "to_hours": "Target meter", "serial": "Pump serial",
     "case_drain/servo_pressure/neutral_drift": "Case drain, servo pressure or neutral drift",
+    "nu40_cst": "Viscosity at 40 C", "nu100_cst": "Viscosity at 100 C",
 }
 
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")
@@ -336,6 +343,7 @@ def check_reading_against_model(reading: Reading, model: PumpModel) -> list[Prob
                     "L/min",
                 )
             )
+    problems += check_viscosity(reading, model)
     if reading.test_speed_rpm is not None and reading.test_speed_rpm > model.max_speed_rpm * 1.15:
         problems.append(
             Problem("test_speed", reading.test_speed_rpm, f"is above the model's maximum speed {model.max_speed_rpm:g} rpm (+15 %)", "rpm")
@@ -373,3 +381,26 @@ def check_hour_meter(
             "h",
         )
     return None
+
+
+def check_viscosity(reading: Reading, model: PumpModel) -> list[Problem]:
+    """A measured viscosity must describe one oil: the 100 C value only with the 40 C one and below
+    it, and with the 40 C value alone, the oil's viscosity index must reach a 100 C value (ASTM D2270)."""
+    from logbook import oil
+
+    nu40, nu100 = reading.nu40_cst, reading.nu100_cst
+    if nu100 is not None and nu40 is None:
+        return [Problem("nu100_cst", nu100, "needs the measured viscosity at 40 C (nu40_cst) too", "cSt")]
+    if nu40 is None:
+        return []
+    if nu100 is not None:
+        if not nu100 < nu40:
+            return [Problem("nu100_cst", nu100, f"must be below the viscosity at 40 C ({nu40:g} cSt)", "cSt")]
+        return []
+    vi = model.oil_vi if reading.oil_vi is None else reading.oil_vi
+    try:
+        oil.nu100_from_vi(nu40, vi)
+    except ValueError as exc:
+        return [Problem("nu40_cst", nu40, f"with viscosity index {vi:g} gives no viscosity at 100 C ({exc}); "
+                        "give the measured 100 C value too (nu100_cst)", "cSt")]
+    return []

@@ -5,11 +5,13 @@ from __future__ import annotations
 from logbook import validate
 import dataclasses
 
-from logbook.commands.record import NUMERIC_OPTIONS, add_confirm, parse_with_unit, stopped_at_doubts
+from logbook.commands.record import NUMERIC_OPTIONS, VISCOSITY_OPTIONS, add_confirm, parse_with_unit, stopped_at_doubts
 from logbook.model import InputRejected, Problem
 
 # option dest -> Reading field
 _FIELDS = {
+    "nu40_cst": "nu40_cst",
+    "nu100_cst": "nu100_cst",
     "machine_hours": "machine_hours",
     "case_drain": "case_drain_lpm",
     "servo_pressure": "servo_pressure_bar",
@@ -36,6 +38,8 @@ def register(sub) -> None:
     p.add_argument("--hours", dest="machine_hours", default=None, help="machine hour meter")
     for opt in ("case_drain", "servo_pressure", "neutral_drift", "charge_pressure", "oil_temp", "test_pressure", "test_speed", "oil_vi"):
         p.add_argument("--" + opt.replace("_", "-"), dest=opt, default=None, help=validate.READING_FIELDS[opt].help)
+    for name, opt in VISCOSITY_OPTIONS.items():
+        p.add_argument(opt, dest=name, default=None, help=validate.READING_FIELDS[name].help)
     p.add_argument("--oil-grade", default=None, help="ISO VG grade")
     p.add_argument("--iso4406", default=None, help="cleanliness code, e.g. 18/16/13")
     p.add_argument("--technician", default=None)

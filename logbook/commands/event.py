@@ -14,13 +14,15 @@ def register(sub) -> None:
         help="record an event: " + ", ".join(k.value for k in EventKind),
         description="overhaul/exchange restart every trend of the pump; neutral_reset restarts neutral drift; "
         "control_repair restarts servo pressure and neutral drift; move needs --to-machine, --to-position, --to-hours; "
-        "meter_replaced takes --machine instead of a serial, --hours (old meter's last) and --to-hours (new meter's first).",
+        "meter_replaced takes --machine instead of a serial, --hours (old meter's last) and --to-hours (new meter's first); "
+        "parked (the machine stands from --date: its pumps run no hours) and back_in_service (it runs again) take "
+        "--machine instead of a serial, and --hours when the meter was read.",
     )
     p.add_argument("kind", help=", ".join(k.value for k in EventKind))
-    p.add_argument("serial", nargs="?", default=None, help="pump serial (not for meter_replaced)")
+    p.add_argument("serial", nargs="?", default=None, help="pump serial (not for meter_replaced, parked, back_in_service)")
     p.add_argument("--date", required=True, help="YYYY-MM-DD")
     p.add_argument("--hours", default=None, help="machine hour meter at the event")
-    p.add_argument("--machine", default=None, help="machine unit (meter_replaced)")
+    p.add_argument("--machine", default=None, help="machine unit (meter_replaced, parked, back_in_service)")
     p.add_argument("--to-machine", default=None)
     p.add_argument("--to-position", default=None)
     p.add_argument("--to-hours", default=None)

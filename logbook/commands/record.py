@@ -18,7 +18,11 @@ NUMERIC_OPTIONS = {
     "test_pressure": "test_pressure",
     "test_speed": "test_speed",
     "oil_vi": "oil_vi",
+    "nu40_cst": "nu40_cst",
+    "nu100_cst": "nu100_cst",
 }
+#: Options of the measured viscosity (their fields are named nu40_cst, nu100_cst in files and messages).
+VISCOSITY_OPTIONS = {"nu40_cst": "--nu40", "nu100_cst": "--nu100"}
 
 
 def default_unit(spec: validate.FieldSpec, prefs: units.UnitPrefs) -> str:
@@ -51,6 +55,8 @@ def register(sub) -> None:
     p.add_argument("--hours", dest="machine_hours", required=True, help="machine hour meter")
     for opt in ("case_drain", "servo_pressure", "neutral_drift", "charge_pressure", "oil_temp", "test_pressure", "test_speed", "oil_vi"):
         p.add_argument("--" + opt.replace("_", "-"), dest=opt, default=None, help=validate.READING_FIELDS[opt].help)
+    for name, opt in VISCOSITY_OPTIONS.items():
+        p.add_argument(opt, dest=name, default=None, help=validate.READING_FIELDS[name].help + "; e.g. 44.1 or 44.1cSt")
     p.add_argument("--oil-grade", default=None, help="ISO VG grade of the oil (default: the model's reference oil)")
     p.add_argument("--iso4406", default=None, help="cleanliness code, e.g. 18/16/13")
     p.add_argument("--technician", default="", help="who took the reading")
@@ -68,7 +74,12 @@ def add_confirm(p) -> None:
 
 def stopped_at_doubts(ctx, doubts, confirm: bool, verb: str = "recorded") -> bool:
     """Print the doubts and say which flag saves anyway; True when the command must stop."""
-    if not doubts or confirm:
+    if not doubts:
+        return False
+    if confirm:  # saved all the same: the warning stays on the record of the run
+        ctx.err.print(f"Warning - saved with {CONFIRM_FLAG}; these values looked wrong:", markup=False)
+        for doubt in doubts:
+            ctx.err.print(f"  - {doubt}", markup=False)
         return False
     ctx.err.print(f"[bold]Not {verb}[/bold] - nothing was written; these values look wrong:")
     for doubt in doubts:
@@ -104,6 +115,7 @@ def build_reading(args, ctx) -> Reading:
         neutral_drift_bar=values["neutral_drift"], charge_pressure_bar=values["charge_pressure"],
         oil_temp_c=values["oil_temp"], test_pressure_bar=values["test_pressure"], test_speed_rpm=values["test_speed"],
         oil_grade=grade, oil_vi=values["oil_vi"], iso4406=code, technician=args.technician, note=args.note,
+        nu40_cst=values["nu40_cst"], nu100_cst=values["nu100_cst"],
     )
 
 

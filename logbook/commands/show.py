@@ -90,6 +90,11 @@ def run(args, ctx) -> int:
     c.print("P10 / P50 / P90: dates by which the pump's true condition (not one noisy reading) is past the limit "
             "with 10 / 50 / 90 % chance, weighing several wear paths (path: the heaviest); bands "
             + kind_calibration_words(checked, m.code) + ".", markup=False, highlight=False)
+    if forecast.utilisation_basis:  # parked or run by season: which hours the dates assume
+        c.print(f"{forecast.machine} {forecast.utilisation_basis}.", markup=False, highlight=False)
+    for kf in forecast.kinds:
+        for why in kf.not_used:
+            c.print(f"{kf.kind.label} reading of {why} - not used in the trend", markup=False, highlight=False)
     return 0
 
 

@@ -122,6 +122,8 @@ class BulkMixin(StorePart):
     @staticmethod
     def _check_values(columns, serials, model_of, none) -> None:
         """check_reading_against_model, row by row but without building readings."""
+        if any(v is not None for k in ("nu40_cst", "nu100_cst") for v in columns.get(k) or ()):
+            raise _Declined  # a measured viscosity: validate.check_viscosity words its rules row by row
         cd, sp, nd = (columns.get(k) or none for k in ("case_drain", "servo_pressure", "neutral_drift"))
         ot, tp, ts = (columns.get(k) or none for k in ("oil_temp", "test_pressure", "test_speed"))
         for s, c, p, d, t, pressure, speed in zip(serials, cd, sp, nd, ot, tp, ts):

@@ -128,6 +128,17 @@ class EventsMixin(StorePart):
                     p = check_hour_meter("hours", e.happened_on, e.hours, earlier, None)
                     if p:
                         errs.append(p)
+            elif e.kind in (EventKind.PARKED, EventKind.BACK_IN_SERVICE):  # a machine's own, as meter_replaced
+                if not e.machine or e.machine not in machines:
+                    errs.append(Problem("machine", e.machine or "", f"must be a known machine unit for {e.kind.value}"))
+                if e.serial:
+                    errs.append(Problem("serial", e.serial, f"is not taken: {e.kind.value} is an event of a machine "
+                                        "(give its unit with --machine)"))
+                if not errs and e.hours is not None:
+                    earlier, later = timeline(e.machine).neighbours(e.happened_on)
+                    p = check_hour_meter("hours", e.happened_on, e.hours, earlier, later)
+                    if p:
+                        errs.append(p)
             else:
                 if not e.serial or e.serial not in pumps:
                     errs.append(Problem("serial", e.serial or "", f"must be a known pump serial for {e.kind.value}"))
