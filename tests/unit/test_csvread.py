@@ -30,6 +30,8 @@ POOL = {
     "test_speed": ["2000", "", "99"],
     "oil_grade": ["46", "", "VG 68", "47"],
     "oil_vi": ["", "140", "401"],
+    "nu40_cst": ["44.1", "", "1.5", "44,1 mm2/s"],
+    "nu100_cst": ["6.6", "", "600"],
     "iso4406": ["18/16/13", "", "16/18/13", "\uff11\uff18/16/13"],
     "technician": ["Ana", "", "Ben, the new one", "=cmd"],
     "note": ["", "after filter change", "two\nlines", 'say "hi"', "- seals checked", "'=1+1"],
