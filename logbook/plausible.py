@@ -30,11 +30,15 @@ import bisect
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import date
+from typing import TYPE_CHECKING
 
 from logbook import fmt, units
 from logbook.model import ALL_KINDS, SEGMENT_RESETS, Event, EventKind, Fleet, Kind, PumpModel, Reading
 from logbook.units import UnitPrefs
 from logbook.validate import FIELD_LABELS
+
+if TYPE_CHECKING:
+    import numpy as np
 
 MAX_HOURS_PER_DAY = 24.0
 SLACK_DAYS = 1
@@ -237,42 +241,56 @@ def confirm_hint(doubts: list[Doubt]) -> str:
 
 
 def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None = None,
-                 already: Sequence[str] = (), lines=None) -> list[str]:
+                 already: Sequence[str] = (), lines=None, *, screen: bool = True) -> list[str]:
     """Doubts about readings just added to ``fleet`` (an import), one line each, naming the
     reading (serial and date). Each is judged against the fleet's other records, the
     imported ones included (a jump between two rows of the file is found too). A value
     that a line of ``already`` (the import's second look against the trend) names is
     not told again. ``lines``: (serial, date, hours) -> the file's line number, named first
-    (or a function giving that mapping, called only when there is something to tell)."""
+    (or a function giving that mapping, called only when there is something to tell).
+
+    The rules are those of ``reading_doubts``, run on the readings ``maybe_doubted`` lets
+    through: a screen on whole columns that passes every reading that could have a doubt
+    (it is never narrower than the rules; tests/unit/test_plausible.py holds the result to
+    ``reading_doubts`` run on every reading), so that a clean 100,000-row file costs array
+    passes instead of 100,000 contexts (``screen=False``: the rules on every reading)."""
     said = " | ".join(already).lower()
     lines = lines or {}
     from collections import defaultdict
 
     from logbook import meter as meters
 
+    if screen:
+        new = [new[i] for i in maybe_doubted(fleet, new)]
+    if not new:
+        return []
+    machines = {r.machine for r in new if r.machine is not None}
+    serials = {r.serial for r in new}
     reps: dict[str, list[date]] = defaultdict(list)
     points: dict[str, list[tuple[date, float, int | None]]] = defaultdict(list)
     for e in fleet.events:
         if e.removed_reason is not None:
             continue
         if e.kind is EventKind.METER_REPLACED:
-            if e.machine is not None:
+            if e.machine in machines:
                 reps[e.machine].append(e.happened_on)
-        elif e.machine is not None and e.hours is not None:
+        elif e.machine in machines and e.hours is not None:
             points[e.machine].append((e.happened_on, e.hours, None))
-        if e.kind is EventKind.MOVE and e.to_machine and e.to_hours is not None:
+        if e.kind is EventKind.MOVE and e.to_machine in machines and e.to_hours is not None:
             points[e.to_machine].append((e.happened_on, e.to_hours, None))
     for f in fleet.fitments:
-        points[f.machine].append((f.fitted_on, f.machine_hours_at_fit, None))
+        if f.machine in machines:
+            points[f.machine].append((f.fitted_on, f.machine_hours_at_fit, None))
     by_pump: dict[str, list[Reading]] = defaultdict(list)
     for r in fleet.readings:
         if r.superseded_by is None and r.removed_reason is None:
-            by_pump[r.serial].append(r)
-            if r.machine is not None:
+            if r.serial in serials:
+                by_pump[r.serial].append(r)
+            if r.machine in machines:
                 points[r.machine].append((r.taken_on, r.machine_hours, r.id))
     events: dict[str, list[Event]] = defaultdict(list)
     for e in fleet.events:
-        if e.serial is not None and e.removed_reason is None:
+        if e.serial in serials and e.removed_reason is None:
             events[e.serial].append(e)
     # Per machine and meter era: record dates in order and the highest record up to each.
     highest: dict[tuple[str, int], tuple[list[date], list[tuple[date, float]]]] = {}
@@ -311,6 +329,205 @@ def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None =
                     lines = lines()
                 at = lines.get((r.serial, r.taken_on, r.machine_hours))
                 out.append(f"{f'line {at}, ' if at else ''}{r.serial} {r.taken_on.isoformat()}: {d}")
+    return out
+
+
+#: How far inside a rule's threshold the screen still passes a reading on to the rules (the
+#: screen's case drain at reference conditions is computed on arrays, the rule's one at a time).
+SCREEN_MARGIN = 1e-6
+
+
+def maybe_doubted(fleet: Fleet, new: Sequence[Reading]) -> list[int]:
+    """Positions in ``new`` (readings of ``fleet``, the imported ones) of those that
+    ``fleet_doubts``'s rules could doubt, found on whole columns: the 24 h a day meter rule
+    against the machine's highest earlier record in its meter era, oil outside the model's
+    test window, and a step of more than ``CHANGE_SHARE`` of the limit since the pump's
+    previous reading of the kind (among its ``RECENT`` before, no restarting event between).
+    Never narrower than the rules: where it cannot tell (equal dates and hours, a reading
+    that cannot be normalized) it passes the reading on."""
+    import numpy as np
+
+    current = [r for r in fleet.readings if r.superseded_by is None and r.removed_reason is None]
+    n_new = len(new)
+    if not n_new:
+        return []
+    at = {_ident(r): i for i, r in enumerate(current)}
+    where = np.array([at.get(_ident(r), -1) for r in new], dtype=np.int64)
+    if (where < 0).any():  # not the fleet's own records: no screen
+        return list(range(n_new))
+    maybe = np.zeros(n_new, dtype=bool)
+    maybe |= _meter_screen(fleet, current, where)
+    models = fleet.models
+    model_of = [models.get(fleet.pumps[r.serial].model) if r.serial in fleet.pumps else None for r in current]
+    oil = _column([r.oil_temp_c for r in new])
+    lo = _column([m.test_temp_min_c if (m := model_of[i]) else None for i in where.tolist()])
+    hi = _column([m.test_temp_max_c if (m := model_of[i]) else None for i in where.tolist()])
+    maybe |= (oil < lo - 1e-9 + SCREEN_MARGIN) | (oil > hi + 1e-9 - SCREEN_MARGIN)
+    maybe |= _step_screen(fleet, current, model_of, where)
+    return np.flatnonzero(maybe).tolist()
+
+
+def _ident(r: Reading) -> tuple:
+    return ("id", r.id) if r.id is not None else ("object", id(r))
+
+
+def _column(values) -> "np.ndarray":
+    import numpy as np
+
+    return np.array([np.nan if v is None else v for v in values], dtype=float)
+
+
+def _meter_screen(fleet: Fleet, current: list[Reading], where) -> "np.ndarray":
+    """The 24 h a day rule for the readings at ``where`` (positions in ``current``), on columns:
+    each machine's records (fitments, events, readings) grouped by meter era, sorted by date and
+    hours, with the first highest record up to each."""
+    import numpy as np
+
+    code: dict[str, int] = {}
+    mach, day, hours = [], [], []
+    reps_m, reps_d = [], []
+
+    def record(machine, on, h) -> bool:
+        if h is None or machine is None:
+            return False
+        mach.append(code.setdefault(machine, len(code)))
+        day.append(on.toordinal())
+        hours.append(h)
+        return True
+
+    for e in fleet.events:
+        if e.removed_reason is not None:
+            continue
+        if e.kind is EventKind.METER_REPLACED:
+            if e.machine is not None:
+                reps_m.append(code.setdefault(e.machine, len(code)))
+                reps_d.append(e.happened_on.toordinal())
+        elif e.machine is not None and e.hours is not None:
+            record(e.machine, e.happened_on, e.hours)
+        if e.kind is EventKind.MOVE and e.to_machine and e.to_hours is not None:
+            record(e.to_machine, e.happened_on, e.to_hours)
+    for f in fleet.fitments:
+        record(f.machine, f.fitted_on, f.machine_hours_at_fit)
+    reading_point = np.full(len(current), -1, dtype=np.int64)
+    for i, r in enumerate(current):
+        if record(r.machine, r.taken_on, r.machine_hours):
+            reading_point[i] = len(mach) - 1
+    flagged = np.zeros(len(where), dtype=bool)
+    if not mach:
+        return flagged
+    m = np.array(mach, dtype=np.int64)
+    d = np.array(day, dtype=np.int64)
+    h = np.array(hours, dtype=float)
+    base = min(int(d.min()), min(reps_d, default=int(d.min())))
+    span = max(int(d.max()), max(reps_d, default=int(d.max()))) - base + 2
+    d = d - base
+    reps = np.sort(np.array(reps_m, dtype=np.int64) * span + (np.array(reps_d, dtype=np.int64) - base))
+    era = np.searchsorted(reps, m * span + d, side="right")  # replacements on or before (any machine)
+    order = np.lexsort((h, d, era, m))
+    ms, es, ds, hs = m[order], era[order], d[order], h[order]
+    start = np.ones(len(order), dtype=bool)
+    start[1:] = (ms[1:] != ms[:-1]) | (es[1:] != es[:-1])
+    group = np.cumsum(start) - 1
+    rank = np.unique(hs, return_inverse=True)[1].astype(np.int64)  # exact order of the hours
+    ranked = rank + group * (int(rank.max()) + 1 if len(rank) else 1)
+    top = np.maximum.accumulate(ranked)
+    fresh = start.copy()
+    fresh[1:] |= ranked[1:] > top[:-1]  # a new highest record (the first of equal ones is kept)
+    best = np.maximum.accumulate(np.where(fresh, np.arange(len(order)), 0))
+    sorted_at = np.empty(len(order), dtype=np.int64)
+    sorted_at[order] = np.arange(len(order))
+    has = reading_point[where] >= 0
+    q = sorted_at[reading_point[where][has]]
+    key = group * span + ds
+    first = np.searchsorted(key, group[q] * span + ds[q], side="left")  # the group's records before that date
+    prior = first > 0
+    prior[prior] = group[first[prior] - 1] == group[q[prior]]
+    b = best[np.maximum(first - 1, 0)]
+    gain = hs[q] - hs[b]
+    days = np.maximum(ds[q] - ds[b], 0)
+    flagged[has] = prior & (gain > 0) & (gain > MAX_HOURS_PER_DAY * (days + SLACK_DAYS) - SCREEN_MARGIN)
+    return flagged
+
+
+def _step_screen(fleet: Fleet, current: list[Reading], model_of, where) -> "np.ndarray":
+    """The step rule for the readings at ``where`` (positions in ``current``), on columns."""
+    import numpy as np
+
+    n = len(current)
+    serial_code: dict[str, int] = {}
+    pump = np.array([serial_code.setdefault(r.serial, len(serial_code)) for r in current], dtype=np.int64)
+    day = np.array([r.taken_on.toordinal() for r in current], dtype=np.int64)
+    hours = np.array([r.machine_hours for r in current], dtype=float)
+    ident = np.array([r.id or 0 for r in current], dtype=np.int64)
+    order = np.lexsort((ident, hours, day, pump))
+    pos = np.empty(n, dtype=np.int64)
+    pos[order] = np.arange(n)
+    ps, ds, hs = pump[order], day[order], hours[order]
+    begins = np.ones(n, dtype=bool)
+    begins[1:] = ps[1:] != ps[:-1]
+    first_of_pump = np.maximum.accumulate(np.where(begins, np.arange(n), 0))
+    tied = np.zeros(n, dtype=bool)  # equal date and hours: which one is "previous" is the rules' to say
+    same = (ps[1:] == ps[:-1]) & (ds[1:] == ds[:-1]) & (hs[1:] == hs[:-1])
+    tied[1:] |= same
+    tied[:-1] |= same
+    day0 = int(ds.min()) if n else 0
+    width = int(ds.max()) - day0 + 2 if n else 2
+    key = ps * width + (ds - day0)
+    p = pos[where]  # the new readings in pump, date, hours order
+    upto = np.searchsorted(key, ps[p] * width + (ds[p] - day0), side="right")  # readings on or before its date
+    window = np.maximum(upto - RECENT, first_of_pump[p])
+    resets: dict[Kind, list[int]] = {k: [] for k in ALL_KINDS}
+    for e in fleet.events:
+        if e.serial in serial_code and e.removed_reason is None:
+            for k in SEGMENT_RESETS.get(e.kind, ()):
+                on = min(max(e.happened_on.toordinal() - day0, -1), width - 1)  # outside every reading's date
+                resets[k].append(serial_code[e.serial] * width + on)
+    maybe = np.zeros(len(where), dtype=bool)
+    for kind in ALL_KINDS:
+        raw = _column([r.value(kind) for r in current])[order]
+        value = _trended_column(kind, [current[i] for i in order.tolist()], raw, [model_of[i] for i in order.tolist()])
+        limit = _column([(m.limit(kind).value if m is not None and m.limit(kind) is not None else None)
+                         for m in (model_of[i] for i in order.tolist())])
+        have = np.isfinite(raw)
+        last = np.maximum.accumulate(np.where(have, np.arange(n), -1))  # the last with a value at or before
+        prev = last[upto - 1]
+        mine = prev == p
+        prev[mine] = np.where(p[mine] > 0, last[np.maximum(p[mine] - 1, 0)], -1)
+        ok = (prev >= window) & have[p]
+        prev = np.where(ok, prev, 0)
+        stamps = np.sort(np.array(resets[kind], dtype=np.int64))
+        restarted = (np.searchsorted(stamps, key[p], side="right") - np.searchsorted(stamps, key[prev], side="left")) > 0
+        step = np.abs(value[p] - value[prev])
+        big = step > CHANGE_SHARE * np.abs(limit[p]) - SCREEN_MARGIN * (1.0 + np.abs(limit[p]))
+        unsure = np.isnan(value[p]) | np.isnan(value[prev])  # a case drain the columns could not normalize
+        maybe |= ok & ((~restarted & big) | tied[prev] | unsure) | (have[p] & tied[p])
+    return maybe
+
+
+def _trended_column(kind: Kind, readings: list[Reading], raw, models) -> "np.ndarray":
+    """``trended`` of each reading on columns: case drain at reference conditions per group of
+    readings sharing model and oil (``normalize.case_drain_at_reference`` on arrays); NaN where
+    it cannot be told here (the rules then judge the reading themselves)."""
+    import numpy as np
+
+    if kind is not Kind.CASE_DRAIN:
+        return raw
+    from logbook.analysis.normalize import case_drain_at_reference
+
+    out = np.full(len(readings), np.nan)
+    groups: dict[tuple, list[int]] = {}
+    for i, (r, m) in enumerate(zip(readings, models)):
+        if m is not None and r.case_drain_lpm is not None:
+            groups.setdefault((m.code, r.oil_grade, r.oil_vi, getattr(r, "nu40_cst", None),
+                               getattr(r, "nu100_cst", None)), []).append(i)
+    for (code, grade, vi, nu40, nu100), at in groups.items():
+        idx = np.array(at, dtype=np.int64)
+        pressure = _column([readings[i].test_pressure_bar for i in at])
+        temp = _column([readings[i].oil_temp_c for i in at])
+        try:
+            out[idx] = case_drain_at_reference(raw[idx], pressure, temp, models[at[0]], grade, vi, nu40, nu100)
+        except (ValueError, FloatingPointError):
+            continue  # left NaN: passed on to the rules
     return out
 
 

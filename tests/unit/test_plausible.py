@@ -93,3 +93,70 @@ def test_outside_the_forecast_band_is_asked_about():
     (doubt,) = reading_doubts(reading(servo_pressure_bar=21.0), ctx)
     assert "where the pump's trend expects a reading now: 22.00 bar to 25.00 bar" in doubt.reason
     assert reading_doubts(reading(servo_pressure_bar=23.0), ctx) == []
+
+
+# -- the import's screen (plausible.maybe_doubted) -------------------------------------------
+def _invented_fleet(seed: int):
+    """A small invented fleet with every record the rules read: moves, meter replacements,
+    trend-restarting events (one removed), readings on the same day and hour, readings without
+    some values, oil outside the test window, meter jumps and big steps."""
+    import random
+
+    from logbook.model import Fitment, Fleet, Machine, Pump
+
+    rng = random.Random(seed)
+    other = PumpModel("TX-40", "test pump", 40, 350, 3000, 50, 250, 32, 100, 1800, 45, 55, 500, 180,
+                      (Limit(Kind.CASE_DRAIN, 3.0, "above"),))
+    models = {MODEL.code: MODEL, other.code: other}
+    machines = {f"U-{i}": Machine(f"U-{i}", "North yard") for i in range(5)}
+    pumps, fitments, readings, events = {}, [], [], []
+    ids = iter(range(1, 10_000))
+    for p in range(8):
+        serial = f"P-{p}"
+        pumps[serial] = Pump(serial, MODEL.code if p % 3 else other.code)
+        machine = f"U-{p % 5}"
+        fitments.append(Fitment(next(ids), serial, machine, f"pos{p}", D0, None, 100.0 * p, 0.0))
+        day, hours, cd, sp, nd = D0, 100.0 * p + 10, 1.0, 26.0, 0.5
+        for _ in range(40):
+            if rng.random() > 0.1:  # else a second reading on the same day (sometimes the same hours)
+                day += timedelta(days=rng.randint(1, 20))
+                hours += rng.choice([rng.uniform(0, 30), rng.uniform(0, 600)])
+            elif rng.random() < 0.5:
+                hours += rng.uniform(0, 5)
+            cd += rng.choice([0.02, -0.01, 0.0, 2.5, -2.0])
+            sp += rng.choice([0.1, -0.2, 0.0, 9.5, -10.0])
+            nd += rng.choice([0.1, -0.1, 6.5, -13.0])
+            if rng.random() < 0.1:
+                events.append(Event(next(ids), rng.choice([EventKind.OVERHAUL, EventKind.NEUTRAL_RESET,
+                                                           EventKind.CONTROL_REPAIR]), day, serial=serial,
+                                    machine=machine, hours=hours,
+                                    removed_reason="entered twice" if rng.random() < 0.2 else None))
+            if rng.random() < 0.05:
+                events.append(Event(next(ids), EventKind.METER_REPLACED, day, machine=machine, hours=hours, to_hours=0.0))
+            readings.append(Reading(
+                next(ids), serial, day, round(hours, 1),
+                case_drain_lpm=None if rng.random() < 0.1 else round(cd, 2),
+                servo_pressure_bar=None if rng.random() < 0.2 else round(sp, 2),
+                neutral_drift_bar=None if rng.random() < 0.2 else round(nd, 2),
+                oil_temp_c=rng.choice([None, 50.0, 44.0, 58.0, 61.0, 30.0]),
+                test_pressure_bar=rng.choice([None, 250.0, 200.0]),
+                oil_grade=rng.choice([None, 46, 68]), machine=machine,
+            ))
+    return Fleet(models, machines, pumps, tuple(fitments), tuple(readings), tuple(events))
+
+
+def test_the_import_screen_lets_through_every_reading_the_rules_doubt():
+    # The screen must never be narrower than the rules: the doubts told with it are exactly those
+    # of reading_doubts run on every reading (screen=False), on invented fleets holding each kind.
+    from logbook.plausible import fleet_doubts, maybe_doubted
+
+    told = set()
+    for seed in range(12):
+        fleet = _invented_fleet(seed)
+        new = list(fleet.readings[len(fleet.readings) // 3:])
+        every = fleet_doubts(fleet, new, screen=False)
+        assert fleet_doubts(fleet, new) == every
+        assert len(maybe_doubted(fleet, new)) < len(new)  # it does leave readings out
+        told |= {label for line in every for label in ("Hour meter", "Oil temperature", "Case drain", "Servo pressure",
+                                                         "Neutral drift") if f": {label}" in line}
+    assert told == {"Hour meter", "Oil temperature", "Case drain", "Servo pressure", "Neutral drift"}
