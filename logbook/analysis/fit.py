@@ -39,7 +39,8 @@ class FitOptions:
     alpha_outlier: float = 0.01  # family-wise level of the wild-reading test
     max_drops: int = 1  # readings that may be dropped as wild per series
     min_outlier_points: int = 5
-    alpha_step: float = 0.01  # family-wise level of the step test (and of the split-against-paths comparison)
+    alpha_step: float = 0.001  # family-wise level of the step test on a series' own noise alone
+    alpha_step_fleet: float = 0.01  # the same where the model fleet's noise is blended in (and its split-vs-paths test)
     step_min_sigma: float = 3.0  # a step must also be this many noise sd (our choice, no published source)
     min_step_side: int = 2  # readings needed on each side of a step
     step_fleet_dof: float = 40.0  # readings' worth of the model fleet's relative noise in the step test's variance
@@ -189,7 +190,7 @@ def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions
             d0 = np.where(has, opt.step_fleet_dof, 0.0)
             var = np.where(has, (rss1 + d0 * np.nan_to_num(prior_s2)) / np.maximum(dof1 + d0, 1), var)
             cand = np.maximum(st.n - 2 * side + 1, 1)
-            crit = np.where(has, special.fdtri(1, np.maximum(dof1 + d0, 1), 1.0 - opt.alpha_step / cand), crit)
+            crit = np.where(has, special.fdtri(1, np.maximum(dof1 + d0, 1), 1.0 - opt.alpha_step_fleet / cand), crit)
         fstat = rmax / var
         size = np.sqrt(rmax / e_j)  # |level shift|
         big = size > opt.step_min_sigma * np.sqrt(var)
@@ -297,8 +298,10 @@ def _drop_before_step(block: _Block, crit_t2: np.ndarray, crit_f: np.ndarray, op
     else:
         cand = np.flatnonzero(found)
         if cand.size:  # not a step if a smooth wear path explains the readings as well as the split does
+            fleet = np.zeros(cand.size, dtype=bool) if prior_s2 is None else np.isfinite(prior_s2[cand])
+            alpha = np.where(fleet & (opt.step_fleet_dof > 0), opt.alpha_step_fleet, opt.alpha_step)
             found[cand] = _split_beats_paths(x0[cand], y0[cand], w[cand], col[cand], block.all_pos[cand], lin.n[cand],
-                                             opt)  # fmt: skip
+                                             opt, alpha)  # fmt: skip
     cand = np.flatnonzero(found)
     if cand.size:  # nor if it rests on one reading: drop the most extreme one, and the shift at the same
         # place must keep its sign, half its size and the test's minimum size (a wild reading beside
@@ -322,7 +325,7 @@ def _drop_before_step(block: _Block, crit_t2: np.ndarray, crit_f: np.ndarray, op
 
 #: Box-Cox powers of the smooth paths a step must beat (paths.LAMBDAS: straight, power laws, exponential,
 #: runaway, and the square for falling readings); written out here so the fit does not import the mixture
-SMOOTH_LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)
+SMOOTH_LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0, -1.5)
 
 
 def _split_rss(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -354,8 +357,10 @@ def _shift_at(x0: np.ndarray, y0: np.ndarray, w: np.ndarray, col: np.ndarray) ->
 
 
 def _shift_stands(x0, y0, w, w_less, col, prior_s2, opt: FitOptions) -> np.ndarray:
-    """Whether the shift at ``col`` survives without the most extreme reading (``w_less``): the same
-    sign, at least half the size, and still ``step_min_sigma`` noise sd (the fleet's blended in)."""
+    """Whether the shift at ``col`` survives without the most extreme reading (``w_less``): still
+    ``min_step_side`` readings on each side (two newest readings that agree are wear, not a step:
+    ``_confirmed``), the same sign, at least half the size, and ``step_min_sigma`` noise sd (the
+    fleet's blended in)."""
     shift, _ = _shift_at(x0, y0, w, col)
     shift_less, var_less = _shift_at(x0, y0, w_less, col)
     if prior_s2 is not None and opt.step_fleet_dof > 0:
@@ -363,12 +368,14 @@ def _shift_stands(x0, y0, w, w_less, col, prior_s2, opt: FitOptions) -> np.ndarr
         dof = np.maximum(_rowsum(w_less) - 3, 0)
         var_less = np.where(has, (var_less * dof + opt.step_fleet_dof * np.nan_to_num(prior_s2)) / (dof + opt.step_fleet_dof),
                             var_less)  # fmt: skip
+    side = np.arange(w.shape[1])[None, :] < col[:, None]
+    sides = (((w_less > 0) & side).sum(axis=1) >= opt.min_step_side) & (((w_less > 0) & ~side).sum(axis=1) >= opt.min_step_side)
     with np.errstate(invalid="ignore"):
-        return ((np.sign(shift_less) == np.sign(shift)) & (np.abs(shift_less) >= 0.5 * np.abs(shift))
+        return sides & ((np.sign(shift_less) == np.sign(shift)) & (np.abs(shift_less) >= 0.5 * np.abs(shift))
                 & (np.abs(shift_less) > opt.step_min_sigma * np.sqrt(var_less)))  # fmt: skip
 
 
-def _split_beats_paths(x0, y0, w, col, all_pos, n, opt: FitOptions) -> np.ndarray:
+def _split_beats_paths(x0, y0, w, col, all_pos, n, opt: FitOptions, alpha: np.ndarray) -> np.ndarray:
     """Whether a level shift at ``col`` explains each row better than every smooth wear path: the
     profile log likelihood on the readings' own scale (Box-Cox lines carry the Jacobian
     (lam - 1) sum log y; Box and Cox, JRSS B 26, 1964) of the best split line (straight or on the log
@@ -393,7 +400,7 @@ def _split_beats_paths(x0, y0, w, col, all_pos, n, opt: FitOptions) -> np.ndarra
             ll = -half_n * np.log(np.maximum(st.rss, 1e-300)) + (lam - 1.0) * jac
             ll_smooth = np.where(all_pos, np.maximum(ll_smooth, ll), ll_smooth)
         cand = np.maximum(n - 2 * opt.min_step_side + 1, 1)
-        margin = 0.5 * special.chdtri(1, opt.alpha_step / cand)
+        margin = 0.5 * special.chdtri(1, alpha / cand)
     return np.isfinite(ll_split) & (ll_split - ll_smooth > margin)
 
 

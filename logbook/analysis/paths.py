@@ -7,7 +7,7 @@ A path is a straight line in z = (y^lam - 1) / lam (log y at lam = 0; Box and Co
   the cube of the gap (Q = pi D c^3 dp / (12 mu L), Hagen-Poiseuille annulus), so a gap
   opening at a steady rate gives Q = Q0 (1 + h/tau)^3, a straight line in Q^(1/3);
 - lam = 0: exponential growth (or proportional decay);
-- lam < 0: faster than exponential, running away at a finite age, as crack growth under
+- lam < 0 (-1/2, -1, -3/2): faster than exponential, running away at a finite age, as crack growth under
   the Paris law does (da/dN = C dK^m, dK ~ sqrt(a): a^(1 - m/2) falls linearly, so
   lam = 1 - m/2; Paris and Erdogan, J. Basic Eng. 85, 1963; Lu and Meeker,
   Technometrics 35, 1993). Rising readings use lam in RISING, falling ones in FALLING.
@@ -17,14 +17,18 @@ residual variance combined with the model fleet's median at PRIOR_DOF readings' 
 so that two or three readings lying almost on a line cannot claim a tiny spread; the
 slope borrowed from the fleet only where a series has none of its own).
 
-The paths are mixed per series. Each pump model's fleet (a pooling group) gets weights
-that maximize the summed one-step-ahead log predictive density of its series' own
-readings (leave-future-out: each reading from the 4th on predicted from those before it;
-Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020), found by stacking
-(Yao, Vehtari, Simpson and Gelman, "Using stacking to average Bayesian predictive
-distributions", Bayesian Analysis 13, 2018). A series' own predictive record then
-updates its group's weights (Bayes' rule on the path), with a floor so that no path is
-ever ruled out. Series with fewer than four readings take their group's weights.
+The paths are mixed per pump model's fleet (a pooling group): weights that maximize the
+summed log predictive density of the later half of its series' readings, each path's
+line fitted on the first half (leave-future-out over a long horizon, the one a crossing
+forecast extrapolates over; Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90,
+2020), found by stacking (Yao, Vehtari, Simpson and Gelman, "Using stacking to average
+Bayesian predictive distributions", Bayesian Analysis 13, 2018), with a floor so that no
+path is ever ruled out. Every series of the group takes its group's weights: one series'
+own record of a few readings cannot tell the shapes apart (the near-term predictions of
+a cube law, an exponential and a runaway path differ by less than the noise), and
+letting it choose (Bayes' rule on the path from one-step-ahead scores, the rule before)
+put the runaway paths' weight on shapes that cross the limit far later
+(tests/bench/bench_calibration.py: runaway pumps before P10 54 % -> 33 %).
 
 The crossing of the limit by the true condition is the first hour at which the mixture
 puts the path past the limit: P(T <= x) = sum_k w_k P(line_k(x) past z_k(limit)), each
@@ -42,11 +46,11 @@ from scipy import special
 
 from logbook.analysis.batch import ols_rows
 
-RISING = (1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)
+RISING = (1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0, -1.5)
 FALLING = (1.0, 0.0, 2.0)
-LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0)  # every path, in a fixed order
+LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0, -1.5)  # every path, in a fixed order
 PATH_WORDS = {2.0: "falling faster", 1.0: "linear", 0.5: "square-law", 1.0 / 3.0: "cube-law",
-              0.0: "exponential", -0.5: "runaway", -1.0: "runaway fast"}
+              0.0: "exponential", -0.5: "runaway", -1.0: "runaway fast", -1.5: "runaway faster"}
 PRIOR_DOF = 4.0  # readings' worth of the fleet's residual variance in each series' own
 WEIGHT_FLOOR = 0.02  # share of a series' mixture spread evenly over its allowed paths
 MIN_STACK_SERIES = 3  # series with a predictive record a group needs for weights of its own
@@ -227,6 +231,52 @@ def _one_step_block(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams, min_fit: 
     return scores, counted
 
 
+LATER_SHARE = 0.5  # the origin of the later-readings scores: the first half of each series' used readings
+LATER_MIN_AHEAD = 2  # later readings a series needs to be scored
+
+
+def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams=LAMBDAS,
+                 share: float = LATER_SHARE) -> tuple[np.ndarray, np.ndarray]:
+    """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
+    of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
+    as the forecast would have extrapolated it then: Student t, location the line, variance its path
+    variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
+    forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
+    scored (0 for series with under 3 + LATER_MIN_AHEAD readings)."""
+    used = w > 0
+    n_used = used.sum(axis=1)
+    position = np.cumsum(used, axis=1)
+    cut = np.maximum(np.floor(share * n_used), 3)
+    train = used & (position <= cut[:, None])
+    later = used & (position > cut[:, None]) & (n_used - cut >= LATER_MIN_AHEAD)[:, None]
+    log_y = np.log(np.where(y > 0, y, np.nan))
+    scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
+    for k, lam in enumerate(lams):
+        line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam)
+        rows = np.arange(x.shape[0])
+        loc, scale = line.at(x, rows)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            var = scale * scale + line.s2[:, None]
+            z = box_cox(y, lam)
+            nu = np.clip(line.nu, 1.0, 1e6)[:, None]
+            t2 = (z - loc) ** 2 / var
+            dens = (special.gammaln((nu + 1) / 2) - special.gammaln(nu / 2) - 0.5 * np.log(nu * np.pi)
+                    - 0.5 * np.log(var) - (nu + 1) / 2 * np.log1p(t2 / nu))  # fmt: skip
+            if lam != 1.0:
+                dens = dens + (lam - 1.0) * log_y
+        scored = later & line.ok[:, None]
+        good = np.isfinite(dens)
+        scores[:, k] = np.where((scored & ~good).any(axis=1), -np.inf, np.where(scored & good, dens, 0.0).sum(axis=1))
+        counted[:, k] = scored.sum(axis=1)
+    return scores, counted
+
+
+def _stacked(comparable: np.ndarray, group: np.ndarray, n_groups: int) -> np.ndarray:
+    """(G,) whether a group has enough series with a predictive record for weights of its own."""
+    sel = comparable & (group >= 0)
+    return np.bincount(group[sel], minlength=max(n_groups, 1))[: max(n_groups, 1)] >= MIN_STACK_SERIES
+
+
 def stacking_weights(scores: np.ndarray, comparable: np.ndarray, group: np.ndarray, n_groups: int,
                      iterations: int = 500, tol: float = 1e-7) -> np.ndarray:
     """(G, K) weights per group maximizing sum_series log sum_k w_k exp(score_k): EM for mixture weights
@@ -280,7 +330,10 @@ class PathMixture:
 
     def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
                  group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None, noise: bool = False,
-                 lambdas: tuple[float, ...] = LAMBDAS):
+                 lambdas: tuple[float, ...] = LAMBDAS, scoring: str = "later", own_update: bool = False):
+        """``scoring``: "later" (the default: each series' later half predicted from its first, see
+        ``later_scores``) or "one_step" (``one_step_scores``, the rule before; for comparison);
+        ``own_update``: whether a series' own scores update its group's weights (off by default)."""
         s = x.shape[0]
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
@@ -288,14 +341,27 @@ class PathMixture:
         self.lines = [PathLine.fit(x, y, w, group, n_groups, lam) for lam in LAMBDAS]
         family = np.array([[lam in (RISING if d > 0 else FALLING) and lam in lambdas for lam in LAMBDAS] for d in (1, -1)])
         allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
-        raw_scores, raw_counted = one_step_scores(x, y, w)
+        if scoring == "later":
+            raw_scores, raw_counted = later_scores(x, y, w, group, n_groups)
+        else:
+            raw_scores, raw_counted = one_step_scores(x, y, w)
         scores = np.where(allowed, raw_scores, -np.inf)
         counted = np.where(allowed, raw_counted, 0)
         top = counted.max(axis=1)
         comparable = (top > 0) & (np.where(allowed, counted, top[:, None]) == top[:, None]).all(axis=1)
         comparable &= np.isfinite(np.where(allowed, scores, 0.0)).all(axis=1)
-        group_w = stacking_weights(scores, comparable, group, n_groups)
-        own = np.where(comparable[:, None], scores, 0.0)
+        group_w, has_w = stacking_weights(scores, comparable, group, n_groups), _stacked(comparable, group, n_groups)
+        if scoring == "later":  # groups without later halves to score (short series) stack one-step-ahead
+            one_s, one_c = one_step_scores(x, y, w)
+            one_s, one_c = np.where(allowed, one_s, -np.inf), np.where(allowed, one_c, 0)
+            top1 = one_c.max(axis=1)
+            comp1 = (top1 > 0) & (np.where(allowed, one_c, top1[:, None]) == top1[:, None]).all(axis=1)
+            comp1 &= np.isfinite(np.where(allowed, one_s, 0.0)).all(axis=1)
+            group_w = np.where(has_w[:, None], group_w, stacking_weights(one_s, comp1, group, n_groups))
+            has_w |= _stacked(comp1, group, n_groups)
+            scores, comparable = one_s, comp1  # a series' own record, where its group has no weights
+        alone = ~has_w[np.maximum(group, 0)] | (group < 0)  # no group weights: the series' own record decides
+        own = np.where((comparable & (alone | own_update))[:, None], scores, 0.0)
         self.weights = series_weights(own, allowed, group_w, group)
         self.limit_z = np.stack([box_cox(limit, lam) for lam in LAMBDAS], axis=1)
         self.ok = allowed.any(axis=1) & np.isfinite(limit)

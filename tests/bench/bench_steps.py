@@ -14,7 +14,7 @@ flagged on a series without one. Targets (issue 12, item 5): at least 80 % of 8-
 found in series of 6+ readings, at most 1 % false flags. The baseline in the same run is the
 detection before this rule (the fit's own-sd F test at 0.001 with its log-scale veto and
 its rescan without the most extreme reading,
-``FitOptions(alpha_step=0.001, step_fleet_dof=0, step_log_veto=True)``).
+``FitOptions(step_fleet_dof=0, step_log_veto=True)``).
 """
 
 from __future__ import annotations
@@ -104,7 +104,7 @@ def main(argv=None) -> int:
         print(f"\n=== noise {100 * noise:.0f} %: {len(series)} series, 4 pump models ===")
         results = {}
         for label, opt in (("engine", None), ("before (own-sd F test, log veto)",
-                                              FitOptions(alpha_step=0.001, step_fleet_dof=0.0, step_log_veto=True))):  # fmt: skip
+                                              FitOptions(step_fleet_dof=0.0, step_log_veto=True))):  # fmt: skip
             flagged, where, took = run(series, opt)
             results[label] = table(series, flagged, where, f"{label} (fit {took:.2f} s)")
         (det, false), (det0, false0) = results.values()

@@ -230,7 +230,7 @@ def test_eight_sigma_steps_in_short_series_are_found_and_clean_ones_are_not():
     print(f"found {found[stepped].mean():.3f}, false {flagged[~stepped].mean():.3f}")
     assert found[stepped].mean() >= 0.8
     assert flagged[~stepped].mean() <= 0.01
-    old = fit_batch(batch, FitOptions(alpha_step=0.001, step_fleet_dof=0.0, step_log_veto=True))
+    old = fit_batch(batch, FitOptions(step_fleet_dof=0.0, step_log_veto=True))
     assert ((old.flags & B_STEP) > 0)[stepped].mean() < 0.5  # the rule before: the regression is real
 
 
