@@ -74,7 +74,7 @@ def forecast_fleet(
     sites = {unit: m.site for unit, m in fleet.machines.items()}
     pumps = _forecasts(packed.serials, packed.models, packed.pack, today, sites, horizon_hours, options, thresholds,
                        with_noise, calibration) if packed.serials else []  # fmt: skip
-    notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
+    notes: tuple[str, ...] = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
              "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
              "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
              "last reading moves every date later)")
