@@ -155,6 +155,7 @@ def test_calibration_widens_bands_that_are_too_narrow():
     assert np.median(cal.fast) > 1.0 and np.median(cal.slow) > 1.0
 
 
+@pytest.mark.slow
 def test_the_chart_band_is_the_mixture_that_gives_the_dates():
     # The band a chart draws (FitDetail.band) is the path mixture itself: its median meets the limit at
     # the P50 crossing hour and its upper edge at the P10 hour (rising wear), as P(crossed) = q there.

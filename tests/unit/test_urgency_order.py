@@ -61,12 +61,14 @@ def _by_hand(pumps) -> list[str]:
     return [p.serial for p in sorted(pumps, key=key)]
 
 
+@pytest.mark.slow
 def test_pumps_command_and_fleet_view_agree(forecast):
     want = _by_hand(forecast.pumps)
     assert _table_serials(fleet_table(forecast, _ctx())) == want
     assert [p.serial for p in select_pumps(forecast.pumps, sort_key="status")] == want
 
 
+@pytest.mark.slow
 def test_the_step_change_pump_is_near_the_top_everywhere(forecast):
     step = [p.serial for p in forecast.pumps if p.status == STEP_CHANGE]
     assert step, "the demo fleet must hold a pump in 'step change - inspect'"
@@ -78,6 +80,7 @@ def test_the_step_change_pump_is_near_the_top_everywhere(forecast):
         assert summary.index(serial) == view.index(serial) < over + len(step)
 
 
+@pytest.mark.slow
 def test_the_plan_takes_pumps_in_the_same_order(forecast):
     plan = make_plan(forecast, PlanSettings(start_month=date(2026, 12, 1), horizon_months=12))
     rank = {s: i for i, s in enumerate(_by_hand(forecast.pumps))}
@@ -89,5 +92,6 @@ def test_the_plan_takes_pumps_in_the_same_order(forecast):
     assert unplaced == sorted(unplaced, key=rank.__getitem__)
 
 
+@pytest.mark.slow
 def test_the_key_is_the_engines(forecast):
     assert [p.serial for p in sorted(forecast.pumps, key=urgency_key)] == _by_hand(forecast.pumps)
