@@ -213,14 +213,15 @@ def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray, fc: BatchForec
     used = (fit.weights[entry_row, pk.rank[take]] > 0).tolist()
     bounds = np.r_[0, np.cumsum(count[rows])]
     spans = list(map(slice, bounds[:-1].tolist(), bounds[1:].tolist()))
-    x_t, y_t, used_t = (list(map(tuple, map(v.__getitem__, spans))) for v in (xs, ys, used))
+    days = pk.day[take].tolist()
+    x_t, y_t, used_t, d_t = (list(map(tuple, map(v.__getitem__, spans))) for v in (xs, ys, used, days))
     sigma = np.where(np.isfinite(fit.sigma), fit.sigma, 0.0)
     dof = np.minimum(fit.dof, 10**6).astype(np.int64)
     cols = [v[rows].tolist() for v in (fit.a, fit.b, fit.c00, fit.c01, fit.c11, sigma, dof)]
     names = [PATH_NAMES[c] for c in fit.path[rows].tolist()]
     mixture = fc.mixture if fc is not None else None
-    for r, x, y, u, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, names, *cols):
+    for r, x, y, u, days_r, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, d_t, names, *cols):
         keep = mixture is not None and bool(mixture.ok[r]) and fc.path[r] >= 0
         out[r] = FitDetail(x_hours=x, y_value=y, used=u, path=name, params=(a, b), cov=((c00, c01), (c01, c11)),
-                           sigma=s, dof=d, mixture=mixture if keep else None, row=r if keep else -1)  # fmt: skip
+                           sigma=s, dof=d, mixture=mixture if keep else None, row=r if keep else -1, x_days=days_r)  # fmt: skip
     return out

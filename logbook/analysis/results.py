@@ -62,6 +62,7 @@ class FitDetail:
     # gives P50 and the P10-P90 dates (not compared: the figures above are the fit itself)
     mixture: PathMixture | None = field(default=None, compare=False, repr=False)
     row: int = field(default=-1, compare=False, repr=False)
+    x_days: tuple[int, ...] = field(default=(), compare=False, repr=False)  # day ordinal of each reading (charts)
 
     def below(self, x, value, *, reading: bool = False):
         """P(the value at hours ``x`` is below ``value``), for many points in one call: the

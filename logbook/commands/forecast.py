@@ -182,7 +182,7 @@ def run(args, ctx) -> int:
         if ctx.as_of is not None:
             notes = (f"as of {ctx.as_of.isoformat()}: only what the logbook knew that day (logbook --as-of)", *notes)
         report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts,
-                        economies=economies, notes=notes)
+                        economies=economies, notes=notes, units=ctx.units)
         data = render(report, fmt)
         steps.step("saving")
         from logbook.outfile import OutputError, OutputRefused, write_bytes

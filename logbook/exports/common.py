@@ -2,13 +2,20 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 from collections import Counter
 from datetime import date
 
+from logbook.exports import in_units, unit_of
 from logbook.analysis.results import OUTCOME_WORDS, KindForecast, Outcome, PumpForecast
 from logbook.plan import PlanLine, month_label
+from logbook.units import UnitPrefs
+
+METRIC = UnitPrefs()
+
+_in, _unit = in_units, unit_of
 
 #: Plan table columns: (key, header). One row per pump in the plan or not fitting.
 PLAN_COLUMNS = (
@@ -108,7 +115,29 @@ def plan_lines(report) -> list[PlanLine]:
     return list(report.plan.lines) + list(report.plan.unplaced)
 
 
-def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
+def reason(line: PlanLine, units: UnitPrefs = METRIC) -> str:
+    """``PlanLine.reason`` with the values in ``units`` (the same sentence in metric units)."""
+    if units == METRIC:
+        return line.reason
+    unit, value, limit = _unit(line.kind, units), _in(line.latest_value, line.kind, units), _in(line.limit_value, line.kind, units)
+    metric = dataclasses.replace(line, latest_value=None, limit_value=None).reason
+    if value is None or limit is None:
+        return metric
+    where = f" at {value:.2f} {unit} against a limit of {limit:.2f} {unit}"
+    return line.kind.label + where + metric[len(line.kind.label):]
+
+
+def retest_reason(r, units: UnitPrefs = METRIC) -> str:
+    """``Retest.reason`` with the set-aside value in ``units``."""
+    if units == METRIC or r.reading is None:
+        return r.reason
+    return dataclasses.replace(r, reading=None).reason.replace(
+        " reading is far", f" reading ({_in(r.reading, r.kind, units):.2f} {_unit(r.kind, units)} on "
+        f"{r.taken_on.isoformat()}) is far", 1) if r.taken_on else r.reason
+
+
+def plan_row(line: PlanLine, pump: PumpForecast | None, units: UnitPrefs = METRIC) -> dict[str, str]:
+    """One plan line as the tables print it; values of the reading in ``units``."""
     kf = kind_of(pump, line)
     if line.month is None:
         plan = "does not fit"
@@ -123,9 +152,9 @@ def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
         "machine": line.machine or "",
         "site": line.site or "",
         "reading": line.kind.label,
-        "unit": line.kind.unit,
-        "latest": num(line.latest_value),
-        "limit": num(line.limit_value),
+        "unit": _unit(line.kind, units),
+        "latest": num(_in(line.latest_value, line.kind, units)),
+        "limit": num(_in(line.limit_value, line.kind, units)),
         "direction": kf.limit.direction if kf is not None and kf.limit is not None else "",
         "p10_date": day(line.p10_date),
         "p50_date": day(line.p50_date),
@@ -141,7 +170,7 @@ def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
         "cost_month_later": num(line.cost_month_later, 0),
         "also_due": ", ".join(k.label for k in line.also_due),
         "action": line.action,
-        "reason": line.reason,
+        "reason": reason(line, units),
         "note": line.note,
         "status": pump.status if pump is not None else "",
         "flags": flag_words(kf.flags) if kf is not None else "",
@@ -150,7 +179,7 @@ def plan_row(line: PlanLine, pump: PumpForecast | None) -> dict[str, str]:
 
 def plan_rows(report) -> list[dict[str, str]]:
     pumps = pumps_by_serial(report)
-    return [plan_row(line, pumps.get(line.serial)) for line in plan_lines(report)]
+    return [plan_row(line, pumps.get(line.serial), report.units) for line in plan_lines(report)]
 
 
 def summary(report) -> list[tuple[str, str]]:
@@ -180,6 +209,22 @@ def summary(report) -> list[tuple[str, str]]:
     for month in s.months:
         rows.append((f"shop jobs {month_label(month)}", str(plan.shop_load.get(month, 0))))
     return rows + cost_summary(plan)
+
+
+SHOP_LOAD_HEADERS = ("month", "shop jobs planned", "capacity", "spare")
+
+
+def shop_load_rows(report) -> list[tuple[str, str, str, str]]:
+    """(month, shop jobs planned, capacity, spare) per month of the plan; capacity and spare
+    are empty when the shop has no limit."""
+    s = report.plan.settings
+    cap = s.capacity_per_month
+    out = []
+    for month in s.months:
+        jobs = report.plan.shop_load.get(month, 0)
+        out.append((month_label(month), str(jobs), "" if cap is None else str(cap),
+                    "" if cap is None else str(cap - jobs)))
+    return out
 
 
 POLICY_WORDS = {
@@ -264,19 +309,20 @@ def life_rows(report) -> list[dict[str, str]]:
     return out
 
 
-PUMP_HEADERS = ("serial", "model", "machine", "site", "status", "reading", "latest", "limit", "outcome",
+PUMP_HEADERS = ("serial", "model", "machine", "site", "status", "reading", "unit", "latest", "limit", "outcome",
                 "P10 date", "P50 date", "flags")
 
 
 def pump_rows(report) -> list[list[str]]:
     """One row per pump in service: its reading nearest the limit."""
     body = []
+    u = report.units
     for pf in report.forecast.pumps:
         w = pf.worst
         body.append([
             pf.serial, pf.model, pf.machine or "", pf.site or "", pf.status,
-            w.kind.label if w else "", num(w.latest_value) if w else "",
-            num(w.limit.value) if w and w.limit else "", OUTCOME_WORDS[w.outcome] if w else "",
+            w.kind.label if w else "", _unit(w.kind, u) if w else "", num(_in(w.latest_value, w.kind, u)) if w else "",
+            num(_in(w.limit.value, w.kind, u)) if w and w.limit else "", OUTCOME_WORDS[w.outcome] if w else "",
             day(w.p10_date) if w else "", day(w.p50_date) if w else "", flag_words(w.flags) if w else "",
         ])
     return body
@@ -287,6 +333,7 @@ RETEST_HEADERS = ("serial", "model", "site", "machine", "reading", "set-aside va
 
 def retest_rows(report) -> list[list[str]]:
     """One row per pump and reading kind to read again before the plan acts on it (``Plan.retests``)."""
+    u = report.units
     return [[r.serial, r.model, r.site or "", r.machine or "", r.kind.label,
-             f"{r.reading:.2f} {r.kind.unit}" if r.reading is not None else "",
-             r.taken_on.isoformat() if r.taken_on else "", r.reason] for r in report.plan.retests]
+             f"{_in(r.reading, r.kind, u):.2f} {_unit(r.kind, u)}" if r.reading is not None else "",
+             r.taken_on.isoformat() if r.taken_on else "", retest_reason(r, u)] for r in report.plan.retests]

@@ -18,7 +18,7 @@ import io
 
 from logbook.csvread import quote_formula
 from logbook.exports import PROBABILITY_NOTE
-from logbook.exports.common import PLAN_COLUMNS, plan_rows
+from logbook.exports.common import PLAN_COLUMNS, plan_rows, retest_reason
 
 BOM = "\ufeff"
 
@@ -33,11 +33,13 @@ def render_csv(report) -> bytes:
         ("# program", p.program),
         ("# forecast date", report.forecast.today.isoformat()),
     ]
-    meta += [(f"# limits {model}", words) for model, words in p.limit_lines()]
+    u = report.units
+    meta += [("# units", f"flow {u.flow}, pressure {u.pressure} (each row names its reading's unit)")]
+    meta += [(f"# limits {model}", words) for model, words in p.limit_lines(report.units)]
     meta += [("# safety", line) for line in (p.safety.title, *p.safety.lines())]
     meta += [("# note", PROBABILITY_NOTE)]
     meta += [("# note", text) for text in report.notes]
-    meta += [("# test again first", f"{r.serial}: {r.reason}") for r in report.plan.retests]
+    meta += [("# test again first", f"{r.serial}: {retest_reason(r, report.units)}") for r in report.plan.retests]
     for key, value in meta:
         writer.writerow([quote_formula(key), quote_formula(value)])
     writer.writerow([quote_formula(header) for _, header in PLAN_COLUMNS])

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 from html import escape as _escape_html
 
-from logbook.exports import PROBABILITY_NOTE, safety
-from logbook.exports.charts import chart_svg, charts_data
+from logbook.exports import PROBABILITY_NOTE, safety, unit_of
+from logbook.exports.charts import chart_svg, charts_data, shop_load_svg
 from logbook.exports.common import (
     RETEST_HEADERS,
+    SHOP_LOAD_HEADERS,
     retest_rows,
+    shop_load_rows,
     COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
@@ -18,6 +20,7 @@ from logbook.exports.common import (
     life_rows,
     plan_brief_keys,
     plan_row,
+    reason,
     pump_rows,
     pumps_by_serial,
     sensitivity_rows,
@@ -57,7 +60,7 @@ th, td { overflow-wrap: break-word; hyphens: manual; }
   tr, figure, li { break-inside: avoid; }
   h1, h2, h3 { break-after: avoid; }
   h2 + table, h2 + p, h2 + figure { break-before: avoid; }
-  svg { max-height: 80mm; }
+  figure svg { width: 100%; max-height: 80mm; }
 }
 """
 
@@ -83,8 +86,8 @@ def _table(headers: list[str], rows: list[list[str]], numeric: set[int] = frozen
     return out
 
 
-def _plan_table(lines, pumps, keys) -> list[str]:
-    rows = [plan_row(line, pumps.get(line.serial)) for line in lines]
+def _plan_table(lines, pumps, keys, units) -> list[str]:
+    rows = [plan_row(line, pumps.get(line.serial), units) for line in lines]
     numeric = {i for i, k in enumerate(keys) if k in _NUMERIC}
     return _table([_HEADERS[k] for k in keys], [[r[k] for k in keys] for r in rows], numeric)
 
@@ -95,15 +98,34 @@ def _charts(report, pumps) -> list[str]:
     if len(lines) > report.max_charts:
         out.append(f"<p>Charts of the first {report.max_charts} of {len(lines)} planned pumps, in plan order.</p>")
     shown = lines[: report.max_charts]
-    drawn = charts_data([kind_of(pumps.get(line.serial), line) for line in shown])  # the bands in one batch
+    kinds = [kind_of(pumps.get(line.serial), line) for line in shown]
+    rates = [pumps[line.serial].hours_per_day if line.serial in pumps else None for line in shown]
+    units = [unit_of(line.kind, report.units) for line in shown]
+    drawn = charts_data(kinds, report.forecast.today, rates, units=units)  # the bands in one batch
     for index, (line, data) in enumerate(zip(shown, drawn), start=1):
         title = visible(f"{line.serial} ({line.model}, {line.machine or 'no machine'}): {line.kind.label}")
         svg = chart_svg(data, title, id_prefix=f"c{index}") if data is not None else None
         month = line.month.isoformat()[:7] if line.month else ""
         out.append(f'<figure id="chart-{index}">')
         out.append(svg if svg is not None else f"<p>{escape(title)}: no fitted trend to draw.</p>")
-        out.append(f"<figcaption>{escape(month)} - {escape(line.reason)}</figcaption>")
+        said = " ".join(data.notes) if data is not None else ""
+        why = reason(line, report.units)
+        why = why if not said or why.endswith(".") else why + "."
+        out.append(f"<figcaption>{escape(month)} - {escape(why)}{' ' + escape(said) if said else ''}</figcaption>")
         out.append("</figure>")
+    return out
+
+
+def _shop_load(report) -> list[str]:
+    """The shop jobs planned per month against capacity: a chart and the same figures as a table."""
+    rows = shop_load_rows(report)
+    s = report.plan.settings
+    out = ['<section id="shop-load">', "<h2>Shop load per month</h2>"]
+    if report.charts:
+        out += ['<figure class="load">', shop_load_svg([r[0] for r in rows], [int(r[1]) for r in rows],
+                                                       s.capacity_per_month), "</figure>"]
+    out += _table(list(SHOP_LOAD_HEADERS), [list(r) for r in rows], {1, 2, 3})
+    out.append("</section>")
     return out
 
 
@@ -144,19 +166,19 @@ def render_html(report) -> str:
         f"<li>Made on: {escape(made)}</li>",
         f"<li>Program: {escape(p.program)}</li>",
     ]
-    out += [f"<li>Limits used, {escape(model)}: {escape(words)}</li>" for model, words in p.limit_lines()]
+    out += [f"<li>Limits used, {escape(model)}: {escape(words)}</li>" for model, words in p.limit_lines(report.units)]
     out += [f"<li>{escape(n)}</li>" for n in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
     out += ["</ul>", *safety.html_lines(p.safety), "<section>", "<h2>Summary</h2>"]
     out += _table(["figure", "value"], [list(r) for r in summary(report)])
     out += ["</section>", '<section id="plan">', "<h2>Plan</h2>"]
     if report.plan.lines:
-        out += _plan_table(report.plan.lines, pumps, plan_brief_keys(report.plan))
+        out += _plan_table(report.plan.lines, pumps, plan_brief_keys(report.plan), report.units)
     else:
         out.append("<p>Nothing is due in the plan's months.</p>")
-    out += ["</section>", '<section id="does-not-fit">', "<h2>Does not fit</h2>"]
+    out += ["</section>", *_shop_load(report), '<section id="does-not-fit">', "<h2>Does not fit</h2>"]
     if report.plan.unplaced:
         keys = ("target_month", "serial", "model", "site", "reading", "p10_date", "note", "reason")
-        out += _plan_table(report.plan.unplaced, pumps, keys)
+        out += _plan_table(report.plan.unplaced, pumps, keys, report.units)
     else:
         out.append("<p>Every pump that is due fits in the plan.</p>")
     if report.plan.retests:
@@ -177,6 +199,6 @@ def render_html(report) -> str:
         out += _charts(report, pumps)
         out.append("</section>")
     out += ['<section id="pumps">', "<h2>All pumps (reading nearest its limit)</h2>"]
-    out += _table(list(PUMP_HEADERS), pump_rows(report), {6, 7})
+    out += _table(list(PUMP_HEADERS), pump_rows(report), {7, 8})
     out += ["</section>", "</body>", "</html>"]
     return "\n".join(out) + "\n"

@@ -12,18 +12,19 @@ from __future__ import annotations
 import json
 
 from logbook.analysis.results import KindForecast, PumpForecast
-from logbook.exports import PROBABILITY_NOTE
-from logbook.exports.common import plan_lines
-from logbook.exports.listings import SCHEMA_VERSION, status_json
+from logbook.exports import PROBABILITY_NOTE, in_units, unit_of
+from logbook.exports.common import METRIC, plan_lines, reason, retest_reason
+from logbook.exports.listings import SCHEMA_VERSION, status_json, units_json
 from logbook.exports.listings import _d, _f  # one rounding rule for every JSON document
 
 from logbook.plan import PlanLine, month_label
+from logbook.units import UnitPrefs
 
-#: The plan's values are in the logbook's own units (each line and record also names its ``unit``).
-CANONICAL_UNITS = {"flow": "L/min", "pressure": "bar", "temperature": "C", "hours": "h"}
+#: The logbook's own units (``--units metric``); each line and record also names its ``unit``.
+CANONICAL_UNITS = units_json(METRIC)
 
 
-def _line(line: PlanLine) -> dict:
+def _line(line: PlanLine, units: UnitPrefs = METRIC) -> dict:
     return {
         "serial": line.serial,
         "model": line.model,
@@ -33,10 +34,10 @@ def _line(line: PlanLine) -> dict:
         "latest_month": month_label(line.target_month),
         "work": ("shop" if line.shop else "on machine") if line.month else "does not fit",
         "kind": line.kind.value,
-        "unit": line.kind.unit,
+        "unit": unit_of(line.kind, units),
         "outcome": line.outcome.value,
-        "latest_value": _f(line.latest_value),
-        "limit": _f(line.limit_value),
+        "latest_value": _f(in_units(line.latest_value, line.kind, units)),
+        "limit": _f(in_units(line.limit_value, line.kind, units)),
         "p10_hours": _f(line.p10_hours, 1),
         "p50_hours": _f(line.p50_hours, 1),
         "p90_hours": _f(line.p90_hours, 1),
@@ -51,12 +52,15 @@ def _line(line: PlanLine) -> dict:
         "expected_cost_month_later": _f(line.cost_month_later, 2),
         "also_due": [k.value for k in line.also_due],
         "action": line.action,
-        "reason": line.reason,
+        "reason": reason(line, units),
         "note": line.note,
     }
 
 
-def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
+def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None, units: UnitPrefs = METRIC) -> dict:
+    def shown(value):
+        return in_units(value, kf.kind, units)
+
     return {
         "serial": pf.serial,
         "model": pf.model,
@@ -64,11 +68,11 @@ def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
         "position": pf.position,
         "site": pf.site,
         "kind": kf.kind.value,
-        "unit": kf.kind.unit,
-        "limit": _f(kf.limit.value) if kf.limit else None,
+        "unit": unit_of(kf.kind, units),
+        "limit": _f(shown(kf.limit.value)) if kf.limit else None,
         "limit_direction": kf.limit.direction if kf.limit else None,
-        "latest_value": _f(kf.latest_value),
-        "latest_raw": _f(kf.latest_raw),
+        "latest_value": _f(shown(kf.latest_value)),
+        "latest_raw": _f(shown(kf.latest_raw)),
         "latest_on": _d(kf.latest_on),
         "percent_of_limit": _f(kf.percent_of_limit, 1),
         "percent_of_theoretical_flow": _f(kf.percent_of_theoretical, 2),
@@ -85,7 +89,7 @@ def _kind(pf: PumpForecast, kf: KindForecast, planned: PlanLine | None) -> dict:
         "p10_date": _d(kf.p10_date),
         "p50_date": _d(kf.p50_date),
         "p90_date": _d(kf.p90_date),
-        "rate_per_1000h": _f(kf.rate_per_1000h),
+        "rate_per_1000h": _f(shown(kf.rate_per_1000h)),
         "status": status_json(pf.status),
         "flags": sorted(kf.flags),
         "planned_month": month_label(planned.month) if planned and planned.month else None,
@@ -156,8 +160,8 @@ def report_dict(report) -> dict:
         "schema": "logbook.forecast",
         "schema_version": SCHEMA_VERSION,
         "today": report.forecast.today.isoformat(),
-        "units": CANONICAL_UNITS,
-        "provenance": report.provenance.as_dict(),
+        "units": units_json(report.units),
+        "provenance": report.provenance.as_dict(report.units),
         "forecast_date": report.forecast.today.isoformat(),
         "notes": list(report.forecast.notes) + list(report.notes),
         "plan": {
@@ -170,16 +174,18 @@ def report_dict(report) -> dict:
             "on_machine_kinds": [k.value for k in s.on_machine_kinds],
             "probability_model": PROBABILITY_NOTE,
             "shop_load": {month_label(m): n for m, n in sorted(plan.shop_load.items())},
-            "lines": [_line(line) for line in plan.lines],
-            "does_not_fit": [_line(line) for line in plan.unplaced],
+            "lines": [_line(line, report.units) for line in plan.lines],
+            "does_not_fit": [_line(line, report.units) for line in plan.unplaced],
             "test_again_first": [{"serial": r.serial, "model": r.model, "site": r.site, "machine": r.machine,
-                                  "kind": r.kind.value, "unit": r.kind.unit, "set_aside_value": _f(r.reading),
+                                  "kind": r.kind.value, "unit": unit_of(r.kind, report.units),
+                                  "set_aside_value": _f(in_units(r.reading, r.kind, report.units)),
                                   "taken_on": _d(r.taken_on), "trend_outcome": r.trend_outcome.value,
-                                  "why": r.reason} for r in plan.retests],
+                                  "why": retest_reason(r, report.units)} for r in plan.retests],
         },
         "life": [_life(fig) for fig in report.life],
         "costs": _costs(report),
-        "forecasts": [_kind(pf, kf, by_serial.get(pf.serial)) for pf in report.forecast.pumps for kf in pf.kinds],
+        "forecasts": [_kind(pf, kf, by_serial.get(pf.serial), report.units) for pf in report.forecast.pumps
+                      for kf in pf.kinds],
     }
 
 

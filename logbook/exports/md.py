@@ -7,7 +7,9 @@ import re
 from logbook.exports import PROBABILITY_NOTE, safety
 from logbook.exports.common import (
     RETEST_HEADERS,
+    SHOP_LOAD_HEADERS,
     retest_rows,
+    shop_load_rows,
     COST_NOTE,
     PLAN_COLUMNS,
     PUMP_HEADERS,
@@ -63,7 +65,7 @@ def render_md(report) -> str:
     lines = [f"# Overhaul forecast, made {p.made_on.isoformat()}", ""]
     lines += [f"- Database: {esc(p.database)}", f"- Made on: {p.made_on.isoformat()}",
               f"- Program: {esc(p.program)}"]
-    lines += [f"- Limits used, {esc(model)}: {esc(words)}" for model, words in p.limit_lines()]
+    lines += [f"- Limits used, {esc(model)}: {esc(words)}" for model, words in p.limit_lines(report.units)]
     lines += [f"- {esc(note)}" for note in (PROBABILITY_NOTE, *report.forecast.notes, *report.notes)]
     lines += safety.md_lines(esc, p.safety)
     lines += ["", "## Summary", ""] + table(["figure", "value"], [list(row) for row in summary(report)])
@@ -73,15 +75,17 @@ def render_md(report) -> str:
         keys = plan_brief_keys(report.plan)
         lines += table([_HEADERS[k] for k in keys],
                        [[row[k] for k in keys] for row in
-                        (plan_row(line, pumps.get(line.serial)) for line in report.plan.lines)])
+                        (plan_row(line, pumps.get(line.serial), report.units) for line in report.plan.lines)])
     else:
         lines.append("Nothing is due in the plan's months.")
+    lines += ["", "## Shop load per month", ""]
+    lines += table(list(SHOP_LOAD_HEADERS), [list(r) for r in shop_load_rows(report)])
     lines += ["", "## Does not fit", ""]
     if report.plan.unplaced:
         keys = ("target_month", "serial", "model", "site", "reading", "p10_date", "note", "reason")
         lines += table([_HEADERS[k] for k in keys],
                        [[row[k] for k in keys] for row in
-                        (plan_row(line, pumps.get(line.serial)) for line in report.plan.unplaced)])
+                        (plan_row(line, pumps.get(line.serial), report.units) for line in report.plan.unplaced)])
     else:
         lines.append("Every pump that is due fits in the plan.")
     if report.plan.retests:

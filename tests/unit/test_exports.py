@@ -178,7 +178,7 @@ def test_markdown_tables_are_well_formed(report, outputs):
             current = []
     if current:
         blocks.append(current)
-    assert len(blocks) == 5  # summary, plan, does not fit, life, all pumps
+    assert len(blocks) == 6  # summary, plan, shop load, does not fit, life, all pumps
     for block in blocks:
         widths = {len(_md_cells(line)) for line in block}
         assert len(widths) == 1, block[0]
@@ -233,8 +233,9 @@ def test_html_parses_back_self_contained(report, outputs):
             assert value.startswith("#"), (name, value)
     # one chart per planned pump with a fitted trend (D4 is planned but has no fit to draw)
     assert [line.serial for line in report.plan.lines] == [NASTY, "D4", "B<2>&"]
-    assert page.tags.count("svg") == 2 and "D4 (AX90, M-D4): neutral drift: no fitted trend to draw." in text
-    assert page.tags.count("table") == 5
+    # and the shop load per month, as a chart and as a table
+    assert page.tags.count("svg") == 3 and "D4 (AX90, M-D4): neutral drift: no fitted trend to draw." in text
+    assert page.tags.count("table") == 6 and "Shop jobs planned per month" in text
 
 
 def test_html_without_charts_and_unknown_format():
@@ -248,5 +249,5 @@ def test_html_chart_cap_says_how_many_are_shown():
     base = build_report()
     capped = Report(base.forecast, base.plan, base.life, base.provenance, max_charts=1)
     page = render(capped, "html").decode("utf-8")
-    assert page.count("<svg") == 1
+    assert page.count('<figure id="chart-') == 1 and page.count("<svg") == 2  # one trend, the shop load
     assert f"Charts of the first 1 of {len(base.plan.lines)} planned pumps" in page

@@ -90,3 +90,30 @@ def test_format_follows_the_out_suffix(demo_db, tmp_path, capsys):
     assert main(["--db", str(demo_db), "--today", TODAY, "forecast", "--out", str(out), "--capacity", "2"]) == 0
     page = out.read_text(encoding="utf-8")
     assert page.startswith("<!DOCTYPE html>") and f"Made on: {date.fromisoformat(TODAY).isoformat()}" in page
+
+
+@pytest.mark.slow
+def test_units_us_reach_every_forecast_format(demo_db, tmp_path):
+    # Reference: scipy.constants (NIST SP 811): 1 bar = 14.5038 psi, 1 L/min = 0.264172 US gpm
+    from scipy import constants
+
+    factor = {"bar": constants.bar / constants.psi, "L/min": constants.litre / constants.gallon}
+    us_unit = {"bar": "psi", "L/min": "gpm"}
+    docs = {}
+    for units in ("metric", "us"):
+        out = tmp_path / f"plan-{units}.json"
+        assert main(["--units", units, "--db", str(demo_db), "--today", TODAY, "forecast", "--out", str(out),
+                     "--capacity", "2"]) == 0
+        docs[units] = json.loads(out.read_text(encoding="utf-8"))
+    assert docs["us"]["units"]["pressure"] == "psi" and docs["us"]["units"]["flow"] == "gpm"
+    pairs = list(zip(docs["metric"]["forecasts"], docs["us"]["forecasts"]))
+    assert pairs and all(u["unit"] == us_unit[m["unit"]] for m, u in pairs)
+    for m, u in pairs:
+        if m["latest_value"] is not None:
+            assert u["latest_value"] == pytest.approx(m["latest_value"] * factor[m["unit"]], rel=1e-3, abs=1e-3)
+    for fmt in ("csv", "md", "html"):
+        out = tmp_path / f"plan-us.{fmt}"
+        assert main(["--units", "us", "--db", str(demo_db), "--today", TODAY, "forecast", "--out", str(out),
+                     "--capacity", "2"]) == 0
+        text = out.read_text(encoding="utf-8-sig")
+        assert " psi" in text and " gpm" in text and " L/min" not in text, fmt
