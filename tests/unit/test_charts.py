@@ -196,7 +196,9 @@ def test_no_limit_and_endless_band_still_draw_inside_the_plot():
     assert np.allclose(to_y([float(c.get("cy")) for c in dots]), d.readings_y, atol=per_px_y)
 
 
-def _forecast():
+@pytest.fixture(scope="module")
+def forecasted():
+    """(fleet, its forecast, today) of a small invented fleet, through the engine."""
     from logbook.analysis.fleet import forecast_fleet
     from tests.unit.test_forecast import TODAY, small_fleet
 
@@ -204,11 +206,12 @@ def _forecast():
     return fleet, forecast_fleet(fleet, TODAY), TODAY
 
 
-def test_bands_batched_across_charts_equal_the_bands_one_by_one():
+@pytest.mark.slow
+def test_bands_batched_across_charts_equal_the_bands_one_by_one(forecasted):
     # one call of the forecast's path mixture for every chart of a page gives each chart's own band
     from logbook.exports.charts import chart_data, charts_data
 
-    _, forecast, today = _forecast()
+    _, forecast, today = forecasted
     kfs = [k for p in forecast.pumps for k in p.kinds] + [None]
     rates = [p.hours_per_day for p in forecast.pumps for _ in p.kinds] + [None]
     batched = charts_data(kfs, today, rates)
@@ -221,10 +224,11 @@ def test_bands_batched_across_charts_equal_the_bands_one_by_one():
                 assert np.allclose(a, b, rtol=1e-9, atol=0, equal_nan=True)
 
 
-def test_chart_calendar_puts_readings_on_their_dates_and_the_median_at_the_p50_date():
+@pytest.mark.slow
+def test_chart_calendar_puts_readings_on_their_dates_and_the_median_at_the_p50_date(forecasted):
     from logbook.exports.charts import chart_data
 
-    fleet, forecast, today = _forecast()
+    fleet, forecast, today = forecasted
     pump = forecast.pump("S1")
     kf = pump.kinds[0]
     d = chart_data(kf, today, pump.hours_per_day)
@@ -241,13 +245,14 @@ def test_chart_calendar_puts_readings_on_their_dates_and_the_median_at_the_p50_d
     assert np.all(np.diff(d.x) > 0)
 
 
-def test_chart_values_in_us_units():
+@pytest.mark.slow
+def test_chart_values_in_us_units(forecasted):
     # Reference: scipy.constants (gallon, litre, minute; NIST SP 811): 1 US gal = 3.785411784 L
     from scipy import constants
 
     from logbook.exports.charts import chart_data
 
-    _, forecast, today = _forecast()
+    _, forecast, today = forecasted
     pump = forecast.pump("S1")
     kf = pump.kinds[0]
     metric, us = chart_data(kf, today, pump.hours_per_day), chart_data(kf, today, pump.hours_per_day, "gpm")
