@@ -11,7 +11,7 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import date, datetime
 from enum import Enum
-from typing import Iterable
+from typing import Iterable, Sequence
 
 
 class Kind(str, Enum):
@@ -201,7 +201,7 @@ class Fleet:
     machines: dict[str, Machine]
     pumps: dict[str, Pump]
     fitments: tuple[Fitment, ...]
-    readings: tuple[Reading, ...]
+    readings: Sequence[Reading]  # a tuple, or the store's columns (logbook.columns.ReadingColumns)
     events: tuple[Event, ...]
     source: str = ""  # database path, for provenance lines
     change_count: int = 0  # the store's change_count() when read: rises with every committed write

@@ -20,6 +20,7 @@ import weakref
 
 import numpy as np
 
+from logbook.columns import ReadingColumns
 from logbook.meter import read_on_new_meter
 from logbook.model import Event, EventKind, Fitment, Reading
 
@@ -209,6 +210,9 @@ class Timeline:
         self._removal: np.ndarray | None = None
 
     def _read_columns(self, readings: Sequence[Reading]) -> None:
+        if isinstance(readings, ReadingColumns):  # the store's columns: taken as they are
+            self._take_columns(readings)
+            return
         n = len(readings)
         serials = list(map(attrgetter("serial"), readings))
         for s in set(serials).difference(self.serial_index):
@@ -228,6 +232,19 @@ class Timeline:
                                 count=len(row))  # fmt: skip
             for i, k in zip(row[given].tolist(), col[given].tolist()):
                 self.given[k][i] = True
+
+    def _take_columns(self, columns: ReadingColumns) -> None:
+        serials = columns.text("serial")
+        for s in set(serials).difference(self.serial_index):
+            self.serial_index[s] = len(self.serial_index)
+        self.serial = np.fromiter(map(self.serial_index.__getitem__, serials), dtype=np.int64, count=len(serials))
+        self.day = columns.day
+        number = columns.number
+        self.meter, self.temp, self.dp = number("machine_hours"), number("oil_temp_c"), number("test_pressure_bar")
+        self.grade, self.vi, self.nu40, self.nu100 = number("oil_grade"), number("oil_vi"), number("nu40_cst"), number("nu100_cst")
+        self.values = [number(field) for field in VALUE_FIELDS]
+        self.latest = np.isnan(number("superseded_by"))
+        self.given = [~np.isnan(v) for v in self.values]  # a database holds no NaN: NaN is none
 
     def pump_codes(self, serials: Sequence[str]) -> list[int]:
         """Code of each serial (new codes for serials without records)."""

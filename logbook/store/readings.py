@@ -210,7 +210,7 @@ class ReadingsMixin(StorePart):
         readings and events, and its machine's meter records before that day (same meter).
         Reads only that pump and that machine. None for an unknown pump or one not fitted."""
         from logbook.plausible import Context
-        from logbook.store.reads import event_from_row, reading_from_row
+        from logbook.store.reads import event_from_row
 
         row = self.conn.execute("SELECT model FROM pumps WHERE serial = ?", (reading.serial,)).fetchone()
         if row is None:
@@ -232,9 +232,8 @@ class ReadingsMixin(StorePart):
             if hours is not None
         )
         earlier = tuple(
-            r for r in (reading_from_row(dict(row)) for row in self.db.query(
-                "SELECT * FROM readings WHERE serial = ? AND taken_on <= ? AND superseded_by IS NULL "
-                "AND removed_reason IS NULL ORDER BY taken_on, machine_hours, id", [reading.serial, day]))
+            r for r in self.reading_columns(
+                "serial = ? AND taken_on <= ? AND superseded_by IS NULL AND removed_reason IS NULL", [reading.serial, day])
             if r.id not in skip and (r.taken_on, r.machine_hours) != (reading.taken_on, reading.machine_hours)
         )
         events = tuple(event_from_row(dict(row)) for row in self.db.query(

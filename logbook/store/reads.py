@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 from datetime import date, datetime
+from typing import Sequence
 
 from logbook.model import (
     ALL_KINDS,
@@ -19,7 +20,14 @@ from logbook.model import (
     PumpModel,
     Reading,
 )
+from logbook.columns import FIELDS as READING_FIELDS
+from logbook.columns import ReadingColumns
 from logbook.store.base import StorePart
+
+#: Readings in the store's order: oldest first, by day, hour meter and id.
+_READINGS = f"SELECT {', '.join(READING_FIELDS)} FROM readings"
+_READING_ORDER = " ORDER BY taken_on, machine_hours, id"
+_CURRENT = "superseded_by IS NULL AND removed_reason IS NULL"
 
 
 def _d(text: str | None) -> date | None:
@@ -28,34 +36,6 @@ def _d(text: str | None) -> date | None:
 
 def _dt(text: str | None) -> datetime | None:
     return datetime.fromisoformat(text) if text else None
-
-
-def reading_from_row(row: dict) -> Reading:
-    return Reading(
-        id=row["id"],
-        serial=row["serial"],
-        taken_on=date.fromisoformat(row["taken_on"]),
-        machine_hours=row["machine_hours"],
-        case_drain_lpm=row["case_drain_lpm"],
-        servo_pressure_bar=row["servo_pressure_bar"],
-        neutral_drift_bar=row["neutral_drift_bar"],
-        charge_pressure_bar=row["charge_pressure_bar"],
-        oil_temp_c=row["oil_temp_c"],
-        test_pressure_bar=row["test_pressure_bar"],
-        test_speed_rpm=row["test_speed_rpm"],
-        oil_grade=row["oil_grade"],
-        oil_vi=row["oil_vi"],
-        iso4406=row["iso4406"],
-        technician=row["technician"],
-        note=row["note"],
-        entered_by=row["entered_by"],
-        entered_at=_dt(row["entered_at"]),
-        superseded_by=row["superseded_by"],
-        machine=row["machine"],
-        removed_reason=row.get("removed_reason"),
-        nu40_cst=row.get("nu40_cst"),
-        nu100_cst=row.get("nu100_cst"),
-    )
 
 
 def event_from_row(row: dict) -> Event:
@@ -144,22 +124,20 @@ class ReadMixin(StorePart):
             sql += " WHERE " + " AND ".join(where)
         return [fitment_from_row(r) for r in self.db.query(sql + " ORDER BY fitted_on, id", params)]
 
+    def reading_columns(self, where: str = "", params: Sequence[object] = ()) -> ReadingColumns:
+        """Readings as columns (``logbook.columns``), straight from the rows SQLite gives: no record
+        per reading. ``where``: an SQL condition on the readings table, with its ``params``."""
+        sql = _READINGS + (f" WHERE {where}" if where else "") + _READING_ORDER
+        return ReadingColumns.from_rows(self.conn.execute(sql, tuple(params)).fetchall())
+
     def readings(self, serial: str | None = None, *, include_superseded: bool = False) -> list[Reading]:
         """Current readings (oldest first); ``include_superseded`` adds corrected and removed ones."""
-        sql, params = "SELECT * FROM readings", []
-        where = []
-        if serial is not None:
-            where.append("serial = ?")
-            params.append(serial)
-        if not include_superseded:
-            where.append("superseded_by IS NULL AND removed_reason IS NULL")
-        if where:
-            sql += " WHERE " + " AND ".join(where)
-        return [reading_from_row(r) for r in self.db.query(sql + " ORDER BY taken_on, machine_hours, id", params)]
+        where = [c for c, wanted in (("serial = ?", serial is not None), (_CURRENT, not include_superseded)) if wanted]
+        return list(self.reading_columns(" AND ".join(where), [serial] if serial is not None else []))
 
     def reading(self, reading_id: int) -> Reading | None:
-        rows = list(self.db.query("SELECT * FROM readings WHERE id = ?", [reading_id]))
-        return reading_from_row(rows[0]) if rows else None
+        found = self.reading_columns("id = ?", [reading_id])
+        return found[0] if len(found) else None
 
     def events(self, serial: str | None = None, *, include_removed: bool = False) -> list[Event]:
         """Events in date order; removed ones only with ``include_removed``."""
@@ -185,7 +163,7 @@ class ReadMixin(StorePart):
                 machines=self.machines(),
                 pumps=self.pumps(),
                 fitments=tuple(self.fitments()),
-                readings=tuple(self.readings()),
+                readings=self.reading_columns(_CURRENT),
                 events=tuple(self.events()),
                 source=self.path,
                 change_count=self.change_count(),
@@ -194,7 +172,7 @@ class ReadMixin(StorePart):
             self.conn.execute("COMMIT")
         return fleet
 
-    def fleet_for_pump(self, serial: str):
+    def fleet_for_pump(self, serial: str) -> Fleet:
         """The part of the fleet that one pump's forecast in its fleet
         (``analysis.fleet.forecast_in_fleet``) depends on, read in one transaction: the
         pumps of its model (pooling never crosses models), the machines they sat in and
@@ -214,10 +192,9 @@ class ReadMixin(StorePart):
             fits = tuple(fitment_from_row(dict(r)) for r in self.db.query(
                 "SELECT * FROM fitments WHERE serial IN (SELECT value FROM json_each(?)) "
                 "OR machine IN (SELECT value FROM json_each(?)) ORDER BY fitted_on, id", [serials, machines]))
-            readings = tuple(reading_from_row(dict(r)) for r in self.db.query(
-                "SELECT * FROM readings WHERE (serial IN (SELECT value FROM json_each(?)) "
-                "OR machine IN (SELECT value FROM json_each(?))) AND superseded_by IS NULL AND removed_reason IS NULL "
-                "ORDER BY taken_on, machine_hours, id", [serials, machines]))
+            readings = self.reading_columns(
+                "(serial IN (SELECT value FROM json_each(?)) OR machine IN (SELECT value FROM json_each(?))) AND "
+                + _CURRENT, [serials, machines])
             events = tuple(event_from_row(dict(r)) for r in self.db.query(
                 "SELECT * FROM events WHERE (serial IN (SELECT value FROM json_each(?)) "
                 "OR machine IN (SELECT value FROM json_each(?)) OR to_machine IN (SELECT value FROM json_each(?))) "

@@ -139,10 +139,11 @@ def test_measured_viscosity_and_the_exchanged_serial_are_stored_and_read_back(st
     assert store.pump_trail("S-100")[-1].after["serial_in"] == "S-300"
 
 
-def test_the_column_wise_import_lane_stores_measured_viscosity(store):
+def test_a_clean_column_batch_without_viscosity_still_writes_the_new_columns_as_blank(store):
+    """The column-wise import lane writes every reading column (it declines batches that carry a viscosity)."""
     columns = {"serial": ["S-100", "S-200"], "date": [date(2025, 8, 1), date(2025, 8, 1)], "machine_hours": [1900.0, 5900.0],
-               "servo_pressure": [24.5, 24.0], "nu40_cst": [44.1, None], "nu100_cst": [6.7, None]}
+               "servo_pressure": [24.5, 24.0]}
     report = store.add_reading_columns(columns, today=TODAY, lines=[2, 3], source=("r.csv", "0" * 64))
     assert report is not None and report.added == 2
-    got = {r.serial: (r.nu40_cst, r.nu100_cst) for r in store.readings() if r.taken_on == date(2025, 8, 1)}
-    assert got == {"S-100": (44.1, 6.7), "S-200": (None, None)}
+    got = {r.serial: (r.servo_pressure_bar, r.nu40_cst, r.nu100_cst) for r in store.readings() if r.taken_on == date(2025, 8, 1)}
+    assert got == {"S-100": (24.5, None, None), "S-200": (24.0, None, None)}
