@@ -12,7 +12,9 @@ def register(sub) -> None:
     p = sub.add_parser(
         "event",
         help="record an event: " + ", ".join(k.value for k in EventKind),
-        description="overhaul/exchange restart every trend of the pump; neutral_reset restarts neutral drift; "
+        description="overhaul/exchange restart every trend of the pump; exchange --serial-in S names the pump that "
+        "went in: it is fitted in the same machine and position from --date (its hours count on from there) and the "
+        "pump that came out is removed; neutral_reset restarts neutral drift; "
         "control_repair restarts servo pressure and neutral drift; move needs --to-machine, --to-position, --to-hours; "
         "meter_replaced takes --machine instead of a serial, --hours (old meter's last) and --to-hours (new meter's first); "
         "parked (the machine stands from --date: its pumps run no hours) and back_in_service (it runs again) take "
@@ -26,6 +28,8 @@ def register(sub) -> None:
     p.add_argument("--to-machine", default=None)
     p.add_argument("--to-position", default=None)
     p.add_argument("--to-hours", default=None)
+    p.add_argument("--serial-in", default=None, metavar="SERIAL",
+                   help="exchange: serial of the pump fitted in place of the one that came out")
     p.add_argument("--technician", default="")
     p.add_argument("--note", default="")
     add_confirm(p)
@@ -51,11 +55,13 @@ def run(args, ctx) -> int:
     machine = take(validate.parse_name("machine", args.machine, required=False))
     to_machine = take(validate.parse_name("to_machine", args.to_machine, required=False))
     to_position = take(validate.parse_name("to_position", args.to_position, required=False))
+    serial_in = take(validate.parse_name("serial_in", args.serial_in, required=False))
     if problems:
         raise InputRejected(problems)
     event = Event(
         id=None, kind=kind, happened_on=happened_on, serial=serial, machine=machine, hours=hours,
         to_machine=to_machine, to_position=to_position, to_hours=to_hours, technician=args.technician, note=args.note,
+        serial_in=serial_in,
     )
     with ctx.open_store() as store:
         report = store.add_events([event], today=ctx.today, dry_run=True)
@@ -65,5 +71,7 @@ def run(args, ctx) -> int:
             return 2
         saved = store.add_event(event, today=ctx.today)
     where = f" on {saved.machine}" if saved.machine else ""
-    ctx.console.print(f"recorded {saved.kind.value} {saved.serial or ''}{where} on {saved.happened_on} (event {saved.id})", markup=False)
+    went_in = f"; {saved.serial_in} fitted in its place" if saved.serial_in else ""
+    ctx.console.print(f"recorded {saved.kind.value} {saved.serial or ''}{where} on {saved.happened_on} (event {saved.id})"
+                      f"{went_in}", markup=False)
     return 0

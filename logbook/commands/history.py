@@ -7,7 +7,7 @@ from logbook import fmt
 _NOISE = {"id", "entered_at", "entered_by", "import_id"}
 _KEY_FIELDS = {
     "readings": ("taken_on", "machine_hours", "case_drain_lpm", "servo_pressure_bar", "neutral_drift_bar"),
-    "events": ("kind", "happened_on", "machine", "hours", "to_machine", "to_position", "to_hours"),
+    "events": ("kind", "happened_on", "machine", "hours", "to_machine", "to_position", "to_hours", "serial_in"),
     "fitments": ("machine", "position", "fitted_on", "removed_on"),
     "pumps": ("serial", "model"),
     "models": ("code", "limits"),

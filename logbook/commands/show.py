@@ -59,7 +59,8 @@ def run(args, ctx) -> int:
         cols = [Col("date", 0), Col("event", 1), Col("machine", 3), Col("hours", 4, justify="right"),
                 Col("note", 2, wrap=True, keep=True)]
         for e in history.events:
-            _add(cols, fmt.day(e.happened_on), e.kind.value.replace("_", " "), e.machine or "", fmt.hours(e.hours), e.note)
+            words = e.kind.value.replace("_", " ") + (f", {e.serial_in} went in" if e.serial_in else "")
+            _add(cols, fmt.day(e.happened_on), words, e.machine or "", fmt.hours(e.hours), e.note)
         c.print(fit(c, cols, title="events", more="--format json has them all")[0])
     flow, pressure = u.flow, u.pressure
     cols = [Col("id", 1, justify="right"), Col("date", 0), Col("machine", 9), Col("meter h", 2, justify="right"),

@@ -180,7 +180,7 @@ def show_json(history, readings, forecast, today: date, prefs: UnitPrefs) -> dic
                       "removed_on": _d(f.removed_on), "machine_hours_at_fit": _f(f.machine_hours_at_fit, 1),
                       "pump_hours_at_fit": _f(f.pump_hours_at_fit, 1)} for f in history.fitments],
         "events": [{"happened_on": _d(e.happened_on), "kind": e.kind.value, "machine": e.machine,
-                    "hours": _f(e.hours, 1), "note": e.note} for e in history.events],
+                    "hours": _f(e.hours, 1), "serial_in": e.serial_in, "note": e.note} for e in history.events],
         "readings": [reading_json(r, prefs) for r in readings],
         "forecast": [kind_json(kf, prefs) for kf in forecast.kinds],
     }

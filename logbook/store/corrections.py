@@ -119,7 +119,8 @@ class CorrectionsMixin(StorePart):
         return saved
 
     def remove_event(self, event_id: int, *, reason: str) -> Event:
-        """Mark an event removed. A move also gives back the pump's old fitment; it is
+        """Mark an event removed. A move, or an exchange that names the pump that went in, also gives
+        back the old fitment (and takes away the new one); it is
         refused while later records rest on it. A meter replacement is refused while
         later hour-meter records of the machine were read from the new meter."""
         why = _reason(reason)
@@ -131,6 +132,8 @@ class CorrectionsMixin(StorePart):
                 raise InputRejected([Problem("event", event_id, f"was already removed ({old.removed_reason})")])
             if old.kind is EventKind.MOVE:
                 self._undo_move(old, why)
+            elif old.kind is EventKind.EXCHANGE and old.serial_in is not None:
+                self._undo_exchange(old, why)
             elif old.kind is EventKind.METER_REPLACED:
                 later = self._records_on_or_after(old.machine, old.happened_on, exclude_event=old.id)
                 if later:
@@ -161,6 +164,45 @@ class CorrectionsMixin(StorePart):
         ).fetchone()[0]
         parts = [f"{n} {what}" for n, what in ((n_readings, "reading(s)"), (n_events, "event(s)"), (n_fits, "fitment(s)")) if n]
         return ", ".join(parts)
+
+    def _undo_exchange(self, e: Event, why: str) -> None:
+        """Delete the fitment an exchange opened for the pump that went in and reopen the one it
+        closed (both audited); refused while later records of the pump that went in rest on it."""
+        day = e.happened_on.isoformat()
+        problems = []
+        n_read = self.conn.execute(
+            "SELECT count(*) FROM readings WHERE serial = ? AND taken_on >= ? AND superseded_by IS NULL "
+            "AND removed_reason IS NULL", (e.serial_in, day)).fetchone()[0]
+        if n_read:
+            problems.append(f"{n_read} reading(s) of {e.serial_in} were taken after it went in")
+        n_events = self.conn.execute(
+            "SELECT count(*) FROM events WHERE serial = ? AND happened_on >= ? AND id != ? AND removed_reason IS NULL",
+            (e.serial_in, day, e.id)).fetchone()[0]
+        if n_events:
+            problems.append(f"{n_events} event(s) of {e.serial_in} happened after it went in")
+        fits_in = [fitment_from_row(dict(r)) for r in self.db.query(
+            "SELECT * FROM fitments WHERE serial = ? ORDER BY fitted_on, id", [e.serial_in])]
+        opened = [f for f in fits_in if f.fitted_on == e.happened_on and f.machine == e.machine]
+        if not opened or opened[-1] is not fits_in[-1] or opened[-1].removed_on is not None:
+            problems.append(f"pump {e.serial_in} has been moved since (or its fitment record is missing; run "
+                            "`logbook check`)")
+        fits_out = [fitment_from_row(dict(r)) for r in self.db.query(
+            "SELECT * FROM fitments WHERE serial = ? ORDER BY fitted_on, id", [e.serial])]
+        closed = [f for f in fits_out if f.removed_on == e.happened_on and f.machine == e.machine]
+        if closed and any(f.fitted_on >= e.happened_on for f in fits_out if f is not closed[-1]):
+            problems.append(f"pump {e.serial} has been fitted elsewhere since")
+        if problems:
+            raise InputRejected([Problem(
+                "event", e.id, "is an exchange that later records depend on: " + "; ".join(problems) + ". Remove those first",
+            )])
+        new_fit = opened[-1]
+        self.conn.execute("DELETE FROM fitments WHERE id = ?", (new_fit.id,))
+        self._audit("remove", "fitments", new_fit.id, e.serial_in, dataclasses.asdict(new_fit), None, why)
+        if closed:
+            c = closed[-1]
+            reopened = dataclasses.replace(c, removed_on=None, machine_hours_at_removal=None)
+            self.conn.execute("UPDATE fitments SET removed_on = NULL, machine_hours_at_removal = NULL WHERE id = ?", (c.id,))
+            self._audit("update", "fitments", c.id, e.serial, dataclasses.asdict(c), dataclasses.asdict(reopened), why)
 
     def _undo_move(self, e: Event, why: str) -> None:
         """Delete the fitment a move opened and reopen the one it closed (both audited)."""

@@ -22,12 +22,13 @@ EVENT_COLUMNS = (
 ).split()
 _INSERT_EVENT = f"INSERT INTO events ({', '.join(EVENT_COLUMNS)}) VALUES ({', '.join('?' * len(EVENT_COLUMNS))})"
 
-_DESTINATION = ("to_machine", "to_position", "to_hours")
+_DESTINATION = ("to_machine", "to_position", "to_hours", "serial_in")
 
 
 def _destination(e: Event) -> tuple:
-    """Where a move or a meter replacement went (with the key, an event's identity)."""
-    return (e.to_machine, e.to_position, e.to_hours)
+    """Where a move or a meter replacement went, which pump an exchange fitted (with the key, an
+    event's identity)."""
+    return (e.to_machine, e.to_position, e.to_hours, e.serial_in)
 
 
 class EventsMixin(StorePart):
@@ -159,6 +160,12 @@ class EventsMixin(StorePart):
                         errs += self._check_move(e, machines, fits, current, timeline)
                         if not errs:
                             closed, opened = self._move_fitments(e, current, fits, reps)
+                    if e.serial_in is not None:  # an exchange that names the pump that went in
+                        errs += self._check_exchange(e, pumps, fits, current)
+                        if not errs and current is not None:
+                            closed, opened = self._exchange_fitments(e, current, fits, reps)
+            if e.serial_in is not None and e.kind is not EventKind.EXCHANGE:
+                errs.append(Problem("serial_in", e.serial_in, f"is only taken by an exchange, not by {e.kind.value}"))
             errs += _text_problems(e.technician, e.note)
             e = dataclasses.replace(e, machine=machine)
             key = (e.kind, e.happened_on, e.serial, e.machine, e.hours, *_destination(e))
@@ -168,8 +175,9 @@ class EventsMixin(StorePart):
             if errs:
                 problems += _with_line(errs, line)
                 continue
-            if opened is not None:
-                fits[e.serial] = [closed if f is current else f for f in fits.get(e.serial, [])] + [opened]
+            if opened is not None:  # a move's pump, or the pump an exchange fitted, gets its new fitment
+                fits[e.serial] = [closed if f is current else f for f in fits.get(e.serial, [])]
+                fits[opened.serial] = fits.get(opened.serial, []) + [opened]
             if e.hours is not None and machine and e.kind is not EventKind.METER_REPLACED:
                 timeline(machine).add(e.happened_on, e.hours)
             if e.kind is EventKind.MOVE:
@@ -226,6 +234,61 @@ class EventsMixin(StorePart):
         if p:
             errs.append(p)
         return errs
+
+    def _check_exchange(self, e: Event, pumps, fits, current: Fitment | None) -> list[Problem]:
+        """An exchange that names the pump that went in: that pump is known, is another one, and sat
+        in no machine that day or later; the pump that came out sat in a machine that day and was
+        not read, moved or fitted elsewhere after it (those records rest on where it sat)."""
+        b, day = e.serial_in, e.happened_on
+        if b not in pumps:
+            return [Problem("serial_in", b, "must be a known pump serial (add the pump that went in first: "
+                            "`logbook import pumps`)")]
+        if b == e.serial:
+            return [Problem("serial_in", b, "must be another pump than the one that came out; an overhaul "
+                            "keeps the same pump in place")]
+        errs = []
+        if current is None:
+            errs.append(Problem("date", day.isoformat(), f"pump {e.serial} sat in no machine that day: an exchange "
+                                "takes it out of its place"))
+        elif current.removed_on is not None:
+            errs.append(Problem("date", day.isoformat(), f"pump {e.serial} left {current.machine} on "
+                                f"{current.removed_on}; an exchange before that would leave two records of its removal"))
+        held = meter.fitment_on(fits.get(b, []), day)
+        later = [f for f in fits.get(b, []) if f.fitted_on > day]
+        if held is not None:
+            errs.append(Problem("serial_in", b, f"sat in {held.machine} on {day}: record its move out of it first"))
+        elif later:
+            errs.append(Problem("serial_in", b, f"was fitted to {later[0].machine} on {later[0].fitted_on}, after "
+                                "the exchange: it cannot also be in this place from that day"))
+        if current is not None:
+            moved = [f for f in fits.get(e.serial, []) if f.fitted_on > day]
+            read = self.conn.execute(
+                "SELECT count(*), min(taken_on) FROM readings WHERE serial = ? AND taken_on > ? "
+                "AND superseded_by IS NULL AND removed_reason IS NULL", (e.serial, day.isoformat())).fetchone()
+            if read[0]:
+                errs.append(Problem("date", day.isoformat(), f"{read[0]} reading(s) of {e.serial} from {read[1]} on "
+                                    f"were taken in {current.machine} after it; correct the date or remove them first"))
+            if moved:
+                errs.append(Problem("date", day.isoformat(), f"pump {e.serial} was fitted to {moved[0].machine} on "
+                                    f"{moved[0].fitted_on}; record the exchange before that or remove the later move"))
+        return errs
+
+    def _exchange_fitments(self, e: Event, current: Fitment, fits, reps) -> tuple[Fitment, Fitment]:
+        """The fitment the exchange closes (the pump that came out, removed that day at that meter
+        reading) and the one it opens: the pump that went in, in the same machine and position from
+        that day, its own hours counting on from its last removal with a meter reading (0 for a
+        pump never fitted), the machine's meter as its fitting reading."""
+        closed = dataclasses.replace(current, removed_on=e.happened_on, machine_hours_at_removal=e.hours)
+        hours_in = 0.0
+        past = [f for f in fits.get(e.serial_in, []) if f.removed_on is not None and f.machine_hours_at_removal is not None]
+        if past:
+            last = past[-1]
+            hours_in = meter.pump_hours(last.machine_hours_at_removal, last.removed_on, last, reps.get(last.machine, []))
+        opened = Fitment(
+            id=None, serial=e.serial_in, machine=current.machine, position=current.position, fitted_on=e.happened_on,
+            removed_on=None, machine_hours_at_fit=e.hours, pump_hours_at_fit=round(hours_in, 3),
+        )
+        return closed, opened
 
     def _move_fitments(self, e: Event, current: Fitment | None, fits, reps) -> tuple[Fitment | None, Fitment]:
         if current is not None:
