@@ -237,7 +237,9 @@ h2{margin:.8em 0 .2em;font-size:13pt;break-after:avoid}h3{margin:.5em 0 0;font-s
 p.facts{margin:.1em 0;font-size:9pt}
 section.pump{break-inside:avoid;margin-bottom:.6em}
 @page{size:auto;margin:10mm 12mm}
-@media print{body{margin:0;max-width:none;font-size:10pt}h2+section.pump{break-before:avoid}}"""
+@media print{body{margin:0;max-width:none;font-size:10pt}h2+section.pump{break-before:avoid}
+table.values td,table.values th{font-size:8pt;padding:.05em .25em;line-height:1.15}p.facts{font-size:8pt}
+table{margin:.1em 0 .25em}h3{margin:.3em 0 0}section.pump{margin-bottom:.3em}}"""
 
 #: form_rows rows shown side by side (a column each), and the ones shown as a line each
 _SIDE_BY_SIDE = 7

@@ -5,7 +5,9 @@ PDF by headless Chromium on A4 and on US Letter, then read back word by word wit
 - a word lies outside its page (a table or chart clipped at the page edge),
 - a serial, a date or an ISO 4406 code of the HTML is missing from the PDF as one word
   (broken at a hyphen across two lines, or clipped away),
-- a section or machine heading is the last thing on its page (stranded from its content).
+- a section or machine heading is the last thing on its page (stranded from its content),
+- two words overlap on a page (chart labels on top of each other: the glyph boxes Chromium
+  printed, as ``pdftotext -bbox`` reads them back, intersect by more than a sliver).
 
 It prints pages per paper size and, for the round sheet, pumps per page.
 
@@ -89,6 +91,20 @@ def headings(page: Path) -> list[str]:
     return [html.unescape(re.sub(r"<[^>]+>", "", h)) for h in re.findall(r"<h[23][^>]*>(.*?)</h[23]>", page.read_text())]
 
 
+def overlapping(words, sliver: float = 0.6) -> list[tuple[str, str]]:
+    """Pairs of words on one page whose boxes intersect by more than ``sliver`` pt both ways
+    (neighbouring words of one line touch, they do not overlap)."""
+    boxes = sorted(words)
+    out = []
+    for i, (x0, y0, x1, y1, text) in enumerate(boxes):
+        for a0, b0, a1, b1, other in boxes[i + 1:]:
+            if a0 >= x1 - sliver:
+                break  # sorted by left edge: no later word reaches back into this one
+            if min(x1, a1) - max(x0, a0) > sliver and min(y1, b1) - max(y0, b0) > sliver:
+                out.append((text, other))
+    return out
+
+
 def check(page: Path, paper: str, folder: Path) -> tuple[list[str], int]:
     pdf = folder / f"{page.stem}-{paper}.pdf"
     to_pdf(page, paper, pdf)
@@ -106,6 +122,8 @@ def check(page: Path, paper: str, folder: Path) -> tuple[list[str], int]:
             for heading in headings(page):
                 if " ".join(heading.split()) == last and n < len(pages):
                     problems.append(f"{paper} page {n}: heading {heading!r} is the last line of the page")
+    problems += [f"{paper} page {n}: {a!r} and {b!r} overlap" for n, (_, _, words) in enumerate(pages, start=1)
+                 for a, b in overlapping(words)]
     for token, count in html_tokens(page).items():
         if seen[token] < count:
             problems.append(f"{paper}: {token!r} shows {seen[token]} of {count} times whole in the PDF (broken or clipped)")
