@@ -5,6 +5,7 @@ that repeats a stored reading or event from a new one."""
 from __future__ import annotations
 
 import dataclasses
+import sqlite3
 from typing import Callable, Sequence
 
 from logbook.model import Problem
@@ -20,6 +21,12 @@ class Checked:
     items: list
     present: int = 0
     notes: list[str] = dataclasses.field(default_factory=list)  # per line: present rows worth a word
+
+
+def _row_id(cursor: sqlite3.Cursor) -> int:
+    """The id of the row an INSERT just wrote (SQLite sets it for every insert)."""
+    assert cursor.lastrowid is not None
+    return cursor.lastrowid
 
 
 def _line(lines: Sequence[int] | None, i: int) -> int | None:

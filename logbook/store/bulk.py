@@ -81,7 +81,7 @@ class BulkMixin(StorePart):
         rows_of = defaultdict(list)
         for i, s in enumerate(serials):
             rows_of[s].append(i)
-        machine_of = [None] * n
+        machine_of: list[str | None] = [None] * n  # every row gets its machine, or the batch is declined
         for s, rows in rows_of.items():
             held = fits.get(s, [])
             if len(held) == 1:  # the common case: one fitment covers every row of the pump
@@ -93,10 +93,10 @@ class BulkMixin(StorePart):
                     machine_of[i] = f.machine
             else:
                 for i in rows:
-                    f = meter.fitment_on(held, dates[i])
-                    if f is None:
+                    holder = meter.fitment_on(held, dates[i])
+                    if holder is None:
                         raise _Declined
-                    machine_of[i] = f.machine
+                    machine_of[i] = holder.machine
         given = columns.get("machine")
         if given is not None and any(g is not None and g != m for g, m in zip(given, machine_of)):
             raise _Declined
@@ -138,10 +138,10 @@ class BulkMixin(StorePart):
             if pressure is not None and pressure > m.rated_pressure_bar * 1.25:
                 raise _Declined
 
-    def _check_meters(self, machine_of: list[str], isos: list[str], hours: list[float]) -> None:
+    def _check_meters(self, machine_of: Sequence[str | None], isos: list[str], hours: list[float]) -> None:
         """Per machine and meter era, every record (stored and new) sorted by date reads
         no fewer hours than the one before: then no new record makes the meter run backwards."""
-        new_points = defaultdict(list)
+        new_points: defaultdict[str | None, list[tuple[str, float]]] = defaultdict(list)
         for m, day, h in zip(machine_of, isos, hours):
             new_points[m].append((day, h))
         for machine, points in new_points.items():

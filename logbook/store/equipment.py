@@ -20,7 +20,7 @@ from logbook.model import (
     PumpModel,
 )
 from logbook.store.base import StorePart
-from logbook.store.batches import Checked, _line, _shown, _with_line
+from logbook.store.batches import Checked, _line, _row_id, _shown, _with_line
 from logbook.validate import check_hour_meter
 
 MODEL_COLUMNS = (
@@ -284,4 +284,4 @@ class EquipmentMixin(StorePart):
             ),
         )
         self._audit("insert", "fitments", cur.lastrowid, fit.serial, None, dataclasses.asdict(fit))
-        return int(cur.lastrowid)
+        return _row_id(cur)

@@ -128,6 +128,6 @@ class MetersMixin(StorePart):
     def _replacements(self) -> dict[str, list[Event]]:
         by_machine: dict[str, list[Event]] = defaultdict(list)
         for e in self.events():
-            if e.kind is EventKind.METER_REPLACED:
+            if e.kind is EventKind.METER_REPLACED and e.machine is not None:  # a replacement names its machine
                 by_machine[e.machine].append(e)
         return by_machine

@@ -6,12 +6,12 @@ from __future__ import annotations
 import dataclasses
 import json
 from datetime import date
-from typing import Sequence
+from typing import Iterable, Sequence
 
 from logbook import meter
 from logbook.model import ImportReport, InputRejected, Problem, Reading
 from logbook.store.base import StorePart
-from logbook.store.batches import _ID_AT, Checked, _line, _repeats, _shown, _text_hint, _text_problems, _with_line
+from logbook.store.batches import _ID_AT, Checked, _line, _repeats, _row_id, _shown, _text_hint, _text_problems, _with_line
 from logbook.store.meters import _METER_POINTS
 from logbook.validate import check_hour_meter, check_reading_against_model
 
@@ -76,6 +76,7 @@ class ReadingsMixin(StorePart):
                   "CASE WHEN superseded_by IS NOT NULL THEN 'corrected' WHEN removed_reason IS NOT NULL THEN 'removed' END "
                   "FROM readings WHERE ")
         current = "" if kept else " AND superseded_by IS NULL AND removed_reason IS NULL"
+        rows: Iterable[tuple]
         if len(readings) <= 20:
             keys = {(r.serial, r.taken_on.isoformat(), r.machine_hours) for r in readings}
             rows = [row for key in keys for row in self.conn.execute(
@@ -152,6 +153,7 @@ class ReadingsMixin(StorePart):
             if row_problems:
                 problems += _with_line(row_problems, line)
                 continue
+            assert fit is not None  # else a problem was found above
             accepted.append((i, r, fit.machine))
         # Hour meters: check the accepted rows against each other and the database.
         if len(accepted) == 1:
@@ -170,6 +172,7 @@ class ReadingsMixin(StorePart):
             earlier, later = timelines[machine].neighbours(r.taken_on)
             if (earlier is not None and r.machine_hours < earlier[1] - 1e-9) or (later is not None and r.machine_hours > later[1] + 1e-9):
                 problem = check_hour_meter("machine_hours", r.taken_on, r.machine_hours, earlier, later)
+                assert problem is not None  # the meter runs backwards here: check_hour_meter words it
                 problems.append(_with_line([problem], _line(lines, i))[0])
         return Checked(problems, accepted, present, notes)
 
@@ -191,9 +194,9 @@ class ReadingsMixin(StorePart):
             return []
         ids = []
         for row, (_, r, _machine) in zip(rows, accepted):
-            cur = self.conn.execute(_INSERT_READING, row)
-            ids.append(cur.lastrowid)
-            self._audit("insert", "readings", cur.lastrowid, r.serial, None, dict(zip(READING_COLUMNS, row)))
+            rid = _row_id(self.conn.execute(_INSERT_READING, row))
+            ids.append(rid)
+            self._audit("insert", "readings", rid, r.serial, None, dict(zip(READING_COLUMNS, row)))
         return ids
 
     def _record_import(self, kind: str, source: tuple[str, str], count: int, now: str) -> int:
@@ -202,7 +205,7 @@ class ReadingsMixin(StorePart):
             (kind, source[0], source[1], count, self.user, now),
         )
         self._audit("import", kind, cur.lastrowid, None, None, {"file": source[0], "sha256": source[1], "rows": count})
-        return int(cur.lastrowid)
+        return _row_id(cur)
 
     # -- plausibility (the rules are logbook.plausible's; the store gathers their context) --
     def plausibility_context(self, reading: Reading, *, without: Sequence[int] = ()):
@@ -263,4 +266,6 @@ class ReadingsMixin(StorePart):
                 hint = _text_hint(report.flagged, f"change it with `logbook correct {stored[0][_ID_AT['readings']]}`")
             raise InputRejected([Problem("reading", f"{reading.serial} {reading.taken_on}",
                                          "is already recorded with the same values" + hint)])
-        return self.reading(report.ids[0])
+        saved = self.reading(report.ids[0])
+        assert saved is not None  # written just now, in this store's own transaction
+        return saved

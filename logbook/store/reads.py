@@ -238,7 +238,7 @@ class ReadMixin(StorePart):
         from logbook.asof import Known
 
         removed = {
-            (row["table_name"], int(row["row_key"])): _dt(row["at"]).date()
+            (row["table_name"], int(row["row_key"])): datetime.fromisoformat(row["at"]).date()
             for row in self.db.query(
                 "SELECT table_name, row_key, min(at) AS at FROM audit WHERE action = 'remove' "
                 "AND table_name IN ('readings', 'events') GROUP BY table_name, row_key"
@@ -250,8 +250,10 @@ class ReadMixin(StorePart):
         def entered(r: Reading) -> date:
             return r.entered_at.date() if r.entered_at is not None else r.taken_on
 
-        readings = {}
+        readings: dict[int, tuple[date, date | None]] = {}
         for r in fleet.readings:
+            if r.id is None:  # a stored reading always has its id
+                continue
             known_from = entered(r) if r.id in corrections else r.taken_on
             until = None
             if r.superseded_by is not None and r.superseded_by in by_id:
@@ -262,7 +264,7 @@ class ReadMixin(StorePart):
             readings[r.id] = (known_from, until)
         events = {
             e.id: (e.happened_on, removed.get(("events", e.id), e.happened_on) if e.removed_reason is not None else None)
-            for e in fleet.events
+            for e in fleet.events if e.id is not None
         }
         return Known(readings=readings, events=events)
 
