@@ -12,11 +12,19 @@ import pytest
 
 from logbook.store import Store
 from logbook.tui.app import make_app
+from logbook.tui.screens import entry
 
 TODAY = date(2026, 12, 1)
 SIZES = {"small": (80, 24), "large": (120, 40)}
 
 os.environ.setdefault("TEXTUAL_ANIMATIONS", "none")
+
+
+@pytest.fixture(autouse=True)
+def no_check_delay(monkeypatch):
+    """Forms run their dry run as soon as a value changes (a person typing gets
+    ``CHECK_DELAY_S`` of quiet first): tests wait for the check itself (``settle``), never the clock."""
+    monkeypatch.setattr(entry, "CHECK_DELAY_S", 0.0)
 
 
 @pytest.fixture(scope="session")

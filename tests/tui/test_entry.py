@@ -64,7 +64,6 @@ async def test_a_valid_reading_is_saved_compared_and_changes_the_forecast(demo_a
         fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain=f"{limit * 0.8:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         check = text(form.query_one("#check"))
         assert "accepts" in check  # the store's dry run found nothing wrong
@@ -119,7 +118,6 @@ async def test_the_store_dry_run_catches_a_meter_running_backwards(demo_app, dem
         before = demo_store.counts()["readings"]
         form = await open_form(app, pilot, pf.serial, "r")
         fill(form, machine_hours="1", servo_pressure="25")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         message = text(form.fields["machine_hours"].query_one(".field-message"))
         assert "runs backwards" in message  # the store's own words, found before saving
@@ -158,7 +156,6 @@ async def test_an_overhaul_restarts_the_trend(demo_app, demo_store):
         form = await open_form(app, pilot, pf.serial, "e")
         assert isinstance(form, EventScreen) and form.kind.value == "overhaul"
         fill(form, hours=f"{meter_now(app, pf.machine):.0f}", technician="Test Person", note="rebuilt")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         assert "accepts" in text(form.query_one("#check"))
         await pilot.press("f2")
@@ -196,7 +193,6 @@ async def test_a_move_asks_for_the_target_and_checks_it(demo_app, demo_store):
         await pilot.pause()
         assert not form.fields["to_machine"].has_class("-hidden")
         fill(form, hours=f"{meter_now(app, pf.machine):.0f}", to_machine="NO-SUCH", to_position="main", to_hours="10")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         assert "must be a known machine unit for a move" in text(form.fields["to_machine"].query_one(".field-message"))
         assert isinstance(form.query_one("#check"), Static)
@@ -237,7 +233,6 @@ async def test_free_text_on_the_form_is_stored_exactly_as_typed(demo_app, demo_s
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}",
              technician=typed_by, note=typed_note)
-        await pilot.pause(0.5)
         await settle(app, pilot)
         assert "accepts" in text(form.query_one("#check")), [(n, f._own_problem, f._store_problem) for n, f in form.fields.items() if f._own_problem or f._store_problem]
         await pilot.press("f2")

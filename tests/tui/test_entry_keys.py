@@ -129,7 +129,6 @@ async def test_every_field_its_message_and_the_verdict_fit_80x24(demo_app):
         await settle(app, pilot)
         form = await open_form(app, pilot, pf.serial, "r")  # the second form: the warning alone
         fill(form, machine_hours="2295O", case_drain="abc", servo_pressure="9999")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         shown = screen_text(app)
         assert len(shown.splitlines()) <= 24

@@ -99,7 +99,6 @@ async def test_a_saved_reading_updates_that_pumps_next_reading(later_app):
         fill(form, machine_hours=f"{meter_now(app, pf.machine) + 20 * 16:.0f}", case_drain=f"{drain:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         await pilot.press("f2")
         await settle(app, pilot)

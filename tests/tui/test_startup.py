@@ -115,7 +115,6 @@ async def test_a_saved_reading_updates_its_pump_before_the_whole_fleet(demo_stor
         fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain=f"{limit * 0.8:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         seen.clear()
         reads = []
@@ -160,7 +159,6 @@ async def test_a_reading_saved_after_another_users_write_is_forecast_on_a_fresh_
         fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", case_drain=f"{model.limit(Kind.CASE_DRAIN).value * 0.8:.2f}",
              oil_temp=f"{model.ref_temp_c:g}", test_pressure=f"{model.ref_pressure_bar:g}",
              test_speed=f"{model.test_speed_rpm:g}", oil_grade=str(model.oil_grade), oil_vi=f"{model.oil_vi:g}")
-        await pilot.pause(0.5)
         await settle(app, pilot)
         seen.clear()
         await pilot.press("f2")  # a worn-looking case drain is asked about first (issue 14)
