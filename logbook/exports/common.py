@@ -9,6 +9,7 @@ from collections import Counter
 from datetime import date
 
 from logbook.exports import in_units, unit_of
+from logbook.exports.listings import status_json
 from logbook.analysis.results import OUTCOME_WORDS, KindForecast, Outcome, PumpForecast
 from logbook.plan import PlanLine, month_label
 from logbook.units import UnitPrefs
@@ -92,6 +93,11 @@ def flag_words(flags) -> str:
     return ", ".join(sorted(flag.replace("_", " ") for flag in flags))
 
 
+def status_words(status: str) -> str:
+    """A pump's status without its symbol (``"✖ over limit"`` -> ``"over limit"``)."""
+    return status_json(status)["words"]
+
+
 def percent(chance: float | None, digits: int = 1) -> str:
     """A chance (0..1) as a percentage number, e.g. 0.255 -> '25.5' (the header says %)."""
     return "" if chance is None or not math.isfinite(chance) else f"{100.0 * chance:.{digits}f}"
@@ -172,7 +178,7 @@ def plan_row(line: PlanLine, pump: PumpForecast | None, units: UnitPrefs = METRI
         "action": line.action,
         "reason": reason(line, units),
         "note": line.note,
-        "status": pump.status if pump is not None else "",
+        "status": status_words(pump.status) if pump is not None else "",  # no symbol: plain text in any spreadsheet
         "flags": flag_words(kf.flags) if kf is not None else "",
     }
 

@@ -251,3 +251,19 @@ def test_html_chart_cap_says_how_many_are_shown():
     page = render(capped, "html").decode("utf-8")
     assert page.count('<figure id="chart-') == 1 and page.count("<svg") == 2  # one trend, the shop load
     assert f"Charts of the first 1 of {len(base.plan.lines)} planned pumps" in page
+
+
+def test_csv_plan_status_is_plain_words(report):
+    # a spreadsheet that reads the file in another character set still shows the status whole
+    import dataclasses
+
+    from logbook.analysis.status import OVER_LIMIT, OVERHAUL_DUE
+
+    marks = {NASTY: OVER_LIMIT, "B<2>&": OVERHAUL_DUE}
+    pumps = tuple(dataclasses.replace(p, status=marks.get(p.serial, p.status)) for p in report.forecast.pumps)
+    marked = dataclasses.replace(report, forecast=dataclasses.replace(report.forecast, pumps=pumps))
+    rows = [r for r in csv.reader(io.StringIO(render(marked, "csv").decode("utf-8-sig"))) if r and not r[0].startswith("#")]
+    col, serial = rows[0].index(dict(PLAN_COLUMNS)["status"]), rows[0].index("serial")
+    shown = {quote_formula(NASTY) if r[serial] == quote_formula(NASTY) else r[serial]: r[col] for r in rows[1:]}
+    assert shown[quote_formula(NASTY)] == OVER_LIMIT.split(" ", 1)[1] == "over limit"
+    assert shown["B<2>&"] == OVERHAUL_DUE.split(" ", 1)[1] and OVERHAUL_DUE != shown["B<2>&"]
