@@ -107,7 +107,7 @@ FIELD_LABELS = {
     "iso4406": "ISO 4406", "technician": "Technician", "note": "Note", "hours": "Hour meter",
     "to_machine": "To machine", "to_position": "To position", "to_hours": "Target meter", "serial": "Pump serial",
     "case_drain/servo_pressure/neutral_drift": "Case drain, servo pressure or neutral drift",
-    "nu40_cst": "Viscosity at 40 C", "nu100_cst": "Viscosity at 100 C",
+    "nu40_cst": "Viscosity 40 C", "nu100_cst": "Viscosity 100 C",
 }
 
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 ._/#-]{0,39}$")

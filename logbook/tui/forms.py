@@ -69,6 +69,8 @@ def reading_fields(prefs: UnitPrefs, today: date) -> tuple[FieldDef, ...]:
         FieldDef("test_speed", "Test speed", _number("test_speed", "rpm"), "rpm"),
         FieldDef("oil_grade", "Oil ISO VG", _oil_grade, "", "e.g. 46"),
         FieldDef("oil_vi", "Oil VI", _number("oil_vi", ""), ""),
+        FieldDef("nu40_cst", "Viscosity 40 C", _number("nu40_cst", "cSt"), "cSt", "if measured"),
+        FieldDef("nu100_cst", "Viscosity 100 C", _number("nu100_cst", "cSt"), "cSt", "if measured"),
         FieldDef("charge_pressure", "Charge pressure", _number("charge_pressure", p), p, "optional"),
         FieldDef("iso4406", "ISO 4406", _iso4406, "", "e.g. 18/16/13"),
         FieldDef("technician", "Technician", _free, ""),
@@ -122,6 +124,8 @@ def build_reading(serial: str, values: dict[str, object]) -> Reading:
         iso4406=values.get("iso4406"),
         technician=values.get("technician") or "",
         note=values.get("note") or "",
+        nu40_cst=values.get("nu40_cst"),
+        nu100_cst=values.get("nu100_cst"),
     )
 
 
@@ -149,6 +153,8 @@ def reading_texts(reading: Reading, prefs: UnitPrefs) -> dict[str, str]:
         "test_speed": _shown(reading.test_speed_rpm, ""),
         "oil_grade": str(reading.oil_grade) if reading.oil_grade else "",
         "oil_vi": _shown(reading.oil_vi, ""),
+        "nu40_cst": _shown(reading.nu40_cst, ""),
+        "nu100_cst": _shown(reading.nu100_cst, ""),
         "charge_pressure": _shown(reading.charge_pressure_bar, p),
         "iso4406": reading.iso4406 or "",
         "technician": reading.technician if fmt.visible(reading.technician) == reading.technician else "",
@@ -163,7 +169,8 @@ def corrections(old: Reading, new: Reading, texts: dict[str, str], typed: dict[s
         "date": "taken_on", "machine_hours": "machine_hours", "case_drain": "case_drain_lpm",
         "servo_pressure": "servo_pressure_bar", "neutral_drift": "neutral_drift_bar", "oil_temp": "oil_temp_c",
         "test_pressure": "test_pressure_bar", "test_speed": "test_speed_rpm", "oil_grade": "oil_grade",
-        "oil_vi": "oil_vi", "charge_pressure": "charge_pressure_bar", "iso4406": "iso4406",
+        "oil_vi": "oil_vi", "nu40_cst": "nu40_cst", "nu100_cst": "nu100_cst", "charge_pressure": "charge_pressure_bar",
+        "iso4406": "iso4406",
         "technician": "technician", "note": "note",
     }
     return {attr: getattr(new, attr) for name, attr in field_of.items()

@@ -240,3 +240,28 @@ async def test_free_text_on_the_form_is_stored_exactly_as_typed(demo_app, demo_s
         saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
         assert len(saved) == 1
         assert saved[0].technician == typed_by and saved[0].note == typed_note
+
+
+async def test_oil_outside_the_test_window_is_asked_about_before_saving(demo_app, demo_store):
+    # Issue 12 item 7: a reading outside the model's test window is saved only after an explicit confirm
+    # (the model's window as stored: test_temp_min_c..test_temp_max_c); its measured viscosity is kept.
+    app = demo_app
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        model = app.fleet.models[pf.model]
+        before_count = demo_store.counts()["readings"]
+        form = await open_form(app, pilot, pf.serial, "r")
+        fill(form, machine_hours=f"{meter_now(app, pf.machine):.0f}", servo_pressure="24.5", case_drain="",
+             oil_temp=f"{model.test_temp_max_c + 25:g}", nu40_cst="47.5 mm2/s", nu100_cst="7.0")
+        await settle(app, pilot)
+        check = text(form.query_one("#check"))
+        assert "Oil temperature" in check and "outside the test window" in check
+        await pilot.press("f2")
+        await settle(app, pilot)
+        assert demo_store.counts()["readings"] == before_count  # asked, not saved
+        await pilot.press("f2")  # confirmed
+        await settle(app, pilot)
+        assert demo_store.counts()["readings"] == before_count + 1
+        saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
+        assert len(saved) == 1 and (saved[0].nu40_cst, saved[0].nu100_cst) == (47.5, 7.0)
