@@ -48,6 +48,9 @@ figure { margin: 1em 0; break-inside: avoid; } figcaption { font-size: 12px; col
 svg { max-width: 100%; height: auto; }
 th, td { overflow-wrap: break-word; hyphens: manual; }
 .k { white-space: nowrap; }
+table.plan tr.why td { border-top: none; color: #333; padding-bottom: 4px; }
+table.plan tr.why .label { font-weight: 600; }
+table.plan tbody.line { break-inside: avoid; }
 /* Printing (A4 or Letter, as the printer is set up): nothing wider than the page, a serial,
    date or number never broken (.k), rows whole, headings kept with what follows, table
    headers repeated on every page. */
@@ -61,6 +64,7 @@ th, td { overflow-wrap: break-word; hyphens: manual; }
   h1, h2, h3 { break-after: avoid; }
   h2 + table, h2 + p, h2 + figure { break-before: avoid; }
   figure svg { width: 100%; max-height: 80mm; }
+  #shop-load table { width: auto; }
 }
 """
 
@@ -87,9 +91,23 @@ def _table(headers: list[str], rows: list[list[str]], numeric: set[int] = frozen
 
 
 def _plan_table(lines, pumps, keys, units) -> list[str]:
+    """The plan's lines, each with its reason on a row of its own under it, across the table (the
+    sentence gets the page's width instead of a column a word wide); a line and its reason are
+    one ``tbody``, never split across pages."""
     rows = [plan_row(line, pumps.get(line.serial), units) for line in lines]
-    numeric = {i for i, k in enumerate(keys) if k in _NUMERIC}
-    return _table([_HEADERS[k] for k in keys], [[r[k] for k in keys] for r in rows], numeric)
+    shown = [k for k in keys if k != "reason"]
+    numeric = {i for i, k in enumerate(shown) if k in _NUMERIC}
+    out = ['<table class="plan">',
+           "<thead><tr>" + "".join(f"<th>{escape(_HEADERS[k])}</th>" for k in shown) + "</tr></thead>"]
+    for r in rows:
+        cells = "".join(_cell(r[k], i in numeric) for i, k in enumerate(shown))
+        out += ['<tbody class="line">', f"<tr>{cells}</tr>"]
+        if "reason" in keys:
+            out.append(f'<tr class="why"><td colspan="{len(shown)}"><span class="label">{escape(_HEADERS["reason"])}:'
+                       f"</span> {keep_whole(escape(r['reason']))}</td></tr>")
+        out.append("</tbody>")
+    out.append("</table>")
+    return out
 
 
 def _charts(report, pumps) -> list[str]:
