@@ -104,3 +104,23 @@ async def test_export_goes_to_the_path_typed_in_the_format_of_its_suffix(demo_ap
     html = target.read_text()
     assert html.lstrip().lower().startswith("<!doctype html") and screen.plan.lines[0].serial in html
     assert not (tmp_path / "plan.pdf").exists()
+
+
+async def test_export_from_the_plan_screen_is_in_the_apps_units(demo_store, tmp_path):
+    # `logbook --units us` reaches the plan the fleet view exports (values in psi and gpm)
+    from logbook.tui.app import make_app
+    from logbook.units import UnitPrefs
+    from tests.tui.conftest import TODAY
+
+    app = make_app(demo_store, today=TODAY, units=UnitPrefs.us(), poll_seconds=0, blink=False, export_dir=tmp_path)
+    target = tmp_path / "plan.json"
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _plan(app, pilot)
+        await pilot.press("x")
+        await settle(app, pilot)
+        app.screen.query_one("#export-path", Input).value = str(target)
+        await pilot.press("enter")
+        await settle(app, pilot)
+    doc = json.loads(target.read_text())
+    assert doc["units"]["pressure"] == "psi" and doc["units"]["flow"] == "gpm"
+    assert {r["unit"] for r in doc["forecasts"]} <= {"psi", "gpm"}

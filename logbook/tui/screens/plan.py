@@ -208,7 +208,7 @@ class PlanScreen(Screen):
             provenance = Provenance.from_models(str(fleet.source), forecast.today, fleet.models)
             money = self.app.money
             report = Report(forecast, plan, life, provenance, charts=False,
-                            economies=money.economies if money is not None else {})
+                            economies=money.economies if money is not None else {}, units=self.app.units)
             from logbook.outfile import write_bytes
 
             paths = []
