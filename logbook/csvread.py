@@ -115,6 +115,7 @@ COLUMNS: dict[str, dict[str, Column]] = {
         "to_machine": Column("name"),
         "to_position": Column("name"),
         "to_hours": _num(H, "to_hours"),
+        "serial_in": Column("name"),
         "technician": Column("text"),
         "note": Column("text"),
     },

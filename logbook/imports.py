@@ -100,6 +100,7 @@ def _event(v: dict) -> Event:
         id=None, kind=v["kind"], happened_on=v["date"], serial=v.get("serial"), machine=v.get("machine"),
         hours=v.get("hours"), to_machine=v.get("to_machine"), to_position=v.get("to_position"),
         to_hours=v.get("to_hours"), technician=v.get("technician") or "", note=v.get("note") or "",
+        serial_in=v.get("serial_in"),
     )
 
 

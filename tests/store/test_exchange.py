@@ -146,3 +146,18 @@ def test_cli_records_shows_and_lists_the_pump_that_went_in(store, tmp_path, caps
     assert main([*base, "history", "S-100", "--format", "json"]) == 0
     entries = json.loads(capsys.readouterr().out)["entries"]
     assert any("serial_in S-300" in e["change"] for e in entries if e["table"] == "events")
+
+
+def test_an_events_file_names_the_pump_that_went_in(store):
+    from .conftest import load
+
+    load(store, "events", b"date,kind,serial,hours,serial_in\n2025-06-01,exchange,S-100,1700,S-300\n")
+    assert [(f.machine, f.fitted_on) for f in store.fitments(serial="S-300")] == [("M-1", DAY)]
+    assert store.fitments(serial="S-100")[0].removed_on == DAY
+    bad = b"date,kind,serial,hours,serial_in\n2025-06-01,exchange,S-200,5400,S-999\n"
+    from logbook.imports import import_bytes
+
+    before = _state(store)
+    report = import_bytes(store, "events", bad, name="events.csv", today=TODAY)
+    assert any("serial_in" in str(p) and "S-999" in str(p) and p.line == 2 for p in report.problems)
+    assert _state(store) == before
