@@ -43,7 +43,7 @@ class EventKind(str, Enum):
     """Things that happen to a pump or a machine between readings."""
 
     OVERHAUL = "overhaul"  # pump rebuilt: new wear segment for every kind
-    EXCHANGE = "exchange"  # pump swapped for a rebuilt unit under the same serial: new segment
+    EXCHANGE = "exchange"  # pump taken out, another unit put in its place (Event.serial_in names it): new segment
     NEUTRAL_RESET = "neutral_reset"  # neutral re-adjusted: new segment for neutral drift only
     CONTROL_REPAIR = "control_repair"  # control valve / servo repaired: new segment for servo pressure and drift
     OIL_CHANGE = "oil_change"
