@@ -23,7 +23,7 @@ from logbook.analysis.results import FleetForecast, PumpForecast
 from logbook.analysis.series import FleetPack, pack
 from logbook.analysis.status import StatusThresholds
 from logbook.analysis.timeline import NEVER, Timeline
-from logbook.analysis.utilisation import machine_states, machine_utilisation
+from logbook.analysis.utilisation import MachineUse, machine_states
 from logbook.model import Fleet, PumpHistory, PumpModel
 
 DEFAULT_HORIZON_HOURS = 20_000.0
@@ -100,13 +100,15 @@ def forecast_histories(
     options: FitOptions | None = None,
     thresholds: StatusThresholds | None = None,
     with_noise: bool = False,
+    uses: dict[str, MachineUse] | None = None,
 ) -> list[PumpForecast]:
-    """Forecast the given pumps together (pooling within each pump model and kind)."""
+    """Forecast the given pumps together (pooling within each pump model and kind); ``uses``: how the
+    machines' hours run ahead (``utilisation.machine_states``: parked, by season), when known."""
     if not histories:
         return []
     timeline = _timeline_of(histories)
     serials, models = [h.pump.serial for h in histories], [h.model for h in histories]
-    pk = pack(timeline, serials, models, utilisation, today)
+    pk = pack(timeline, serials, models, utilisation, today, uses=uses)
     return _forecasts(serials, models, pk, today, {}, horizon_hours, options, thresholds, with_noise)
 
 
@@ -138,11 +140,14 @@ def forecast_pump(
     """One pump on its own (no fleet pooling): the fleet engine on a fleet of one."""
     current = next((f for f in history.fitments if f.removed_on is None), None)
     per_day = hours_per_day_now
+    uses = None
     if per_day is None and current is not None:
-        per_day = machine_utilisation(_timeline_of([history]), [current.machine], today)[current.machine]
+        uses = machine_states(_timeline_of([history]), [current.machine], today)
+        per_day = uses[current.machine].per_day
     util = {current.machine: per_day} if current is not None else {}
     opt = options or FitOptions(pool=False)
-    (pf,) = forecast_histories([history], today, util, horizon_hours=horizon_hours, options=opt, thresholds=thresholds)
+    (pf,) = forecast_histories([history], today, util, horizon_hours=horizon_hours, options=opt, thresholds=thresholds,
+                               uses=uses)
     return pf
 
 

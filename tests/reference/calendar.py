@@ -55,16 +55,48 @@ def machine_hour_points(
     }
 
 
+def parked_spans(events: Iterable[Event]) -> dict[str, list[tuple[date, date | None]]]:
+    """Per machine, the spans it stood still: a "parked" event's day up to the next "back in service"
+    (None while it has none). A second "parked" before a return, or a return without one, changes nothing;
+    a return on the parked day itself leaves no span."""
+    out: dict[str, list[tuple[date, date | None]]] = defaultdict(list)
+    marks = sorted((e for e in events if e.machine is not None and e.kind in (EventKind.PARKED, EventKind.BACK_IN_SERVICE)),
+                   key=lambda e: (e.machine, e.happened_on, e.id or 0))  # fmt: skip
+    since: dict[str, date] = {}
+    for e in marks:
+        if e.kind is EventKind.PARKED:
+            since.setdefault(e.machine, e.happened_on)
+        elif e.machine in since:
+            start = since.pop(e.machine)
+            if e.happened_on > start:
+                out[e.machine].append((start, e.happened_on))
+    for machine, start in since.items():
+        out[machine].append((start, None))
+    return dict(out)
+
+
+def running_day(day: date, spans: Iterable[tuple[date, date | None]] = ()) -> int:
+    """The day's ordinal less the machine's parked days before it (a parked day counts as its span's start)."""
+    lost = 0
+    for start, end in spans:
+        if day > start:
+            lost += ((min(day, end) if end is not None else day) - start).days
+    return day.toordinal() - lost
+
+
 def hours_per_day(
-    points: Iterable[tuple[date, float]], today: date, window_days: int = 365, min_span_days: int = 28
+    points: Iterable[tuple[date, float]], today: date, window_days: int = 365, min_span_days: int = 28,
+    spans: Iterable[tuple[date, date | None]] = (),
 ) -> float | None:
-    """Robust utilisation, hours/day (0-24), from (date, continuous hours) points; None if under 2 days apart."""
+    """Robust utilisation, hours/day (0-24), from (date, continuous hours) points; None if under 2 days apart.
+    Slopes and spans are taken on running days (``running_day``: parked days left out), recency on the calendar."""
     pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
     if len(pts) < 2:
         return None
-    days = np.array([d.toordinal() for d, _ in pts], dtype=float)
+    spans = tuple(spans)
+    days = np.array([running_day(d, spans) for d, _ in pts], dtype=float)
     hrs = np.array([h for _, h in pts], dtype=float)
-    recent = days >= today.toordinal() - window_days
+    recent = np.array([d.toordinal() >= today.toordinal() - window_days for d, _ in pts])
     for mask in (recent, np.ones_like(recent)):
         d, h = days[mask], hrs[mask]
         if d.size >= 2 and d.max() - d.min() >= min_span_days and np.unique(d).size >= 2:
@@ -86,18 +118,27 @@ def date_after_hours(today: date, remaining_hours: float | None, per_day: float 
 
 
 def rate_spread(points: Iterable[tuple[date, float]], rate: float | None, today: date,
-                window_days: int = 365) -> tuple[float, float, float, int]:  # fmt: skip
+                window_days: int = 365, spans: Iterable[tuple[date, date | None]] = (),
+                months: tuple[float, ...] | None = None) -> tuple[float, float, float, int]:  # fmt: skip
     """(v, L, T, intervals) of one machine: the day-weighted relative variance of the rates between
-    consecutive points (ending within ``window_days``) about ``rate``, the day-weighted mean interval,
-    the days covered and how many intervals; NaN v and L without any."""
+    consecutive points (ending within ``window_days``) about ``rate`` (about the mean of the month rates
+    over the interval's days for a machine run by season), the day-weighted mean interval, the days
+    covered and how many intervals, intervals in running days; NaN v and L without any."""
     pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
+    spans = tuple(spans)
     total = squares = var = 0.0
     count = 0
     for (d0, h0), (d1, h1) in zip(pts, pts[1:]):
-        dd = (d1 - d0).days
+        dd = running_day(d1, spans) - running_day(d0, spans)
         if dd < 1 or d1.toordinal() < today.toordinal() - window_days or rate is None or rate <= 0:
             continue
-        dev = ((h1 - h0) / dd - rate) / rate
+        expected = rate
+        if months is not None:
+            span_days = [d0 + timedelta(i) for i in range((d1 - d0).days)]
+            expected = float(np.mean([months[d.month - 1] for d in span_days]))
+        if not expected > 0:
+            continue
+        dev = ((h1 - h0) / dd - expected) / expected
         total += dd
         squares += dd * dd
         var += dd * dev * dev
@@ -151,3 +192,82 @@ def dates_with_spread(today: date, remaining: list[float | None], per_day: float
         else:
             out[2] = math.exp(math.log(plain[2]) + wide)
     return [date_after_hours(today, d, 1.0) if d is not None else None for d in out]
+
+
+# -- seasons: month-of-year rates (thresholds ours: common practice, no published source) ---------------
+
+SEASON_WINDOW_DAYS = 3 * 365 + 1
+MIN_SEASON_SPAN_DAYS = 700
+LOW_SHARE = 0.2
+MIN_LOW_MONTHS, MAX_LOW_MONTHS = 2, 8
+MIN_MONTH_DAYS = 15
+MONTH_DAYS = (31, 28.25, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31)
+
+
+def month_rates(points: Iterable[tuple[date, float]], today: date) -> tuple[float, ...] | None:
+    """A machine's month-of-year rates (h a day, January first) when its last three years of points
+    show a season, else None: every day between two consecutive points runs at that interval's rate
+    (its gain over its days, 0 to 24); a month's rate is the mean over its days with evidence; a season
+    is one run (around the year) of 2 to 8 months under 20 % of the mean day rate, each such month
+    under that share in at least two (year, month)s with 15 days of evidence, every month covered."""
+    t = today.toordinal()
+    pts = sorted(p for p in points if t - SEASON_WINDOW_DAYS <= p[0].toordinal() <= t and np.isfinite(p[1]))
+    if len(pts) < 3 or (pts[-1][0] - pts[0][0]).days < MIN_SEASON_SPAN_DAYS:
+        return None
+    day_rates: list[tuple[date, float]] = []
+    for (d0, h0), (d1, h1) in zip(pts, pts[1:]):
+        n = (d1 - d0).days
+        if n < 1:
+            continue
+        r = min(max(h1 - h0, 0.0) / n, MAX_HOURS_PER_DAY)
+        day_rates += [(d0 + timedelta(i), r) for i in range(n)]
+    if not day_rates:
+        return None
+    mean = float(np.mean([r for _, r in day_rates]))
+    if not mean > 0:
+        return None
+    by_month: dict[int, list[float]] = defaultdict(list)
+    by_year_month: dict[tuple[int, int], list[float]] = defaultdict(list)
+    for d, r in day_rates:
+        by_month[d.month - 1].append(r)
+        by_year_month[(d.year, d.month - 1)].append(r)
+    if len(by_month) < 12:
+        return None
+    months = tuple(float(np.mean(by_month[m])) for m in range(12))
+    low = [months[m] < LOW_SHARE * mean for m in range(12)]
+    runs = sum(1 for m in range(12) if low[m] and not low[m - 1])
+    if not MIN_LOW_MONTHS <= sum(low) <= MAX_LOW_MONTHS or runs != 1:
+        return None
+    for m in (m for m in range(12) if low[m]):
+        years = [ym for ym, rs in by_year_month.items()
+                 if ym[1] == m and len(rs) >= MIN_MONTH_DAYS and np.mean(rs) < LOW_SHARE * mean]  # fmt: skip
+        if len(years) < 2:
+            return None
+    return months
+
+
+def year_average(months: tuple[float, ...]) -> float:
+    return sum(r * n for r, n in zip(months, MONTH_DAYS)) / sum(MONTH_DAYS)
+
+
+def seasonal_date(today: date, plain: date | None, per_day: float | None, months: tuple[float, ...] | None) -> date | None:
+    """A date made at ``per_day`` moved onto the month rates: the first day from tomorrow by which the
+    month rates' hours reach the hours the plain days hold at ``per_day`` (whole years of the next 365
+    days' hours first); no date and today stay."""
+    if plain is None or months is None or not per_day or plain <= today:
+        return plain
+    need = (plain - today).days * per_day
+    ahead = [today + timedelta(i) for i in range(1, 366)]
+    year = sum(months[d.month - 1] for d in ahead)
+    if not year > 0:
+        return plain
+    whole = int(need // year)
+    rest = need - whole * year
+    if rest <= 0:
+        return today + timedelta(whole * 365)
+    got = 0.0
+    for k, d in enumerate(ahead, start=1):
+        got += months[d.month - 1]
+        if got >= rest - 1e-9:
+            return today + timedelta(whole * 365 + k)
+    return today + timedelta(whole * 365 + 365)

@@ -10,7 +10,7 @@ checks the engine against it.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from datetime import date
+from datetime import date, timedelta
 
 import numpy as np
 
@@ -39,7 +39,12 @@ from tests.reference.calendar import (
     fleet_spreads,
     hours_per_day,
     machine_hour_points,
+    month_rates,
+    parked_spans,
     rate_spread,
+    running_day,
+    seasonal_date,
+    year_average,
 )
 from tests.reference.segments import Series, build_series, reading_pump_hours
 from tests.reference.status import pump_status
@@ -67,17 +72,59 @@ def _direction(kind: Kind, limit: Limit | None) -> int:
     return FALLING if kind is Kind.SERVO_PRESSURE else RISING
 
 
-def reference_pack(histories: list[PumpHistory], today: date, utilisation: dict[str, float | None]):
+@dataclass(frozen=True)
+class Use:
+    """How a machine's hours run ahead: hours a day, parked since, month rates, the forecast's words."""
+
+    per_day: float | None
+    parked_on: date | None = None
+    months: tuple[float, ...] | None = None
+    words: str = ""
+
+
+_MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+
+
+def machine_use(points, spans, today: date) -> Use:
+    """A machine parked now is assumed to restart tomorrow at its rate on running days; a machine run by
+    season (and with a positive rate) runs at its month rates, its hours a day their year average."""
+    rate = hours_per_day(points, today, spans=spans)
+    months = month_rates(points, today) if rate else None
+    per_day = year_average(months) if months is not None else rate
+    parked = next((start for start, end in spans if start <= today and (end is None or today < end)), None)
+    words = []
+    if parked is not None:
+        restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
+        words.append(f"parked since {parked.isoformat()}: no hours counted since; dates assume it restarts tomorrow "
+                     f"{restart}")
+    if months is not None:
+        low = [_MONTHS[i] for i, r in enumerate(months) if r < 0.2 * (per_day or 0.0)]
+        words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at its "
+                     f"own rate, {per_day:.1f} h a day over the year")
+    return Use(per_day, parked, months, "; ".join(words))
+
+
+def reference_uses(fleet_or_points, events, today: date) -> dict[str, Use]:
+    spans = parked_spans(events)
+    return {m: machine_use(p, spans.get(m, ()), today) for m, p in fleet_or_points.items()}
+
+
+def reference_pack(histories: list[PumpHistory], today: date, utilisation: dict[str, float | None],
+                   uses: dict[str, Use] | None = None):
     """(rows, pump_info, batch) of the given pumps, packed one pump at a time; batch None without rows."""
     rows: list[_Row] = []
     groups: dict[tuple[str, Kind], int] = {}
     pump_info = []
+    events = list({id(e): e for h in histories for e in h.events}.values())
+    spans = parked_spans(events)
     for h in histories:
         hours_of = {i: reading_pump_hours(r, h) for i, r in enumerate(h.readings)}
         current = next((f for f in h.fitments if f.removed_on is None), None)
         per_day = utilisation.get(current.machine) if current is not None else None
         last_on = h.readings[-1].taken_on if h.readings else None
-        pump_now = _pump_hours_today(h, hours_of, current, per_day, today)
+        use = (uses or {}).get(current.machine) if current is not None else None
+        pump_now = _pump_hours_today(h, hours_of, current, per_day, today,
+                                     spans.get(current.machine, ()) if current is not None else (), use)
         pump_info.append((h, current, per_day, last_on, pump_now))
         for kind in ALL_KINDS:
             s = build_series(h, kind, hours_of)
@@ -97,9 +144,9 @@ def reference_pack(histories: list[PumpHistory], today: date, utilisation: dict[
 
 
 def reference_utilisation(fleet: Fleet, today: date) -> dict[str, float | None]:
-    """Hours per day of every machine, one machine at a time."""
+    """Hours per day of every machine, one machine at a time (parked days left out, seasons' year average)."""
     points = machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
-    return {m: hours_per_day(p, today) for m, p in points.items()}
+    return {m: u.per_day for m, u in reference_uses(points, fleet.events, today).items()}
 
 
 def reference_fleet_batch(fleet: Fleet, today: date) -> TrendBatch | None:
@@ -117,16 +164,20 @@ def reference_forecast_histories(
     thresholds: StatusThresholds | None = None,
     with_noise: bool = False,
     points: dict | None = None,
+    uses: dict[str, Use] | None = None,
 ) -> list[PumpForecast]:
     """Forecast the given pumps together (pooling within each pump model and kind); ``points``: the
     machines' (date, continuous hours) points, from the histories' own records when not given."""
-    rows, pump_info, batch = reference_pack(histories, today, utilisation)
+    rows, pump_info, batch = reference_pack(histories, today, utilisation, uses)
+    events = list({id(e): e for h in histories for e in h.events}.values())
     if points is None:
-        events = list({id(e): e for h in histories for e in h.events}.values())
         points = machine_hour_points([f for h in histories for f in h.fitments],
                                      [r for h in histories for r in h.readings], events)
     machines = {info[1].machine for info in pump_info if info[1] is not None}
-    spreads = fleet_spreads({m: rate_spread(points.get(m, ()), utilisation.get(m), today) for m in sorted(machines)})
+    spans = parked_spans(events)
+    uses = uses or {}
+    spreads = fleet_spreads({m: rate_spread(points.get(m, ()), utilisation.get(m), today, spans=spans.get(m, ()),
+                                            months=uses[m].months if m in uses else None) for m in sorted(machines)})
     if batch is None:
         return []
     fit = fit_batch(batch, options)
@@ -134,8 +185,9 @@ def reference_forecast_histories(
     out = []
     for p, (h, current, per_day, last_on, pump_now) in enumerate(pump_info):
         spread = spreads.get(current.machine) if current is not None else None
-        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day, spread)
-                      for k in range(3))
+        use = uses.get(current.machine) if current is not None else None
+        kinds = tuple(_kind_forecast(rows[3 * p + k], 3 * p + k, batch, fit, fc, today, per_day, spread,
+                                     use.months if use is not None else None) for k in range(3))
         pf = PumpForecast(
             serial=h.pump.serial,
             model=h.model.code,
@@ -147,18 +199,28 @@ def reference_forecast_histories(
             kinds=kinds,
             worst=_worst(kinds),
             last_reading_on=last_on,
+            utilisation_basis=use.words if use is not None else "",
         )
         out.append(_with_status(pf, today, thresholds))
     return out
 
 
-def _pump_hours_today(h, hours_of, current, per_day, today) -> float | None:
+def _pump_hours_today(h, hours_of, current, per_day, today, spans=(), use: Use | None = None) -> float | None:
+    """The newest reading's hours plus the machine's: its running days since at its rate (parked days
+    count none), or for a machine run by season the month rates of each day since."""
     if not h.readings:
         return current.pump_hours_at_fit if current is not None else None
     last = max(hours_of.values())
     last_on = max(r.taken_on for r in h.readings)
     if current is None or per_day is None:
         return last
+    if today <= last_on:
+        return last + per_day * 0
+    if spans:
+        return last + per_day * (running_day(today, spans) - running_day(last_on, spans))
+    if use is not None and use.months is not None and per_day > 0:
+        days = [last_on + timedelta(i) for i in range((today - last_on).days)]
+        return last + per_day * (sum(use.months[d.month - 1] for d in days) / per_day)
     return last + per_day * max((today - last_on).days, 0)
 
 
@@ -168,7 +230,8 @@ def _last_overhaul_hours(row: _Row) -> float:
     return s.start_hours if s.start is not None else 0.0
 
 
-def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day, spread):
+def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: BatchForecast, today, per_day, spread,
+                   months=None):
     s = row.series
     outcome = OUTCOMES[int(fc.outcome[i])]
     if outcome is Outcome.NO_DATA and s.readings_before:
@@ -179,7 +242,7 @@ def _kind_forecast(row: _Row, i: int, batch: TrendBatch, fit: BatchFit, fc: Batc
         rem = [None, None, None]
     detail = _detail(s, i, fit)
     path_words = _path(i, fc, outcome)
-    when = dates_with_spread(today, rem, per_day, spread)
+    when = [seasonal_date(today, d, per_day, months) for d in dates_with_spread(today, rem, per_day, spread)]
     rate = float(fc.rate_per_hour[i]) * 1000.0 if detail is not None and np.isfinite(fc.rate_per_hour[i]) else None
     return KindForecast(
         serial=row.history.pump.serial,
@@ -284,11 +347,12 @@ def reference_forecast_fleet(
     with_noise: bool = False,
 ) -> FleetForecast:
     """Forecast every pump in service (and unfitted pumps with readings), worst kind and status per pump."""
-    util = reference_utilisation(fleet, today)
+    points = machine_hour_points(fleet.fitments, fleet.readings, fleet.events)
+    uses = reference_uses(points, fleet.events, today)
+    util = {m: u.per_day for m, u in uses.items()}
     pumps = reference_forecast_histories(
         _histories(fleet), today, util, horizon_hours=horizon_hours, options=options,
-        thresholds=thresholds, with_noise=with_noise,
-        points=machine_hour_points(fleet.fitments, fleet.readings, fleet.events),
+        thresholds=thresholds, with_noise=with_noise, points=points, uses=uses,
     )  # fmt: skip
     pumps = [
         p if p.machine is None or p.machine not in fleet.machines else _site(p, fleet.machines[p.machine].site)

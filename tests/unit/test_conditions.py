@@ -119,7 +119,7 @@ def test_readings_outside_the_trusted_range_are_named(temp_c, dp_bar, trusted):
 TODAY = date(2026, 12, 1)
 
 
-def _fleet(per_day, days, events=(), readings_on=None, temps=None) -> Fleet:
+def _fleet(per_day, days, events=(), readings_on=None, temps=None, wear=1e-4) -> Fleet:
     """One machine M1 with one pump P1; its meter runs per_day(day) hours each day from 2023-01-02."""
     start = date(2023, 1, 2)
     meter, hours = {}, 0.0
@@ -131,7 +131,7 @@ def _fleet(per_day, days, events=(), readings_on=None, temps=None) -> Fleet:
     on = readings_on or [start + timedelta(30 * k) for k in range(1, days // 30)]
     for k, d in enumerate(on):
         temp = temps[k] if temps else 50.0
-        reads.append(Reading(k + 1, "P1", d, meter[d], case_drain_lpm=round(1.0 + 1e-4 * meter[d] + 0.01 * (k % 3), 3),
+        reads.append(Reading(k + 1, "P1", d, meter[d], case_drain_lpm=round(1.0 + wear * meter[d] + 0.01 * (k % 3), 3),
                              oil_temp_c=temp, test_pressure_bar=250.0, test_speed_rpm=1450.0, machine="M1"))
     fit = Fitment(1, "P1", "M1", "main", start, None, 0.0, 0.0)
     return Fleet(models={"T1": MODEL}, machines={"M1": Machine("M1", "yard")}, pumps={"P1": Pump("P1", "T1")},

@@ -303,3 +303,34 @@ def test_a_fleet_with_parts_missing(part):
     }[part]
     fleet = dataclasses.replace(fleet, **cut)
     assert_same(forecast_fleet(fleet, TODAY), reference_forecast_fleet(fleet, TODAY))
+
+
+@pytest.mark.parametrize("seed", [1, 2])
+def test_parked_machines_match_the_reference(seed):
+    # machines parked (some back in service, some still standing, one parked twice) on the invented fleet
+    fleet = edge_fleet(seed)
+    rng = random.Random(seed)
+    extra = []
+    for j, unit in enumerate(sorted(fleet.machines)[:14]):
+        on = TODAY - timedelta(days=rng.randint(20, 700))
+        extra.append(Event(10_000 + 3 * j, EventKind.PARKED, on, machine=unit))
+        if j % 2:
+            extra.append(Event(10_001 + 3 * j, EventKind.BACK_IN_SERVICE, on + timedelta(days=rng.randint(1, 300)),
+                               machine=unit))  # fmt: skip
+        if j == 4:
+            extra.append(Event(10_002 + 3 * j, EventKind.PARKED, on + timedelta(days=5), machine=unit))
+    fleet = dataclasses.replace(fleet, events=fleet.events + tuple(extra))
+    got = forecast_fleet(fleet, TODAY)
+    assert sum("parked since" in n for n in got.notes) >= 3  # the case is really there
+    assert_same(got, reference_forecast_fleet(fleet, TODAY))
+
+
+def test_a_seasonal_machine_matches_the_reference():
+    from tests.unit.test_conditions import TODAY as today, _fleet, _seasonal
+
+    start = date(2023, 1, 2)
+    on = [d for d in (start + timedelta(14 * k) for k in range(1, 140)) if 5 <= d.month <= 9 and d < today]
+    fleet = _fleet(_seasonal, (today - start).days, readings_on=on, wear=4e-4)
+    got = forecast_fleet(fleet, today)
+    assert got.pumps[0].utilisation_basis.startswith("runs by season") and got.pumps[0].kinds[0].p50_date is not None
+    assert_same(got, reference_forecast_fleet(fleet, today))
