@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import os
 import random
+import sqlite3
 from pathlib import Path
 
 PAGE = 4096  # SQLite's default page size, the one the logbook's files use
@@ -36,9 +37,23 @@ def torn(path: Path) -> None:
     _rewrite(path, cut)
 
 
+def _schema_pages(path: Path) -> set[int]:
+    """Page numbers (from 1) that hold the schema, by SQLite's dbstat table."""
+    conn = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+    try:
+        return {row[0] for row in conn.execute("SELECT pageno FROM dbstat WHERE name = 'sqlite_schema'")}
+    finally:
+        conn.close()
+
+
 def scribbled(path: Path) -> None:
-    """Two pages in the middle overwritten with noise, the header kept."""
-    middle = path.stat().st_size // 2
+    """Two pages of rows near the middle overwritten with noise, the header and the schema
+    kept (a schema that grew by ALTER TABLE may sit in the middle too: ``schema_page`` damages it)."""
+    schema = _schema_pages(path)
+    page = path.stat().st_size // PAGE // 2 + 1  # page numbers count from 1
+    while page in schema or page + 1 in schema:
+        page += 1
+    middle = (page - 1) * PAGE
 
     def scribble(data: bytearray) -> None:
         data[middle:middle + 2 * PAGE] = _noise(4406, 2 * PAGE)

@@ -8,7 +8,7 @@ import pytest
 
 from logbook.cautions import SAFETY
 from logbook.cli import main
-from logbook.model import EventKind
+from logbook.model import MACHINE_EVENTS, EventKind
 from logbook.store import Store
 from tests.store.test_cli import TODAY, demo, demo_master  # noqa: F401  (the demo fleet fixtures)
 
@@ -53,6 +53,8 @@ def test_event_prints_the_list_to_stderr_for_every_kind(demo, capsys, kind):
     hours = str(last.machine_hours + 10)
     if kind is EventKind.METER_REPLACED:
         where, extra = [], ["--machine", last.machine, "--hours", hours, "--to-hours", "0"]
+    elif kind in MACHINE_EVENTS:  # parked, back in service: events of a machine
+        where, extra = [], ["--machine", last.machine, "--hours", hours]
     elif kind is EventKind.MOVE:
         where, extra = [SERIAL], ["--hours", hours, "--to-machine", spare, "--to-position", "spare-1", "--to-hours", "90000"]
     else:
