@@ -13,9 +13,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from rich.cells import cell_len
 from rich.console import Console
 from rich.measure import Measurement
+from rich.segment import Segment
 from rich.table import Table
+from rich.text import Text
 
 from logbook import fmt
 
@@ -35,8 +38,115 @@ class Col:
     cells: list[str] = field(default_factory=list)
 
 
+class PlainTable(Table):
+    """A rich ``Table`` of plain text cells (``fmt.cells``) that is measured and laid out on
+    the cells' strings: the same widths as rich's (its own width rules run on the same
+    measurements) and the same lines, without a renderable per cell (a 10,000-row table of
+    rich cells costs more than the forecast behind it). Any other table goes rich's own way;
+    tests/unit/test_tables.py holds the two to the same text."""
+
+    def _plain_size(self, column) -> tuple[int, int] | None:
+        """(longest word, longest line) of the column's header and cells, or None when a cell
+        is not plain text (kept per column while its cells stay the same)."""
+        cache = self.__dict__.setdefault("_sizes", {})
+        key = (column._index, len(column._cells), self.show_header)
+        if key not in cache:
+            cells = [column.header, *column._cells] if self.show_header else list(column._cells)
+            texts = []
+            for cell in cells:
+                if isinstance(cell, Text):
+                    plain = not (cell.style or cell.spans or cell.justify or cell.overflow or cell.no_wrap)
+                    texts.append(cell.plain if plain else None)
+                else:
+                    texts.append(cell if isinstance(cell, str) and not self._markup(cell) else None)
+            cache[key] = None if None in texts else text_size(texts)
+        return cache[key]
+
+    @staticmethod
+    def _markup(text: str) -> bool:
+        return "[" in text or "\t" in text
+
+    def _measure_column(self, console, options, column) -> Measurement:
+        size = self._plain_size(column) if column.width is None and not self.show_footer else None
+        if size is None:
+            return super()._measure_column(console, options, column)
+        most = options.max_width
+        if most < 1:
+            return Measurement(0, 0)
+        pad = self._get_padding_width(column._index)
+        if most - pad < 1:  # as rich's Padding measures a cell with no room
+            low = high = most
+        else:
+            low, high = min(size[0] + pad, most), min(size[1] + pad, most)
+        measurement = Measurement(low, high).with_maximum(most)
+        return measurement.clamp(None if column.min_width is None else column.min_width + pad,
+                                 None if column.max_width is None else column.max_width + pad)
+
+    def _render(self, console, options, widths):
+        plain = (self.box is None and not self.show_footer and not self.show_lines and not self.leading
+                 and not self.row_styles and self.style in ("", "none", None) and not any(row.style for row in self.rows)
+                 and all(self._plain_size(c) is not None and not c.style and c.vertical == "top" for c in self.columns)
+                 and tuple(self.padding) == (0, 1, 0, 1) and not self.collapse_padding)
+        last = len(self.columns) - 1
+        pads = [(0 if i == 0 and not self.pad_edge else 1, 0 if i == last and not self.pad_edge else 1)
+                for i in range(len(self.columns))]
+        # a table squeezed below its columns' padding is cropped by rich in its own way
+        plain = plain and sum(widths) <= options.max_width and all(w > a + b for w, (a, b) in zip(widths, pads))
+        if not plain:
+            yield from super()._render(console, options, widths)
+            return
+        header_style = console.get_style(self.header_style or "")
+        rows = [list(col._cells) for col in self.columns]
+        if self.show_header:
+            styles = [header_style + console.get_style(c.header_style) for c in self.columns]
+            lines = self._row(console, [c.header for c in self.columns], widths, pads, "bottom")
+            for line in lines:
+                for text, style in zip(line, styles):
+                    yield Segment(text, style)
+                yield Segment.line()
+        for cells in zip(*rows):
+            for line in self._row(console, cells, widths, pads, "top"):
+                yield Segment("".join(line))
+                yield Segment.line()
+
+    def _row(self, console, cells, widths, pads, vertical) -> list[list[str]]:
+        """The lines of one row: each a list of every cell's text, padded to its column."""
+        out = []
+        for cell, width, (left, right), column in zip(cells, widths, pads, self.columns):
+            room = width - left - right
+            text = cell.plain if isinstance(cell, Text) else cell
+            if text.isascii() and len(text) <= room and text.isprintable():
+                shown = [text.rstrip().rjust(room) if column.justify == "right" else text.ljust(room)]
+            else:  # rich folds it (or the text is not one plain line): rich's own wrapping
+                wrapped = (cell if isinstance(cell, Text) else Text(text)).wrap(
+                    console, max(room, 1), justify=column.justify, overflow=column.overflow, no_wrap=column.no_wrap)
+                shown = [line.plain + " " * (room - cell_len(line.plain)) for line in wrapped] or [" " * room]
+            out.append([" " * left + line + " " * right for line in shown])
+        height = max(len(c) for c in out)
+        for c, width in zip(out, widths):
+            blank = [" " * width] * (height - len(c))
+            c[:] = (blank + c) if vertical == "bottom" else (c + blank)
+        return [list(line) for line in zip(*out)]
+
+
+def text_size(texts) -> tuple[int, int]:
+    """(longest word, longest line) of plain texts, in terminal cells: what rich's ``Text``
+    measures as its minimum and maximum width."""
+    low = high = 0
+    for text in texts:
+        if text.isascii() and "\n" not in text and "\r" not in text:
+            longest = len(text)
+            word = max(map(len, text.split()), default=longest)
+        else:
+            lines = text.splitlines()
+            longest = max(map(cell_len, lines), default=0)
+            word = max(map(cell_len, text.split()), default=longest)
+        low, high = max(low, word), max(high, longest)
+    return low, high
+
+
 def _table(cols: list[Col], title, caption) -> Table:
-    table = Table(box=None, header_style="bold", pad_edge=False, title=title, title_justify="left",
+    table = PlainTable(box=None, header_style="bold", pad_edge=False, title=title, title_justify="left",
                   caption=caption, caption_justify="left")
     for col in cols:
         table.add_column(col.header, no_wrap=not col.wrap, justify=col.justify, overflow="fold")
@@ -55,8 +165,11 @@ def fit(console: Console, cols: list[Col], *, title=None, more: str = "--format 
     roomy = console.options.update_width(1 << 16)  # measured unclamped: what each needs, not what is left
     sizes = {}
     for col in cols:
-        m = Measurement.get(console, roomy, _table([col], None, None))
-        sizes[id(col)] = (m.minimum, m.maximum)
+        if PlainTable._markup(col.header):
+            m = Measurement.get(console, roomy, _table([col], None, None))
+            sizes[id(col)] = (m.minimum, m.maximum)
+        else:  # what that measurement gives, on the strings (test_tables)
+            sizes[id(col)] = text_size([col.header, *(fmt.visible(v) for v in col.cells)])
 
     def folded(c) -> int:  # a folded column keeps room for a few words a line (FOLD_ROOM), never less than its longest word
         low, high = sizes[id(c)]
