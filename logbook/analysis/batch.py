@@ -126,6 +126,12 @@ class LineStats:
     dx: np.ndarray | None = None  # (S, N) centred x, 0 where unused
     r: np.ndarray | None = None  # (S, N) residuals, 0 where unused
 
+    def kept(self) -> tuple[np.ndarray, np.ndarray]:
+        """(dx, r): the centred hours and the residuals, which ``ols_rows(..., keep=True)`` keeps."""
+        if self.dx is None or self.r is None:
+            raise ValueError("LineStats without dx and r: fitted with keep=False")
+        return self.dx, self.r
+
     def put(self, rows: np.ndarray, other: "LineStats") -> None:
         """Overwrite ``rows`` with a refit of those rows."""
         for name in ("n", "xbar", "ybar", "sxx", "a", "b", "rss", "dx", "r"):

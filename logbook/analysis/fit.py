@@ -123,13 +123,14 @@ def _crit_tables(width: int, alpha_out: float, alpha_step: float, side: int) -> 
 
 def _outlier_scan(st: LineStats, crit_t2: np.ndarray, min_n: int):
     """Most extreme reading per row (largest r^2 / (1 - h)) and whether it fails the Bonferroni test."""
+    dx, r = st.kept()
     with np.errstate(invalid="ignore", divide="ignore"):
         inv_sxx = np.where(st.sxx > 0, 1.0 / st.sxx, 0.0)[:, None]
-        h = st.dx * st.dx
+        h = dx * dx
         h *= inv_sxx
         h += (1.0 / np.maximum(st.n, 1))[:, None]
         np.subtract(1.0, h, out=h)  # 1 - leverage (unused readings: r = 0, so u = 0)
-        u = st.r * st.r
+        u = r * r
         u /= h
         j = u.argmax(axis=1)
         umax = u[np.arange(u.shape[0]), j]
@@ -159,11 +160,12 @@ def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions
     """
     s, width = w.shape
     side = opt.min_step_side
+    dx, r = st.kept()
     with np.errstate(invalid="ignore", divide="ignore"):
         # (a product with a triangle of ones would be faster, but multithreaded BLAS stalls on a busy machine)
         cw = np.arange(1.0, width + 1.0)[None, :] if left_aligned else np.cumsum(w, axis=1)
-        cdx = np.cumsum(st.dx, axis=1)
-        red = np.cumsum(st.r, axis=1)
+        cdx = np.cumsum(dx, axis=1)
+        red = np.cumsum(r, axis=1)
         inv_n = (1.0 / np.maximum(st.n, 1))[:, None]
         ede = cw * cw * inv_n
         np.subtract(cw, ede, out=ede)
@@ -200,7 +202,8 @@ def _step_scan(st: LineStats, w: np.ndarray, crit_f: np.ndarray, opt: FitOptions
 
 def _sub(st: LineStats, rows: np.ndarray) -> LineStats:
     """The ``rows`` of a LineStats."""
-    return LineStats(*(None if v is None else v[rows] for v in (st.n, st.xbar, st.ybar, st.sxx, st.a, st.b, st.rss, st.dx, st.r)))
+    return LineStats(st.n[rows], st.xbar[rows], st.ybar[rows], st.sxx[rows], st.a[rows], st.b[rows], st.rss[rows],
+                     None if st.dx is None else st.dx[rows], None if st.r is None else st.r[rows])
 
 
 def _confirm_log(rows, ly, x0, w, scan, *args, **kwargs):
@@ -249,7 +252,7 @@ class _Block:
     flags: np.ndarray
     step_at: np.ndarray
     changed: np.ndarray
-    lin: LineStats | None = None
+    lin: LineStats
 
     @classmethod
     def of(cls, x: np.ndarray, y: np.ndarray) -> "_Block":
@@ -261,10 +264,8 @@ class _Block:
             ly = 1.0 - w
             ly += y0
             np.log(ly, out=ly)
-        block = cls(x0, y0, ly, w, np.isfinite(_rowsum(ly)), np.zeros(s, dtype=np.int64), np.full(s, -1, dtype=np.int64),
-                    np.zeros(s, dtype=bool))  # fmt: skip
-        block.lin = ols_rows(x0, y0, w)
-        return block
+        return cls(x0, y0, ly, w, np.isfinite(_rowsum(ly)), np.zeros(s, dtype=np.int64), np.full(s, -1, dtype=np.int64),
+                   np.zeros(s, dtype=bool), ols_rows(x0, y0, w))  # fmt: skip
 
     def refit(self, rows: np.ndarray) -> None:
         self.changed[rows] = True
@@ -332,12 +333,13 @@ def _split_rss(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray) ->
     """RSS of the line of ``z`` on hours, and of the line plus a level shift from column ``col`` on
     (Frisch-Waugh: the shift's reduction is (sum of residuals before col)^2 / e, as in ``_step_scan``)."""
     st = ols_rows(x0, z, w)
+    dx, r = st.kept()
     before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
     with np.errstate(invalid="ignore", divide="ignore"):
         m = before.sum(axis=1).astype(float)
-        sdx = np.where(before, st.dx, 0.0).sum(axis=1)
+        sdx = np.where(before, dx, 0.0).sum(axis=1)
         e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
-        red = np.where(before, st.r, 0.0).sum(axis=1) ** 2 / e
+        red = np.where(before, r, 0.0).sum(axis=1) ** 2 / e
     return st.rss, np.maximum(st.rss - np.where(e > 1e-12, red, 0.0), 1e-300)
 
 
@@ -345,12 +347,13 @@ def _shift_at(x0: np.ndarray, y0: np.ndarray, w: np.ndarray, col: np.ndarray) ->
     """The level shift (after minus before) of the line-plus-shift fit at column ``col``, and that fit's
     residual variance (Frisch-Waugh, as ``_split_rss``)."""
     st = ols_rows(x0, y0, w)
+    dx, r = st.kept()
     before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
     with np.errstate(invalid="ignore", divide="ignore"):
         m = before.sum(axis=1).astype(float)
-        sdx = np.where(before, st.dx, 0.0).sum(axis=1)
+        sdx = np.where(before, dx, 0.0).sum(axis=1)
         e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
-        lead = np.where(before, st.r, 0.0).sum(axis=1)
+        lead = np.where(before, r, 0.0).sum(axis=1)
         shift = np.where(e > 1e-12, -lead / e, 0.0)
         var = np.maximum(st.rss - np.where(e > 1e-12, lead * lead / e, 0.0), 0.0) / np.maximum(st.n - 3, 1)
     return shift, var
@@ -430,9 +433,10 @@ def _confirmed(st: LineStats, col: np.ndarray, last_col: np.ndarray) -> np.ndarr
     the second newest, and the newest lies off the line on the same side by at least half as much.
     (Our rule: one reading cannot confirm itself, two in a row that agree are taken as the pump.)"""
     rows = np.arange(len(col))
+    r = st.kept()[1]
     second = (col == last_col - 1) & (last_col >= 1)
-    r_col = st.r[rows, col]
-    r_new = st.r[rows, np.maximum(last_col, 0)]
+    r_col = r[rows, col]
+    r_new = r[rows, np.maximum(last_col, 0)]
     return second & (np.sign(r_col) == np.sign(r_new)) & (np.abs(r_new) >= 0.5 * np.abs(r_col))
 
 
@@ -512,11 +516,12 @@ def fleet_noise(batch: TrendBatch, opt: FitOptions) -> np.ndarray | None:
     valid = ~np.isnan(batch.y)
     st = ols_rows(np.where(valid, batch.x, 0.0), np.where(valid, batch.y, 0.0), valid.astype(float))
     level = np.abs(st.ybar)
+    dx, r = st.kept()
     with np.errstate(invalid="ignore", divide="ignore"):  # Var(r_i+1 - r_i) = sigma^2 (2 - h_ii - h_jj + 2 h_ij)
         inv_n, inv_sxx = 1.0 / np.maximum(st.n, 1)[:, None], np.where(st.sxx > 0, 1.0 / st.sxx, 0.0)[:, None]
-        h = inv_n + st.dx * st.dx * inv_sxx
-        h_next = inv_n + st.dx[:, 1:] * st.dx[:, :-1] * inv_sxx
-        d = np.abs(st.r[:, 1:] - st.r[:, :-1]) / np.sqrt(np.maximum(2.0 - h[:, 1:] - h[:, :-1] + 2.0 * h_next, 1e-12))
+        h = inv_n + dx * dx * inv_sxx
+        h_next = inv_n + dx[:, 1:] * dx[:, :-1] * inv_sxx
+        d = np.abs(r[:, 1:] - r[:, :-1]) / np.sqrt(np.maximum(2.0 - h[:, 1:] - h[:, :-1] + 2.0 * h_next, 1e-12))
     pair = valid[:, 1:] & valid[:, :-1] & (st.n >= 4)[:, None] & (batch.group >= 0)[:, None] & (level > 0)[:, None]
     out = np.full(batch.size, np.nan)
     series = pair.any(axis=1)

@@ -566,7 +566,7 @@ def _group_blocks(rows: np.ndarray, group: np.ndarray, block: int):
     for a, b in zip(starts, ends):
         if b - taken > block and a > taken:  # this group would overflow the block: close it before
             yield np.sort(rows[order[taken:a]])
-            taken = a
+            taken = int(a)
     if taken < keys.size:
         yield np.sort(rows[order[taken:]])
 
