@@ -262,3 +262,24 @@ def test_fleet_noise_recovers_the_noise_it_was_made_with():
     got = fleet_noise(TrendBatch(x, add, np.full(s, 99.0), np.ones(s), np.zeros(s, int), x[:, -1]), FitOptions())
     assert np.median(np.sqrt(got)) == pytest.approx(0.2, rel=0.12)
     assert np.ptp(np.sqrt(got)) < 0.1  # (nearly) the same at every level
+
+
+def test_line_stats_keep_the_residuals_statsmodels_gives_and_refuse_without_them():
+    # Residuals and centred hours of the row-wise line against statsmodels OLS (outside reference);
+    # a fit made with keep=False says so instead of handing out None.
+    from logbook.analysis.batch import ols_rows
+
+    rng = np.random.default_rng(7)
+    x = np.sort(rng.uniform(0.0, 5000.0, (3, 9)), axis=1)
+    y = 2.0 + 0.001 * x + rng.normal(0.0, 0.05, x.shape)
+    w = np.ones_like(x)
+    w[1, 7:] = 0.0  # a shorter row: padding carries no residual
+    dx, r = ols_rows(np.where(w > 0, x, 0.0), np.where(w > 0, y, 0.0), w).kept()
+    for i in range(3):
+        used = w[i] > 0
+        fit = sm.OLS(y[i, used], sm.add_constant(x[i, used])).fit()
+        np.testing.assert_allclose(r[i, used], fit.resid, rtol=1e-9, atol=1e-12)
+        np.testing.assert_allclose(dx[i, used], x[i, used] - x[i, used].mean(), rtol=1e-12)
+        assert not r[i, ~used].any()
+    with pytest.raises(ValueError, match="keep=False"):
+        ols_rows(x, y, w, keep=False).kept()
