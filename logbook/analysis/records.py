@@ -221,7 +221,7 @@ def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray, fc: BatchForec
     names = [PATH_NAMES[c] for c in fit.path[rows].tolist()]
     mixture = fc.mixture if fc is not None else None
     for r, x, y, u, days_r, name, a, b, c00, c01, c11, s, d in zip(rows.tolist(), x_t, y_t, used_t, d_t, names, *cols):
-        keep = mixture is not None and bool(mixture.ok[r]) and fc.path[r] >= 0
+        keep = mixture is not None and fc is not None and fc.path is not None and bool(mixture.ok[r]) and fc.path[r] >= 0
         out[r] = FitDetail(x_hours=x, y_value=y, used=u, path=name, params=(a, b), cov=((c00, c01), (c01, c11)),
                            sigma=s, dof=d, mixture=mixture if keep else None, row=r if keep else -1, x_days=days_r)  # fmt: skip
     return out
