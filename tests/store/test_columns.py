@@ -3,6 +3,7 @@ readings as the rows SQLite holds, the same engine results as from a tuple of re
 
 from __future__ import annotations
 
+import shutil
 import sqlite3
 from dataclasses import replace
 from datetime import date, datetime
@@ -13,7 +14,7 @@ import pytest
 from logbook.analysis.fleet import forecast_fleet
 from logbook.analysis.timeline import Timeline
 from logbook.cli import main
-from logbook.columns import ReadingColumns
+from logbook.columns import FIELDS, ReadingColumns
 from logbook.model import Reading
 from logbook.store import Store
 
@@ -104,3 +105,24 @@ def test_one_pump_and_one_reading_come_through_the_same_columns(store):
     mine = store.readings("S-100")
     assert [r.serial for r in mine] == ["S-100"] * 3 and mine[-1] == saved
     assert [r.taken_on for r in mine] == sorted(r.taken_on for r in mine)
+
+
+def test_corrected_readings_count_the_same_from_columns_and_from_records(demo, tmp_path):
+    """A fleet holding corrected originals beside their corrections (as bench_fleet's does): the
+    timeline leaves the originals out whichever form the readings come in."""
+    copy = tmp_path / "corrected.db"
+    shutil.copy(demo, copy)
+    today = date.fromisoformat(DEMO_DAY)
+    with Store(copy, user="tester") as store:
+        fleet = store.fleet()
+        for r in list(fleet.readings)[::97]:
+            if r.servo_pressure_bar is not None:
+                store.correct_reading(r.id, reason="gauge misread", today=today, servo_pressure_bar=r.servo_pressure_bar + 0.5)
+        history, _ = store.fleet_history()
+        rows = store.conn.execute(
+            f"SELECT {', '.join(FIELDS)} FROM readings WHERE removed_reason IS NULL ORDER BY taken_on, machine_hours, id").fetchall()
+    columns = replace(history, readings=ReadingColumns.from_rows(rows))
+    records = replace(history, readings=tuple(r for r in history.readings if r.removed_reason is None))
+    assert sum(r.superseded_by is not None for r in records.readings) > 10
+    assert columns.readings == records.readings
+    assert forecast_fleet(columns, today) == forecast_fleet(records, today)
