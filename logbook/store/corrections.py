@@ -60,6 +60,12 @@ class CorrectionsMixin(StorePart):
             raise InputRejected([Problem("reading", reading_id, f"was removed ({old.removed_reason}); it cannot be changed")])
         return old
 
+    def _reread(self, reading_id: int) -> Reading:
+        """A reading just written in this transaction, as the store now holds it."""
+        saved = self.reading(reading_id)
+        assert saved is not None
+        return saved
+
     def _kept_since(self, table: str, row_id: int, kept: str) -> str:
         """'corrected on DATE' or 'removed on DATE' for a kept original (the day of its audit row)."""
         action = "correct" if kept == "corrected" else "remove"
@@ -81,7 +87,7 @@ class CorrectionsMixin(StorePart):
             new = dataclasses.replace(old, id=None, entered_by="", entered_at=None, superseded_by=None, machine=None, **changes)
             if all(getattr(new, f) == getattr(old, f) for f in CORRECTABLE):
                 raise InputRejected([Problem("changes", "", "change nothing: give at least one new value")])
-            checked = self._check_readings([new], today, None, without=[old.id])
+            checked = self._check_readings([new], today, None, without=[reading_id])
             if checked.problems:
                 raise InputRejected(checked.problems)
             if checked.present:  # the corrected values are those of another current reading
@@ -104,7 +110,7 @@ class CorrectionsMixin(StorePart):
                 f"INSERT INTO readings (id, {', '.join(READING_COLUMNS)}) VALUES (?, {', '.join('?' * len(READING_COLUMNS))})",
                 [new_id, *values],
             )
-            saved = self.reading(new_id)
+            saved = self._reread(new_id)
             self._audit("correct", "readings", old.id, old.serial, _row(old), _row(saved), why)
         return saved
 
@@ -113,8 +119,8 @@ class CorrectionsMixin(StorePart):
         why = _reason(reason)
         with self.transaction():
             old = self._current_reading(reading_id)
-            self.conn.execute("UPDATE readings SET removed_reason = ? WHERE id = ?", (why, old.id))
-            saved = self.reading(old.id)
+            self.conn.execute("UPDATE readings SET removed_reason = ? WHERE id = ?", (why, reading_id))
+            saved = self._reread(reading_id)
             self._audit("remove", "readings", old.id, old.serial, _row(old), _row(saved), why)
         return saved
 
@@ -134,16 +140,17 @@ class CorrectionsMixin(StorePart):
                 self._undo_move(old, why)
             elif old.kind is EventKind.EXCHANGE and old.serial_in is not None:
                 self._undo_exchange(old, why)
-            elif old.kind is EventKind.METER_REPLACED:
-                later = self._records_on_or_after(old.machine, old.happened_on, exclude_event=old.id)
+            elif old.kind is EventKind.METER_REPLACED and old.machine is not None:  # a replacement names its machine
+                later = self._records_on_or_after(old.machine, old.happened_on, exclude_event=event_id)
                 if later:
                     raise InputRejected([Problem(
                         "event", event_id,
                         f"cannot be removed: {later} on {old.machine} from {old.happened_on} on were read from the new "
                         "hour meter; remove or correct them first",
                     )])
-            self.conn.execute("UPDATE events SET removed_reason = ? WHERE id = ?", (why, old.id))
-            saved = self.event(old.id)
+            self.conn.execute("UPDATE events SET removed_reason = ? WHERE id = ?", (why, event_id))
+            saved = self.event(event_id)
+            assert saved is not None  # marked just now, in this transaction
             self._audit("remove", "events", old.id, old.serial, _event_row(old), _event_row(saved), why)
         return saved
 

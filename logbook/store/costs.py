@@ -33,7 +33,9 @@ class CostsMixin(StorePart):
     """Per model job costs, per site and machine downtime, and the currency (settings 'currency')."""
 
     def costs(self) -> CostBook:
-        models, sites, machines = {}, {}, {}
+        models: dict[str, ModelCosts] = {}
+        sites: dict[str, Downtime] = {}
+        machines: dict[str, Downtime] = {}
         for row in self.db.query("SELECT * FROM costs ORDER BY scope, name"):
             if row["scope"] == "model":
                 models[row["name"]] = ModelCosts(row["name"], row["planned_cost"], row["failure_cost"])
@@ -64,6 +66,7 @@ class CostsMixin(StorePart):
             problems.append(Problem("model", model, "is not a known pump model"))
         if problems:
             raise InputRejected(problems)
+        assert planned is not None and failure is not None  # _amount found both given
         new = ModelCosts(model, float(planned), float(failure))
         with self.transaction():
             old = self.costs().models.get(model)
@@ -89,6 +92,7 @@ class CostsMixin(StorePart):
             problems.append(Problem(scope, name, f"is not a known {scope}" + (": " + ", ".join(sorted(known)) if known else "")))
         if problems:
             raise InputRejected(problems)
+        assert cost_per_hour is not None and planned_hours is not None and failure_hours is not None  # _amount found them given
         new = Downtime(scope, name, float(cost_per_hour), float(planned_hours), float(failure_hours))
         with self.transaction():
             book = self.costs()
@@ -137,7 +141,7 @@ class CostsMixin(StorePart):
                     problems.append(Problem("name", name, f"is not a known {scope} (known: {listed})", line=line))
                     continue
                 own, other = (MODEL_COLUMNS, DOWNTIME_COLUMNS) if scope == "model" else (DOWNTIME_COLUMNS, MODEL_COLUMNS)
-                here = []
+                here: list[Problem] = []
                 for col in own:
                     _amount(col, row.get(col), "h" if col.endswith("hours") else "", here)
                 for col in other:
@@ -147,6 +151,8 @@ class CostsMixin(StorePart):
                 if here:
                     problems += [dataclasses.replace(p, line=line) for p in here]
                     continue
+                new: ModelCosts | Downtime
+                old: ModelCosts | Downtime | None
                 if scope == "model":
                     new = ModelCosts(name, float(row["planned_cost"]), float(row["failure_cost"]))
                     old = book.models.get(name)
