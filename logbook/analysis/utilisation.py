@@ -303,19 +303,34 @@ def month_rates(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, wanted:
     over its days; a month's rate is the mean over the days of that month with evidence."""
     t = today.toordinal()
     out: dict[int, tuple[float, ...]] = {}
-    keep = (day <= t) & (day >= t - SEASON_WINDOW_DAYS) & np.isfinite(hours)
-    for c in wanted:
-        mine = keep & (machine == c)
-        if mine.sum() < 3:
-            continue
-        d, h = day[mine].astype(np.int64), hours[mine]
-        order = np.lexsort((h, d))
-        d, h = d[order], h[order]
-        if d[-1] - d[0] < MIN_SEASON_SPAN_DAYS:
-            continue
-        months = _season(d, h)
+    want = np.zeros(max([*wanted, int(machine.max(initial=-1))]) + 2, dtype=bool)
+    want[list(wanted)] = True
+    keep = want[machine] & (day <= t) & (day >= t - SEASON_WINDOW_DAYS) & np.isfinite(hours)
+    m, d, h = machine[keep], day[keep].astype(np.int64), hours[keep]
+    order = np.lexsort((h, d, m))
+    m, d, h = m[order], d[order], h[order]
+    if len(m) < 3:
+        return out
+    starts = np.flatnonzero(np.r_[True, m[1:] != m[:-1]])
+    ends = np.r_[starts[1:], len(m)]
+    # a cheap necessary condition first, for all machines at once: enough points over enough days, and an
+    # interval whose rate is under LOW_SHARE of the machine's average (else no month can be near zero)
+    same = m[1:] == m[:-1]
+    dd, dh = np.diff(d).astype(float), np.diff(h)
+    ok = same & (dd >= 1)
+    rate = np.where(ok, np.clip(np.maximum(dh, 0.0) / np.maximum(dd, 1.0), 0.0, MAX_HOURS_PER_DAY), 0.0)
+    group = np.cumsum(np.r_[0, ~same.astype(bool)])[:-1] if len(same) else np.zeros(0, dtype=np.int64)
+    days = np.bincount(group, weights=np.where(ok, dd, 0.0), minlength=len(starts))
+    run = np.bincount(group, weights=np.where(ok, dd * rate, 0.0), minlength=len(starts))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        average = run / days
+    low = np.bincount(group, weights=(ok & (rate < LOW_SHARE * average[group] * (1 + 1e-9))).astype(float),
+                      minlength=len(starts)) > 0  # fmt: skip
+    maybe = (ends - starts >= 3) & (d[ends - 1] - d[starts] >= MIN_SEASON_SPAN_DAYS) & (average > 0) & low
+    for g in np.flatnonzero(maybe).tolist():
+        months = _season(d[starts[g]:ends[g]], h[starts[g]:ends[g]])
         if months is not None:
-            out[c] = months
+            out[int(m[starts[g]])] = months
     return out
 
 
