@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from operator import attrgetter
 from datetime import date, timedelta
 from typing import Iterable, Sequence
 
@@ -352,8 +353,11 @@ def second_look(
         if r.serial in pumps and r.serial in before.pumps and r.serial in position:
             by_pump.setdefault(r.serial, []).append(i)
     trended = _trended(before, new)
+    given = [np.array([getattr(r, _VALUE_OF[kind]) is not None for r in new], dtype=bool) for kind in ALL_KINDS]
+    day = np.array([r.taken_on.toordinal() for r in new], dtype=np.int64)
     found: list[tuple[int, int, str]] = []
-    for serial, at in by_pump.items():
+    for serial, listed in by_pump.items():
+        at = np.array(listed, dtype=np.int64)
         for kf in pumps[serial].kinds:
             if kf.fit is None:
                 continue
@@ -361,8 +365,11 @@ def second_look(
             row = 3 * position[serial] + k
             start_on = packed.pack.start_on[row]
             older = packed.pack.started[row]  # readings of an older wear segment: the current trend says nothing of them
-            take = [i for i in at if new[i].value(kf.kind) is not None and not (older and new[i].taken_on < start_on)]
-            if not take:
+            keep = given[k][at]
+            if older:
+                keep &= day[at] >= start_on.toordinal()
+            take = at[keep]
+            if not len(take):
                 continue
             xs = hours[take] - float(packed.pack.origin[row])
             values = trended[k][take]
@@ -374,10 +381,15 @@ def second_look(
             for j, at_j in enumerate(out.tolist()):
                 if lo[j] <= values[at_j] <= hi[j]:
                     continue  # on the band's edge (the band's quantiles are found to 1e-12 by bisection)
-                i = take[at_j]
+                i = int(take[at_j])
                 found.append((i, k, _look_line(new[i], kf.kind, float(values[at_j]), (float(lo[j]), float(hi[j])),
                                                (low_q, high_q), float(xs[at_j]), start_on)))
     return [line for _, _, line in sorted(found)]
+
+
+#: The reading's attribute holding each kind's value (``Reading.value``).
+_VALUE_OF = {Kind.CASE_DRAIN: "case_drain_lpm", Kind.SERVO_PRESSURE: "servo_pressure_bar",
+             Kind.NEUTRAL_DRIFT: "neutral_drift_bar"}
 
 
 def _trended(fleet: Fleet, readings: Sequence[Reading]):
@@ -392,18 +404,18 @@ def _trended(fleet: Fleet, readings: Sequence[Reading]):
     index = {c: i for i, c in enumerate(codes)}
     model_of = np.array([index[fleet.pumps[r.serial].model] if r.serial in fleet.pumps else 0 for r in readings], dtype=int)
 
-    def column(get) -> np.ndarray:
-        return np.array([np.nan if (v := get(r)) is None else v for r in readings], dtype=float)
+    def column(name: str) -> np.ndarray:
+        return np.array([np.nan if v is None else v for v in map(attrgetter(name), readings)], dtype=float)
 
     def refuse(i: int):
         normalized_value(readings[i], Kind.CASE_DRAIN, models[model_of[i]])  # raises the one reading's own error
         raise ValueError(f"reading {readings[i].id} cannot be normalized")
 
-    conditions = ReadingConditions(column(lambda r: r.test_pressure_bar), column(lambda r: r.oil_temp_c),
-                                   column(lambda r: r.oil_grade), column(lambda r: r.oil_vi), models, model_of, refuse)
+    conditions = ReadingConditions(column("test_pressure_bar"), column("oil_temp_c"), column("oil_grade"), column("oil_vi"),
+                                   models, model_of, refuse)
     out = []
     for kind in ALL_KINDS:
-        raw = column(lambda r, kind=kind: r.value(kind))
+        raw = column(_VALUE_OF[kind])
         have = np.isfinite(raw)
         values = np.full(len(readings), np.nan)
         if have.any():
