@@ -137,6 +137,8 @@ class LogbookApp(App):
                 self._post_pump(fleet, serial, basis, worker)
                 quick = False
             with self.gate.open() as store:  # opens the store on the first load
+                if fleet is None and self.fleet is None and self.as_of is None:
+                    self._post_equipment(store)
                 count = store.change_count()
                 if fleet is None or count != basis.change_count + 1:  # someone else wrote too: read it all
                     fleet = store.fleet() if self.as_of is None else store.fleet_as_of(self.as_of)
@@ -185,6 +187,16 @@ class LogbookApp(App):
         self.month_costs = {line.serial: line.expected_cost for line in message.plan.lines
                             if line.expected_cost is not None} if message.plan is not None else {}
         self.data_generation += 1
+
+    def _post_equipment(self, store) -> None:
+        """The pumps, machines and fitments alone (a small read, without readings and events),
+        so that the fleet view lists the pumps in service while the whole snapshot is read
+        and forecast; the whole snapshot replaces it when read."""
+        from logbook.model import Fleet
+
+        self.post_message(FleetRead(Fleet(models=store.models(), machines=store.machines(), pumps=store.pumps(),
+                                          fitments=tuple(store.fitments()), readings=(), events=(),
+                                          source=store.path)))
 
     def _post_pump(self, fleet: Fleet, serial: str, basis: Fleet, worker) -> None:
         """Forecast one pump pooled with its model's pumps, as the fleet view would, and
