@@ -197,13 +197,16 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--skip", nargs="*", default=[], choices=("truth", "calibration", "speed"))
+    ap.add_argument("--seeds", type=int, nargs="+", help="truth fleets' seeds (default 1 2 3; --quick: 1)")
+    ap.add_argument("--noises", type=float, nargs="+", default=[0.04, 0.10],
+                    help="noise levels of part 2 (default 0.04 0.10)")
     args = ap.parse_args(argv)
-    seeds = (1,) if args.quick else (1, 2, 3)
+    seeds = tuple(args.seeds) if args.seeds else (1,) if args.quick else (1, 2, 3)
     n_pumps = 120 if args.quick else 160
     if "truth" not in args.skip:
         part_truth(seeds, n_pumps)
     if "calibration" not in args.skip:
-        part_calibration(seeds, n_pumps)
+        part_calibration(seeds, n_pumps, tuple(args.noises))
     if "speed" not in args.skip:
         part_speed(2 if args.quick else 3)
     return 0

@@ -256,3 +256,38 @@ def test_cutting_rows_back_never_cuts_a_forecasts_quantile_or_path_columns():
     cut_fit = bt._rows(fit, slice(1, 3), 5, (3, 2))
     assert cut_fit.weights.tolist() == [[3.0, 4.0], [6.0, 7.0]] and cut_fit.n_used.tolist() == [1, 2]
     assert bt._rows(fc, slice(1, 3), 5).remaining.tolist() == [[3.0, 4.0, 5.0], [6.0, 7.0, 8.0]]
+
+
+@pytest.mark.slow
+def test_path_weights_at_an_origin_depend_only_on_readings_on_or_before_it(demo):
+    """The path weights are fitted on the fleet's own history (``paths.later_scores``: each series'
+    later half predicted from its first, stacked per model fleet). In the backtest they are fitted as
+    of each origin, several origins in one engine call: changing every reading taken after an origin
+    leaves that origin's weights exactly as they were, and moves the weights of a later origin that
+    sees the changed readings (so the check can fail). Leave-future-out as in Buerkner, Gabry and
+    Vehtari, J. Stat. Comput. Simul. 90 (2020): a forecast made at a time uses data up to it only."""
+    from dataclasses import replace
+
+    from logbook.analysis.fleet import pack_fleet
+    from logbook.asof import Known, fleet_as_of
+
+    origin, later_origin = date(2025, 6, 1), date(2026, 6, 1)
+
+    def bent(r):  # every later reading grows faster, as if the pump wore twice as fast from the origin on
+        if r.taken_on <= origin or r.case_drain_lpm is None:
+            return r
+        return replace(r, case_drain_lpm=r.case_drain_lpm * (1.0 + (r.taken_on - origin).days / 120))
+
+    changed = replace(demo, readings=tuple(bent(r) for r in demo.readings))
+    assert sum(a.case_drain_lpm != b.case_drain_lpm for a, b in zip(demo.readings, changed.readings)) > 200
+
+    def weights(fleet):
+        packed = [pack_fleet(fleet_as_of(fleet, Known(), d), d) for d in (origin, later_origin)]
+        results = bt.forecast_together([p.pack.batch for p in packed])  # as run_backtest does: one call
+        return [(p.serials, fc.mixture.weights, fc.mixture.ok) for p, (_, fc) in zip(packed, results)]
+
+    (s0, w0, ok0), (s1, w1, ok1) = weights(demo)
+    (t0, v0, _), (t1, v1, _) = weights(changed)
+    assert s0 == t0 and s1 == t1 and ok0.sum() > 100
+    assert np.array_equal(w0, v0)  # as of the origin: not one weight moved
+    assert np.abs(w1 - v1)[ok1].max() > 0.05  # as of a later day the changed readings are seen
