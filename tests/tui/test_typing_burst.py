@@ -11,6 +11,7 @@ from textual import events
 from textual.keys import _character_to_key
 
 from logbook.model import Kind
+from logbook.oil import nu100_from_vi
 from logbook.tui.screens.reading import ReadingScreen
 from tests.tui.conftest import TODAY, settle
 from tests.tui.test_entry import crossing_pump, meter_now, open_form
@@ -64,6 +65,8 @@ def plan(app, pf):
         ("test_speed", speed, "tab"),
         ("oil_grade", str(model.oil_grade), "tab"),
         ("oil_vi", f"{model.oil_vi:g}", "tab"),
+        ("nu40_cst", f"{model.oil_grade:g}", "tab"),  # the grade's midpoint and the 100 C value of its VI (D2270):
+        ("nu100_cst", f"{nu100_from_vi(model.oil_grade, model.oil_vi):.3f}", "tab"),  # the reference oil measured
         ("charge_pressure", "21.5", "tab"),
         ("iso4406", "18/16/13", "tab"),
         ("technician", "Burst Typist", "tab"),
@@ -111,7 +114,7 @@ async def type_reading_at_once(app, pilot, store, slow_check: float = 0.0):
         "oil_temp": f"{r.oil_temp_c:.1f}", "test_pressure": f"{r.test_pressure_bar:g}",
         "test_speed": f"{r.test_speed_rpm:g}", "oil_grade": str(r.oil_grade), "oil_vi": f"{r.oil_vi:g}",
         "charge_pressure": f"{r.charge_pressure_bar:g}", "iso4406": r.iso4406, "technician": r.technician,
-        "note": r.note,
+        "note": r.note, "nu40_cst": f"{r.nu40_cst:g}", "nu100_cst": f"{r.nu100_cst:.3f}",
     }
     assert got == want  # every value in its own field, none lost, none shifted
     return form
