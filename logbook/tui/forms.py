@@ -8,7 +8,7 @@ from datetime import date
 from typing import Callable
 
 from logbook import fmt, units, validate
-from logbook.model import Event, EventKind, Problem, PumpHistory, Reading
+from logbook.model import MACHINE_EVENTS, Event, EventKind, Problem, PumpHistory, Reading
 from logbook.units import UnitPrefs
 
 Parser = Callable[[str], tuple[object, Problem | None]]
@@ -181,18 +181,21 @@ def corrections(old: Reading, new: Reading, texts: dict[str, str], typed: dict[s
 
 EVENT_KIND_WORDS = {
     EventKind.OVERHAUL: "Overhaul (pump rebuilt)",
-    EventKind.EXCHANGE: "Exchange (rebuilt unit, same serial)",
+    EventKind.EXCHANGE: "Exchange (another unit put in its place)",
     EventKind.NEUTRAL_RESET: "Neutral re-set",
     EventKind.CONTROL_REPAIR: "Control repair",
     EventKind.OIL_CHANGE: "Oil change",
     EventKind.MOVE: "Move to another machine",
     EventKind.METER_REPLACED: "Hour meter replaced",
+    EventKind.PARKED: "Machine parked (stands still)",
+    EventKind.BACK_IN_SERVICE: "Machine back in service",
 }
 
 #: Fields each event kind asks for besides date, technician and note.
 EVENT_FIELDS = {
     EventKind.MOVE: ("hours", "to_machine", "to_position", "to_hours"),
     EventKind.METER_REPLACED: ("hours", "to_hours"),
+    EventKind.EXCHANGE: ("hours", "serial_in"),
 }
 DEFAULT_EVENT_FIELDS = ("hours",)
 
@@ -206,6 +209,7 @@ def event_fields(today: date, kind: EventKind) -> tuple[FieldDef, ...]:
         FieldDef("to_machine", "To machine", _name("to_machine"), ""),
         FieldDef("to_position", "To position", _name("to_position"), ""),
         FieldDef("to_hours", to_hours_label, _number("to_hours", "h", specs=validate.HOURS_FIELDS), "h"),
+        FieldDef("serial_in", "Pump fitted in", _name("serial_in"), "", "serial, blank if not known"),
         FieldDef("technician", "Technician", _free, ""),
         FieldDef("note", "Note", _free, ""),
     )
@@ -217,12 +221,13 @@ def build_event(kind: EventKind, serial: str, machine: str | None, values: dict[
         id=None,
         kind=kind,
         happened_on=values["date"],
-        serial=None if kind is EventKind.METER_REPLACED else serial,
+        serial=None if kind in MACHINE_EVENTS else serial,
         machine=machine,
         hours=values.get("hours") if "hours" in wanted else None,
         to_machine=values.get("to_machine") if "to_machine" in wanted else None,
         to_position=values.get("to_position") if "to_position" in wanted else None,
         to_hours=values.get("to_hours") if "to_hours" in wanted else None,
+        serial_in=values.get("serial_in") if "serial_in" in wanted else None,
         technician=values.get("technician") or "",
         note=values.get("note") or "",
     )

@@ -265,3 +265,36 @@ async def test_oil_outside_the_test_window_is_asked_about_before_saving(demo_app
         assert demo_store.counts()["readings"] == before_count + 1
         saved = [r for r in demo_store.readings(pf.serial) if r.taken_on == TODAY]
         assert len(saved) == 1 and (saved[0].nu40_cst, saved[0].nu100_cst) == (47.5, 7.0)
+
+
+async def test_an_exchange_names_the_pump_fitted_in_and_checks_it(demo_app, demo_store):
+    """The event form asks an exchange for the pump that went in: an unknown serial is refused
+    on its field and nothing is written; a spare pump on record is fitted in the same place."""
+    from logbook.model import Pump
+
+    app = demo_app
+    spare = "SPARE-TUI-1"
+    any_model = next(iter(demo_store.pumps().values())).model
+    demo_store.add_pumps([(Pump(serial=spare, model=any_model), None)], today=TODAY)
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(app, pilot)
+        pf = crossing_pump(app)
+        before = len(demo_store.events())
+        form = await open_form(app, pilot, pf.serial, "e")
+        form.query_one("#kind").value = "exchange"
+        await pilot.pause()
+        assert not form.fields["serial_in"].has_class("-hidden")
+        assert form.fields["to_machine"].has_class("-hidden")
+        fill(form, hours=f"{meter_now(app, pf.machine):.0f}", serial_in="NO-SUCH-PUMP")
+        await pilot.press("f2")
+        await settle(app, pilot)
+        assert "must be a known pump serial" in text(form.fields["serial_in"].query_one(".field-message"))
+        assert len(demo_store.events()) == before
+        fill(form, serial_in=spare)
+        await settle(app, pilot)
+        await pilot.press("f2")
+        await settle(app, pilot)
+        saved = [e for e in demo_store.events(pf.serial) if e.happened_on == TODAY]
+        assert [(e.kind.value, e.serial_in) for e in saved] == [("exchange", spare)]
+        went_in = [f for f in demo_store.fitments(serial=spare) if f.removed_on is None]
+        assert [(f.machine, f.fitted_on) for f in went_in] == [(pf.machine, TODAY)]

@@ -88,6 +88,13 @@ class EventScreen(SafetyKey, EntryScreen):
             hint = f"For machine {self.machine or '?'}: the old meter's last reading and the new meter's first."
         elif self.kind is EventKind.MOVE:
             hint = "Moves the pump: hour meter of the machine it leaves, then the target machine, position and its meter."
+        elif self.kind is EventKind.EXCHANGE:
+            hint = ("Takes this pump out and fits the pump named in 'Pump fitted in' in its place "
+                    "(blank: the unit that went in is not on record). New trends start for every reading.")
+        elif self.kind is EventKind.PARKED:
+            hint = f"For machine {self.machine or '?'}: its pumps run no hours from this day until it is back in service."
+        elif self.kind is EventKind.BACK_IN_SERVICE:
+            hint = f"For machine {self.machine or '?'}: its pumps run hours again from this day."
         self.query_one("#kind-hint", Static).update(hint)
         self.query_one(SafetyBox).set_extra(self._safety_extra())
 
