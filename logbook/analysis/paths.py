@@ -77,10 +77,21 @@ def t_cdf(t: np.ndarray, dof: np.ndarray) -> np.ndarray:
     """Student t CDF by Wallace's normal approximation z = (8v + 1)/(8v + 3) sqrt(v ln(1 + t^2/v))
     (Wallace, Annals of Mathematical Statistics 30, 1959): absolute error under 1e-3 for v >= 3, and
     a fraction of the time of the exact incomplete beta (it runs inside every bisection here)."""
-    v = np.clip(dof, 1.0, 1e6)
-    with np.errstate(invalid="ignore", over="ignore"):
-        z = np.sign(t) * (8 * v + 1) / (8 * v + 3) * np.sqrt(v * np.log1p(t * t / v))
-    return special.ndtr(np.where(np.isnan(t), 0.0, np.where(np.isinf(t), t, z)))
+    return _TDof(dof).cdf(t)
+
+
+class _TDof:
+    """The degrees of freedom of ``t_cdf`` with Wallace's constants worked out once, for a bisection
+    that asks the CDF of the same lines at many points."""
+
+    def __init__(self, dof: np.ndarray):
+        self.v = np.clip(dof, 1.0, 1e6)
+        self.c = (8 * self.v + 1) / (8 * self.v + 3)
+
+    def cdf(self, t: np.ndarray) -> np.ndarray:
+        with np.errstate(invalid="ignore", over="ignore"):
+            z = np.sign(t) * self.c * np.sqrt(self.v * np.log1p(t * t / self.v))
+        return special.ndtr(np.where(np.isnan(t), 0.0, np.where(np.isinf(t), t, z)))
 
 
 def _group_median(values: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int, min_count: int) -> np.ndarray:
@@ -298,16 +309,18 @@ def stacking_weights(scores: np.ndarray, comparable: np.ndarray, group: np.ndarr
     dens = np.exp(dens - dens.max(axis=1, keepdims=True))  # exp(-inf) = 0: a path not allowed
     starts = np.flatnonzero(np.r_[True, g[1:] != g[:-1]])
     present = g[starts]
-    active = np.ones(present.size, dtype=bool)  # each group iterates until its own weights settle
-    for _ in range(iterations):
+    for _ in range(iterations):  # each group iterates until its own weights settle
         r = dens * weights[g]
         r /= r.sum(axis=1, keepdims=True)
         new = np.add.reduceat(r, starts, axis=0) / counts[present][:, None]
-        old = weights[present]
-        weights[present] = np.where(active[:, None], new, old)
-        active &= np.abs(new - old).max(axis=1) >= tol  # a group's result never depends on the others
-        if not active.any():
-            break
+        active = np.abs(new - weights[present]).max(axis=1) >= tol  # a group's result never depends on the others
+        weights[present] = new
+        if not active.all():  # the settled groups' series leave the iteration
+            if not active.any():
+                break
+            rows = np.repeat(active, np.diff(np.r_[starts, g.size]))
+            dens, g, present = dens[rows], g[rows], present[active]
+            starts = np.flatnonzero(np.r_[True, g[1:] != g[:-1]])
     return weights
 
 
@@ -352,12 +365,17 @@ class PathMixture:
         comparable &= np.isfinite(np.where(allowed, scores, 0.0)).all(axis=1)
         group_w, has_w = stacking_weights(scores, comparable, group, n_groups), _stacked(comparable, group, n_groups)
         if scoring == "later":  # groups without later halves to score (short series) stack one-step-ahead
-            one_s, one_c = one_step_scores(x, y, w)
+            # scored only where used: the series of groups without weights, and any whose own record counts
+            need = np.ones(s, dtype=bool) if own_update else ~has_w[np.maximum(group, 0)] | (group < 0)
+            one_s, one_c = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
+            if need.any():
+                one_s[need], one_c[need] = one_step_scores(x[need], y[need], w[need])
             one_s, one_c = np.where(allowed, one_s, -np.inf), np.where(allowed, one_c, 0)
             top1 = one_c.max(axis=1)
             comp1 = (top1 > 0) & (np.where(allowed, one_c, top1[:, None]) == top1[:, None]).all(axis=1)
             comp1 &= np.isfinite(np.where(allowed, one_s, 0.0)).all(axis=1)
-            group_w = np.where(has_w[:, None], group_w, stacking_weights(one_s, comp1, group, n_groups))
+            if need.any():
+                group_w = np.where(has_w[:, None], group_w, stacking_weights(one_s, comp1, group, n_groups))
             has_w |= _stacked(comp1, group, n_groups)
             scores, comparable = one_s, comp1  # a series' own record, where its group has no weights
         alone = ~has_w[np.maximum(group, 0)] | (group < 0)  # no group weights: the series' own record decides
@@ -489,7 +507,7 @@ class _LaterReadings:
             with np.errstate(invalid="ignore"):
                 gap = box_cox(y, line.lam) - line.z0[rows] - line.b[rows] * d
             self.parts.append((wk, np.nan_to_num(gap), line.var_a[rows] + d * d * line.var_b[rows], line.s2[rows],
-                               line.nu[rows]))
+                               _TDof(line.nu[rows])))
 
     def cdf(self, factor: np.ndarray) -> np.ndarray:
         """P(a new reading <= the one observed) with the path spread times ``factor``, plus the noise: per
@@ -499,7 +517,7 @@ class _LaterReadings:
         f2 = factor * factor
         for wk, gap, var_path, s2, nu in self.parts:
             with np.errstate(invalid="ignore", divide="ignore"):
-                out += wk * t_cdf(np.nan_to_num(gap / np.sqrt(f2 * var_path + s2)), nu)
+                out += wk * nu.cdf(np.nan_to_num(gap / np.sqrt(f2 * var_path + s2)))
         return out
 
 
