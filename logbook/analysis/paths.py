@@ -93,6 +93,19 @@ class _TDof:
             z = np.sign(t) * self.c * np.sqrt(self.v * np.log1p(t * t / self.v))
         return special.ndtr(np.where(np.isnan(t), 0.0, np.where(np.isinf(t), t, z)))
 
+    def cdf_finite(self, t: np.ndarray) -> np.ndarray:
+        """``cdf`` of finite ``t`` (the same operations in the same order, in place: no NaN or inf to mend)."""
+        with np.errstate(invalid="ignore", over="ignore"):
+            root = t * t
+            root /= self.v
+            np.log1p(root, out=root)
+            root *= self.v
+            np.sqrt(root, out=root)
+            z = np.sign(t)
+            z *= self.c
+            z *= root
+        return special.ndtr(z, out=z)
+
 
 def _group_median(values: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int, min_count: int) -> np.ndarray:
     out = np.full(n_groups, np.nan)
@@ -497,8 +510,9 @@ class _LaterReadings:
     """The later readings of one calibration origin, as each path of the mixture predicts them."""
 
     def __init__(self, mix: PathMixture, rows: np.ndarray, x: np.ndarray, y: np.ndarray):
+        self.mix, self.rows, self.x, self.y = mix, rows, x, y
         self.worn_sign = mix.sign[rows]
-        self.parts = []  # per path with weight: (weight, z - location, path variance, noise variance)
+        self.parts = []  # per path with weight: (weight, z - location, path variance, noise variance, dof)
         for k, line in enumerate(mix.lines):
             wk = mix.weights[rows, k]
             if not wk.any():
@@ -509,6 +523,10 @@ class _LaterReadings:
             self.parts.append((wk, np.nan_to_num(gap), line.var_a[rows] + d * d * line.var_b[rows], line.s2[rows],
                                _TDof(line.nu[rows])))
 
+    def take(self, cells: np.ndarray) -> "_LaterReadings":
+        """The same predictions for ``cells`` (indices) only."""
+        return _LaterReadings(self.mix, self.rows[cells], self.x[cells], self.y[cells])
+
     def cdf(self, factor: np.ndarray) -> np.ndarray:
         """P(a new reading <= the one observed) with the path spread times ``factor``, plus the noise: per
         path the Student t of the line's degrees of freedom, as the forecast itself spreads it
@@ -517,7 +535,11 @@ class _LaterReadings:
         f2 = factor * factor
         for wk, gap, var_path, s2, nu in self.parts:
             with np.errstate(invalid="ignore", divide="ignore"):
-                out += wk * nu.cdf(np.nan_to_num(gap / np.sqrt(f2 * var_path + s2)))
+                t = f2 * var_path
+                t += s2
+                np.sqrt(t, out=t)
+                np.divide(gap, t, out=t)
+                out += wk * nu.cdf_finite(np.nan_to_num(t, copy=False))
         return out
 
 
@@ -528,17 +550,21 @@ def _required_spread(later: _LaterReadings, tail: float, iterations: int = 16) -
     p = later.cdf(np.ones(sign.size))
     worn = np.where(sign > 0, p > 0.5, p < 0.5)
 
-    def inside(log_factor):
-        q = later.cdf(np.exp(log_factor))
-        less_worn = np.where(sign > 0, q, 1 - q)  # P(a reading less worn than this one)
-        return np.where(worn, less_worn <= 1 - tail, less_worn >= tail)
+    def inside(cells: _LaterReadings, worn_cells: np.ndarray, log_factor: np.ndarray) -> np.ndarray:
+        q = cells.cdf(np.exp(log_factor))
+        less_worn = np.where(cells.worn_sign > 0, q, 1 - q)  # P(a reading less worn than this one)
+        return np.where(worn_cells, less_worn <= 1 - tail, less_worn >= tail)
 
-    lo, hi = np.full(sign.size, np.log(SPREAD_RANGE[0])), np.full(sign.size, np.log(SPREAD_RANGE[1]))
+    # readings inside at the smallest factor score it; only the others are bisected (each on its own)
+    score = np.full(sign.size, SPREAD_RANGE[0])
+    rest = np.flatnonzero(~inside(later, worn, np.full(sign.size, np.log(SPREAD_RANGE[0]))))
+    cells, worn_cells = later.take(rest), worn[rest]
+    lo, hi = np.full(rest.size, np.log(SPREAD_RANGE[0])), np.full(rest.size, np.log(SPREAD_RANGE[1]))
     for _ in range(iterations):
         mid = 0.5 * (lo + hi)
-        ok = inside(mid)
+        ok = inside(cells, worn_cells, mid)
         hi, lo = np.where(ok, mid, hi), np.where(ok, lo, mid)
-    score = np.where(inside(np.full(sign.size, np.log(SPREAD_RANGE[0]))), SPREAD_RANGE[0], np.exp(hi))
+    score[rest] = np.exp(hi)
     return worn, score
 
 
