@@ -20,6 +20,8 @@ import argparse
 import random
 import sys
 import time
+
+import numpy as np
 from pathlib import Path
 from dataclasses import replace
 from datetime import date, timedelta
@@ -210,6 +212,18 @@ def fleet_batch(fleet: Fleet, today: date):
     return pack(fleet, today) if pack is not None else reference_fleet_batch(fleet, today)
 
 
+def batched_lstsq(batch) -> np.ndarray:
+    """Baseline: one least-squares line per series by masked normal equations solved as a stack (as
+    tests/bench/bench_trend.py), on the series with a line (two readings at different hours)."""
+    m = np.isfinite(batch.y)
+    xz, yz = np.where(m, batch.x, 0.0), np.where(m, batch.y, 0.0)
+    design = np.stack([m.astype(float), xz], axis=-1)
+    xtx = np.einsum("snk,snl->skl", design, design, optimize=True)
+    xty = np.einsum("snk,sn->sk", design, yz, optimize=True)
+    solvable = np.linalg.det(xtx) > 1e-9
+    return np.linalg.solve(xtx[solvable], xty[solvable][..., None])[..., 0]
+
+
 def best_of(fn, repeat: int) -> float:
     best = float("inf")
     for _ in range(repeat):
@@ -236,6 +250,7 @@ def run(pumps: int, repeat: int, old: bool) -> None:
         t_rec = min(t_rec, best_of(lambda: fleet_module.forecast_fleet(records, TODAY), 1))
         t_core = min(t_core, best_of(core, 1))
         t_pack = min(t_pack, best_of(lambda: fleet_batch(fleet, TODAY), 1))
+    t_lstsq = best_of(lambda: batched_lstsq(batch), max(repeat, 3))
     n, n_read = len(fleet.pumps), len(fleet.readings)
     print(f"\nfleet: {n:,} pumps, {n_read:,} readings, {len(fleet.events):,} events "
           f"(built in {t_build:.1f} s); batch {batch.x.shape[0]:,} series x {batch.x.shape[1]}")  # fmt: skip
@@ -244,6 +259,8 @@ def run(pumps: int, repeat: int, old: bool) -> None:
     print(f"  of which packing      : {t_pack:7.3f} s  (timeline, utilisation, batch)")
     print(f"  ... from records      : {t_rec:7.3f} s  (the same fleet, its readings a tuple of Reading records)")
     print(f"  and the result records: {t_new - t_pack - t_core:7.3f} s  (the rest, core excluded)")
+    print(f"batched lstsq pass      : {t_lstsq:7.3f} s  core / lstsq {t_core / t_lstsq:.0f}x (issue 11 target <= 2x: "
+          f"{'met' if t_core <= 2 * t_lstsq else 'missed'}; one straight line per series, no paths, steps or bands)")
     ratio = t_new / t_core
     print(f"forecast_fleet / core   : {ratio:7.2f}   (target <= 3: {'met' if ratio <= 3 else f'missed by {ratio / 3:.1f}x'}; "
           "the core is the fastest honest floor: the same arrays fitted, no records read or written)")
