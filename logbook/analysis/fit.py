@@ -332,6 +332,15 @@ SMOOTH_LAMBDAS = (2.0, 1.0, 0.5, 1.0 / 3.0, 0.0, -0.5, -1.0, -1.5)
 def _split_rss(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """RSS of the line of ``z`` on hours, and of the line plus a level shift from column ``col`` on
     (Frisch-Waugh: the shift's reduction is (sum of residuals before col)^2 / e, as in ``_step_scan``)."""
+    st, e, lead = _shift_terms(x0, z, w, col)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        red = lead**2 / e
+    return st.rss, np.maximum(st.rss - np.where(e > 1e-12, red, 0.0), 1e-300)
+
+
+def _shift_terms(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray):
+    """The line's fit, and per row the shift's Frisch-Waugh denominator ``e`` and the sum of the
+    line's residuals before ``col`` (the shift is -lead / e; it takes lead^2 / e off the RSS)."""
     st = ols_rows(x0, z, w)
     dx, r = st.kept()
     before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
@@ -339,21 +348,14 @@ def _split_rss(x0: np.ndarray, z: np.ndarray, w: np.ndarray, col: np.ndarray) ->
         m = before.sum(axis=1).astype(float)
         sdx = np.where(before, dx, 0.0).sum(axis=1)
         e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
-        red = np.where(before, r, 0.0).sum(axis=1) ** 2 / e
-    return st.rss, np.maximum(st.rss - np.where(e > 1e-12, red, 0.0), 1e-300)
+    return st, e, np.where(before, r, 0.0).sum(axis=1)
 
 
 def _shift_at(x0: np.ndarray, y0: np.ndarray, w: np.ndarray, col: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The level shift (after minus before) of the line-plus-shift fit at column ``col``, and that fit's
     residual variance (Frisch-Waugh, as ``_split_rss``)."""
-    st = ols_rows(x0, y0, w)
-    dx, r = st.kept()
-    before = (np.arange(w.shape[1])[None, :] < col[:, None]) & (w > 0)
+    st, e, lead = _shift_terms(x0, y0, w, col)
     with np.errstate(invalid="ignore", divide="ignore"):
-        m = before.sum(axis=1).astype(float)
-        sdx = np.where(before, dx, 0.0).sum(axis=1)
-        e = m - m * m / np.maximum(st.n, 1) - sdx * sdx / st.sxx
-        lead = np.where(before, r, 0.0).sum(axis=1)
         shift = np.where(e > 1e-12, -lead / e, 0.0)
         var = np.maximum(st.rss - np.where(e > 1e-12, lead * lead / e, 0.0), 0.0) / np.maximum(st.n - 3, 1)
     return shift, var
