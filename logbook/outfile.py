@@ -170,6 +170,7 @@ def write_bytes(out: str | Path | Target, data: bytes, *, protect: Iterable[str 
         sys.stdout.buffer.flush()
         return target
     if target.stream:
+        assert target.path is not None  # a device or a pipe is a named file, never standard output
         try:
             fd = os.open(target.path, os.O_WRONLY)  # no O_CREAT, no O_TRUNC: the device stays what it is
             try:
@@ -264,7 +265,7 @@ def remove_stale(path: Path) -> list[Path]:
     name = path.name
     ours = re.compile(re.escape(f".{name[:_NAME_KEEP]}{PARTIAL_TAG}") + r"(\d+)-[0-9a-f]+(-journal|-wal|-shm)?")
     older = re.compile(re.escape(f".{name}.") + r"(\d+)\.partial(-journal|-wal|-shm)?")
-    removed = []
+    removed: list[Path] = []
     now = time.time()
     try:
         entries = list(os.scandir(path.parent))

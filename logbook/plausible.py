@@ -192,7 +192,7 @@ def reading_doubts(reading: Reading, ctx: Context, prefs: UnitPrefs | None = Non
         limit = m.limit(kind)
         prev = ctx.previous(kind, reading.taken_on)
         before = trended(prev, kind, m) if prev is not None else None
-        if value is not None and before is not None and limit is not None:
+        if value is not None and prev is not None and before is not None and limit is not None:
             step = value - before
             if abs(step) > CHANGE_SHARE * abs(limit.value):
                 at_ref = " at reference conditions" if kind is Kind.CASE_DRAIN else ""
@@ -220,7 +220,7 @@ def forecast_bands(pump_forecast, when: date, today: date, coverage: float = BAN
     """Per kind, where a new reading on ``when`` is expected: the prediction band of the
     pump's current trend (``FitDetail.band(..., reading=True)``) at its operating hours then
     (today's hours in the segment, moved by the machine's hours a day). Empty without a fit."""
-    bands = {}
+    bands: dict[Kind, tuple[float, float]] = {}
     if pump_forecast is None:
         return bands
     per_day = pump_forecast.hours_per_day or 0.0
@@ -323,12 +323,12 @@ def fleet_doubts(fleet: Fleet, new: Sequence[Reading], prefs: UnitPrefs | None =
         j = _upto(rs, r.taken_on)
         earlier = tuple(x for x in rs[max(0, j - RECENT):j] if x.id != r.id)
         ctx = Context(fleet.models[pump.model], before, earlier, tuple(events[r.serial]))
-        for d in reading_doubts(r, ctx, prefs, rate_rule=False):
-            if f"{r.serial} {r.taken_on.isoformat()} {d.label} ".lower() not in said:
+        for doubt in reading_doubts(r, ctx, prefs, rate_rule=False):
+            if f"{r.serial} {r.taken_on.isoformat()} {doubt.label} ".lower() not in said:
                 if callable(lines):
                     lines = lines()
                 at = lines.get((r.serial, r.taken_on, r.machine_hours))
-                out.append(f"{f'line {at}, ' if at else ''}{r.serial} {r.taken_on.isoformat()}: {d}")
+                out.append(f"{f'line {at}, ' if at else ''}{r.serial} {r.taken_on.isoformat()}: {doubt}")
     return out
 
 

@@ -218,6 +218,7 @@ def say(problem: Problem, label: str | None = None) -> str:
 
 def parse_date(field_name: str, text: str | date | None, today: date, required: bool = True) -> tuple[date | None, Problem | None]:
     """An ISO 8601 date (YYYY-MM-DD), not in the future and not before 1970."""
+    value: date | None
     if isinstance(text, date):
         value = text
     elif text is None or str(text).strip() == "":

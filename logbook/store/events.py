@@ -7,14 +7,17 @@ from __future__ import annotations
 import dataclasses
 from collections import defaultdict
 from datetime import date
-from typing import Sequence
+from typing import TYPE_CHECKING, Callable, Sequence
 
 from logbook import meter
-from logbook.model import Event, EventKind, Fitment, ImportReport, InputRejected, Problem
+from logbook.model import Event, EventKind, Fitment, ImportReport, InputRejected, Machine, Problem, Pump
 from logbook.store.base import StorePart
-from logbook.store.batches import Checked, _line, _repeats, _shown, _text_hint, _text_problems, _with_line
+from logbook.store.batches import Checked, _line, _repeats, _row_id, _shown, _text_hint, _text_problems, _with_line
 from logbook.store.meters import _METER_POINTS
 from logbook.validate import check_hour_meter
+
+if TYPE_CHECKING:
+    from logbook.plausible import Doubt
 
 EVENT_COLUMNS = (
     "kind happened_on serial machine hours to_machine to_position to_hours technician note entered_by entered_at import_id "
@@ -24,11 +27,25 @@ _INSERT_EVENT = f"INSERT INTO events ({', '.join(EVENT_COLUMNS)}) VALUES ({', '.
 
 _DESTINATION = ("to_machine", "to_position", "to_hours", "serial_in")
 
+#: One checked event as the write takes it: (index in the batch, event, the fitment it closes as it
+#: was, that fitment closed, the fitment it opens); the two before/closed are None together.
+_Planned = tuple[int, Event, Fitment | None, Fitment | None, Fitment | None]
+#: A machine's hour-meter timeline (the batch's own, with the events checked before).
+_Timelines = Callable[[str], meter.MeterTimeline]
+
 
 def _destination(e: Event) -> tuple:
     """Where a move or a meter replacement went, which pump an exchange fitted (with the key, an
     event's identity)."""
     return (e.to_machine, e.to_position, e.to_hours, e.serial_in)
+
+
+def _hours_at_last_removal(fitments: Sequence[Fitment], reps: dict[str, list[Event]]) -> float:
+    """A pump's own hours at the last of its removals with a meter reading (0 without one)."""
+    for f in reversed(fitments):
+        if f.removed_on is not None and f.machine_hours_at_removal is not None:
+            return meter.pump_hours(f.machine_hours_at_removal, f.removed_on, f, reps.get(f.machine, []))
+    return 0.0
 
 
 class EventsMixin(StorePart):
@@ -83,7 +100,7 @@ class EventsMixin(StorePart):
         order = sorted(range(len(events)), key=lambda i: (events[i].happened_on, i))
         problems: list[Problem] = []
         notes: list[str] = []
-        plan: list[tuple[int, Event, Fitment | None, Fitment | None, Fitment | None]] = []
+        plan: list[_Planned] = []
         present = 0
         seen: set[tuple] = set()
         timelines: dict[str, meter.MeterTimeline] = {}
@@ -124,6 +141,7 @@ class EventsMixin(StorePart):
                 if e.to_hours is None:
                     errs.append(Problem("to_hours", "", "is required: the new meter's first reading", "h"))
                 if not errs:
+                    assert e.machine and e.hours is not None  # else a problem was found above
                     # The old meter's last reading may not be below what it showed before.
                     earlier, _ = timeline(e.machine).neighbours(e.happened_on)
                     p = check_hour_meter("hours", e.happened_on, e.hours, earlier, None)
@@ -136,6 +154,7 @@ class EventsMixin(StorePart):
                     errs.append(Problem("serial", e.serial, f"is not taken: {e.kind.value} is an event of a machine "
                                         "(give its unit with --machine)"))
                 if not errs and e.hours is not None:
+                    assert e.machine  # else a problem was found above
                     earlier, later = timeline(e.machine).neighbours(e.happened_on)
                     p = check_hour_meter("hours", e.happened_on, e.hours, earlier, later)
                     if p:
@@ -176,19 +195,22 @@ class EventsMixin(StorePart):
                 problems += _with_line(errs, line)
                 continue
             if opened is not None:  # a move's pump, or the pump an exchange fitted, gets its new fitment
-                fits[e.serial] = [closed if f is current else f for f in fits.get(e.serial, [])]
+                if closed is not None:  # and the one it sat in is closed (a pump in no machine leaves none)
+                    fits[closed.serial] = [closed if f is current else f for f in fits.get(closed.serial, [])]
                 fits[opened.serial] = fits.get(opened.serial, []) + [opened]
             if e.hours is not None and machine and e.kind is not EventKind.METER_REPLACED:
                 timeline(machine).add(e.happened_on, e.hours)
             if e.kind is EventKind.MOVE:
+                assert e.to_machine and e.to_hours is not None  # _check_move found both given
                 timeline(e.to_machine).add(e.happened_on, e.to_hours)
             if e.kind is EventKind.METER_REPLACED:
+                assert e.machine  # a known machine, checked above
                 reps[e.machine].append(e)
                 timeline(e.machine).add_replacement(e.happened_on)
             plan.append((i, e, current if closed is not None else None, closed, opened))
         return Checked(problems, plan, present, notes)
 
-    def _write_events(self, plan, source: tuple[str, str] | None) -> list[int]:
+    def _write_events(self, plan: Sequence[_Planned], source: tuple[str, str] | None) -> list[int]:
         """Insert checked events and the fitment changes of moves (inside the caller's transaction)."""
         now, ids = self._now_text(), []
         import_id = self._record_import("events", source, len(plan), now) if source else None
@@ -197,11 +219,12 @@ class EventsMixin(StorePart):
                 e.kind.value, e.happened_on.isoformat(), e.serial, e.machine, e.hours, e.to_machine, e.to_position,
                 e.to_hours, e.technician, e.note, self.user, now, import_id, e.serial_in,
             )
-            cur = self.conn.execute(_INSERT_EVENT, row)
-            ids.append(cur.lastrowid)
+            event_id = _row_id(self.conn.execute(_INSERT_EVENT, row))
+            ids.append(event_id)
             if import_id is None:  # from a file: the import's audit row stands for its rows
-                self._audit("insert", "events", cur.lastrowid, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
+                self._audit("insert", "events", event_id, e.serial, None, dict(zip(EVENT_COLUMNS, row)))
             if closed is not None and closed.id is not None and closed.id > 0:
+                assert before is not None and closed.removed_on is not None  # a closed fitment: _Planned
                 self.conn.execute(
                     "UPDATE fitments SET removed_on = ?, machine_hours_at_removal = ? WHERE id = ?",
                     (closed.removed_on.isoformat(), closed.machine_hours_at_removal, closed.id),
@@ -211,8 +234,9 @@ class EventsMixin(StorePart):
                 self._insert_fitment(opened)
         return ids
 
-    def _check_move(self, e: Event, machines, fits, current: Fitment | None, timeline) -> list[Problem]:
-        errs = []
+    def _check_move(self, e: Event, machines: dict[str, Machine], fits: dict[str, list[Fitment]],
+                    current: Fitment | None, timeline: _Timelines) -> list[Problem]:
+        errs: list[Problem] = []
         if not e.to_machine or e.to_machine not in machines:
             errs.append(Problem("to_machine", e.to_machine or "", "must be a known machine unit for a move"))
         if not e.to_position:
@@ -221,6 +245,7 @@ class EventsMixin(StorePart):
             errs.append(Problem("to_hours", "", "is required for a move: the target machine's hour meter", "h"))
         if errs:
             return errs
+        assert e.to_machine and e.to_position and e.to_hours is not None  # else a problem was found above
         if current is not None and current.removed_on is not None:
             errs.append(Problem("date", e.happened_on.isoformat(), f"pump {e.serial} left {current.machine} on {current.removed_on}"))
         for serial, fl in fits.items():
@@ -235,18 +260,19 @@ class EventsMixin(StorePart):
             errs.append(p)
         return errs
 
-    def _check_exchange(self, e: Event, pumps, fits, current: Fitment | None) -> list[Problem]:
+    def _check_exchange(self, e: Event, pumps: dict[str, Pump], fits: dict[str, list[Fitment]],
+                        current: Fitment | None) -> list[Problem]:
         """An exchange that names the pump that went in: that pump is known, is another one, and sat
         in no machine that day or later; the pump that came out sat in a machine that day and was
         not read, moved or fitted elsewhere after it (those records rest on where it sat)."""
         b, day = e.serial_in, e.happened_on
-        if b not in pumps:
+        if b is None or b not in pumps:
             return [Problem("serial_in", b, "must be a known pump serial (add the pump that went in first: "
                             "`logbook import pumps`)")]
         if b == e.serial:
             return [Problem("serial_in", b, "must be another pump than the one that came out; an overhaul "
                             "keeps the same pump in place")]
-        errs = []
+        errs: list[Problem] = []
         if current is None:
             errs.append(Problem("date", day.isoformat(), f"pump {e.serial} sat in no machine that day: an exchange "
                                 "takes it out of its place"))
@@ -261,6 +287,7 @@ class EventsMixin(StorePart):
             errs.append(Problem("serial_in", b, f"was fitted to {later[0].machine} on {later[0].fitted_on}, after "
                                 "the exchange: it cannot also be in this place from that day"))
         if current is not None:
+            assert e.serial is not None  # current is where pump e.serial sat
             moved = [f for f in fits.get(e.serial, []) if f.fitted_on > day]
             read = self.conn.execute(
                 "SELECT count(*), min(taken_on) FROM readings WHERE serial = ? AND taken_on > ? "
@@ -273,34 +300,32 @@ class EventsMixin(StorePart):
                                     f"{moved[0].fitted_on}; record the exchange before that or remove the later move"))
         return errs
 
-    def _exchange_fitments(self, e: Event, current: Fitment, fits, reps) -> tuple[Fitment, Fitment]:
+    def _exchange_fitments(self, e: Event, current: Fitment, fits: dict[str, list[Fitment]],
+                           reps: dict[str, list[Event]]) -> tuple[Fitment, Fitment]:
         """The fitment the exchange closes (the pump that came out, removed that day at that meter
         reading) and the one it opens: the pump that went in, in the same machine and position from
         that day, its own hours counting on from its last removal with a meter reading (0 for a
         pump never fitted), the machine's meter as its fitting reading."""
+        assert e.serial_in is not None and e.hours is not None  # the check found both given
         closed = dataclasses.replace(current, removed_on=e.happened_on, machine_hours_at_removal=e.hours)
-        hours_in = 0.0
-        past = [f for f in fits.get(e.serial_in, []) if f.removed_on is not None and f.machine_hours_at_removal is not None]
-        if past:
-            last = past[-1]
-            hours_in = meter.pump_hours(last.machine_hours_at_removal, last.removed_on, last, reps.get(last.machine, []))
+        hours_in = _hours_at_last_removal(fits.get(e.serial_in, []), reps)
         opened = Fitment(
             id=None, serial=e.serial_in, machine=current.machine, position=current.position, fitted_on=e.happened_on,
             removed_on=None, machine_hours_at_fit=e.hours, pump_hours_at_fit=round(hours_in, 3),
         )
         return closed, opened
 
-    def _move_fitments(self, e: Event, current: Fitment | None, fits, reps) -> tuple[Fitment | None, Fitment]:
+    def _move_fitments(self, e: Event, current: Fitment | None, fits: dict[str, list[Fitment]],
+                       reps: dict[str, list[Event]]) -> tuple[Fitment | None, Fitment]:
+        # _check_move found the destination given, the pump known and, if it sat in a machine, its hours
+        assert e.serial and e.to_machine and e.to_position and e.to_hours is not None
         if current is not None:
+            assert e.hours is not None  # required of a pump in a machine
             hours_at_removal = meter.pump_hours(e.hours, e.happened_on, current, reps.get(current.machine, []))
             closed = dataclasses.replace(current, removed_on=e.happened_on, machine_hours_at_removal=e.hours)
         else:
             closed = None
-            hours_at_removal = 0.0
-            past = [f for f in fits.get(e.serial, []) if f.removed_on is not None and f.machine_hours_at_removal is not None]
-            if past:
-                last = past[-1]
-                hours_at_removal = meter.pump_hours(last.machine_hours_at_removal, last.removed_on, last, reps.get(last.machine, []))
+            hours_at_removal = _hours_at_last_removal(fits.get(e.serial, []), reps)
         opened = Fitment(
             id=None, serial=e.serial, machine=e.to_machine, position=e.to_position, fitted_on=e.happened_on,
             removed_on=None, machine_hours_at_fit=e.to_hours, pump_hours_at_fit=round(hours_at_removal, 3),
@@ -317,7 +342,7 @@ class EventsMixin(StorePart):
                                          + _text_hint(report.flagged, "events are not edited: remove it with `logbook remove event` and record it again"))])
         return next(e for e in self.events() if e.id == report.ids[0])
 
-    def event_doubts(self, event: Event) -> list:
+    def event_doubts(self, event: Event) -> list[Doubt]:
         """``logbook.plausible.meter_doubt`` for an event's hour meter on its machine (the
         machine's records before that day on the same meter, and its utilisation)."""
         from logbook.plausible import hours_per_day, meter_before, meter_doubt
@@ -326,7 +351,8 @@ class EventsMixin(StorePart):
         if machine is None and event.serial is not None:  # a pump's event: the machine it sat in that day
             fit = meter.fitment_on(self._fitments_of(event.serial), event.happened_on)
             machine = fit.machine if fit else None
-        if machine is None or event.hours is None:
+        meter_hours = event.hours
+        if machine is None or meter_hours is None:
             return []
         event = dataclasses.replace(event, machine=machine)
         day = event.happened_on.isoformat()
@@ -339,6 +365,6 @@ class EventsMixin(StorePart):
             _METER_POINTS + "on_day <= ? ORDER BY on_day",  # the same day's records too
             (event.machine, "[]", event.machine, event.machine, event.machine, start, "9999-99-99", day))
             if hours is not None)
-        doubt = meter_doubt(event.happened_on, event.hours, meter_before(points),
+        doubt = meter_doubt(event.happened_on, meter_hours, meter_before(points),
                             hours_per_day(points, event.happened_on), field_name="hours")
         return [doubt] if doubt else []
