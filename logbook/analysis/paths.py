@@ -151,8 +151,10 @@ class PathLine:
     ok: np.ndarray  # the path exists for the series (every used reading on its scale, a spread)
 
     @classmethod
-    def fit(cls, x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lam: float) -> "PathLine":
-        z = box_cox(y, lam)
+    def fit(cls, x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lam: float,
+            z: np.ndarray | None = None) -> "PathLine":
+        """``z``: ``box_cox(y, lam)`` when the caller has it already (the same numbers)."""
+        z = box_cox(y, lam) if z is None else z
         on_scale = (np.isfinite(z) | (w <= 0)).all(axis=1)
         ww = np.where(np.isfinite(z), w, 0.0)
         st = ols_rows(np.where(ww > 0, x, 0.0), np.where(ww > 0, z, 0.0), ww, keep=False)
@@ -260,13 +262,15 @@ LATER_MIN_AHEAD = 2  # later readings a series needs to be scored
 
 
 def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams=LAMBDAS,
-                 share: float = LATER_SHARE) -> tuple[np.ndarray, np.ndarray]:
+                 share: float = LATER_SHARE, zs: dict[float, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
     """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
     of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
     variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
     forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
-    scored (0 for series with under 3 + LATER_MIN_AHEAD readings)."""
+    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``zs``: ``box_cox(y, lam)`` per lam,
+    when the caller has them."""
+    zs = zs if zs is not None else {lam: box_cox(y, lam) for lam in lams}
     used = w > 0
     n_used = used.sum(axis=1)
     position = np.cumsum(used, axis=1)
@@ -276,12 +280,12 @@ def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray,
     log_y = np.log(np.where(y > 0, y, np.nan))
     scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
     for k, lam in enumerate(lams):
-        line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam)
+        z = zs[lam]
+        line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam, z)
         rows = np.arange(x.shape[0])
         loc, scale = line.at(x, rows)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             var = scale * scale + line.s2[:, None]
-            z = box_cox(y, lam)
             nu = np.clip(line.nu, 1.0, 1e6)[:, None]
             t2 = (z - loc) ** 2 / var
             dens = (special.gammaln((nu + 1) / 2) - special.gammaln(nu / 2) - 0.5 * np.log(nu * np.pi)
@@ -351,6 +355,62 @@ def series_weights(scores: np.ndarray, allowed: np.ndarray, group_weights: np.nd
     return np.where(allowed, (1 - WEIGHT_FLOOR) * w + WEIGHT_FLOOR / n_allowed, 0.0)
 
 
+#: Series of one group that calibration forecasts at most, and whose later readings the path weights
+#: are stacked on (evenly spaced among the group's series when it has more): the factors are a 90 %
+#: quantile of tens of thousands of later-reading scores and the weights a handful of shares, as
+#: steady from 500 series as from 5,000, and the work grows with the series scored.
+CALIBRATION_SERIES = 500
+
+
+def calibration_rows(group: np.ndarray, most: int = CALIBRATION_SERIES) -> np.ndarray:
+    """The series calibration forecasts: those of a group (series without one are never calibrated),
+    all of a group of up to ``most``, else ``most`` of them evenly spaced in the batch's order."""
+    grouped = np.flatnonzero(group >= 0)
+    order = grouped[np.argsort(group[grouped], kind="stable")]  # by group, the batch's order within
+    keys = group[order]
+    starts = np.flatnonzero(np.r_[True, keys[1:] != keys[:-1]]) if keys.size else np.zeros(0, dtype=np.int64)
+    sizes = np.diff(np.r_[starts, keys.size])
+    picked = [order[a:a + n] if n <= most else order[a + np.unique(np.round(np.linspace(0, n - 1, most)).astype(np.int64))]
+              for a, n in zip(starts, sizes)]
+    return np.sort(np.concatenate(picked)) if picked else np.zeros(0, dtype=np.int64)
+
+
+class _Crossing:
+    """``PathMixture.crossed_by`` for fixed ``rows``, each path's coefficients picked out once (a
+    bisection asks it at many hours): per path with weight, P(line past its limit), spread toward
+    faster wear by the fast factor and toward slower by the slow one, Student t of the line's
+    degrees of freedom (``t_cdf``; infinite t give 0 and 1)."""
+
+    def __init__(self, mix: "PathMixture", rows: np.ndarray):
+        sign = mix.sign[rows][:, None]
+        self.shape = rows.size
+        self.fast, self.slow = mix.spread[0][rows][:, None], mix.spread[1][rows][:, None]
+        self.noise = mix.noise
+        self.parts = []
+        for k, line in enumerate(mix.lines):
+            wk = mix.weights[rows, k][:, None]
+            if not wk.any():
+                continue
+            self.parts.append((wk, line.xbar[rows][:, None], line.z0[rows][:, None], line.b[rows][:, None],
+                               line.var_a[rows][:, None], line.var_b[rows][:, None], mix.limit_z[rows, k][:, None],
+                               line.s2[rows][:, None], _TDof(line.nu[rows][:, None]), sign))
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        out = np.zeros(np.shape(x))
+        for wk, xbar, z0, b, var_a, var_b, limit_z, s2, nu, sign in self.parts:
+            d = x - xbar
+            loc = z0 + b * d
+            scale = np.sqrt(var_a + d * d * var_b)
+            gap = sign * (loc - limit_z)  # < 0: the line is short of the limit
+            scale = scale * np.where(gap < 0, self.fast, self.slow)
+            if self.noise:
+                scale = np.sqrt(scale * scale + s2)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t = gap / scale
+            out += np.where(wk > 0, wk * nu.cdf_finite(np.nan_to_num(t, nan=-np.inf, posinf=np.inf, neginf=-np.inf)), 0.0)
+        return out
+
+
 class PathMixture:
     """The mixture of paths per series, and the crossing distribution of the true condition."""
 
@@ -364,11 +424,19 @@ class PathMixture:
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
         self.sign = np.where(direction < 0, -1.0, 1.0)
-        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam) for lam in LAMBDAS]
+        zs = {lam: box_cox(y, lam) for lam in LAMBDAS}  # each scale once: the fits and the scores share them
+        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam, zs[lam]) for lam in LAMBDAS]
         family = np.array([[lam in (RISING if d > 0 else FALLING) and lam in lambdas for lam in LAMBDAS] for d in (1, -1)])
         allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
-        if scoring == "later":
-            raw_scores, raw_counted = later_scores(x, y, w, group, n_groups)
+        if scoring == "later":  # group weights from at most CALIBRATION_SERIES series of a group, each
+            # ungrouped series its own: the scores of the others are used by no one (own_update aside)
+            scored = np.arange(s) if own_update else np.union1d(calibration_rows(group), np.flatnonzero(group < 0))
+            raw_scores, raw_counted = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
+            if scored.size == s:
+                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, zs=zs)
+            elif scored.size:
+                raw_scores[scored], raw_counted[scored] = later_scores(
+                    x[scored], y[scored], w[scored], group[scored], n_groups, zs={k: v[scored] for k, v in zs.items()})
         else:
             raw_scores, raw_counted = one_step_scores(x, y, w)
         scores = np.where(allowed, raw_scores, -np.inf)
@@ -406,22 +474,7 @@ class PathMixture:
 
     def crossed_by(self, x: np.ndarray, rows: np.ndarray) -> np.ndarray:
         """P(the true condition is past the limit at hours ``x``) for ``rows`` (x shaped (R, k))."""
-        out = np.zeros(np.shape(x))
-        sign = self.sign[rows][:, None]
-        fast, slow = self.spread[0][rows][:, None], self.spread[1][rows][:, None]
-        for k, line in enumerate(self.lines):
-            wk = self.weights[rows, k][:, None]
-            if not wk.any():
-                continue
-            loc, scale = line.at(x, rows)
-            gap = sign * (loc - self.limit_z[rows, k][:, None])  # < 0: the line is short of the limit
-            scale = scale * np.where(gap < 0, fast, slow)
-            if self.noise:
-                scale = np.sqrt(scale * scale + line.s2[rows][:, None])
-            with np.errstate(invalid="ignore", divide="ignore"):
-                t = gap / scale
-            out += np.where(wk > 0, wk * t_cdf(np.nan_to_num(t, nan=-np.inf), line.nu[rows][:, None]), 0.0)
-        return out
+        return _Crossing(self, rows)(x)
 
     def crossing_hours(self, x_now: np.ndarray, quantiles, horizon: float, iterations: int = 28) -> np.ndarray:
         """(S, Q) hours since the segment start at which P(crossed) reaches each quantile: x_now when it
@@ -430,13 +483,14 @@ class PathMixture:
         q = np.asarray(quantiles, dtype=float)[None, :]
         now = np.repeat(np.maximum(x_now[rows], 0.0)[:, None], q.shape[1], axis=1)
         lo, hi = np.zeros_like(now), np.full_like(now, np.log1p(horizon))
+        crossed_by = _Crossing(self, rows)
         for _ in range(iterations):  # bisection on log(1 + hours ahead)
             mid = 0.5 * (lo + hi)
-            up = self.crossed_by(now + np.expm1(mid), rows) >= q
+            up = crossed_by(now + np.expm1(mid)) >= q
             hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
         ahead = np.expm1(0.5 * (lo + hi))
-        ahead = np.where(self.crossed_by(now, rows) >= q, 0.0, ahead)
-        ahead = np.where(self.crossed_by(now + horizon, rows) < q, np.inf, ahead)
+        ahead = np.where(crossed_by(now) >= q, 0.0, ahead)
+        ahead = np.where(crossed_by(now + horizon) < q, np.inf, ahead)
         out = np.full((self.size, q.shape[1]), np.nan)
         out[rows] = now + ahead
         return out
@@ -582,7 +636,11 @@ def _leave_out_quantile(scores: np.ndarray, owner: np.ndarray, rows: np.ndarray,
     starts = np.searchsorted(owners_sorted, rows, side="left")
     ends = np.searchsorted(owners_sorted, rows, side="right")
     out, counts = np.ones(rows.size), np.zeros(rows.size, dtype=np.int64)
-    for i in range(rows.size):
+    k_all = int(np.ceil((ranked.size + 1) * level))  # rows without scores of their own: everyone's quantile
+    if ranked.size >= MIN_SCORES and k_all <= ranked.size:
+        bare = starts == ends
+        out[bare], counts[bare] = ranked[k_all - 1], ranked.size
+    for i in np.flatnonzero(starts < ends):
         own = positions_sorted[starts[i]:ends[i]]
         n = ranked.size - own.size
         k = int(np.ceil((n + 1) * level))
@@ -617,12 +675,14 @@ def _group_blocks(rows: np.ndarray, group: np.ndarray, block: int):
 
 def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
               group: np.ndarray, tail: float = 0.1, lambdas: tuple[float, ...] = LAMBDAS,
-              block: int = GROUP_BLOCK) -> Calibration:
+              block: int = GROUP_BLOCK, most: int = CALIBRATION_SERIES) -> Calibration:
     """Spread factors from forecasts of each series made at earlier origins of its own readings and
-    scored on its later ones, per group, each side apart, the series itself left out. The mixtures
-    of an origin are fitted ``block`` series at a time, whole groups each (the same numbers, a
-    smaller peak of memory)."""
+    scored on its later ones, per group, each side apart, the series itself left out; on at most
+    ``most`` series of each group (``calibration_rows``). The mixtures of an origin are fitted
+    ``block`` series at a time, whole groups each (the same numbers, a smaller peak of memory)."""
     x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
+    chosen = np.zeros(x.shape[0], dtype=bool)
+    chosen[calibration_rows(group, most)] = True
     used = w > 0
     n_used = used.sum(axis=1)
     position = np.cumsum(used, axis=1)
@@ -631,7 +691,7 @@ def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, di
         cut = np.maximum(np.floor(share * n_used), 3)
         train = used & (position <= cut[:, None])
         later = used & (position > cut[:, None])
-        for rows in _group_blocks(np.flatnonzero(later.any(axis=1) & (cut < n_used)), group, block):
+        for rows in _group_blocks(np.flatnonzero(chosen & later.any(axis=1) & (cut < n_used)), group, block):
             mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
                               lambdas=lambdas)
             r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])

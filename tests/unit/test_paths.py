@@ -125,6 +125,50 @@ def test_leave_out_conformal_quantile_matches_sorting_the_others():
         assert n[i] == others.size
 
 
+def test_leave_out_quantile_of_rows_without_scores_is_everyones_quantile():
+    # reference: sorting all scores (a row with none of its own leaves nothing out)
+    rng = np.random.default_rng(9)
+    scores = rng.gamma(2.0, 1.0, 200)
+    owner = rng.integers(0, 5, 200)
+    rows = np.array([0, 7, 8, 3])  # 7 and 8 own no score
+    got, n = P._leave_out_quantile(scores, owner, rows, 0.9)
+    k = math.ceil((scores.size + 1) * 0.9)
+    assert got[1] == got[2] == np.sort(scores)[k - 1] and n[1] == n[2] == scores.size
+    assert n[0] == (owner != 0).sum() and n[3] == (owner != 3).sum()
+
+
+def test_calibration_rows_take_small_groups_whole_and_large_ones_evenly():
+    group = np.r_[np.zeros(30, dtype=int), np.ones(1000, dtype=int), -np.ones(5, dtype=int)]
+    rng = np.random.default_rng(3)
+    perm = rng.permutation(group.size)
+    group = group[perm]
+    picked = P.calibration_rows(group, most=100)
+    assert (group[picked] >= 0).all()  # series without a group are never calibrated
+    assert set(np.flatnonzero(group == 0)) <= set(picked)  # a group under the cap: all of it
+    big = np.flatnonzero(group == 1)
+    chosen = np.intersect1d(picked, big)
+    assert chosen.size == 100
+    gaps = np.diff(np.searchsorted(big, chosen))  # evenly spaced in the batch's order: steps of 9 or 10
+    assert gaps.min() >= 9 and gaps.max() <= 11
+
+
+def test_capped_calibration_agrees_with_the_whole_group():
+    # the cap changes which series are forecast, not what the factors estimate: a group of 600
+    # straight-wear series calibrated on 150 of them against all 600 (statistical agreement, the
+    # 90 % quantile of thousands of scores either way)
+    rng = np.random.default_rng(23)
+    s, n = 600, 10
+    x = np.tile(np.linspace(0, 6000, n), (s, 1))
+    walk = np.cumsum(rng.normal(0, 0.15, (s, n)), axis=1)
+    y = 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
+    args = (x, y, np.ones((s, n)), np.full(s, 30.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
+    whole, capped = P.calibrate(*args, most=s), P.calibrate(*args, most=150)
+    assert capped.n_scores.max() < whole.n_scores.max()
+    for side in ("fast", "slow"):
+        a, b = np.median(getattr(whole, side)), np.median(getattr(capped, side))
+        assert abs(a / b - 1) < 0.15, (side, a, b)
+
+
 def test_calibration_leaves_well_specified_bands_about_as_they_are():
     # series drawn from the straight path itself: the factors should stay near 1
     rng = np.random.default_rng(21)
