@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping, Sequence
 from datetime import date, datetime
+from operator import itemgetter
 from typing import overload
 
 import numpy as np
@@ -71,6 +72,24 @@ class ReadingColumns(Sequence[Reading]):
         numbers = {name: np.array(columns[_FIRST_NUMBER + k], dtype=float) for k, name in enumerate(NUMBERS)}  # None -> NaN
         texts = {name: columns[_FIRST_TEXT + k] for k, name in enumerate(TEXTS)}
         return cls(np.array(columns[0], dtype=np.int64), days, numbers, texts)
+
+    def take(self, index: Sequence[int] | np.ndarray) -> ReadingColumns:
+        """The readings at the positions ``index`` (in that order) as columns of their own."""
+        at = np.asarray(index, dtype=np.int64)
+        picks = at.tolist()
+        pick = itemgetter(*picks) if len(picks) > 1 else (lambda t: tuple(t[i] for i in picks))
+        taken = ReadingColumns(self.id[at], self.day[at], {name: self.numbers[name][at] for name in NUMBERS},
+                               {name: pick(self.texts[name]) for name in TEXTS})
+        if self._records is not None:
+            taken._records = list(map(self._records.__getitem__, picks))
+        return taken
+
+    @classmethod
+    def joined(cls, parts: Sequence[ReadingColumns]) -> ReadingColumns:
+        """The readings of ``parts`` one after the other, as one table."""
+        return cls(np.concatenate([p.id for p in parts]), np.concatenate([p.day for p in parts]),
+                   {name: np.concatenate([p.numbers[name] for p in parts]) for name in NUMBERS},
+                   {name: [t for p in parts for t in p.texts[name]] for name in TEXTS})
 
     # -- the columns the engine takes --------------------------------------------------
     def number(self, name: str) -> np.ndarray:

@@ -412,6 +412,8 @@ def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list],
     except csv.Error:
         return None
     columns: dict[str, list] = {}
+    has_none: dict[str, bool] = {}  # per column, found on its distinct values: a cell read as None
+    has_blank: dict[str, bool] = {}  # ... or as ""
     sink: list[Problem] = []
     for (name, unit), cells in zip(fields, cells_by_column):
         parse = cell_parser(name, COLUMNS[table][name], unit, today, sink)
@@ -419,10 +421,13 @@ def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list],
         if sink:
             return None
         columns[name] = list(map(parsed.__getitem__, cells))
+        values = parsed.values()
+        has_none[name] = None in values
+        has_blank[name] = has_none[name] or "" in values
     for name, col in COLUMNS[table].items():
-        if col.required and (None in columns[name] or "" in columns[name]):
+        if col.required and has_blank[name]:
             return None
-    if table == "readings":
+    if table == "readings" and all(has_none.get(k, True) for k in MEASURED):  # else no row lacks all of them
         n = len(lines)
         measured = [columns.get(k) or [None] * n for k in MEASURED]
         if (None, None, None) in set(zip(*measured)):

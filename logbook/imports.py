@@ -144,8 +144,11 @@ def position_problems(store, rows: list[tuple[str, date, str | None, int]]) -> l
     return problems  # a pump not fitted that day: the store's own check says so
 
 
-def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_run: bool = False) -> ImportReport:
-    """Import one CSV file's bytes into ``table``; all rows or none."""
+def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_run: bool = False,
+                 written: list | None = None) -> ImportReport:
+    """Import one CSV file's bytes into ``table``; all rows or none. ``written``: a list that gets
+    the readings as written (``store.bulk.Written``) when a clean readings file took the column
+    path (else it stays empty: read the store again)."""
     source = (name, hashlib.sha256(data).hexdigest())
     fast = read_columns(table, data, today) if table == "readings" else None
     if fast is not None and "position" in fast[0]:
@@ -155,7 +158,8 @@ def import_bytes(store, table: str, data: bytes, *, name: str, today: date, dry_
             return ImportReport(table, problems=wrong, dry_run=dry_run)
     if fast is not None:  # a clean readings file: parsed column by column
         columns, lines = fast
-        report = store.add_reading_columns(columns, lines=lines, today=today, dry_run=dry_run, source=source)
+        report = store.add_reading_columns(columns, lines=lines, today=today, dry_run=dry_run, source=source,
+                                            written=written)
         if report is None:  # something needs a closer look (or a message): row by row
             report = store.add_readings(_readings_from_columns(columns, len(lines)), lines=lines, today=today,
                                         dry_run=dry_run, source=source)

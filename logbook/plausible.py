@@ -29,6 +29,8 @@ from __future__ import annotations
 import bisect
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from itertools import repeat
+from operator import is_, is_not
 from datetime import date
 from typing import TYPE_CHECKING
 
@@ -344,27 +346,105 @@ def maybe_doubted(fleet: Fleet, new: Sequence[Reading]) -> list[int]:
     test window, and a step of more than ``CHANGE_SHARE`` of the limit since the pump's
     previous reading of the kind (among its ``RECENT`` before, no restarting event between).
     Never narrower than the rules: where it cannot tell (equal dates and hours, a reading
-    that cannot be normalized) it passes the reading on."""
+    that cannot be normalized) it passes the reading on. The store's columns
+    (``ReadingColumns``, for the fleet and the new readings) are read as they are."""
     import numpy as np
 
-    current = [r for r in fleet.readings if r.superseded_by is None and r.removed_reason is None]
     n_new = len(new)
     if not n_new:
         return []
-    at = {_ident(r): i for i, r in enumerate(current)}
-    where = np.array([at.get(_ident(r), -1) for r in new], dtype=np.int64)
-    if (where < 0).any():  # not the fleet's own records: no screen
+    current = _Current.of(fleet.readings)
+    where = current.positions(new)
+    if where is None:  # not the fleet's own records: no screen
         return list(range(n_new))
     maybe = np.zeros(n_new, dtype=bool)
     maybe |= _meter_screen(fleet, current, where)
     models = fleet.models
-    model_of = [models.get(fleet.pumps[r.serial].model) if r.serial in fleet.pumps else None for r in current]
-    oil = _column([r.oil_temp_c for r in new])
-    lo = _column([m.test_temp_min_c if (m := model_of[i]) else None for i in where.tolist()])
-    hi = _column([m.test_temp_max_c if (m := model_of[i]) else None for i in where.tolist()])
+    model_code = {s: p.model for s, p in fleet.pumps.items()}
+    codes = sorted(models)
+    index = {c: i for i, c in enumerate(codes)}
+    model_list = [models[c] for c in codes]
+    of_serial = {s: index.get(model_code.get(s), -1) for s in set(current.serial)}  # -1: no model known
+    model_of = np.fromiter(map(of_serial.__getitem__, current.serial), dtype=np.int64, count=len(current.serial))
+    mine = model_of[where]
+    oil = current.number("oil_temp_c")[where]
+    lo = _per_model([m.test_temp_min_c for m in model_list], mine)
+    hi = _per_model([m.test_temp_max_c for m in model_list], mine)
     maybe |= (oil < lo - 1e-9 + SCREEN_MARGIN) | (oil > hi + 1e-9 - SCREEN_MARGIN)
-    maybe |= _step_screen(fleet, current, model_of, where)
+    maybe |= _step_screen(fleet, current, model_list, model_of, where)
     return np.flatnonzero(maybe).tolist()
+
+
+def _per_model(values: list, model_of) -> "np.ndarray":
+    """A value per model (None: NaN) looked up for each code of ``model_of`` (-1: NaN)."""
+    import numpy as np
+
+    table = _column([*values, None])
+    return table[np.where(model_of >= 0, model_of, len(values))]
+
+
+class _Current:
+    """The current readings of a fleet (neither corrected nor removed) as the screens read them:
+    serials, machines and ids as lists and arrays, numbers as float columns (NaN for none); from
+    the store's columns as they are, else from the records."""
+
+    def __init__(self, serial, machine, day, ident, number, records=None, ids=None):
+        self.serial, self.machine, self.day, self.ident = serial, machine, day, ident
+        self._number = number
+        self._records = records
+        self._ids = ids  # the store's ids (columns) or None (records: matched by identity)
+        self._cache: dict = {}
+
+    @classmethod
+    def of(cls, readings: Sequence[Reading]) -> "_Current":
+        import numpy as np
+
+        from logbook.columns import ReadingColumns
+
+        if isinstance(readings, ReadingColumns):
+            keep = np.isnan(readings.number("superseded_by"))
+            keep &= np.fromiter(map(is_, readings.text("removed_reason"), repeat(None)), dtype=bool, count=len(readings))
+            cols = readings if keep.all() else readings.take(np.flatnonzero(keep))
+            return cls(cols.text("serial"), cols.text("machine"), cols.day, cols.id, cols.number, ids=cols.id)
+        current = [r for r in readings if r.superseded_by is None and r.removed_reason is None]
+
+        def number(name: str):
+            return _column([getattr(r, name) for r in current])
+
+        day = np.array([r.taken_on.toordinal() for r in current], dtype=np.int64)
+        ident = np.array([r.id or 0 for r in current], dtype=np.int64)
+        return cls([r.serial for r in current], [r.machine for r in current], day, ident, number, records=current)
+
+    def number(self, name: str):
+        if name not in self._cache:
+            self._cache[name] = self._number(name)
+        return self._cache[name]
+
+    def __len__(self) -> int:
+        return len(self.serial)
+
+    def positions(self, new: Sequence[Reading]):
+        """Where each of ``new`` is among these readings, or None if one is not."""
+        import numpy as np
+
+        from logbook.columns import ReadingColumns
+
+        if self._ids is not None:
+            if not isinstance(new, ReadingColumns):
+                if any(r.id is None for r in new):
+                    return None
+                wanted = np.array([r.id for r in new], dtype=np.int64)
+            else:
+                wanted = new.id
+            order = np.argsort(self._ids, kind="stable")
+            found = np.searchsorted(self._ids[order], wanted)
+            found = np.minimum(found, max(len(order) - 1, 0))
+            if not len(order) or not (self._ids[order][found] == wanted).all():
+                return None
+            return order[found]
+        at = {_ident(r): i for i, r in enumerate(self._records)}
+        where = np.array([at.get(_ident(r), -1) for r in new], dtype=np.int64)
+        return None if (where < 0).any() else where
 
 
 def _ident(r: Reading) -> tuple:
@@ -377,7 +457,7 @@ def _column(values) -> "np.ndarray":
     return np.array([np.nan if v is None else v for v in values], dtype=float)
 
 
-def _meter_screen(fleet: Fleet, current: list[Reading], where) -> "np.ndarray":
+def _meter_screen(fleet: Fleet, current: _Current, where) -> "np.ndarray":
     """The 24 h a day rule for the readings at ``where`` (positions in ``current``), on columns:
     each machine's records (fitments, events, readings) grouped by meter era, sorted by date and
     hours, with the first highest record up to each."""
@@ -387,13 +467,12 @@ def _meter_screen(fleet: Fleet, current: list[Reading], where) -> "np.ndarray":
     mach, day, hours = [], [], []
     reps_m, reps_d = [], []
 
-    def record(machine, on, h) -> bool:
+    def record(machine, on, h) -> None:
         if h is None or machine is None:
-            return False
+            return
         mach.append(code.setdefault(machine, len(code)))
         day.append(on.toordinal())
         hours.append(h)
-        return True
 
     for e in fleet.events:
         if e.removed_reason is not None:
@@ -408,16 +487,22 @@ def _meter_screen(fleet: Fleet, current: list[Reading], where) -> "np.ndarray":
             record(e.to_machine, e.happened_on, e.to_hours)
     for f in fleet.fitments:
         record(f.machine, f.fitted_on, f.machine_hours_at_fit)
+    # the readings' records after the others: a reading with a machine and hours (NOT NULL in the store)
+    r_hours = current.number("machine_hours")
+    has_point = np.fromiter(map(is_not, current.machine, repeat(None)), dtype=bool, count=len(current))
+    points = np.flatnonzero(has_point & ~np.isnan(r_hours))
     reading_point = np.full(len(current), -1, dtype=np.int64)
-    for i, r in enumerate(current):
-        if record(r.machine, r.taken_on, r.machine_hours):
-            reading_point[i] = len(mach) - 1
+    reading_point[points] = len(mach) + np.arange(len(points))
+    machines = [current.machine[i] for i in points.tolist()] if len(points) < len(current) else current.machine
+    for machine in dict.fromkeys(machines):
+        code.setdefault(machine, len(code))
+    machine_code = np.fromiter(map(code.__getitem__, machines), dtype=np.int64, count=len(points))
     flagged = np.zeros(len(where), dtype=bool)
-    if not mach:
+    if not mach and not len(points):
         return flagged
-    m = np.array(mach, dtype=np.int64)
-    d = np.array(day, dtype=np.int64)
-    h = np.array(hours, dtype=float)
+    m = np.concatenate([np.array(mach, dtype=np.int64), machine_code])
+    d = np.concatenate([np.array(day, dtype=np.int64), current.day[points]])
+    h = np.concatenate([np.array(hours, dtype=float), r_hours[points]])
     base = min(int(d.min()), min(reps_d, default=int(d.min())))
     span = max(int(d.max()), max(reps_d, default=int(d.max()))) - base + 2
     d = d - base
@@ -449,17 +534,17 @@ def _meter_screen(fleet: Fleet, current: list[Reading], where) -> "np.ndarray":
     return flagged
 
 
-def _step_screen(fleet: Fleet, current: list[Reading], model_of, where) -> "np.ndarray":
-    """The step rule for the readings at ``where`` (positions in ``current``), on columns."""
+def _step_screen(fleet: Fleet, current: _Current, models: list[PumpModel], model_of, where) -> "np.ndarray":
+    """The step rule for the readings at ``where`` (positions in ``current``), on columns;
+    ``model_of``: each current reading's index in ``models`` (-1 for none)."""
     import numpy as np
 
     n = len(current)
-    serial_code: dict[str, int] = {}
-    pump = np.array([serial_code.setdefault(r.serial, len(serial_code)) for r in current], dtype=np.int64)
-    day = np.array([r.taken_on.toordinal() for r in current], dtype=np.int64)
-    hours = np.array([r.machine_hours for r in current], dtype=float)
-    ident = np.array([r.id or 0 for r in current], dtype=np.int64)
-    order = np.lexsort((ident, hours, day, pump))
+    serial_code = {s: i for i, s in enumerate(dict.fromkeys(current.serial))}
+    pump = np.fromiter(map(serial_code.__getitem__, current.serial), dtype=np.int64, count=n)
+    day = current.day
+    hours = current.number("machine_hours")
+    order = np.lexsort((current.ident, hours, day, pump))
     pos = np.empty(n, dtype=np.int64)
     pos[order] = np.arange(n)
     ps, ds, hs = pump[order], day[order], hours[order]
@@ -482,12 +567,13 @@ def _step_screen(fleet: Fleet, current: list[Reading], model_of, where) -> "np.n
             for k in SEGMENT_RESETS.get(e.kind, ()):
                 on = min(max(e.happened_on.toordinal() - day0, -1), width - 1)  # outside every reading's date
                 resets[k].append(serial_code[e.serial] * width + on)
+    model_sorted = model_of[order]
     maybe = np.zeros(len(where), dtype=bool)
     for kind in ALL_KINDS:
-        raw = _column([r.value(kind) for r in current])[order]
-        value = _trended_column(kind, [current[i] for i in order.tolist()], raw, [model_of[i] for i in order.tolist()])
-        limit = _column([(m.limit(kind).value if m is not None and m.limit(kind) is not None else None)
-                         for m in (model_of[i] for i in order.tolist())])
+        raw_all = current.number(_VALUE_OF[kind])
+        raw = raw_all[order]
+        value = _trended_column(kind, current, raw_all, models, model_of)[order]
+        limit = _per_model([(lim.value if (lim := m.limit(kind)) is not None else None) for m in models], model_sorted)
         have = np.isfinite(raw)
         last = np.maximum.accumulate(np.where(have, np.arange(n), -1))  # the last with a value at or before
         prev = last[upto - 1]
@@ -504,7 +590,12 @@ def _step_screen(fleet: Fleet, current: list[Reading], model_of, where) -> "np.n
     return maybe
 
 
-def _trended_column(kind: Kind, readings: list[Reading], raw, models) -> "np.ndarray":
+#: The reading's attribute holding each kind's value (``Reading.value``).
+_VALUE_OF = {Kind.CASE_DRAIN: "case_drain_lpm", Kind.SERVO_PRESSURE: "servo_pressure_bar",
+             Kind.NEUTRAL_DRIFT: "neutral_drift_bar"}
+
+
+def _trended_column(kind: Kind, current: _Current, raw, models: list[PumpModel], model_of) -> "np.ndarray":
     """``trended`` of each reading on columns: case drain at reference conditions per group of
     readings sharing model and oil (``normalize.case_drain_at_reference`` on arrays); NaN where
     it cannot be told here (the rules then judge the reading themselves)."""
@@ -514,18 +605,25 @@ def _trended_column(kind: Kind, readings: list[Reading], raw, models) -> "np.nda
         return raw
     from logbook.analysis.normalize import case_drain_at_reference
 
-    out = np.full(len(readings), np.nan)
-    groups: dict[tuple, list[int]] = {}
-    for i, (r, m) in enumerate(zip(readings, models)):
-        if m is not None and r.case_drain_lpm is not None:
-            groups.setdefault((m.code, r.oil_grade, r.oil_vi, getattr(r, "nu40_cst", None),
-                               getattr(r, "nu100_cst", None)), []).append(i)
-    for (code, grade, vi, nu40, nu100), at in groups.items():
-        idx = np.array(at, dtype=np.int64)
-        pressure = _column([readings[i].test_pressure_bar for i in at])
-        temp = _column([readings[i].oil_temp_c for i in at])
+    out = np.full(len(raw), np.nan)
+    rows = np.flatnonzero((model_of >= 0) & ~np.isnan(raw))
+    if not len(rows):
+        return out
+    oil = [current.number(name)[rows] for name in ("oil_grade", "oil_vi", "nu40_cst", "nu100_cst")]
+    keys = [model_of[rows].astype(float), *(np.where(np.isnan(v), np.inf, v) for v in oil)]  # inf: none
+    order = np.lexsort(keys[::-1])  # by model, then the oil; each group in reading order
+    starts = np.ones(len(order), dtype=bool)
+    for key in keys:
+        starts[1:] &= key[order][1:] == key[order][:-1]
+    starts = np.flatnonzero(~starts | (np.arange(len(order)) == 0))
+    pressure, temp = current.number("test_pressure_bar"), current.number("oil_temp_c")
+    for begin, end in zip(starts.tolist(), [*starts[1:].tolist(), len(order)]):
+        idx = rows[order[begin:end]]
+        f = int(order[begin])
+        grade, vi, nu40, nu100 = (None if v[f] != v[f] else float(v[f]) for v in oil)
         try:
-            out[idx] = case_drain_at_reference(raw[idx], pressure, temp, models[at[0]], grade, vi, nu40, nu100)
+            out[idx] = case_drain_at_reference(raw[idx], pressure[idx], temp[idx], models[int(model_of[rows[f]])],
+                                               None if grade is None else int(grade), vi, nu40, nu100)
         except (ValueError, FloatingPointError):
             continue  # left NaN: passed on to the rules
     return out

@@ -337,35 +337,71 @@ def second_look(
     pump and kind, one call of its distribution function on all its new readings at once
     (``FitDetail.below``) and one band call for the readings outside it (their line names the
     band); not one quantile per reading. Lines come in the readings' order."""
-    import numpy as np
-
     from logbook.analysis.fleet import pack_fleet
-    from logbook.analysis.timeline import Timeline
 
     packed = pack_fleet(before, forecast.today)
-    position = {s: i for i, s in enumerate(packed.serials)}
     pumps = {p.serial: p for p in forecast.pumps}
-    new = sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours))
-    hours = np.asarray(Timeline(before.fitments, new, before.events).hours, dtype=float)  # pump hours of the new readings
+    details = []
+    for serial in packed.serials:
+        fits = {kf.kind: kf.fit for kf in pumps[serial].kinds} if serial in pumps else {}
+        details += [fits.get(kind) for kind in ALL_KINDS]
+    return _second_look(before, packed, details, new, coverage)
+
+
+def reading_fits(before: Fleet, today: date):
+    """(packed fleet, per row of its pack the fitted line as a ``FitDetail`` or None): what the
+    second look judges by, without the crossing forecast (the path mixture, its calibration and
+    quantile searches), which a band of a new reading (``FitDetail.below`` / ``bounds`` with
+    ``reading=True``) does not use. The same lines and the same detail rule as ``forecast_fleet``
+    (tests/unit/test_second_look_fits.py holds the two equal)."""
+    from logbook.analysis.fit import fit_batch
+    from logbook.analysis.fleet import pack_fleet
+    from logbook.analysis.records import fit_details, shown_fit
+
+    packed = pack_fleet(before, today)
+    if not packed.serials:
+        return packed, []
+    fit = fit_batch(packed.pack.batch, None)
+    return packed, fit_details(packed.pack, fit, shown_fit(fit))
+
+
+def _second_look(before: Fleet, packed, details: list, new: Sequence[Reading], coverage: float) -> list[str]:
+    """``second_look`` with the fitted line of each row of ``packed`` (``details``, None for none)."""
+    import numpy as np
+
+    from logbook.analysis.timeline import Timeline
+    from logbook.columns import ReadingColumns
+
+    position = {s: i for i, s in enumerate(packed.serials)}
+    if isinstance(new, ReadingColumns):  # the columns as they are, looked at in serial, date, hours order
+        codes = {s: i for i, s in enumerate(sorted(set(new.text("serial"))))}
+        serial_code = np.fromiter(map(codes.__getitem__, new.text("serial")), dtype=np.int64, count=len(new))
+        order = np.lexsort((new.number("machine_hours"), new.day, serial_code))
+        serials, day = list(map(new.text("serial").__getitem__, order.tolist())), new.day[order]
+    else:
+        new = sorted(new, key=lambda r: (r.serial, r.taken_on, r.machine_hours))
+        order = np.arange(len(new))
+        serials = [r.serial for r in new]
+        day = np.array([r.taken_on.toordinal() for r in new], dtype=np.int64)
+    hours = np.asarray(Timeline(before.fitments, new, before.events).hours, dtype=float)[order]  # pump hours of the new readings
     low_q, high_q = round(50 - 50 * coverage, 1), round(50 + 50 * coverage, 1)
-    by_pump: dict[str, list[int]] = {}
-    for i, r in enumerate(new):
-        if r.serial in pumps and r.serial in before.pumps and r.serial in position:
-            by_pump.setdefault(r.serial, []).append(i)
-    trended = _trended(before, new)
-    given = [np.array([getattr(r, _VALUE_OF[kind]) is not None for r in new], dtype=bool) for kind in ALL_KINDS]
-    day = np.array([r.taken_on.toordinal() for r in new], dtype=np.int64)
+    by_pump: dict[str, np.ndarray] = {}
+    begins = [0, *(i for i in range(1, len(serials)) if serials[i] != serials[i - 1])] if serials else []
+    for first, last in zip(begins, [*begins[1:], len(serials)]):  # the serials come in runs, each once
+        if serials[first] in position and serials[first] in before.pumps:
+            by_pump[serials[first]] = np.arange(first, last, dtype=np.int64)
+    trended = [values[order] for values in _trended(before, new)]
     found: list[tuple[int, int, str]] = []
-    for serial, listed in by_pump.items():
-        at = np.array(listed, dtype=np.int64)
-        for kf in pumps[serial].kinds:
-            if kf.fit is None:
-                continue
-            k = ALL_KINDS.index(kf.kind)
+    day_of: dict[int, str] = {}  # ISO text of each day ordinal met
+    for serial, at in by_pump.items():
+        for k, kind in enumerate(ALL_KINDS):
             row = 3 * position[serial] + k
+            fit = details[row]
+            if fit is None:
+                continue
             start_on = packed.pack.start_on[row]
             older = packed.pack.started[row]  # readings of an older wear segment: the current trend says nothing of them
-            keep = given[k][at]
+            keep = np.isfinite(trended[k][at])
             if older:
                 keep &= day[at] >= start_on.toordinal()
             take = at[keep]
@@ -373,17 +409,18 @@ def second_look(
                 continue
             xs = hours[take] - float(packed.pack.origin[row])
             values = trended[k][take]
-            p = kf.fit.below(xs, values, reading=True)  # one call for all of them; the band only where outside
+            p = fit.below(xs, values, reading=True)  # one call for all of them; the band only where outside
             out = np.flatnonzero((p < 0.5 - coverage / 2) | (p > 0.5 + coverage / 2))
             if not len(out):
                 continue
-            lo, hi = kf.fit.bounds(xs[out], coverage=coverage, reading=True)
-            for j, at_j in enumerate(out.tolist()):
-                if lo[j] <= values[at_j] <= hi[j]:
+            lo, hi = fit.bounds(xs[out], coverage=coverage, reading=True)
+            words = _LookWords(kind, (low_q, high_q), start_on)
+            for i, value, low, high, x in zip(take[out].tolist(), values[out].tolist(), lo.tolist(), hi.tolist(),
+                                              xs[out].tolist()):
+                if low <= value <= high:
                     continue  # on the band's edge (the band's quantiles are found to 1e-12 by bisection)
-                i = int(take[at_j])
-                found.append((i, k, _look_line(new[i], kf.kind, float(values[at_j]), (float(lo[j]), float(hi[j])),
-                                               (low_q, high_q), float(xs[at_j]), start_on)))
+                d = day_of.get(i_day := int(day[i])) or day_of.setdefault(i_day, date.fromordinal(i_day).isoformat())
+                found.append((i, k, words.line(serials[i], d, value, (low, high), x)))
     return [line for _, _, line in sorted(found)]
 
 
@@ -399,12 +436,19 @@ def _trended(fleet: Fleet, readings: Sequence[Reading]):
 
     from logbook.analysis.normalize import ReadingConditions, normalized_value, trended_values
 
+    from logbook.columns import ReadingColumns
+
     codes = sorted(fleet.models)
     models = [fleet.models[c] for c in codes]
     index = {c: i for i, c in enumerate(codes)}
-    model_of = np.array([index[fleet.pumps[r.serial].model] if r.serial in fleet.pumps else 0 for r in readings], dtype=int)
+    as_columns = isinstance(readings, ReadingColumns)
+    serials = readings.text("serial") if as_columns else [r.serial for r in readings]
+    model_code = {s: index[fleet.pumps[s].model] if s in fleet.pumps else 0 for s in set(serials)}
+    model_of = np.fromiter(map(model_code.__getitem__, serials), dtype=int, count=len(serials))
 
     def column(name: str) -> np.ndarray:
+        if as_columns:
+            return readings.number(name)
         return np.array([np.nan if v is None else v for v in map(attrgetter(name), readings)], dtype=float)
 
     def refuse(i: int):
@@ -426,36 +470,63 @@ def _trended(fleet: Fleet, readings: Sequence[Reading]):
     return out
 
 
-def _look_line(r: Reading, kind: Kind, value: float, band, quantiles, x: float, start_on: date | None) -> str:
-    (lo, hi), (low_q, high_q) = band, quantiles
-    side = "above" if value > hi else "below"
-    since = start_on.isoformat() if start_on else "with its first reading"
-    unit = kind.unit
-    at_ref = " at reference conditions" if kind is Kind.CASE_DRAIN else ""
-    return (
-        f"{r.serial} {r.taken_on.isoformat()} {kind.label} {value:.2f} {unit}{at_ref} is {side} its trend's "
-        f"P{low_q:g}-P{high_q:g} band {lo:.2f}-{hi:.2f} {unit} at {x:,.0f} h into the trend begun {since}: "
-        f"check the entry and the test conditions, or test again"
-    )
+class _LookWords:
+    """The words of one kind's second-look lines (``line``: one reading's), the parts that do
+    not change from reading to reading put together once."""
+
+    __slots__ = ("label", "unit", "at_ref", "band", "since")
+
+    def __init__(self, kind: Kind, quantiles, start_on: date | None):
+        low_q, high_q = quantiles
+        self.label, self.unit = kind.label, kind.unit
+        self.at_ref = " at reference conditions" if kind is Kind.CASE_DRAIN else ""
+        self.band = f"P{low_q:g}-P{high_q:g}"
+        self.since = start_on.isoformat() if start_on else "with its first reading"
+
+    def line(self, serial: str, taken_on: str, value: float, band, x: float) -> str:
+        lo, hi = band
+        side = "above" if value > hi else "below"
+        unit = self.unit
+        return (
+            f"{serial} {taken_on} {self.label} {value:.2f} {unit}{self.at_ref} is {side} its trend's "
+            f"{self.band} band {lo:.2f}-{hi:.2f} {unit} at {x:,.0f} h into the trend begun {self.since}: "
+            f"check the entry and the test conditions, or test again"
+        )
 
 
-def new_readings(before: Fleet, after: Fleet) -> list[Reading]:
-    """Readings in ``after`` that ``before`` did not have (by id)."""
+def _look_line(serial: str, taken_on: date, kind: Kind, value: float, band, quantiles, x: float,
+               start_on: date | None) -> str:
+    """One second-look line (``_LookWords.line``)."""
+    return _LookWords(kind, quantiles, start_on).line(serial, taken_on.isoformat(), value, band, x)
+
+
+def new_readings(before: Fleet, after: Fleet) -> Sequence[Reading]:
+    """Readings in ``after`` that ``before`` did not have (by id), current ones, in ``after``'s
+    order: a list, or the store's columns (``ReadingColumns.take``) when both fleets hold columns."""
+    from logbook.columns import ReadingColumns
+
+    if isinstance(before.readings, ReadingColumns) and isinstance(after.readings, ReadingColumns):
+        import numpy as np
+
+        cols = after.readings
+        fresh = ~np.isin(cols.id, before.readings.id) & np.isnan(cols.number("superseded_by"))
+        return cols.take(np.flatnonzero(fresh))
     known = {r.id for r in before.readings}
     return [r for r in after.readings if r.id not in known and r.superseded_by is None]
 
 
-def import_second_look(before: Fleet, after: Fleet, today: date, *, coverage: float = 0.95) -> list[str]:
-    """Second-look lines for the readings an import added, against the forecast before it."""
-    added = new_readings(before, after)
-    if not added:
+def import_second_look(before: Fleet, after: Fleet, today: date, *, coverage: float = 0.95,
+                       added: Sequence[Reading] | None = None) -> list[str]:
+    """Second-look lines for the readings an import added (``added``, else ``new_readings``),
+    against the trends before it: ``second_look`` on the fitted lines alone (``reading_fits``)."""
+    added = new_readings(before, after) if added is None else added
+    if not len(added):
         return []
-    from logbook.analysis.fleet import forecast_fleet
-
-    return second_look(before, forecast_fleet(before, today), added, coverage=coverage)
+    packed, details = reading_fits(before, today)
+    return _second_look(before, packed, details, added, coverage)
 
 
 __all__ = [
     "MachineClocks", "NextTest", "TestRules", "band_width_ratio", "forecast_test_date", "import_second_look",
-    "interval_due", "next_tests", "plan_round", "second_look",
+    "interval_due", "new_readings", "next_tests", "plan_round", "reading_fits", "second_look",
 ]

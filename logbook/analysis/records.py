@@ -62,7 +62,7 @@ class RowFigures:
         spans = (code == O_CROSSING) | (code == O_NO_CROSSING)
         remaining = np.where(spans[:, None] & np.isfinite(fc.remaining), fc.remaining, np.nan)
         days = _dates_ahead(pk, remaining)
-        return cls(code, remaining, days, (fit.path != 0) & np.isfinite(fit.b))
+        return cls(code, remaining, days, shown_fit(fit))
 
 
 def _dates_ahead(pk: FleetPack, remaining: np.ndarray) -> np.ndarray:
@@ -197,6 +197,11 @@ def _worst(pk: FleetPack, rows: RowFigures, n_pumps: int) -> list[int]:
     return worst_kinds(rows.code.reshape(shape), candidate.reshape(shape), progress.reshape(shape),
                        rows.days[:, 1].reshape(shape), rows.remaining[:, 1].reshape(shape), O_PAST_LIMIT,
                        O_CROSSING)  # fmt: skip
+
+
+def shown_fit(fit: BatchFit) -> np.ndarray:
+    """Per row, whether it has a fitted line to show (a ``FitDetail``): a chosen path with a finite slope."""
+    return (fit.path != 0) & np.isfinite(fit.b)
 
 
 def fit_details(pk: FleetPack, fit: BatchFit, detail: np.ndarray, fc: BatchForecast | None = None) -> list[FitDetail | None]:

@@ -41,7 +41,9 @@ def run(args, ctx) -> int:
         steps.step("reading the logbook")
         before = store.fleet() if check else None
         steps.step(f"checking and writing {args.file.name} ({size / 1e6:.1f} MB)")
-        report = import_bytes(store, args.table, data, name=args.file.name, today=ctx.today, dry_run=args.dry_run)
+        written: list = []
+        report = import_bytes(store, args.table, data, name=args.file.name, today=ctx.today, dry_run=args.dry_run,
+                              written=written)
         if check and report.added and not report.problems:
             from dataclasses import replace
 
@@ -49,14 +51,36 @@ def run(args, ctx) -> int:
             from logbook.rounds import import_second_look, new_readings
 
             steps.step("reading the logbook again")
-            after = store.fleet()
+            after, added = _after(before, written) or (store.fleet(), None)
             steps.step(f"second look at {report.added} new readings against their trends")
-            looks = import_second_look(before, after, ctx.today)
+            added = new_readings(before, after) if added is None else added
+            looks = import_second_look(before, after, ctx.today, added=added)
             steps.step("plausibility of the new readings")
             report = replace(report, flagged=[*report.flagged, *looks,
-                                              *fleet_doubts(after, new_readings(before, after), ctx.units, looks,
+                                              *fleet_doubts(after, added, ctx.units, looks,
                                                             lambda: _file_lines(data, ctx.today))])
     return print_report(ctx, report, str(args.file), lists_beside=args.file)
+
+
+def _after(before, written: list):
+    """(the fleet after the import, the readings it added) without reading the store again:
+    ``before`` and the rows the import wrote (``store.bulk.Written``), in the store's order
+    (date, hours, id); None when the store did not hand them back or someone else wrote between
+    the two (then the store is read again)."""
+    from dataclasses import replace
+
+    import numpy as np
+
+    from logbook.columns import ReadingColumns
+
+    if len(written) != 1 or not isinstance(before.readings, ReadingColumns):
+        return None
+    (w,) = written
+    if w.changes_before != before.change_count:
+        return None
+    joined = ReadingColumns.joined([before.readings, w.readings])
+    order = np.lexsort((joined.id, joined.number("machine_hours"), joined.day))
+    return replace(before, readings=joined.take(order), change_count=w.changes_after), w.readings
 
 
 def _file_lines(data: bytes, today) -> dict:

@@ -11,15 +11,15 @@ words every problem and every row already present.
 
 from __future__ import annotations
 
-import bisect
 import json
 from collections import defaultdict
+from dataclasses import dataclass
 from datetime import date
-from itertools import islice, repeat
-from operator import itemgetter, le
+from itertools import repeat
 from typing import Sequence
 
 from logbook import meter
+from logbook.columns import ReadingColumns
 from logbook.model import ImportReport
 from logbook.store.base import StorePart
 from logbook.store.batches import Checked
@@ -32,17 +32,20 @@ _INPUT = (
     "test_speed oil_grade oil_vi nu40_cst nu100_cst iso4406 technician note"
 ).split()
 _INSERT = f"INSERT INTO readings ({', '.join(READING_COLUMNS)}) VALUES ({', '.join('?' * len(READING_COLUMNS))})"
-_ALL_METER_POINTS = """
-    SELECT taken_on, machine_hours FROM readings WHERE machine = ? AND superseded_by IS NULL AND removed_reason IS NULL
+#: The stored meter records (machine, date, hours) of the machines in a JSON list (given four times).
+_METER_POINTS_OF = """
+    SELECT machine, taken_on, machine_hours FROM readings
+     WHERE machine IN (SELECT value FROM json_each(?)) AND superseded_by IS NULL AND removed_reason IS NULL
     UNION ALL
-    SELECT happened_on, hours FROM events
-     WHERE machine = ? AND hours IS NOT NULL AND kind != 'meter_replaced' AND removed_reason IS NULL
+    SELECT machine, happened_on, hours FROM events
+     WHERE machine IN (SELECT value FROM json_each(?)) AND hours IS NOT NULL AND kind != 'meter_replaced'
+       AND removed_reason IS NULL
     UNION ALL
-    SELECT happened_on, to_hours FROM events WHERE to_machine = ? AND to_hours IS NOT NULL AND kind = 'move' AND removed_reason IS NULL
+    SELECT to_machine, happened_on, to_hours FROM events
+     WHERE to_machine IN (SELECT value FROM json_each(?)) AND to_hours IS NOT NULL AND kind = 'move' AND removed_reason IS NULL
     UNION ALL
-    SELECT fitted_on, machine_hours_at_fit FROM fitments WHERE machine = ?
+    SELECT machine, fitted_on, machine_hours_at_fit FROM fitments WHERE machine IN (SELECT value FROM json_each(?))
 """
-
 
 class _Declined(Exception):
     """The batch needs the row-by-row check."""
@@ -53,12 +56,15 @@ class BulkMixin(StorePart):
 
     def add_reading_columns(
         self, columns: dict[str, list], *, today: date, lines: Sequence[int], dry_run: bool = False,
-        source: tuple[str, str] | None = None,
+        source: tuple[str, str] | None = None, written: list[Written] | None = None,
     ) -> ImportReport | None:
+        """``written``: a list that gets the rows as written (``Written``), so that the caller
+        need not read them back."""
         n = len(lines)
         try:
             self._check_then_write(
-                lambda: self._check_columns(columns, n, today), lambda c: self._write_columns(c, n, source), dry_run=dry_run
+                lambda: self._check_columns(columns, n, today), lambda c: self._write_columns(c, n, source, written),
+                dry_run=dry_run,
             )
         except _Declined:
             return None
@@ -98,7 +104,7 @@ class BulkMixin(StorePart):
                         raise _Declined
                     machine_of[i] = holder.machine
         given = columns.get("machine")
-        if given is not None and any(g is not None and g != m for g, m in zip(given, machine_of)):
+        if given is not None and given != machine_of and any(g is not None and g != m for g, m in zip(given, machine_of)):
             raise _Declined
         self._check_values(columns, serials, {s: models[pumps[s].model] for s in serial_set}, none)
         iso_of = {d: d.isoformat() for d in set(dates)}
@@ -113,8 +119,9 @@ class BulkMixin(StorePart):
             if row in keys:
                 raise _Declined  # recorded before (current, corrected or removed; the same or other values or text)
         self._check_meters(machine_of, isos, hours)
-        texts = [[t or "" for t in columns.get(name) or none] for name in ("technician", "note")]
-        if any(len(t) > 500 or not t.isprintable() for t in texts[0] + texts[1] if t):
+        texts = [[t or "" for t in columns[name]] if columns.get(name) else [""] * n for name in ("technician", "note")]
+        if any(len(t) > 500 or not t.isprintable() for name, column in zip(("technician", "note"), texts)
+               if columns.get(name) for t in set(column) if t):
             raise _Declined  # long or unusual text: add_readings words the rule
         values = [serials, isos, machine_of, hours] + [columns.get(name) or none for name in _INPUT[4:16]] + texts
         return Checked([], values, 0)
@@ -124,50 +131,107 @@ class BulkMixin(StorePart):
         """check_reading_against_model, row by row but without building readings."""
         if any(v is not None for k in ("nu40_cst", "nu100_cst") for v in columns.get(k) or ()):
             raise _Declined  # a measured viscosity: validate.check_viscosity words its rules row by row
-        cd, sp, nd = (columns.get(k) or none for k in ("case_drain", "servo_pressure", "neutral_drift"))
-        ot, tp, ts = (columns.get(k) or none for k in ("oil_temp", "test_pressure", "test_speed"))
-        for s, c, p, d, t, pressure, speed in zip(serials, cd, sp, nd, ot, tp, ts):
-            m = model_of[s]
-            if c is None and p is None and d is None:
+        import numpy as np
+
+        def column(name: str) -> np.ndarray:  # None: NaN
+            values = columns.get(name)
+            return np.full(len(serials), np.nan) if values is None else np.array(values, dtype=float)
+
+        cd, sp, nd, ot, tp, ts = map(column, ("case_drain", "servo_pressure", "neutral_drift", "oil_temp",
+                                               "test_pressure", "test_speed"))
+        if (np.isnan(cd) & np.isnan(sp) & np.isnan(nd)).any():
+            raise _Declined
+        codes = {s: i for i, s in enumerate(model_of)}
+        models = list(model_of.values())
+        at = np.fromiter(map(codes.__getitem__, serials), dtype=np.int64, count=len(serials))
+        displacement, max_speed, rated = (np.array([getattr(m, a) for m in models], dtype=float)[at]
+                                          for a in ("displacement_cc", "max_speed_rpm", "rated_pressure_bar"))
+        has_cd = ~np.isnan(cd)
+        with np.errstate(invalid="ignore"):
+            flow = theoretical_flow_lpm(displacement, ts)  # the same product, on arrays
+            if (has_cd & (np.isnan(ot) | np.isnan(tp) | np.isnan(ts) | (cd > flow))).any():
                 raise _Declined
-            if c is not None and (t is None or pressure is None or speed is None
-                                  or c > theoretical_flow_lpm(m.displacement_cc, speed)):
-                raise _Declined
-            if speed is not None and speed > m.max_speed_rpm * 1.15:
-                raise _Declined
-            if pressure is not None and pressure > m.rated_pressure_bar * 1.25:
+            if (ts > max_speed * 1.15).any() or (tp > rated * 1.25).any():  # NaN (none) compares False
                 raise _Declined
 
     def _check_meters(self, machine_of: Sequence[str | None], isos: list[str], hours: list[float]) -> None:
         """Per machine and meter era, every record (stored and new) sorted by date reads
-        no fewer hours than the one before: then no new record makes the meter run backwards."""
-        new_points: defaultdict[str | None, list[tuple[str, float]]] = defaultdict(list)
-        for m, day, h in zip(machine_of, isos, hours):
-            new_points[m].append((day, h))
-        for machine, points in new_points.items():
-            points += self.conn.execute(_ALL_METER_POINTS, (machine, machine, machine, machine)).fetchall()
-            reps = sorted(r[0] for r in self.conn.execute(
-                "SELECT happened_on FROM events WHERE kind = 'meter_replaced' AND machine = ? AND removed_reason IS NULL",
-                (machine,)))
-            eras = defaultdict(list)
-            if reps:
-                for p in points:
-                    eras[bisect.bisect_right(reps, p[0])].append(p)
-            else:
-                eras[0] = points
-            for era in eras.values():
-                era.sort()
-                readings = list(map(itemgetter(1), era))
-                if not all(map(le, readings, islice(readings, 1, None))):
-                    raise _Declined
+        no fewer hours than the one before: then no new record makes the meter run backwards.
+        On arrays: the machines' stored records read in one query, one sort of them all."""
+        import numpy as np
 
-    def _write_columns(self, checked: Checked, n: int, source: tuple[str, str] | None) -> None:
+        machines = sorted(set(machine_of), key=str)
+        code = {m: i for i, m in enumerate(machines)}
+        wanted = (json.dumps(machines),) * 4
+        stored = self.conn.execute(_METER_POINTS_OF, wanted).fetchall()
+        reps = self.conn.execute(
+            "SELECT machine, happened_on FROM events WHERE kind = 'meter_replaced' AND removed_reason IS NULL "
+            "AND machine IN (SELECT value FROM json_each(?))", wanted[:1]).fetchall()
+        texts = [*isos, *(r[1] for r in stored), *(r[1] for r in reps)]
+        ordinal = {t: date.fromisoformat(t).toordinal() for t in set(texts)}
+        days = np.fromiter(map(ordinal.__getitem__, texts), dtype=np.int64, count=len(texts))
+        n_points = len(isos) + len(stored)
+        m = np.fromiter(map(code.__getitem__, [*machine_of, *(r[0] for r in stored), *(r[0] for r in reps)]),
+                        dtype=np.int64, count=len(texts))
+        h = np.array([*hours, *(np.nan if r[2] is None else r[2] for r in stored)], dtype=float)
+        base = int(days.min())
+        span = int(days.max()) - base + 2
+        key = m * span + (days - base)
+        era = np.searchsorted(np.sort(key[n_points:]), key[:n_points], side="right")  # replacements on or before
+        order = np.lexsort((h, key[:n_points], era))  # by machine and era (the key leads with the machine), date, hours
+        ms, es, hs = m[:n_points][order], era[order], h[order]
+        same = (ms[1:] == ms[:-1]) & (es[1:] == es[:-1])
+        if (same & ~(hs[:-1] <= hs[1:])).any():
+            raise _Declined
+
+    def _write_columns(self, checked: Checked, n: int, source: tuple[str, str] | None,
+                       written: list[Written] | None = None) -> None:
         now = self._now_text()
+        prior = self.change_count() if written is not None else 0
         import_id = self._record_import("readings", source, n, now) if source else None
         rows = zip(*checked.items, repeat(self.user, n), repeat(now, n), repeat(import_id, n))
         if source is not None:
             self.conn.executemany(_INSERT, rows)
+            if written is not None:
+                first, last, count = self.conn.execute(
+                    "SELECT min(id), max(id), count(*) FROM readings WHERE import_id = ?", (import_id,)).fetchone()
+                if count == n and last - first + 1 == n:  # ids given in order, one after the other
+                    written.append(Written(_written_columns(checked.items, first, self.user, now), prior,
+                                           self.change_count()))
             return
         for row in rows:  # entered by hand (not from a file): one audit row each, as add_readings does
             cur = self.conn.execute(_INSERT, row)
             self._audit("insert", "readings", cur.lastrowid, row[0], None, dict(zip(READING_COLUMNS, row)))
+
+
+@dataclass(frozen=True)
+class Written:
+    """Readings an import wrote, as the store holds them (``ReadingColumns``, in the order written),
+    and the store's ``change_count`` just before and just after, inside the writing transaction:
+    a snapshot read with ``changes_before`` plus these rows is the store after the import."""
+
+    readings: ReadingColumns
+    changes_before: int
+    changes_after: int
+
+
+def _written_columns(items: Sequence[list], first_id: int, user: str, now: str) -> ReadingColumns:
+    """The checked rows (``READING_COLUMNS`` order up to ``note``) as the columns the store reads back."""
+    import numpy as np
+
+    n = len(items[0])
+    serials, isos, machines, hours = items[:4]
+    values = dict(zip(_VALUE_COLUMNS, items[4:16]))
+    ordinal = {text: date.fromisoformat(text).toordinal() for text in set(isos)}
+    numbers = {name: np.full(n, np.nan) if values[name].count(None) == n else np.array(values[name], dtype=float)
+               for name in _VALUE_COLUMNS if name != "iso4406"}  # a column left out of the file: all None
+    numbers["machine_hours"] = np.array(hours, dtype=float)
+    numbers["superseded_by"] = np.full(n, np.nan)
+    texts = {"serial": serials, "machine": machines, "iso4406": values["iso4406"], "technician": items[16],
+             "note": items[17], "entered_by": [user] * n, "entered_at": [now] * n, "removed_reason": [None] * n}
+    days = np.fromiter(map(ordinal.__getitem__, isos), dtype=np.int64, count=n)
+    return ReadingColumns(np.arange(first_id, first_id + n, dtype=np.int64), days, numbers, texts)
+
+
+#: The value columns of READING_COLUMNS (after machine_hours, up to iso4406), as ReadingColumns names them.
+_VALUE_COLUMNS = READING_COLUMNS[4:16]

@@ -160,3 +160,38 @@ def test_the_import_screen_lets_through_every_reading_the_rules_doubt():
         told |= {label for line in every for label in ("Hour meter", "Oil temperature", "Case drain", "Servo pressure",
                                                          "Neutral drift") if f": {label}" in line}
     assert told == {"Hour meter", "Oil temperature", "Case drain", "Servo pressure", "Neutral drift"}
+
+
+def _as_columns(readings):
+    """The records as the store's columns (``ReadingColumns.from_rows`` of rows in ``FIELDS`` order)."""
+    from logbook.columns import FIELDS, ReadingColumns
+
+    def cell(r, name):
+        v = getattr(r, name)
+        return v.isoformat() if name in ("taken_on", "entered_at") and v is not None else v
+
+    return ReadingColumns.from_rows([tuple(cell(r, name) for name in FIELDS) for r in readings])
+
+
+def test_the_import_screen_reads_the_stores_columns_as_it_reads_records():
+    # An import hands the screen the store's columns (the fleet's and the new readings'); the
+    # positions and the doubts must be those found on the same readings as records.
+    from dataclasses import replace
+
+    from logbook.plausible import fleet_doubts, maybe_doubted
+
+    passed = 0
+    for seed in range(12):
+        fleet = _invented_fleet(seed)
+        cols = _as_columns(fleet.readings)
+        assert list(cols) == list(fleet.readings)
+        as_cols = replace(fleet, readings=cols)
+        first = len(fleet.readings) // 3
+        new = list(fleet.readings[first:])
+        new_cols = cols.take(range(first, len(cols)))
+        expected = maybe_doubted(fleet, new)
+        assert maybe_doubted(as_cols, new_cols) == expected
+        assert maybe_doubted(as_cols, new) == expected  # records matched to the columns by id
+        assert fleet_doubts(as_cols, new_cols) == fleet_doubts(fleet, new)
+        passed += len(expected)
+    assert passed  # the screen let something through to compare
