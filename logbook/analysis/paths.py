@@ -482,15 +482,21 @@ class PathMixture:
         rows = np.flatnonzero(self.ok)
         q = np.asarray(quantiles, dtype=float)[None, :]
         now = np.repeat(np.maximum(x_now[rows], 0.0)[:, None], q.shape[1], axis=1)
-        lo, hi = np.zeros_like(now), np.full_like(now, np.log1p(horizon))
         crossed_by = _Crossing(self, rows)
-        for _ in range(iterations):  # bisection on log(1 + hours ahead)
-            mid = 0.5 * (lo + hi)
-            up = crossed_by(now + np.expm1(mid)) >= q
-            hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
-        ahead = np.expm1(0.5 * (lo + hi))
-        ahead = np.where(crossed_by(now) >= q, 0.0, ahead)
-        ahead = np.where(crossed_by(now + horizon) < q, np.inf, ahead)
+        at_now, at_end = crossed_by(now), crossed_by(now + horizon)
+        # only rows with a quantile reached inside the horizon and not yet are searched (each row on its own)
+        open_rows = ((at_now < q) & (at_end >= q)).any(axis=1)
+        ahead = np.zeros_like(now)
+        if open_rows.any():
+            crossed_by, start = _Crossing(self, rows[open_rows]), now[open_rows]
+            lo, hi = np.zeros_like(start), np.full_like(start, np.log1p(horizon))
+            for _ in range(iterations):  # bisection on log(1 + hours ahead)
+                mid = 0.5 * (lo + hi)
+                up = crossed_by(start + np.expm1(mid)) >= q
+                hi, lo = np.where(up, mid, hi), np.where(up, lo, mid)
+            ahead[open_rows] = np.expm1(0.5 * (lo + hi))
+        ahead = np.where(at_now >= q, 0.0, ahead)
+        ahead = np.where(at_end < q, np.inf, ahead)
         out = np.full((self.size, q.shape[1]), np.nan)
         out[rows] = now + ahead
         return out
