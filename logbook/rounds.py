@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from operator import attrgetter
+from operator import attrgetter, ne
 from datetime import date, timedelta
 from typing import Iterable, Sequence
 
@@ -386,7 +386,8 @@ def _second_look(before: Fleet, packed, details: list, new: Sequence[Reading], c
     hours = np.asarray(Timeline(before.fitments, new, before.events).hours, dtype=float)[order]  # pump hours of the new readings
     low_q, high_q = round(50 - 50 * coverage, 1), round(50 + 50 * coverage, 1)
     by_pump: dict[str, np.ndarray] = {}
-    begins = [0, *(i for i in range(1, len(serials)) if serials[i] != serials[i - 1])] if serials else []
+    runs = np.fromiter(map(ne, serials[1:], serials[:-1]), dtype=bool, count=max(len(serials) - 1, 0))
+    begins = [0, *(np.flatnonzero(runs) + 1).tolist()] if serials else []
     for first, last in zip(begins, [*begins[1:], len(serials)]):  # the serials come in runs, each once
         if serials[first] in position and serials[first] in before.pumps:
             by_pump[serials[first]] = np.arange(first, last, dtype=np.int64)

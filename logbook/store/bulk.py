@@ -92,11 +92,15 @@ class BulkMixin(StorePart):
             held = fits.get(s, [])
             if len(held) == 1:  # the common case: one fitment covers every row of the pump
                 f = held[0]
-                days = [dates[i] for i in rows]
+                run = rows[-1] - rows[0] + 1 == len(rows)  # the pump's rows one after the other (a sorted file)
+                days = dates[rows[0]:rows[-1] + 1] if run else [dates[i] for i in rows]
                 if min(days) < f.fitted_on or (f.removed_on is not None and max(days) > f.removed_on):
                     raise _Declined
-                for i in rows:
-                    machine_of[i] = f.machine
+                if run:
+                    machine_of[rows[0]:rows[-1] + 1] = [f.machine] * len(rows)
+                else:
+                    for i in rows:
+                        machine_of[i] = f.machine
             else:
                 for i in rows:
                     holder = meter.fitment_on(held, dates[i])
@@ -193,9 +197,10 @@ class BulkMixin(StorePart):
         if source is not None:
             self.conn.executemany(_INSERT, rows)
             if written is not None:
-                first, last, count = self.conn.execute(
-                    "SELECT min(id), max(id), count(*) FROM readings WHERE import_id = ?", (import_id,)).fetchone()
-                if count == n and last - first + 1 == n:  # ids given in order, one after the other
+                first, last = (self.conn.execute(  # the ends of the import's index entries, not a scan of them
+                    f"SELECT id FROM readings WHERE import_id = ? ORDER BY id {way} LIMIT 1", (import_id,)).fetchone()[0]
+                    for way in ("ASC", "DESC"))
+                if last - first + 1 == n:  # its n rows hold n ids one after the other: given in order
                     written.append(Written(_written_columns(checked.items, first, self.user, now), prior,
                                            self.change_count()))
             return
