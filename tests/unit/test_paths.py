@@ -152,15 +152,21 @@ def test_calibration_rows_take_small_groups_whole_and_large_ones_evenly():
     assert gaps.min() >= 9 and gaps.max() <= 11
 
 
+def _wandering_fleet(seed: int, s: int, n: int, walk_sd: float) -> tuple[np.ndarray, np.ndarray]:
+    """s series of n readings at even hours: a straight line whose wear wanders (a random walk of
+    steps ``walk_sd``) plus reading noise of 0.05."""
+    rng = np.random.default_rng(seed)
+    x = np.tile(np.linspace(0, 6000, n), (s, 1))
+    walk = np.cumsum(rng.normal(0, walk_sd, (s, n)), axis=1)
+    return x, 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
+
+
 def test_capped_calibration_agrees_with_the_whole_group():
     # the cap changes which series are forecast, not what the factors estimate: a group of 600
     # straight-wear series calibrated on 150 of them against all 600 (statistical agreement, the
     # 90 % quantile of thousands of scores either way)
-    rng = np.random.default_rng(23)
     s, n = 600, 10
-    x = np.tile(np.linspace(0, 6000, n), (s, 1))
-    walk = np.cumsum(rng.normal(0, 0.15, (s, n)), axis=1)
-    y = 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
+    x, y = _wandering_fleet(23, s, n, 0.15)
     args = (x, y, np.ones((s, n)), np.full(s, 30.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
     whole, capped = P.calibrate(*args, most=s), P.calibrate(*args, most=150)
     assert capped.n_scores.max() < whole.n_scores.max()
@@ -183,11 +189,8 @@ def test_calibration_leaves_well_specified_bands_about_as_they_are():
 def test_calibration_widens_bands_that_are_too_narrow():
     # the same fleet, but each series' wear rate wanders (a random walk on top of the line): the
     # straight path's band of the mean is too narrow for what comes later, so the factor grows
-    rng = np.random.default_rng(22)
     s, n = 200, 12
-    x = np.tile(np.linspace(0, 6000, n), (s, 1))
-    walk = np.cumsum(rng.normal(0, 0.25, (s, n)), axis=1)
-    y = 2.0 + 4e-4 * x + walk + rng.normal(0, 0.05, (s, n))
+    x, y = _wandering_fleet(22, s, n, 0.25)
     cal = P.calibrate(x, y, np.ones((s, n)), np.full(s, 30.0), np.ones(s, dtype=int), np.zeros(s, dtype=int))
     # against the same calibration of a well-specified straight fleet (the test above): each side's
     # factor at least 1.4 times as large (measured 2.1x and 1.5x)
