@@ -107,26 +107,63 @@ class _TDof:
         return special.ndtr(z, out=z)
 
 
+def _sorted_groups(values: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int):
+    """The ``ok`` values of each group (group >= 0) sorted: (sorted values, start of each group, count)."""
+    sel = ok & (group >= 0)
+    g, v = group[sel], values[sel]
+    order = np.lexsort((v, g))
+    count = np.bincount(g, minlength=n_groups)[:n_groups]
+    return v[order], np.r_[0, np.cumsum(count)[:-1]].astype(np.int64), count
+
+
+def _median_of_sorted(v: np.ndarray, start: np.ndarray, count: np.ndarray) -> np.ndarray:
+    """Per group: the median as ``np.median`` gives it (the middle value, or the mean of the middle two)."""
+    has = count > 0
+    lo = np.where(has, start + (count - 1) // 2, 0)
+    hi = np.where(has, start + count // 2, 0)
+    if not v.size:
+        return np.full(count.shape, np.nan)
+    return np.where(has, np.where(count % 2 == 1, v[lo], (v[lo] + v[hi]) / 2), np.nan)
+
+
+def _percentile_of_sorted(v: np.ndarray, start: np.ndarray, count: np.ndarray, q: float) -> np.ndarray:
+    """Per group: ``np.percentile(values, q)`` (the default linear method, with numpy's own index and
+    interpolation arithmetic, so that the numbers are the same)."""
+    has = count > 0
+    if not v.size:
+        return np.full(count.shape, np.nan)
+    quantile = np.true_divide(q, 100)
+    n = count.astype(float)
+    virtual = (n - 1) * quantile  # numpy's linear method
+    below = np.floor(virtual)
+    gamma = virtual - below
+    i = np.clip(below, 0, np.maximum(n - 1, 0)).astype(np.int64)
+    j = np.clip(below + 1, 0, np.maximum(n - 1, 0)).astype(np.int64)
+    a, b = v[np.where(has, start + i, 0)], v[np.where(has, start + j, 0)]
+    diff = b - a
+    out = a + diff * gamma
+    out = np.where(gamma >= 0.5, b - diff * (1 - gamma), out)
+    return np.where(has, out, np.nan)
+
+
 def _group_median(values: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int, min_count: int) -> np.ndarray:
-    out = np.full(n_groups, np.nan)
-    for g in np.unique(group[ok & (group >= 0)]):
-        sel = ok & (group == g)
-        if sel.sum() >= min_count:
-            out[g] = np.median(values[sel])
-    return out
+    v, start, count = _sorted_groups(values, ok, group, n_groups)
+    return np.where(count >= min_count, _median_of_sorted(v, start, count), np.nan)
 
 
 def _slope_prior(b: np.ndarray, ok: np.ndarray, group: np.ndarray, n_groups: int) -> tuple[np.ndarray, np.ndarray]:
     """Per group: median slope and a robust spread (the larger of the MAD and the 10-90 % range / 2.563)."""
-    mu, tau2 = np.full(n_groups, np.nan), np.full(n_groups, np.nan)
-    for g in np.unique(group[ok & (group >= 0)]):
-        bs = b[ok & (group == g)]
-        if bs.size >= 3:
-            mu[g] = np.median(bs)
-            lo, hi = np.percentile(bs, [10, 90])
-            spread = max(1.4826 * np.median(np.abs(bs - mu[g])), (hi - lo) / 2.563, 0.1 * abs(mu[g]))
-            tau2[g] = spread**2
-    return mu, tau2
+    v, start, count = _sorted_groups(b, ok, group, n_groups)
+    enough = count >= 3
+    mu = np.where(enough, _median_of_sorted(v, start, count), np.nan)
+    lo, hi = _percentile_of_sorted(v, start, count, 10), _percentile_of_sorted(v, start, count, 90)
+    sel = ok & (group >= 0)
+    dev, d_start, d_count = _sorted_groups(np.abs(b - _per_row(mu, group)), sel, group, n_groups)
+    mad = _median_of_sorted(dev, d_start, d_count)
+    spread = np.maximum(np.maximum(1.4826 * mad, (hi - lo) / 2.563), 0.1 * np.abs(mu))
+    squared = np.array([v**2 for v in spread.tolist()])  # C pow per group, as a scalar square is taken (an
+    # array's ** 2 multiplies, which can differ in the last digit)
+    return mu, np.where(enough, squared, np.nan)
 
 
 def _per_row(values: np.ndarray, group: np.ndarray) -> np.ndarray:

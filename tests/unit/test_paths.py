@@ -283,3 +283,25 @@ def test_calibration_scores_later_readings_with_the_forecasts_student_t():
             expected += np.where(wk > 0, wk * np.nan_to_num(term), 0.0)
         assert np.abs(got - expected).max() < 1.5e-3
     assert (mix.lines[0].nu[:s] < 10).all()  # few degrees of freedom: where a normal CDF differs most
+
+
+def test_group_medians_and_percentiles_are_numpys():
+    # reference: np.median and np.percentile (linear method) of each group's values, bit for bit
+    rng = np.random.default_rng(12)
+    for trial in range(300):
+        s, g = int(rng.integers(0, 120)), int(rng.integers(1, 9))
+        values = rng.normal(0, 1, s) * 10 ** rng.uniform(-6, 2)
+        if trial % 3 == 0:
+            values = np.round(values, 2)  # ties
+        ok, group = rng.random(s) < 0.8, rng.integers(-1, g, s)
+        medians = P._group_median(values, ok, group, g, 2)
+        mu, tau2 = P._slope_prior(values, ok, group, g)
+        for k in range(g):
+            own = values[ok & (group == k)]
+            assert (medians[k] == np.median(own)) if own.size >= 2 else np.isnan(medians[k])
+            if own.size >= 3:
+                lo, hi = np.percentile(own, [10, 90])
+                spread = max(1.4826 * np.median(np.abs(own - np.median(own))), (hi - lo) / 2.563, 0.1 * abs(np.median(own)))
+                assert mu[k] == np.median(own) and tau2[k] == spread**2
+            else:
+                assert np.isnan(mu[k]) and np.isnan(tau2[k])
