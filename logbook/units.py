@@ -12,6 +12,12 @@ from __future__ import annotations
 import functools
 import re
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, TypeVar
+
+if TYPE_CHECKING:
+    import numpy as np
+
+Number = TypeVar("Number", float, "np.ndarray")  # a value, or an array of them element by element
 
 
 @functools.cache
@@ -145,6 +151,6 @@ class UnitPrefs:
         return cls("psi", "gpm", "F")
 
 
-def theoretical_flow_lpm(displacement_cc: float, speed_rpm: float) -> float:
+def theoretical_flow_lpm(displacement_cc: Number, speed_rpm: Number) -> Number:
     """Q_th [L/min] = Vg [cm^3/rev] * n [rpm] / 1000 (standard fluid power identity)."""
     return displacement_cc * speed_rpm / 1000.0
