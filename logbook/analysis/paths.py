@@ -15,7 +15,9 @@ A path is a straight line in z = (y^lam - 1) / lam (log y at lam = 0; Box and Co
 Per path and series: the least-squares line with its posterior spread (flat prior; the
 residual variance combined with the model fleet's median at PRIOR_DOF readings' worth,
 so that two or three readings lying almost on a line cannot claim a tiny spread; the
-slope borrowed from the fleet only where a series has none of its own).
+fleet's slope, its median and robust spread, where a series has none of its own or one less
+sure than that spread: two readings a few hundred hours apart, as after an overhaul, say
+little more than their noise).
 
 The paths are mixed per pump model's fleet (a pooling group): weights that maximize the
 summed log predictive density of the later half of its series' readings, each path's
@@ -207,8 +209,11 @@ class PathLine:
         mu, tau2 = _slope_prior(st.b, has_slope & (st.n >= 3), group, n_groups)
         mu_r, tau2_r = _per_row(mu, group), _per_row(tau2, group)
         with np.errstate(invalid="ignore", divide="ignore"):
-            b = np.where(has_slope, st.b, mu_r)
-            var_b = np.where(has_slope, s2 / st.sxx, tau2_r)
+            own_var = s2 / st.sxx
+            # a slope of its own where it is surer than the fleet's spread of slopes; else the fleet's
+            use_own = has_slope & ~(own_var > tau2_r)
+            b = np.where(use_own, st.b, mu_r)
+            var_b = np.where(use_own, own_var, tau2_r)
             var_a = s2 / np.maximum(st.n, 1)
         ok = on_scale & (st.n >= 1) & (nu >= 1) & np.isfinite(s2) & np.isfinite(b) & np.isfinite(var_b)
         return cls(lam, st.xbar, st.ybar, b, var_a, var_b, s2, nu, ok)

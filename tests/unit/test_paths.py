@@ -231,7 +231,10 @@ def test_a_near_perfect_short_series_does_not_move_its_neighbours():
     # Regression: one three-reading pump lying almost exactly on a line once raised the fleet's
     # between-pump spread sevenfold and pushed a neighbour's P90 past the horizon. The fleet's
     # residual variance is now its median over series (robust to a few extreme ones: Huber,
-    # Robust Statistics, 1981, ch. 1), so adding such a pump barely moves anyone.
+    # Robust Statistics, 1981, ch. 1), so adding such a pump barely moves anyone. Any new pump moves its
+    # neighbours a little (their early calibration origins borrow the fleet's slope where their own is
+    # less sure): the near-perfect one no more than 3 % away from where an ordinary noisy pump on the
+    # same line puts them (measured 2.9 %; each of them 4.8 % and 2.4 % from the fleet without it).
     from logbook.analysis.batch import RISING, TrendBatch
     from logbook.analysis.fit import fit_batch
     from logbook.analysis.forecast import forecast_batch
@@ -243,16 +246,17 @@ def test_a_near_perfect_short_series_does_not_move_its_neighbours():
         series.append((x, 1.5 + 3e-4 * x * rng.uniform(0.7, 1.3) + rng.normal(0, 0.08, 6)))
     xp = np.array([400.0, 800.0, 1200.0])
     near_line = (xp, 1.5 + 2e-4 * xp + np.array([0.0, 1e-6, -1e-6]))
+    ordinary = (xp, 1.5 + 2e-4 * xp + np.array([0.06, -0.08, 0.03]))
 
     def remaining(ss):
         b = TrendBatch.pack(ss, [6.0] * len(ss), [RISING] * len(ss), [0] * len(ss), [x[-1] + 100 for x, _ in ss])
         return forecast_batch(b, fit_batch(b)).remaining[:10]
 
-    before, after = remaining(series), remaining(series + [near_line])
-    assert (np.isfinite(before) == np.isfinite(after)).all()
+    before, after, usual = remaining(series), remaining(series + [near_line]), remaining(series + [ordinary])
+    assert (np.isfinite(before) == np.isfinite(after)).all() and (np.isfinite(usual) == np.isfinite(after)).all()
     finite = np.isfinite(before)
     assert finite[:, 2].sum() >= 3
-    assert np.abs(after[finite] / before[finite] - 1).max() < 0.03
+    assert np.abs(after[finite] / usual[finite] - 1).max() < 0.03
 
 
 def test_calibration_scores_later_readings_with_the_forecasts_student_t():
@@ -305,3 +309,32 @@ def test_group_medians_and_percentiles_are_numpys():
                 assert mu[k] == np.median(own) and tau2[k] == spread**2
             else:
                 assert np.isnan(mu[k]) and np.isnan(tau2[k])
+
+
+def test_a_fresh_pump_with_two_close_readings_is_not_due_soon():
+    # A pump just overhauled, two readings 120 h apart at its new level: its own slope is mostly noise.
+    # Its model's fleet holds steady pumps and wearing ones (the fastest cross the limit in ~6,000 h
+    # from new); the forecast leans on that fleet, not on a two-point slope: P10 no earlier than the
+    # fleet's fast wearers allow (found on the demo fleet: P10 three months away from a fresh pump). Where
+    # its own slope is less sure than the spread of the fleet's slopes, the fleet's slope is taken.
+    rng = np.random.default_rng(31)
+    s, n = 60, 10
+    x = np.tile(np.linspace(0, 5000, n), (s, 1))
+    wearing = np.arange(s) % 2 == 0
+    rate = np.where(wearing, rng.uniform(0.9e-3, 1.3e-3, s), rng.uniform(0.0, 1e-4, s))
+    y = 2.0 + rate[:, None] * x + rng.normal(0, 0.08, (s, n))
+    w = np.ones((s, n))
+    fx, fy = np.zeros((1, n)), np.full((1, n), 2.0)
+    fx[0, :2], fy[0, :2] = (0.0, 120.0), (2.05, 2.15)  # +0.1 in 120 h: 8e-4/h if taken at face value
+    fw = np.zeros((1, n))
+    fw[0, :2] = 1.0
+    x, y, w = np.vstack([x, fx]), np.vstack([y, fy]), np.vstack([w, fw])
+    group = np.zeros(s + 1, dtype=int)
+    mix = P.PathMixture(x, y, w, np.full(s + 1, 10.0), np.ones(s + 1, dtype=int), group)
+    q = mix.crossing_hours(np.r_[np.full(s, 5000.0), 120.0], (0.1, 0.5, 0.9), 20000.0)
+    fastest = (10.0 - 2.1) / 1.3e-3  # hours from the fresh pump's level at the fleet's fastest rate
+    assert q[-1, 0] - 120.0 > 0.7 * fastest  # measured 0.78; 0.52 with the two-point slope taken as it is
+    # and a wearing pump with ten readings keeps its own rate: P50 within 10 % of its own line's crossing
+    i = int(np.flatnonzero(wearing)[0])
+    slope, icept = np.polyfit(x[i], y[i], 1)
+    assert q[i, 1] == pytest.approx((10.0 - icept) / slope, rel=0.1)
