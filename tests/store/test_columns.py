@@ -76,6 +76,18 @@ def test_the_columns_cannot_be_changed_in_place(demo):
         columns.day[0] = 1
 
 
+def test_each_distinct_text_is_held_once_with_the_same_values(demo):
+    """SQLite hands every row its own copy of a serial or a technician; the columns keep one object
+    per distinct text (the copies would hold most of a large fleet's read), values unchanged."""
+    expected = _by_hand(demo)
+    with Store(demo) as store:
+        columns = store.fleet().readings
+    serials = columns.text("serial")
+    assert list(serials) == [r.serial for r in expected]
+    assert list(columns.text("technician")) == [r.technician for r in expected]
+    assert len({id(s) for s in serials}) == len(set(serials)) < len(serials)
+
+
 def test_the_engine_gives_the_same_forecast_from_columns_and_from_records(demo):
     with Store(demo) as store:
         fleet = store.fleet()
