@@ -38,7 +38,7 @@ def _shared(values: tuple) -> tuple:
     """The column with one object per distinct text: a serial, machine or technician repeats on
     reading after reading, and SQLite hands each row its own copy. Kept, those copies held 60 MiB
     of a 9,996-pump fleet's 101 MiB read, scattered among the freed rows so that the process kept
-    their memory too (peak of a forecast 534 -> 396 MiB)."""
+    their memory too (peak of a read and forecast 528 -> 430 MiB)."""
     seen: dict = {}
     return tuple(map(seen.setdefault, values, values))
 
