@@ -304,15 +304,13 @@ LATER_MIN_AHEAD = 2  # later readings a series needs to be scored
 
 
 def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams=LAMBDAS,
-                 share: float = LATER_SHARE, zs: dict[float, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+                 share: float = LATER_SHARE) -> tuple[np.ndarray, np.ndarray]:
     """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
     of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
     variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
     forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
-    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``zs``: ``box_cox(y, lam)`` per lam,
-    when the caller has them."""
-    zs = zs if zs is not None else {lam: box_cox(y, lam) for lam in lams}
+    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). One scale at a time in memory."""
     used = w > 0
     n_used = used.sum(axis=1)
     position = np.cumsum(used, axis=1)
@@ -322,7 +320,7 @@ def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray,
     log_y = np.log(np.where(y > 0, y, np.nan))
     scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
     for k, lam in enumerate(lams):
-        z = zs[lam]
+        z = box_cox(y, lam)
         line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam, z)
         rows = np.arange(x.shape[0])
         loc, scale = line.at(x, rows)
@@ -466,8 +464,7 @@ class PathMixture:
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
         self.sign = np.where(direction < 0, -1.0, 1.0)
-        zs = {lam: box_cox(y, lam) for lam in LAMBDAS}  # each scale once: the fits and the scores share them
-        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam, zs[lam]) for lam in LAMBDAS]
+        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam) for lam in LAMBDAS]
         family = np.array([[lam in (RISING if d > 0 else FALLING) and lam in lambdas for lam in LAMBDAS] for d in (1, -1)])
         allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
         if scoring == "later":  # group weights from at most CALIBRATION_SERIES series of a group, each
@@ -475,10 +472,10 @@ class PathMixture:
             scored = np.arange(s) if own_update else np.union1d(calibration_rows(group), np.flatnonzero(group < 0))
             raw_scores, raw_counted = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
             if scored.size == s:
-                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, zs=zs)
+                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups)
             elif scored.size:
                 raw_scores[scored], raw_counted[scored] = later_scores(
-                    x[scored], y[scored], w[scored], group[scored], n_groups, zs={k: v[scored] for k, v in zs.items()})
+                    x[scored], y[scored], w[scored], group[scored], n_groups)
         else:
             raw_scores, raw_counted = one_step_scores(x, y, w)
         scores = np.where(allowed, raw_scores, -np.inf)
