@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping, Sequence
 from datetime import date, datetime
+from itertools import chain
 from operator import itemgetter
 from typing import overload
 
@@ -63,7 +64,7 @@ class ReadingColumns(Sequence[Reading]):
         self.numbers = {name: np.asarray(numbers[name], dtype=float) for name in NUMBERS}
         for array in (self.id, self.day, *self.numbers.values()):
             array.flags.writeable = False  # shared with every timeline and record made from it
-        self.texts = {name: tuple(texts[name]) for name in TEXTS}
+        self.texts = {name: texts[name] if type(texts[name]) is tuple else tuple(texts[name]) for name in TEXTS}
         self._records: list[Reading] | None = None
 
     @classmethod
@@ -98,7 +99,7 @@ class ReadingColumns(Sequence[Reading]):
         """The readings of ``parts`` one after the other, as one table."""
         return cls(np.concatenate([p.id for p in parts]), np.concatenate([p.day for p in parts]),
                    {name: np.concatenate([p.numbers[name] for p in parts]) for name in NUMBERS},
-                   {name: [t for p in parts for t in p.texts[name]] for name in TEXTS})
+                   {name: tuple(chain.from_iterable(p.texts[name] for p in parts)) for name in TEXTS})
 
     # -- the columns the engine takes --------------------------------------------------
     def number(self, name: str) -> np.ndarray:

@@ -21,7 +21,6 @@ import io
 import re
 from dataclasses import dataclass, replace
 from datetime import date
-from operator import methodcaller
 from typing import Callable
 
 from logbook import units, validate
@@ -382,6 +381,29 @@ def read_table(table: str, data: bytes, today: date) -> tuple[list[dict], list[i
     return rows, lines, problems, blank
 
 
+def _plain_cells(text: str, width: int) -> tuple[list[list[str]], int]:
+    """The cells of a plain file's data rows (after the header line), column by column, and how
+    many rows; ([], 0) unless every line has ``width`` cells. Each cell of the last column keeps
+    its line's "\\n" (read_columns parses it without): every line end is made a cell boundary
+    too, so that a row of too few or too many cells shows as a last-column cell without one."""
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    body = text[text.find("\n") + 1:] if "\n" in text else ""
+    if not body:
+        return [], 0
+    if body[-1] != "\n":
+        body += "\n"
+    rows = body.count("\n")
+    flat = body.replace("\n", "\n,").split(",")
+    flat.pop()  # the empty cell after the last line end
+    if len(flat) != rows * width:
+        return [], 0
+    columns = [flat[j::width] for j in range(width)]
+    if not all(cell[-1:] == "\n" for cell in set(columns[-1])):
+        return [], 0  # a line of fewer cells and one of more
+    return columns, rows
+
+
 def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list], list[int]] | None:
     """``read_table`` column by column, for a file with nothing unusual: ({column: values},
     line numbers), or None as soon as anything would need a message, a blank row or an
@@ -392,15 +414,14 @@ def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list],
                 or f'"{COMMENT}' in text:
             return None  # comment rows: read_table skips them
         width = len(fields)
-        if not any(ch in text for ch in _NOT_PLAIN):
+        plain = not any(ch in text for ch in _NOT_PLAIN)
+        if plain:
             # No quoting and only \n, \r\n or \r line ends: every record is one line of
             # width-1 commas, so plain splitting gives exactly what csv.reader gives.
-            body = text.splitlines()[1:]
-            if not body or set(map(methodcaller("count", ","), body)) != {width - 1}:
+            cells_by_column, rows = _plain_cells(text, width)
+            if not rows:
                 return None
-            flat = ",".join(body).split(",")
-            cells_by_column = [flat[j::width] for j in range(width)]
-            lines = list(range(2, len(body) + 2))
+            lines = list(range(2, rows + 2))
         else:
             records, lines = [], []
             for record in reader:
@@ -415,9 +436,13 @@ def read_columns(table: str, data: bytes, today: date) -> tuple[dict[str, list],
     has_none: dict[str, bool] = {}  # per column, found on its distinct values: a cell read as None
     has_blank: dict[str, bool] = {}  # ... or as ""
     sink: list[Problem] = []
-    for (name, unit), cells in zip(fields, cells_by_column):
+    ends = len(fields) - 1 if plain else None  # the last column's cells end in "\n" (_plain_cells)
+    for k, ((name, unit), cells) in enumerate(zip(fields, cells_by_column)):
         parse = cell_parser(name, COLUMNS[table][name], unit, today, sink)
-        parsed = {cell: parse(cell) for cell in set(cells)}
+        if k == ends:
+            parsed = {cell: parse(cell[:-1]) for cell in set(cells)}
+        else:
+            parsed = {cell: parse(cell) for cell in set(cells)}
         if sink:
             return None
         columns[name] = list(map(parsed.__getitem__, cells))

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import json
 from collections import defaultdict
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date
 from itertools import repeat
 from typing import Sequence
@@ -46,6 +46,32 @@ _METER_POINTS_OF = """
     UNION ALL
     SELECT machine, fitted_on, machine_hours_at_fit FROM fitments WHERE machine IN (SELECT value FROM json_each(?))
 """
+
+def _rows_of(serials: Sequence[str], distinct: int) -> dict[str, Sequence[int]]:
+    """Each serial's row positions, in order of first appearance: a range per serial when each
+    pump's rows come one after the other (a sorted file; found from where the serial changes),
+    else a list."""
+    from operator import ne
+
+    import numpy as np
+
+    changed = np.fromiter(map(ne, serials[1:], serials[:-1]), dtype=bool, count=max(len(serials) - 1, 0))
+    starts = [0, *(np.flatnonzero(changed) + 1).tolist()]
+    if len(starts) == distinct:
+        return {serials[a]: range(a, b) for a, b in zip(starts, [*starts[1:], len(serials)])}
+    rows_of: dict[str, list[int]] = defaultdict(list)
+    for i, s in enumerate(serials):
+        rows_of[s].append(i)
+    return rows_of
+
+
+@dataclass
+class _CheckedColumns(Checked):
+    """A checked column batch, with the value columns the check made float arrays of (reused
+    for the rows handed back)."""
+
+    arrays: dict = field(default_factory=dict)
+
 
 class _Declined(Exception):
     """The batch needs the row-by-row check."""
@@ -84,9 +110,7 @@ class BulkMixin(StorePart):
         for f in self.fitments():
             if f.serial in serial_set:
                 fits[f.serial].append(f)
-        rows_of = defaultdict(list)
-        for i, s in enumerate(serials):
-            rows_of[s].append(i)
+        rows_of = _rows_of(serials, len(serial_set))
         machine_of: list[str | None] = [None] * n  # every row gets its machine, or the batch is declined
         for s, rows in rows_of.items():
             held = fits.get(s, [])
@@ -110,29 +134,39 @@ class BulkMixin(StorePart):
         given = columns.get("machine")
         if given is not None and given != machine_of and any(g is not None and g != m for g, m in zip(given, machine_of)):
             raise _Declined
-        self._check_values(columns, serials, {s: models[pumps[s].model] for s in serial_set}, none)
+        arrays = self._check_values(columns, serials, {s: models[pumps[s].model] for s in serial_set}, none)
+        import numpy as np
+
         iso_of = {d: d.isoformat() for d in set(dates)}
         isos = list(map(iso_of.__getitem__, dates))
-        keys = set(zip(serials, isos, hours))
-        if len(keys) != n:
-            raise _Declined  # a row twice in the file
-        for row in self.conn.execute(
+        ordinal = {d: d.toordinal() for d in iso_of}
+        days = np.fromiter(map(ordinal.__getitem__, dates), dtype=np.int64, count=n)
+        hours_at = np.array(hours, dtype=float)
+        code = {s: k for k, s in enumerate(rows_of)}
+        pump = np.fromiter(map(code.__getitem__, serials), dtype=np.int64, count=n)
+        order = np.lexsort((hours_at, days, pump))  # a row twice in the file: equal neighbours
+        ps, ds, hs = pump[order], days[order], hours_at[order]
+        if ((ps[1:] == ps[:-1]) & (ds[1:] == ds[:-1]) & (hs[1:] == hs[:-1])).any():
+            raise _Declined
+        stored = set(self.conn.execute(
             "SELECT serial, taken_on, machine_hours FROM readings WHERE serial IN (SELECT value FROM json_each(?))",
             (json.dumps(sorted(serial_set)),),
-        ):
-            if row in keys:
-                raise _Declined  # recorded before (current, corrected or removed; the same or other values or text)
-        self._check_meters(machine_of, isos, hours)
+        ))
+        if any(map(stored.__contains__, zip(serials, isos, hours))):
+            raise _Declined  # recorded before (current, corrected or removed; the same or other values or text)
+        self._check_meters(machine_of, isos, days, hours_at)
+        arrays["machine_hours"] = hours_at
         texts = [[t or "" for t in columns[name]] if columns.get(name) else [""] * n for name in ("technician", "note")]
         if any(len(t) > 500 or not t.isprintable() for name, column in zip(("technician", "note"), texts)
                if columns.get(name) for t in set(column) if t):
             raise _Declined  # long or unusual text: add_readings words the rule
         values = [serials, isos, machine_of, hours] + [columns.get(name) or none for name in _INPUT[4:16]] + texts
-        return Checked([], values, 0)
+        return _CheckedColumns([], values, 0, arrays=arrays)
 
     @staticmethod
-    def _check_values(columns, serials, model_of, none) -> None:
-        """check_reading_against_model, row by row but without building readings."""
+    def _check_values(columns, serials, model_of, none) -> dict:
+        """check_reading_against_model, row by row but without building readings; the value
+        columns it read as float arrays (NaN for none), by their input names."""
         if any(v is not None for k in ("nu40_cst", "nu100_cst") for v in columns.get(k) or ()):
             raise _Declined  # a measured viscosity: validate.check_viscosity words its rules row by row
         import numpy as np
@@ -157,11 +191,14 @@ class BulkMixin(StorePart):
                 raise _Declined
             if (ts > max_speed * 1.15).any() or (tp > rated * 1.25).any():  # NaN (none) compares False
                 raise _Declined
+        return {"case_drain": cd, "servo_pressure": sp, "neutral_drift": nd, "oil_temp": ot, "test_pressure": tp,
+                "test_speed": ts}
 
-    def _check_meters(self, machine_of: Sequence[str | None], isos: list[str], hours: list[float]) -> None:
+    def _check_meters(self, machine_of: Sequence[str | None], isos: list[str], new_days, new_hours) -> None:
         """Per machine and meter era, every record (stored and new) sorted by date reads
         no fewer hours than the one before: then no new record makes the meter run backwards.
-        On arrays: the machines' stored records read in one query, one sort of them all."""
+        On arrays: the machines' stored records read in one query, one sort of them all.
+        ``new_days``, ``new_hours``: the new rows' day ordinals and hours (arrays)."""
         import numpy as np
 
         machines = sorted(set(machine_of), key=str)
@@ -171,13 +208,14 @@ class BulkMixin(StorePart):
         reps = self.conn.execute(
             "SELECT machine, happened_on FROM events WHERE kind = 'meter_replaced' AND removed_reason IS NULL "
             "AND machine IN (SELECT value FROM json_each(?))", wanted[:1]).fetchall()
-        texts = [*isos, *(r[1] for r in stored), *(r[1] for r in reps)]
+        texts = [*(r[1] for r in stored), *(r[1] for r in reps)]
         ordinal = {t: date.fromisoformat(t).toordinal() for t in set(texts)}
-        days = np.fromiter(map(ordinal.__getitem__, texts), dtype=np.int64, count=len(texts))
+        days = np.concatenate([new_days, np.fromiter(map(ordinal.__getitem__, texts), dtype=np.int64, count=len(texts))])
         n_points = len(isos) + len(stored)
-        m = np.fromiter(map(code.__getitem__, [*machine_of, *(r[0] for r in stored), *(r[0] for r in reps)]),
-                        dtype=np.int64, count=len(texts))
-        h = np.array([*hours, *(np.nan if r[2] is None else r[2] for r in stored)], dtype=float)
+        m = np.concatenate([np.fromiter(map(code.__getitem__, machine_of), dtype=np.int64, count=len(machine_of)),
+                            np.fromiter(map(code.__getitem__, [*(r[0] for r in stored), *(r[0] for r in reps)]),
+                                        dtype=np.int64, count=len(texts))])
+        h = np.concatenate([new_hours, np.array([np.nan if r[2] is None else r[2] for r in stored], dtype=float)])
         base = int(days.min())
         span = int(days.max()) - base + 2
         key = m * span + (days - base)
@@ -201,7 +239,8 @@ class BulkMixin(StorePart):
                     f"SELECT id FROM readings WHERE import_id = ? ORDER BY id {way} LIMIT 1", (import_id,)).fetchone()[0]
                     for way in ("ASC", "DESC"))
                 if last - first + 1 == n:  # its n rows hold n ids one after the other: given in order
-                    written.append(Written(_written_columns(checked.items, first, self.user, now), prior,
+                    written.append(Written(_written_columns(checked.items, first, self.user, now,
+                                                            getattr(checked, "arrays", {})), prior,
                                            self.change_count()))
             return
         for row in rows:  # entered by hand (not from a file): one audit row each, as add_readings does
@@ -220,17 +259,22 @@ class Written:
     changes_after: int
 
 
-def _written_columns(items: Sequence[list], first_id: int, user: str, now: str) -> ReadingColumns:
-    """The checked rows (``READING_COLUMNS`` order up to ``note``) as the columns the store reads back."""
+def _written_columns(items: Sequence[list], first_id: int, user: str, now: str,
+                     arrays: dict | None = None) -> ReadingColumns:
+    """The checked rows (``READING_COLUMNS`` order up to ``note``) as the columns the store reads back;
+    ``arrays``: value columns already made float arrays (``_check_values``), by input name."""
     import numpy as np
 
     n = len(items[0])
     serials, isos, machines, hours = items[:4]
     values = dict(zip(_VALUE_COLUMNS, items[4:16]))
     ordinal = {text: date.fromisoformat(text).toordinal() for text in set(isos)}
-    numbers = {name: np.full(n, np.nan) if values[name].count(None) == n else np.array(values[name], dtype=float)
+    arrays = arrays or {}
+    made = {name: arrays[given] for name, given in zip(_VALUE_COLUMNS, _INPUT[4:16]) if given in arrays}
+    numbers = {name: made[name] if name in made else np.full(n, np.nan) if values[name].count(None) == n
+               else np.array(values[name], dtype=float)
                for name in _VALUE_COLUMNS if name != "iso4406"}  # a column left out of the file: all None
-    numbers["machine_hours"] = np.array(hours, dtype=float)
+    numbers["machine_hours"] = arrays["machine_hours"] if "machine_hours" in arrays else np.array(hours, dtype=float)
     numbers["superseded_by"] = np.full(n, np.nan)
     texts = {"serial": serials, "machine": machines, "iso4406": values["iso4406"], "technician": items[16],
              "note": items[17], "entered_by": [user] * n, "entered_at": [now] * n, "removed_reason": [None] * n}
