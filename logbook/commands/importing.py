@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from contextlib import contextmanager
 from pathlib import Path
 
 from logbook.imports import MAX_FILE_BYTES, TABLES, import_bytes
@@ -39,7 +37,7 @@ def run(args, ctx) -> int:
     from logbook.commands.progress import Steps
 
     check = args.table == "readings" and not args.dry_run
-    with Steps(ctx.err, total=5 if check else 2) as steps, ctx.open_store() as store, _no_cycle_passes(check):
+    with Steps(ctx.err, total=5 if check else 2) as steps, ctx.open_store() as store:
         steps.step("reading the logbook")
         before = store.fleet() if check else None
         steps.step(f"checking and writing {args.file.name} ({size / 1e6:.1f} MB)")
@@ -62,26 +60,6 @@ def run(args, ctx) -> int:
                                               *fleet_doubts(after, added, ctx.units, looks,
                                                             lambda: _file_lines(data, ctx.today))])
     return print_report(ctx, report, str(args.file), lists_beside=args.file)
-
-
-@contextmanager
-def _no_cycle_passes(wanted: bool) -> Iterator[None]:
-    """Python's cycle collector paused (``gc.disable``) while a readings import runs: the
-    import makes and drops hundreds of thousands of small containers (cells, rows, keys),
-    which reference counting frees as they go, and each batch of them would otherwise start
-    a collector pass over every object alive (the engine's modules, the fleet): about 3 % of
-    a 100,000-row import's CPU (tests/bench/bench_import.py). It runs again afterwards as it
-    did before (common practice for bulk loads, no published source)."""
-    import gc
-
-    paused = wanted and gc.isenabled()
-    if paused:
-        gc.disable()
-    try:
-        yield
-    finally:
-        if paused:
-            gc.enable()
 
 
 def _after(before, written: list):
