@@ -106,7 +106,7 @@ class ReadingColumns(Sequence[Reading]):
         """A number column (read-only), NaN where the reading has none."""
         return self.numbers[name]
 
-    def text(self, name: str) -> tuple:
+    def text(self, name: str) -> Sequence:
         return self.texts[name]
 
     # -- a sequence of records -------------------------------------------------------------

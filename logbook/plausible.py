@@ -364,7 +364,7 @@ def maybe_doubted(fleet: Fleet, new: Sequence[Reading]) -> list[int]:
     codes = sorted(models)
     index = {c: i for i, c in enumerate(codes)}
     model_list = [models[c] for c in codes]
-    of_serial = {s: index.get(model_code.get(s), -1) for s in set(current.serial)}  # -1: no model known
+    of_serial = {s: index.get(model_code.get(s, ''), -1) for s in set(current.serial)}  # -1: no model known
     model_of = np.fromiter(map(of_serial.__getitem__, current.serial), dtype=np.int64, count=len(current.serial))
     mine = model_of[where]
     oil = current.number("oil_temp_c")[where]

@@ -62,7 +62,7 @@ def _rows_of(serials: Sequence[str], distinct: int) -> dict[str, Sequence[int]]:
     rows_of: dict[str, list[int]] = defaultdict(list)
     for i, s in enumerate(serials):
         rows_of[s].append(i)
-    return rows_of
+    return dict(rows_of)
 
 
 @dataclass
@@ -140,12 +140,12 @@ class BulkMixin(StorePart):
         iso_of = {d: d.isoformat() for d in set(dates)}
         isos = list(map(iso_of.__getitem__, dates))
         ordinal = {d: d.toordinal() for d in iso_of}
-        days = np.fromiter(map(ordinal.__getitem__, dates), dtype=np.int64, count=n)
+        day_numbers = np.fromiter(map(ordinal.__getitem__, dates), dtype=np.int64, count=n)
         hours_at = np.array(hours, dtype=float)
         code = {s: k for k, s in enumerate(rows_of)}
         pump = np.fromiter(map(code.__getitem__, serials), dtype=np.int64, count=n)
-        order = np.lexsort((hours_at, days, pump))  # a row twice in the file: equal neighbours
-        ps, ds, hs = pump[order], days[order], hours_at[order]
+        order = np.lexsort((hours_at, day_numbers, pump))  # a row twice in the file: equal neighbours
+        ps, ds, hs = pump[order], day_numbers[order], hours_at[order]
         if ((ps[1:] == ps[:-1]) & (ds[1:] == ds[:-1]) & (hs[1:] == hs[:-1])).any():
             raise _Declined
         stored = set(self.conn.execute(
@@ -154,7 +154,7 @@ class BulkMixin(StorePart):
         ))
         if any(map(stored.__contains__, zip(serials, isos, hours))):
             raise _Declined  # recorded before (current, corrected or removed; the same or other values or text)
-        self._check_meters(machine_of, isos, days, hours_at)
+        self._check_meters(machine_of, isos, day_numbers, hours_at)
         arrays["machine_hours"] = hours_at
         texts = [[t or "" for t in columns[name]] if columns.get(name) else [""] * n for name in ("technician", "note")]
         if any(len(t) > 500 or not t.isprintable() for name, column in zip(("technician", "note"), texts)
