@@ -91,12 +91,11 @@ class _TDof:
         self.c = (8 * self.v + 1) / (8 * self.v + 3)
 
     def cdf(self, t: np.ndarray) -> np.ndarray:
-        with np.errstate(invalid="ignore", over="ignore"):
-            z = np.sign(t) * self.c * np.sqrt(self.v * np.log1p(t * t / self.v))
-        return special.ndtr(np.where(np.isnan(t), 0.0, np.where(np.isinf(t), t, z)))
+        """The CDF at ``t``; NaN counts as 0 (probability 1/2)."""
+        return self.cdf_finite(np.where(np.isnan(t), 0.0, t))
 
     def cdf_finite(self, t: np.ndarray) -> np.ndarray:
-        """``cdf`` of finite ``t`` (the same operations in the same order, in place: no NaN or inf to mend)."""
+        """The CDF at ``t`` without NaN (infinite t give 0 and 1), computed in place on its temporaries."""
         with np.errstate(invalid="ignore", over="ignore"):
             root = t * t
             root /= self.v
@@ -423,7 +422,6 @@ class _Crossing:
 
     def __init__(self, mix: "PathMixture", rows: np.ndarray):
         sign = mix.sign[rows][:, None]
-        self.shape = rows.size
         self.fast, self.slow = mix.spread[0][rows][:, None], mix.spread[1][rows][:, None]
         self.noise = mix.noise
         self.parts = []
