@@ -15,7 +15,6 @@ from typing import Callable
 
 from demo_fleet import scenario as sc
 from demo_fleet.pumps import PumpPlan, Visit
-from demo_fleet.timeline import MachineLife
 
 
 def walther_cst(temp_c: float, t1_c: float, nu1_cst: float, t2_c: float, nu2_cst: float) -> float:
