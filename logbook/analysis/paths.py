@@ -321,8 +321,9 @@ def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray,
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
     variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
     forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
-    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). One scale at a time in memory
-    (``z``: ``scales(y)`` when the caller has it)."""
+    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``z``: ``scales(y)`` when the caller
+    has it (the forecast does: every scale of the batch then in memory at once, 8 arrays of the batch's
+    size, 77 MB at 10,000 pumps of 40 readings); else one scale at a time."""
     used = w > 0
     n_used = used.sum(axis=1)
     position = np.cumsum(used, axis=1)
