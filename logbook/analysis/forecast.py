@@ -57,10 +57,10 @@ def forecast_batch(
     group = batch.group if fit.pooled else np.full(batch.size, -1)  # each pump on its own: nothing from the fleet
     lambdas = paths.LAMBDAS if fit.exponential else (1.0,)
     on_scales = paths.scales(np.nan_to_num(batch.y, nan=1.0))  # every path's scale, once for the batch
-    cal = paths.calibrate(batch.x, batch.y, w, lim, batch.direction, group, lambdas=lambdas, z=on_scales) \
+    cal = paths.calibrate(batch.x, batch.y, w, lim, batch.direction, group, lambdas=lambdas, on_scales=on_scales) \
         if calibration else paths.Calibration.none(batch.size)
     mixture = paths.PathMixture(batch.x, batch.y, w, lim, batch.direction, group, spread=(cal.fast, cal.slow),
-                                noise=with_noise, lambdas=lambdas, z=on_scales)
+                                noise=with_noise, lambdas=lambdas, on_scales=on_scales)
     go = mixture.ok & (fit.n_used > 0)  # a path of its own, or one slope borrowed from its fleet
     cross = np.where(go[:, None], mixture.crossing_hours(x_now, quantiles, horizon_hours), np.inf)
     rem = cross - x_now[:, None]

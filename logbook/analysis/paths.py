@@ -73,8 +73,9 @@ def scales(y: np.ndarray, lams=LAMBDAS) -> dict[float, np.ndarray]:
     return {lam: box_cox(y, lam) for lam in lams}
 
 
-def _rows_of(z: dict[float, np.ndarray] | None, rows) -> dict[float, np.ndarray] | None:
-    return None if z is None else {lam: v[rows] for lam, v in z.items()}
+def _rows_of(on_scales: dict[float, np.ndarray] | None, rows) -> dict[float, np.ndarray] | None:
+    """``scales`` of some rows (or cells) only; None stays None."""
+    return None if on_scales is None else {lam: v[rows] for lam, v in on_scales.items()}
 
 
 def log_jacobian(y: np.ndarray, lam: float) -> np.ndarray:
@@ -267,15 +268,15 @@ SCORE_BLOCK = 4096
 
 
 def one_step_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams=LAMBDAS, min_fit: int = 3,
-                    block: int = SCORE_BLOCK, z: dict[float, np.ndarray] | None = None):
+                    block: int = SCORE_BLOCK, on_scales: dict[float, np.ndarray] | None = None):
     """(S, K) per series and path: summed log predictive density (reading scale) of each used reading
     from a line through the used readings before it (at least ``min_fit``), and how many were scored.
-    Computed ``block`` series at a time (the peak memory of a block, not of the fleet); ``z``: ``scales(y)``
-    when the caller has it."""
+    Computed ``block`` series at a time (the peak memory of a block, not of the fleet); ``on_scales``:
+    ``scales(y)`` when the caller has it."""
     if x.shape[0] <= block:
-        return _one_step_block(x, y, w, lams, min_fit, z)
+        return _one_step_block(x, y, w, lams, min_fit, on_scales)
     parts = [_one_step_block(x[i:i + block], y[i:i + block], w[i:i + block], lams, min_fit,
-                             _rows_of(z, slice(i, i + block))) for i in range(0, x.shape[0], block)]
+                             _rows_of(on_scales, slice(i, i + block))) for i in range(0, x.shape[0], block)]
     return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts])
 
 
@@ -315,13 +316,14 @@ LATER_MIN_AHEAD = 2  # later readings a series needs to be scored
 
 
 def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams=LAMBDAS,
-                 share: float = LATER_SHARE, z: dict[float, np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
+                 share: float = LATER_SHARE, on_scales: dict[float, np.ndarray] | None = None,
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
     of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
     variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
     forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
-    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``z``: ``scales(y)`` when the caller
+    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``on_scales``: ``scales(y)`` when the caller
     has it (the forecast does: every scale of the batch then in memory at once, 8 arrays of the batch's
     size, 77 MB at 10,000 pumps of 40 readings); else one scale at a time."""
     used = w > 0
@@ -332,16 +334,15 @@ def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray,
     later = used & (position > cut[:, None]) & (n_used - cut >= LATER_MIN_AHEAD)[:, None]
     log_y = np.log(np.where(y > 0, y, np.nan))
     scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
-    on_scales = z
     for k, lam in enumerate(lams):
-        z_k = box_cox(y, lam) if on_scales is None else on_scales[lam]
-        line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam, z_k)
+        z = box_cox(y, lam) if on_scales is None else on_scales[lam]
+        line = PathLine.fit(x, y, train.astype(float), group, n_groups, lam, z)
         rows = np.arange(x.shape[0])
         loc, scale = line.at(x, rows)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             var = scale * scale + line.s2[:, None]
             nu = np.clip(line.nu, 1.0, 1e6)[:, None]
-            t2 = (z_k - loc) ** 2 / var
+            t2 = (z - loc) ** 2 / var
             dens = (special.gammaln((nu + 1) / 2) - special.gammaln(nu / 2) - 0.5 * np.log(nu * np.pi)
                     - 0.5 * np.log(var) - (nu + 1) / 2 * np.log1p(t2 / nu))  # fmt: skip
             if lam != 1.0:
@@ -470,17 +471,17 @@ class PathMixture:
     def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
                  group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None, noise: bool = False,
                  lambdas: tuple[float, ...] = LAMBDAS, scoring: str = "later", own_update: bool = False,
-                 z: dict[float, np.ndarray] | None = None):
+                 on_scales: dict[float, np.ndarray] | None = None):
         """``scoring``: "later" (the default: each series' later half predicted from its first, see
         ``later_scores``) or "one_step" (``one_step_scores``, the rule before; for comparison);
         ``own_update``: whether a series' own scores update its group's weights (off by default);
-        ``z``: ``scales`` of the readings (NaN read as 1.0, as here) when the caller has them."""
+        ``on_scales``: ``scales`` of the readings (NaN read as 1.0, as here) when the caller has them."""
         s = x.shape[0]
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
         self.sign = np.where(direction < 0, -1.0, 1.0)
-        z = scales(y) if z is None else z
-        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam, z[lam]) for lam in LAMBDAS]
+        on_scales = scales(y) if on_scales is None else on_scales
+        self.lines = [PathLine.fit(x, y, w, group, n_groups, lam, on_scales[lam]) for lam in LAMBDAS]
         family = np.array([[lam in (RISING if d > 0 else FALLING) and lam in lambdas for lam in LAMBDAS] for d in (1, -1)])
         allowed = family[np.where(self.sign > 0, 0, 1)] & np.stack([p.ok for p in self.lines], axis=1)
         if scoring == "later":  # group weights from at most CALIBRATION_SERIES series of a group, each
@@ -488,12 +489,12 @@ class PathMixture:
             scored = np.arange(s) if own_update else np.union1d(calibration_rows(group), np.flatnonzero(group < 0))
             raw_scores, raw_counted = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
             if scored.size == s:
-                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, z=z)
+                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, on_scales=on_scales)
             elif scored.size:
                 raw_scores[scored], raw_counted[scored] = later_scores(
-                    x[scored], y[scored], w[scored], group[scored], n_groups, z=_rows_of(z, scored))
+                    x[scored], y[scored], w[scored], group[scored], n_groups, on_scales=_rows_of(on_scales, scored))
         else:
-            raw_scores, raw_counted = one_step_scores(x, y, w, z=z)
+            raw_scores, raw_counted = one_step_scores(x, y, w, on_scales=on_scales)
         scores = np.where(allowed, raw_scores, -np.inf)
         counted = np.where(allowed, raw_counted, 0)
         top = counted.max(axis=1)
@@ -505,7 +506,7 @@ class PathMixture:
             need = np.ones(s, dtype=bool) if own_update else ~has_w[np.maximum(group, 0)] | (group < 0)
             one_s, one_c = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
             if need.any():
-                one_s[need], one_c[need] = one_step_scores(x[need], y[need], w[need], z=_rows_of(z, need))
+                one_s[need], one_c[need] = one_step_scores(x[need], y[need], w[need], on_scales=_rows_of(on_scales, need))
             one_s, one_c = np.where(allowed, one_s, -np.inf), np.where(allowed, one_c, 0)
             top1 = one_c.max(axis=1)
             comp1 = (top1 > 0) & (np.where(allowed, one_c, top1[:, None]) == top1[:, None]).all(axis=1)
@@ -624,8 +625,10 @@ class Calibration:
 class _LaterReadings:
     """The later readings of one calibration origin, as each path of the mixture predicts them."""
 
-    def __init__(self, mix: PathMixture, rows: np.ndarray, x: np.ndarray, y: np.ndarray):
-        self.mix, self.rows, self.x, self.y = mix, rows, x, y
+    def __init__(self, mix: PathMixture, rows: np.ndarray, x: np.ndarray, y: np.ndarray,
+                 on_scales: dict[float, np.ndarray] | None = None):
+        """``on_scales``: ``scales(y)`` of these readings when the caller has them."""
+        self.mix, self.rows, self.x, self.y, self.on_scales = mix, rows, x, y, on_scales
         self.worn_sign = mix.sign[rows]
         self.parts = []  # per path with weight: (weight, z - location, path variance, noise variance, dof)
         for k, line in enumerate(mix.lines):
@@ -634,13 +637,14 @@ class _LaterReadings:
                 continue
             d = x - line.xbar[rows]
             with np.errstate(invalid="ignore"):
-                gap = box_cox(y, line.lam) - line.z0[rows] - line.b[rows] * d
+                z = box_cox(y, line.lam) if on_scales is None else on_scales[line.lam]
+                gap = z - line.z0[rows] - line.b[rows] * d
             self.parts.append((wk, np.nan_to_num(gap), line.var_a[rows] + d * d * line.var_b[rows], line.s2[rows],
                                _TDof(line.nu[rows])))
 
     def take(self, cells: np.ndarray) -> "_LaterReadings":
         """The same predictions for ``cells`` (indices) only."""
-        return _LaterReadings(self.mix, self.rows[cells], self.x[cells], self.y[cells])
+        return _LaterReadings(self.mix, self.rows[cells], self.x[cells], self.y[cells], _rows_of(self.on_scales, cells))
 
     def cdf(self, factor: np.ndarray) -> np.ndarray:
         """P(a new reading <= the one observed) with the path spread times ``factor``, plus the noise: per
@@ -737,14 +741,15 @@ def _group_blocks(rows: np.ndarray, group: np.ndarray, block: int):
 def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
               group: np.ndarray, tail: float = 0.1, lambdas: tuple[float, ...] = LAMBDAS,
               block: int = GROUP_BLOCK, most: int = CALIBRATION_SERIES,
-              z: dict[float, np.ndarray] | None = None) -> Calibration:
+              on_scales: dict[float, np.ndarray] | None = None) -> Calibration:
     """Spread factors from forecasts of each series made at earlier origins of its own readings and
     scored on its later ones, per group, each side apart, the series itself left out; on at most
     ``most`` series of each group (``calibration_rows``). The mixtures of an origin are fitted
-    ``block`` series at a time, whole groups each (the same numbers, a smaller peak of memory). ``z``:
-    ``scales`` of the readings (NaN read as 1.0) when the caller has them: every origin slices them."""
+    ``block`` series at a time, whole groups each (the same numbers, a smaller peak of memory).
+    ``on_scales``: ``scales`` of the readings (NaN read as 1.0) when the caller has them: every origin
+    slices them."""
     x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
-    z = scales(y) if z is None else z
+    on_scales = scales(y) if on_scales is None else on_scales
     chosen = np.zeros(x.shape[0], dtype=bool)
     chosen[calibration_rows(group, most)] = True
     used = w > 0
@@ -756,13 +761,15 @@ def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, di
         train = used & (position <= cut[:, None])
         later = used & (position > cut[:, None])
         for rows in _group_blocks(np.flatnonzero(chosen & later.any(axis=1) & (cut < n_used)), group, block):
+            block_scales = _rows_of(on_scales, rows)
             mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
-                              lambdas=lambdas, z=_rows_of(z, rows))
+                              lambdas=lambdas, on_scales=block_scales)
             r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
             if not r_local.size:
                 continue
-            worn, score = _required_spread(_LaterReadings(mix, r_local, x[rows][r_local, cols], y[rows][r_local, cols]),
-                                           tail)
+            readings = _LaterReadings(mix, r_local, x[rows][r_local, cols], y[rows][r_local, cols],
+                                      _rows_of(block_scales, (r_local, cols)))
+            worn, score = _required_spread(readings, tail)
             cells.append((rows[r_local], worn, score))
     cal = Calibration.none(x.shape[0])
     if not cells:
