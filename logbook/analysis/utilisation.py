@@ -25,7 +25,10 @@ hours from that day, "back in service" restarts them; the days between (and from
 parked day without a return up to today) are not running days: the rates above are
 taken against running days (calendar days less parked ones), a pump accrues no hours
 over them, and a machine parked now is assumed to restart tomorrow at its rate (the
-earliest it could: a plan must not come late), which its forecast says. Seasons: when
+earliest it could: a plan must not come late), which its forecast says. Spells the hour
+meter shows without a "parked" event (``meter_standstills``) are left out the same way;
+spells in two different years are a pattern: the rate is then the average over whole
+years (``whole_year_rate``) instead. Seasons: when
 the last three years of hour-meter evidence show months of near-zero use (month-of-year
 rate under ``LOW_SHARE`` of the year's average in one run of ``MIN_LOW_MONTHS`` to
 ``MAX_LOW_MONTHS`` months, each of them low in two different years, and a positive rate
@@ -113,6 +116,120 @@ def parked_since(machine: int, today: int, spans: Spans | None) -> int | None:
         if start <= today < end:
             return start
     return None
+
+
+# Stand-stills the hour meter shows (our rule; thresholds common practice, no published source):
+STILL_MIN_DAYS = 60  # running days a run of slow intervals must span
+STILL_SHARE = 0.6  # an interval is slow under this share of the machine's usual rate, ...
+USUAL_QUANTILE = 0.75  # ... the rate its intervals reach on this share of their days
+STILL_LEAST_DAYS = 30  # days not run a run must hold
+RECUR_DAYS = 200  # stand-stills this far apart (their middles) are in different years: a pattern
+MIN_YEAR_DAYS = 330  # the shortest span the whole-year rate of a pattern is taken over
+
+#: Stand-stills the meter shows, per machine code: [(first point's day, next point's day, days not run)].
+Standstills = dict[int, list[tuple[int, int, int]]]
+
+
+def meter_standstills(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, today: date,
+                      recorded: Spans | None = None) -> Standstills:  # fmt: skip
+    """Stand-stills the hour meter shows where no "parked" event says so. Intervals between a machine's
+    consecutive points (in running days; same-day points skipped) are slow under ``STILL_SHARE`` of its
+    usual rate (the day-weighted ``USUAL_QUANTILE`` of its intervals' rates). A run of consecutive slow
+    intervals spanning ``STILL_MIN_DAYS`` or more holds ``days - hours / r`` days not run, ``r`` the
+    machine's rate over its intervals outside such runs; it counts from ``STILL_LEAST_DAYS`` of them.
+    Runs that touch a recorded parked span are left to it; a machine without other intervals has no
+    rate to tell one by."""
+    t = today.toordinal()
+    keep = (day <= t) & np.isfinite(hours)
+    m, d, h = machine[keep], day[keep].astype(np.int64), hours[keep]
+    order = np.lexsort((h, d, m))
+    m, d, h = m[order], d[order], h[order]
+    out: Standstills = {}
+    if len(m) < 3:
+        return out
+    run = running_day(m, d, recorded)
+    ok = (m[1:] == m[:-1]) & (np.diff(run) >= 1)
+    mi, first, last = m[1:][ok], d[:-1][ok], d[1:][ok]
+    dd, dh = np.diff(run)[ok], np.maximum(np.diff(h), 0.0)[ok]
+    chained = np.r_[False, mi[1:] == mi[:-1]]  # the interval before is the same machine's (same-day points skipped)
+    key = np.unique(mi, return_inverse=True)[1]
+    n = int(key.max(initial=-1)) + 1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slow = dh / dd < STILL_SHARE * _day_weighted_quantile(dh / dd, dd, key, n, USUAL_QUANTILE)[key]
+    # runs of slow intervals: a new run where a slow interval does not follow a slow one of the same chain
+    begins = slow & ~(np.r_[False, slow[:-1]] & chained)
+    label = np.cumsum(begins) - 1
+    runs = np.flatnonzero(begins)
+    if not runs.size:
+        return out
+    run_days = np.bincount(label[slow], weights=dd[slow], minlength=len(runs))
+    run_hours = np.bincount(label[slow], weights=dh[slow], minlength=len(runs))
+    long_run = run_days >= STILL_MIN_DAYS
+    inside = slow & long_run[np.maximum(label, 0)]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rate = (np.bincount(key, weights=np.where(inside, 0.0, dh), minlength=n)
+                / np.bincount(key, weights=np.where(inside, 0.0, dd), minlength=n))  # fmt: skip
+        lost = np.where(long_run & (rate[key[runs]] > 0), run_days - run_hours / rate[key[runs]], 0.0)
+    ends = np.r_[runs[1:], len(slow)]
+    for r in np.flatnonzero(lost >= STILL_LEAST_DAYS).tolist():
+        tail = runs[r] + int(np.flatnonzero(slow[runs[r]:ends[r]] & (label[runs[r]:ends[r]] == r)).max())
+        code, a, b = int(mi[runs[r]]), int(first[runs[r]]), int(last[tail])
+        if any(start < b and a < end for start, end in (recorded or {}).get(code, ())):
+            continue
+        out.setdefault(code, []).append((a, b, int(round(lost[r]))))
+    return out
+
+
+def _day_weighted_quantile(rate: np.ndarray, days: np.ndarray, key: np.ndarray, n: int, q: float) -> np.ndarray:
+    """(n,) per key 0..n-1: the lowest of its intervals' rates at which their days reach ``q`` of its total."""
+    order = np.lexsort((rate, key))
+    k, r = key[order], rate[order]
+    cum = np.cumsum(days[order])  # increasing across keys: every interval holds a day or more
+    before = np.r_[0.0, cum][np.searchsorted(k, np.arange(n))]
+    at = np.searchsorted(cum, before + q * np.bincount(key, weights=days, minlength=n), side="left")
+    return r[np.minimum(at, len(r) - 1)]
+
+
+def recurring(found: Standstills) -> set[int]:
+    """Machines whose meter shows stand-stills in two different years (their intervals' middles at least
+    ``RECUR_DAYS`` apart): a pattern, not a spell (a season the month rates could not resolve, say)."""
+    out = set()
+    for code, mine in found.items():
+        middles = sorted((a + b) / 2 for a, b, _ in mine)
+        if len(middles) >= 2 and middles[-1] - middles[0] >= RECUR_DAYS:
+            out.add(code)
+    return out
+
+
+def whole_year_rate(day: np.ndarray, hours: np.ndarray) -> float | None:
+    """Hours a day from the newest point back to the earlier point whose distance is nearest a whole number
+    of years (at least one; the longer span on a tie): over whole years a yearly pattern averages out."""
+    order = np.lexsort((hours, day))
+    d, h = day[order].astype(float), hours[order]
+    span = d[-1] - d[:-1] if len(d) > 1 else np.zeros(0)
+    fit = span >= MIN_YEAR_DAYS
+    if not fit.any():
+        return None
+    years = span / 365.25
+    off = np.where(fit, np.abs(years - np.round(years)), np.inf)
+    i = int(np.argmax(off <= off.min() + 1e-12))  # the points are in day order: the first is the longest span
+    return float(np.clip((h[-1] - h[i]) / span[i], 0.0, MAX_HOURS_PER_DAY))
+
+
+def with_standstills(recorded: Spans | None, found: Standstills) -> Spans:
+    """The recorded parked spans and the meter's stand-stills of machines without a pattern of them
+    (``recurring``) together, each stand-still as a span of its days not run in the middle of its run
+    (where they lay inside it matters only to points within a run of several intervals, whose meter
+    barely moved: the rates are taken over pairs of points)."""
+    out: Spans = {code: list(mine) for code, mine in (recorded or {}).items()}
+    pattern = recurring(found)
+    for code, mine in found.items():
+        if code in pattern:
+            continue
+        spans = out.setdefault(code, [])
+        spans += [(a + (b - a - lost) // 2, a + (b - a - lost) // 2 + lost) for a, b, lost in mine]
+        spans.sort()
+    return out
 
 
 def machine_points(fits: FitmentTable, meters: MeterTable, events: Sequence[Event], machine_index: dict[str, int],
@@ -250,26 +367,47 @@ def machine_states(timeline: Timeline, machines: Sequence[str], today: date) -> 
     wanted = sorted({timeline.machine_index.setdefault(m, len(timeline.machine_index)) for m in machines})
     names = {c: m for m, c in timeline.machine_index.items()}
     spans = timeline_spans(timeline)
-    rates = utilisation(*points, wanted, today, spans=spans)
+    found = timeline_standstills(timeline, points, today)
+    pattern = recurring(found)
+    rates = utilisation(*points, wanted, today, spans=with_standstills(spans, found))
     seasons = month_rates(*points, wanted, today)
     t = today.toordinal()
     out: dict[str, MachineUse] = {}
     for c, rate in rates.items():
         months = seasons.get(c) if rate else None  # no positive rate: no season either
+        whole = None
+        if c in pattern and months is None and rate is not None:
+            mine = (points[0] == c) & (points[1] <= t) & np.isfinite(points[2])
+            whole = whole_year_rate(points[1][mine], points[2][mine])
+        rate = rate if whole is None else whole
         parked = parked_since(c, t, spans)
         per_day = year_average(months) if months is not None else rate
-        words = []
-        if parked is not None:
-            restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
-            words.append(f"parked since {date.fromordinal(parked).isoformat()}: no hours counted since; dates assume "
-                         f"it restarts tomorrow {restart}")
-        if months is not None:
-            low = [_MONTHS[i] for i, r in enumerate(months) if r < LOW_SHARE * (per_day or 0.0)]
-            words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at "
-                         f"its own rate, {per_day:.1f} h a day over the year")
-        out[names[c]] = MachineUse(per_day, date.fromordinal(parked) if parked is not None else None, months,
-                                   "; ".join(words))  # fmt: skip
+        words = _use_words(parked, per_day, months, found.get(c, []), c in pattern, whole is not None, t)
+        out[names[c]] = MachineUse(per_day, date.fromordinal(parked) if parked is not None else None, months, words)
     return out
+
+
+def _use_words(parked: int | None, per_day: float | None, months, still: list[tuple[int, int, int]],
+               pattern: bool, by_years: bool, today: int) -> str:  # fmt: skip
+    """What the forecast says of a machine's hours ahead (empty: the plain rule)."""
+    words = []
+    iso = lambda day: date.fromordinal(day).isoformat()  # noqa: E731
+    if parked is not None:
+        restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
+        words.append(f"parked since {iso(parked)}: no hours counted since; dates assume it restarts tomorrow {restart}")
+    if by_years:
+        spells = ", ".join(f"{iso(a)} to {iso(b)}" for a, b, _ in still)
+        words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
+                     f"{per_day:.1f} h a day is its average over whole years")
+    for a, b, lost in still if not pattern and months is None else ():
+        if b > today - 365:  # inside the year the rate is taken over
+            words.append(f"stood still about {lost} of the {b - a} days from {iso(a)} to {iso(b)} by its hour "
+                         f"meter: not counted in its hours a day")
+    if months is not None:
+        low = [_MONTHS[i] for i, r in enumerate(months) if r < LOW_SHARE * (per_day or 0.0)]
+        words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at "
+                     f"its own rate, {per_day:.1f} h a day over the year")
+    return "; ".join(words)
 
 
 def timeline_spans(timeline: Timeline) -> Spans:
@@ -279,6 +417,15 @@ def timeline_spans(timeline: Timeline) -> Spans:
         got = parked_spans(timeline.events, timeline.machine_index)
         timeline._parked_spans = got  # type: ignore[attr-defined]
     return got
+
+
+def timeline_standstills(timeline: Timeline, points: tuple[np.ndarray, np.ndarray, np.ndarray], today: date) -> Standstills:
+    """``meter_standstills`` of a timeline's machines as of ``today``, found once per timeline and day."""
+    got = getattr(timeline, "_standstills", None)
+    if got is None or got[0] != today:
+        got = (today, meter_standstills(points[0], points[1], points[2], today, timeline_spans(timeline)))
+        timeline._standstills = got  # type: ignore[attr-defined]
+    return got[1]
 
 
 _MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
@@ -510,7 +657,8 @@ def pump_rate_spread(timeline: Timeline, machines: Sequence[str | None], per_day
         return v, length, span, last
     points = machine_points(timeline.fits, timeline.meters, timeline.events, index, timeline.fit, timeline.day,
                             timeline.meter, timeline.cont)  # fmt: skip
-    got = rate_spread(*points, rates, today, spans=timeline_spans(timeline), months=months)
+    spans = with_standstills(timeline_spans(timeline), timeline_standstills(timeline, points, today))
+    got = rate_spread(*points, rates, today, spans=spans, months=months)
     for i, m in enumerate(machines):
         if m is not None and m in index and index[m] in got:
             v[i], length[i], span[i], last[i] = got[index[m]]

@@ -271,3 +271,94 @@ def seasonal_date(today: date, plain: date | None, per_day: float | None, months
         if got >= rest - 1e-9:
             return today + timedelta(whole * 365 + k)
     return today + timedelta(whole * 365 + 365)
+
+
+# -- stand-stills the hour meter shows (thresholds ours: common practice, no published source) ---------
+
+STILL_MIN_DAYS = 60
+STILL_SHARE = 0.6
+USUAL_QUANTILE = 0.75
+STILL_LEAST_DAYS = 30
+RECUR_DAYS = 200
+MIN_YEAR_DAYS = 330
+
+
+def meter_standstills(points: Iterable[tuple[date, float]], today: date,
+                      spans: Iterable[tuple[date, date | None]] = ()) -> list[tuple[date, date, int]]:  # fmt: skip
+    """One machine's stand-stills that its meter shows: (first day, last day, days not run) of each run of
+    consecutive slow intervals (rate under 60 % of the rate its intervals reach on 75 % of their days,
+    in running days, same-day points skipped) that spans 60 running days or more and holds 30 days or
+    more not run, reckoned at the machine's rate over its other intervals; runs touching a recorded
+    parked span are left out."""
+    spans = tuple(spans)
+    pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
+    intervals = []  # (first day, last day, running days, hours gained)
+    for (d0, h0), (d1, h1) in zip(pts, pts[1:]):
+        dd = running_day(d1, spans) - running_day(d0, spans)
+        if dd >= 1:
+            intervals.append((d0, d1, dd, max(h1 - h0, 0.0)))
+    if not intervals:
+        return []
+    total = sum(iv[2] for iv in intervals)
+    got = 0.0
+    usual = None
+    for iv in sorted(intervals, key=lambda iv: iv[3] / iv[2]):
+        got += iv[2]
+        if got >= USUAL_QUANTILE * total:
+            usual = iv[3] / iv[2]
+            break
+    slow = [iv[3] / iv[2] < STILL_SHARE * usual for iv in intervals]
+    runs: list[list[int]] = []
+    for i, is_slow in enumerate(slow):
+        if is_slow and i > 0 and slow[i - 1]:
+            runs[-1].append(i)
+        elif is_slow:
+            runs.append([i])
+    long_runs = [r for r in runs if sum(intervals[i][2] for i in r) >= STILL_MIN_DAYS]
+    inside = {i for r in long_runs for i in r}
+    other_days = sum(iv[2] for i, iv in enumerate(intervals) if i not in inside)
+    other_hours = sum(iv[3] for i, iv in enumerate(intervals) if i not in inside)
+    if not other_days or not other_hours > 0:
+        return []
+    rate = other_hours / other_days
+    out = []
+    for r in long_runs:
+        lost = sum(intervals[i][2] for i in r) - sum(intervals[i][3] for i in r) / rate
+        first, last = intervals[r[0]][0], intervals[r[-1]][1]
+        touches = any(start < last and (end is None or first < end) for start, end in spans)
+        if lost >= STILL_LEAST_DAYS and not touches:
+            out.append((first, last, int(round(lost))))
+    return out
+
+
+def standstill_spans(found: list[tuple[date, date, int]]) -> list[tuple[date, date]]:
+    """Each stand-still as a span of its days not run, in the middle of its run."""
+    out = []
+    for first, last, lost in found:
+        start = first + timedelta(((last - first).days - lost) // 2)
+        out.append((start, start + timedelta(lost)))
+    return out
+
+
+def is_pattern(found: list[tuple[date, date, int]]) -> bool:
+    """Stand-stills in two different years: the middles of the first and the last 200 days or more apart."""
+    middles = sorted((a.toordinal() + b.toordinal()) / 2 for a, b, _ in found)
+    return len(middles) >= 2 and middles[-1] - middles[0] >= RECUR_DAYS
+
+
+def whole_year_rate(points: Iterable[tuple[date, float]], today: date) -> float | None:
+    """Hours a day from the newest point to the earlier one whose distance is nearest a whole number of
+    years, 330 days or more (the longer span on a tie)."""
+    pts = sorted(p for p in points if p[0] <= today and np.isfinite(p[1]))
+    best = None
+    for d, h in pts[:-1]:
+        days = (pts[-1][0] - d).days
+        if days < MIN_YEAR_DAYS:
+            continue
+        years = days / 365.25
+        off = abs(years - round(years))
+        if best is None or off < best[0] - 1e-12 or (abs(off - best[0]) <= 1e-12 and days > best[1]):
+            best = (off, days, h)
+    if best is None:
+        return None
+    return float(np.clip((pts[-1][1] - best[2]) / best[1], 0.0, MAX_HOURS_PER_DAY))

@@ -38,12 +38,16 @@ from tests.reference.calendar import (
     dates_with_spread,
     fleet_spreads,
     hours_per_day,
+    is_pattern,
     machine_hour_points,
+    meter_standstills,
     month_rates,
     parked_spans,
     rate_spread,
     running_day,
     seasonal_date,
+    standstill_spans,
+    whole_year_rate,
     year_average,
 )
 from tests.reference.segments import Series, build_series, reading_pump_hours
@@ -80,6 +84,7 @@ class Use:
     parked_on: date | None = None
     months: tuple[float, ...] | None = None
     words: str = ""
+    rate_spans: tuple = ()  # the spans its rates leave out: parked and (unless a pattern) stood still
 
 
 _MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
@@ -87,9 +92,20 @@ _MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct",
 
 def machine_use(points, spans, today: date) -> Use:
     """A machine parked now is assumed to restart tomorrow at its rate on running days; a machine run by
-    season (and with a positive rate) runs at its month rates, its hours a day their year average."""
-    rate = hours_per_day(points, today, spans=spans)
+    season (and with a positive rate) runs at its month rates, its hours a day their year average; days the
+    meter shows it stood still are not running days, unless it stood still in two different years: then
+    (without month rates) its hours a day are its average over whole years."""
+    spans = tuple(spans)
+    found = meter_standstills(points, today, spans)
+    pattern = is_pattern(found)
+    rate_spans = spans + (() if pattern else tuple(standstill_spans(found)))
+    rate = hours_per_day(points, today, spans=rate_spans)
     months = month_rates(points, today) if rate else None
+    by_years = False
+    if pattern and months is None and rate is not None:
+        whole = whole_year_rate(points, today)
+        if whole is not None:
+            rate, by_years = whole, True
     per_day = year_average(months) if months is not None else rate
     parked = next((start for start, end in spans if start <= today and (end is None or today < end)), None)
     words = []
@@ -97,11 +113,20 @@ def machine_use(points, spans, today: date) -> Use:
         restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
         words.append(f"parked since {parked.isoformat()}: no hours counted since; dates assume it restarts tomorrow "
                      f"{restart}")
+    if by_years:
+        spells = ", ".join(f"{a.isoformat()} to {b.isoformat()}" for a, b, _ in found)
+        words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
+                     f"{per_day:.1f} h a day is its average over whole years")
+    if not pattern and months is None:
+        for a, b, lost in found:
+            if b.toordinal() > today.toordinal() - 365:
+                words.append(f"stood still about {lost} of the {(b - a).days} days from {a.isoformat()} to "
+                             f"{b.isoformat()} by its hour meter: not counted in its hours a day")
     if months is not None:
         low = [_MONTHS[i] for i, r in enumerate(months) if r < 0.2 * (per_day or 0.0)]
         words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at its "
                      f"own rate, {per_day:.1f} h a day over the year")
-    return Use(per_day, parked, months, "; ".join(words))
+    return Use(per_day, parked, months, "; ".join(words), rate_spans)
 
 
 def reference_uses(fleet_or_points, events, today: date) -> dict[str, Use]:
@@ -176,7 +201,8 @@ def reference_forecast_histories(
     machines = {info[1].machine for info in pump_info if info[1] is not None}
     spans = parked_spans(events)
     uses = uses or {}
-    spreads = fleet_spreads({m: rate_spread(points.get(m, ()), utilisation.get(m), today, spans=spans.get(m, ()),
+    spreads = fleet_spreads({m: rate_spread(points.get(m, ()), utilisation.get(m), today,
+                                            spans=uses[m].rate_spans if m in uses else spans.get(m, ()),
                                             months=uses[m].months if m in uses else None) for m in sorted(machines)})
     if batch is None:
         return []

@@ -25,6 +25,25 @@ from tests.tui.conftest import TODAY, settle
 from tests.tui.test_entry import crossing_pump, meter_now, text
 
 
+async def test_pump_view_says_which_hours_a_day_its_dates_assume(demo_app):
+    # Issue 12: the forecast says which utilisation it assumed. On the demo fleet one machine's hour meter
+    # shows a stand-still (no parked event): its pumps' view says so in place of the model's line, at 80x24.
+    app = demo_app
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(app, pilot)
+        said = [pf for pf in app.forecast.pumps if pf.utilisation_basis]
+        plain = next(pf for pf in app.forecast.pumps if not pf.utilisation_basis)
+        assert said and any("by its hour meter" in pf.utilisation_basis for pf in said)
+        for pf, shown in ((said[0], True), (plain, False)):
+            app.push_screen(PumpScreen(pf.serial))
+            await settle(app, pilot)
+            identity = " ".join(text(app.screen.query_one("#identity")).split())
+            assert (f"{pf.machine} {pf.utilisation_basis}" in identity) is shown
+            assert ("cm3/rev" in identity) is not shown
+            app.pop_screen()
+            await settle(app, pilot)
+
+
 async def test_pump_view_shows_history_readings_and_a_chart_per_kind(demo_app, demo_store):
     app = demo_app
     async with app.run_test(size=(120, 40)) as pilot:

@@ -165,8 +165,73 @@ def test_parked_days_are_not_running_days():
     want = stats.theilslopes([h for _, h in pts], x)[0]
     assert fc.pumps[0].hours_per_day == pytest.approx(want, rel=1e-9)
     assert fc.pumps[0].hours_per_day == pytest.approx(10.0, rel=0.02)
-    plain = forecast_fleet(_fleet(run, days), TODAY)  # the same meter without the events: the parked months count
-    assert plain.pumps[0].hours_per_day < 0.8 * fc.pumps[0].hours_per_day
+    # The same meter without the events: on calendar days the parked months would drag the rate under 8 h a
+    # day (scipy's Theil-Sen), but the meter shows the spell (readings on 2026-01-16 and 2026-08-14 with the
+    # meter unmoved), so those days are left out all the same and the forecast says so.
+    plain = forecast_fleet(_fleet(run, days), TODAY).pumps[0]
+    assert stats.theilslopes([h for _, h in pts], [d.toordinal() for d, _ in pts])[0] < 8.0
+    assert plain.hours_per_day == pytest.approx(10.0, rel=0.05)
+    assert "stood still about 210 of the 210 days from 2026-01-16 to 2026-08-14 by its hour meter" in plain.utilisation_basis
+
+
+def test_a_standstill_the_meter_shows_is_counted_by_hand():
+    # Hand computation: points 30 days apart at 300-330 h each, then 160 days with 400 h. The machine's
+    # rate over its other intervals is their hours over their days; the 160 days hold 160 - 400 / rate
+    # days not run. Its hours a day are then scipy's Theil-Sen slope (Sen, JASA 63, 1968) of the hours
+    # against the days with those days taken out after the spell.
+    day = np.array([0, 30, 60, 90, 250, 280, 310, 340]) + date(2025, 1, 6).toordinal()
+    gain = np.array([300.0, 330.0, 310.0, 400.0, 320.0, 300.0, 315.0])
+    hours = 1000.0 + np.r_[0.0, np.cumsum(gain)]
+    machine = np.zeros(len(day), dtype=np.int64)
+    today = date.fromordinal(int(day[-1]) + 5)
+    other = np.r_[0:3, 4:7]
+    rate = gain[other].sum() / (30.0 * len(other))
+    lost = 160 - 400.0 / rate
+    found = utilisation.meter_standstills(machine, day, hours, today)
+    assert found == {0: [(int(day[3]), int(day[4]), round(lost))]}
+    got = utilisation.utilisation(machine, day, hours, [0], today, spans=utilisation.with_standstills({}, found))[0]
+    run_days = np.where(day >= day[4], day - round(lost), day)
+    assert got == pytest.approx(stats.theilslopes(hours, run_days)[0], rel=1e-12)
+    assert got == pytest.approx(rate, rel=0.03)  # and near the rate it ran at
+    # a parked event over the same days takes the spell instead: the meter's rule leaves it alone
+    parked = {0: [(int(day[3]) + 10, int(day[4]) - 10)]}
+    assert utilisation.meter_standstills(machine, day, hours, today, parked) == {}
+
+
+def test_steady_machines_read_at_random_show_no_standstill():
+    # 300 machines running 4-16 h a day, +/- 25 % a day, weekends at 30 %, read every 20 to 120 days for
+    # three years: no run of slow intervals (a false stand-still would move their dates later).
+    rng = np.random.default_rng(12)
+    codes, days, hours = [], [], []
+    for c in range(300):
+        daily = rng.uniform(4, 16) * np.clip(1 + 0.25 * rng.standard_normal(1100), 0, 2)
+        daily[np.arange(1100) % 7 >= 5] *= 0.3
+        meter = np.r_[0.0, np.cumsum(daily)]
+        read = np.cumsum(rng.integers(20, 121, 40))
+        read = read[read < 1100]
+        codes += [c] * len(read)
+        days += (read + date(2023, 1, 2).toordinal()).tolist()
+        hours += meter[read].tolist()
+    found = utilisation.meter_standstills(np.array(codes), np.array(days), np.array(hours), TODAY)
+    assert found == {}
+
+
+def test_a_machine_that_stands_every_winter_runs_at_its_average_over_whole_years():
+    # 15 h a day from May to September only, read on 1 June, 15 July and 1 September each year. Its winters
+    # are not near-zero months in the meter's intervals (each spans some running days), so no month rates;
+    # the meter shows a stand-still every winter: a pattern, so its hours a day are the hours from
+    # 2023-09-01 to 2026-09-01 over those 1,096 days (hand computation: 3 seasons of 153 days at 15 h). The
+    # old rule, Theil-Sen over the last year (scipy), followed the season: about 10.6 h a day.
+    start = date(2023, 1, 2)
+    on = [date(y, m, d) for y in (2023, 2024, 2025, 2026) for m, d in ((6, 1), (7, 15), (9, 1))]
+    fleet = _fleet(_seasonal, (TODAY - start).days, readings_on=on)
+    pf = forecast_fleet(fleet, TODAY).pumps[0]
+    assert "taken as its pattern" in pf.utilisation_basis and "runs by season" not in pf.utilisation_basis
+    want = 3 * 153 * 15.0 / (date(2026, 9, 1) - date(2023, 9, 1)).days
+    assert pf.hours_per_day == pytest.approx(want, rel=2e-3)  # the meter is rounded to 0.1 h
+    pts = [(r.taken_on, r.machine_hours) for r in fleet.readings if r.taken_on >= TODAY - timedelta(365)]
+    old = stats.theilslopes([h for _, h in pts], [d.toordinal() for d, _ in pts])[0]
+    assert old > 1.5 * want
 
 
 def test_a_machine_parked_now_counts_no_hours_and_says_so():

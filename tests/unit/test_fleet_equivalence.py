@@ -21,10 +21,11 @@ import pytest
 import demo_fleet
 from logbook.analysis.fit import FitOptions
 from logbook.analysis.fleet import forecast_fleet, forecast_histories, forecast_in_fleet, forecast_pump
-from tests.reference.calendar import hours_per_day, machine_hour_points
+from tests.reference.calendar import machine_hour_points
 from tests.reference.forecast import (
     reference_forecast_fleet,
     reference_forecast_histories,
+    reference_uses,
     reference_utilisation,
 )
 from logbook.analysis.status import StatusThresholds
@@ -260,8 +261,9 @@ def test_one_pump_is_the_engine_on_arrays_of_length_one(seed):
         if current is None or not history.readings:
             continue
         points = machine_hour_points(history.fitments, history.readings, history.events).get(current.machine, [])
-        util = {current.machine: hours_per_day(points, TODAY)}
-        (want,) = reference_forecast_histories([history], TODAY, util, options=FitOptions(pool=False))
+        uses = reference_uses({current.machine: points}, history.events, TODAY)
+        util = {current.machine: uses[current.machine].per_day}
+        (want,) = reference_forecast_histories([history], TODAY, util, options=FitOptions(pool=False), uses=uses)
         assert_same(forecast_pump(history, TODAY), want, history.pump.serial)
         checked += 1
     assert checked > 20

@@ -116,6 +116,8 @@ class PumpScreen(Screen):
             f"{m.code} {m.displacement_cc:g} cm3/rev, rated {fmt.pressure(m.rated_pressure_bar, u)} · reference "
             f"{fmt.temperature(m.ref_temp_c, u)}, {fmt.pressure(m.ref_pressure_bar, u)}, VG {m.oil_grade} VI {m.oil_vi:g}",
         ]
+        if pf and pf.utilisation_basis:  # parked, by season, stood still: which hours a day the dates assume
+            lines[-1] = f"{pf.machine} {pf.utilisation_basis}"  # in place of the model's line (the models view has it)
         self.query_one("#identity", Static).update("\n".join(lines))
 
     def _kinds(self, pf):
