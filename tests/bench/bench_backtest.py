@@ -111,8 +111,9 @@ def against_truth(tf, origins) -> dict:
             "distinct": np.unique(cat(ids)).size}
 
 
-def crossing_scores(tf, calibration: bool) -> dict:
-    """Coverage of the true crossing by the forecast at the cut (bench_calibration's scoring)."""
+def crossing_scores(tf, calibration: bool, keep: list | None = None) -> dict:
+    """Coverage of the true crossing by the forecast at the cut (bench_calibration's scoring); ``keep``
+    gathers the scored rows (forecast hours, truth, cut hours) for a pooled figure."""
     original = bc.forecast_fleet
     bc.forecast_fleet = functools.partial(forecast_fleet, calibration=calibration)
     try:
@@ -120,8 +121,16 @@ def crossing_scores(tf, calibration: bool) -> dict:
     finally:
         bc.forecast_fleet = original
     wear = np.array([t.path != "stable" for t in tf.truth])
-    return bc.score(preds.hours[wear], np.array([t.cross_hours for t in tf.truth])[wear],
-                    np.array([t.x_cut for t in tf.truth])[wear])
+    rows = (preds.hours[wear], np.array([t.cross_hours for t in tf.truth])[wear], np.array([t.x_cut for t in tf.truth])[wear])
+    if keep is not None:
+        keep.append(rows)
+    return bc.score(*rows)
+
+
+def _se(s: dict) -> float:
+    """Binomial standard error of a coverage in points, on the crossings scored."""
+    p = s["cover"] / 100.0
+    return 100.0 * math.sqrt(max(p * (1 - p), 1e-9) / max(s["n"], 1))
 
 
 def _pct(x: float) -> str:
@@ -148,22 +157,28 @@ def part_truth(seeds, n_pumps) -> None:
 
 def part_calibration(seeds, n_pumps, noises=(0.04, 0.10)) -> None:
     print("\n2. Before and after self-calibration (every pump held out of its own calibration), forecast at the cut")
-    print("   fleet           raw: cover  <P10  >P90      calibrated: cover  <P10  >P90    (nominal 80 / 10 / 10)")
+    print("   fleet           raw: cover  <P10  >P90 (se)        calibrated: cover  <P10  >P90 (se)  (nominal 80 / 10 / 10)")
+
+    def cells(s):
+        return f"{s['cover']:5.1f} {s['before']:5.1f} {s['after']:5.1f} ({_se(s):.1f})"
+
+    within = lambda s: abs(s["cover"] - 80) <= 5  # noqa: E731
+    pooled: dict = {}
     for seed, noise in ((seed, noise) for noise in noises for seed in seeds):
         tf = make_truth_fleet(seed, n_pumps, noise)
-        raw, cal = crossing_scores(tf, False), crossing_scores(tf, True)
-
-        def cells(s):
-            return f"{s['cover']:5.1f} {s['before']:5.1f} {s['after']:5.1f}"
-
-        within = lambda s: abs(s["cover"] - 80) <= 5  # noqa: E731
-        print(f"   seed {seed} {100 * noise:2.0f} %   {cells(raw)}{' ✓' if within(raw) else ' ✗'}            {cells(cal)}"
+        kept = pooled.setdefault(noise, ([], []))
+        raw, cal = crossing_scores(tf, False, kept[0]), crossing_scores(tf, True, kept[1])
+        print(f"   seed {seed} {100 * noise:2.0f} %   {cells(raw)}{' ✓' if within(raw) else ' ✗'}        {cells(cal)}"
               f"{' ✓' if within(cal) else ' ✗'}")
         origins = bt.origin_dates(tf.cut - timedelta(days=730), tf.cut - timedelta(days=60), 3, "months")
         for calibration in (False, True):
             r = bt.run_backtest(tf.fleet, tf.fleet, Known(), origins, calibration=calibration).overall
             print(f"            backtest {'calibrated' if calibration else 'raw       '}: later readings "
                   f"{r.readings:,}, below P10 {_pct(r.below_p10)}, above P90 {_pct(r.above_p90)}")
+        if seed == seeds[-1] and len(seeds) > 1:  # the fleets of this noise together: a figure with a smaller se
+            raw, cal = (bc.score(*(np.concatenate([part[i] for part in kept[j]]) for i in range(3))) for j in (0, 1))
+            print(f"   all {len(seeds)} {100 * noise:3.0f} %  {cells(raw)}{' ✓' if within(raw) else ' ✗'}        {cells(cal)}"
+                  f"{' ✓' if within(cal) else ' ✗'}")
 
 
 def part_speed(rounds: int) -> None:
