@@ -20,10 +20,10 @@ sure than that spread: two readings a few hundred hours apart, as after an overh
 little more than their noise).
 
 The paths are mixed per pump model's fleet (a pooling group): weights that maximize the
-summed log predictive density of the later half of its series' readings, each path's
-line fitted on the first half (leave-future-out over a long horizon, the one a crossing
-forecast extrapolates over; Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90,
-2020), found by stacking (Yao, Vehtari, Simpson and Gelman, "Using stacking to average
+summed log predictive density of its series' later readings, each path's line fitted on
+the readings before an origin, from the origins ORIGINS (40 to 85 % of each series; the
+calibration's too; leave-future-out over a long horizon, the one a crossing forecast
+extrapolates over; Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020), found by stacking (Yao, Vehtari, Simpson and Gelman, "Using stacking to average
 Bayesian predictive distributions", Bayesian Analysis 13, 2018), with a floor so that no
 path is ever ruled out. Every series of the group takes its group's weights: one series'
 own record of a few readings cannot tell the shapes apart (the near-term predictions of
@@ -311,27 +311,44 @@ def _one_step_block(x: np.ndarray, y: np.ndarray, w: np.ndarray, lams, min_fit: 
     return scores, counted
 
 
-LATER_SHARE = 0.5  # the origin of the later-readings scores: the first half of each series' used readings
+ORIGINS = (0.4, 0.55, 0.7, 0.85)  # forecast origins, as shares of each series' used readings: the path
+# weights are stacked on the later readings from each, and the calibration forecasts from each
+LATER_SHARE = 0.5  # the one origin of a forecast made at a calibration origin (its series already cut short)
 LATER_MIN_AHEAD = 2  # later readings a series needs to be scored
 
 
 def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams=LAMBDAS,
-                 share: float = LATER_SHARE, on_scales: dict[float, np.ndarray] | None = None,
+                 shares: tuple[float, ...] = ORIGINS, on_scales: dict[float, np.ndarray] | None = None,
                  ) -> tuple[np.ndarray, np.ndarray]:
     """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
     of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
-    variance plus the reading noise (leave-future-out over a long horizon, the one a crossing
-    forecast needs: Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020); and how many were
-    scored (0 for series with under 3 + LATER_MIN_AHEAD readings). ``on_scales``: ``scales(y)`` when the caller
-    has it (the forecast does: every scale of the batch then in memory at once, 8 arrays of the batch's
+    variance plus the reading noise; summed over the origins ``shares`` (leave-future-out from several
+    origins over a long horizon, the one a crossing forecast needs: Buerkner, Gabry and Vehtari,
+    J. Stat. Comput. Simul. 90, 2020); and how many were scored (a series with under 3 + LATER_MIN_AHEAD
+    readings after an origin is not scored from it). ``on_scales``: ``scales(y)`` when the caller has
+    it (the forecast does: every scale of the batch then in memory at once, 8 arrays of the batch's
     size, 77 MB at 10,000 pumps of 40 readings); else one scale at a time."""
+    n_used = (w > 0).sum(axis=1)
+    cuts = [np.maximum(np.floor(share * n_used), 3) for share in shares]
+    scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
+    for k, cut in enumerate(cuts):  # a series short enough that two origins cut it alike is scored once
+        fresh = ~np.any([cut == earlier for earlier in cuts[:k]], axis=0) if k else np.ones(x.shape[0], dtype=bool)
+        more = _later_scores_from(x, y, w, group, n_groups, lams, cut, on_scales, fresh)
+        scores, counted = scores + more[0], counted + more[1]
+    return scores, counted
+
+
+def _later_scores_from(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray, n_groups: int, lams,
+                       cut: np.ndarray, on_scales: dict[float, np.ndarray] | None,
+                       scored_rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``later_scores`` from one origin: each series' first ``cut`` used readings, the rest scored
+    (only ``scored_rows``; every series' first readings still fit the fleet's lines as before)."""
     used = w > 0
     n_used = used.sum(axis=1)
     position = np.cumsum(used, axis=1)
-    cut = np.maximum(np.floor(share * n_used), 3)
     train = used & (position <= cut[:, None])
-    later = used & (position > cut[:, None]) & (n_used - cut >= LATER_MIN_AHEAD)[:, None]
+    later = used & (position > cut[:, None]) & ((n_used - cut >= LATER_MIN_AHEAD) & scored_rows)[:, None]
     log_y = np.log(np.where(y > 0, y, np.nan))
     scores, counted = np.zeros((x.shape[0], len(lams))), np.zeros((x.shape[0], len(lams)), dtype=np.int64)
     for k, lam in enumerate(lams):
@@ -471,11 +488,12 @@ class PathMixture:
     def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, direction: np.ndarray,
                  group: np.ndarray, spread: tuple[np.ndarray, np.ndarray] | None = None, noise: bool = False,
                  lambdas: tuple[float, ...] = LAMBDAS, scoring: str = "later", own_update: bool = False,
-                 on_scales: dict[float, np.ndarray] | None = None):
-        """``scoring``: "later" (the default: each series' later half predicted from its first, see
+                 on_scales: dict[float, np.ndarray] | None = None, stack_shares: tuple[float, ...] = ORIGINS):
+        """``scoring``: "later" (the default: each series' later readings predicted from its earlier ones, see
         ``later_scores``) or "one_step" (``one_step_scores``, the rule before; for comparison);
         ``own_update``: whether a series' own scores update its group's weights (off by default);
-        ``on_scales``: ``scales`` of the readings (NaN read as 1.0, as here) when the caller has them."""
+        ``on_scales``: ``scales`` of the readings (NaN read as 1.0, as here) when the caller has them;
+        ``stack_shares``: the origins the path weights are stacked from (``later_scores``)."""
         s = x.shape[0]
         n_groups = int(group.max(initial=-1)) + 1
         x, y = np.nan_to_num(x), np.nan_to_num(y, nan=1.0)
@@ -489,10 +507,11 @@ class PathMixture:
             scored = np.arange(s) if own_update else np.union1d(calibration_rows(group), np.flatnonzero(group < 0))
             raw_scores, raw_counted = np.full((s, len(LAMBDAS)), -np.inf), np.zeros((s, len(LAMBDAS)), dtype=np.int64)
             if scored.size == s:
-                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, on_scales=on_scales)
+                raw_scores, raw_counted = later_scores(x, y, w, group, n_groups, shares=stack_shares, on_scales=on_scales)
             elif scored.size:
                 raw_scores[scored], raw_counted[scored] = later_scores(
-                    x[scored], y[scored], w[scored], group[scored], n_groups, on_scales=_rows_of(on_scales, scored))
+                    x[scored], y[scored], w[scored], group[scored], n_groups, shares=stack_shares,
+                    on_scales=_rows_of(on_scales, scored))
         else:
             raw_scores, raw_counted = one_step_scores(x, y, w, on_scales=on_scales)
         scores = np.where(allowed, raw_scores, -np.inf)
@@ -602,7 +621,6 @@ class PathMixture:
 
 # ------------------------------------------------------------------ calibration on the fleet's own later readings
 
-ORIGINS = (0.4, 0.55, 0.7, 0.85)  # forecast origins, as shares of each series' used readings
 GROUP_BLOCK = 4096  # series calibrated together: whole groups (a group's series share their fleet's paths)
 MIN_SCORES = 30  # later readings a group needs before its bands are calibrated
 SPREAD_RANGE = (0.2, 50.0)
@@ -762,8 +780,10 @@ def calibrate(x: np.ndarray, y: np.ndarray, w: np.ndarray, limit: np.ndarray, di
         later = used & (position > cut[:, None])
         for rows in _group_blocks(np.flatnonzero(chosen & later.any(axis=1) & (cut < n_used)), group, block):
             block_scales = _rows_of(on_scales, rows)
+            # a forecast made at this origin, its weights stacked on its own later half only: its series
+            # are already cut to a share of their readings (and one origin costs a quarter of four)
             mix = PathMixture(x[rows], y[rows], train[rows].astype(float), limit[rows], direction[rows], group[rows],
-                              lambdas=lambdas, on_scales=block_scales)
+                              lambdas=lambdas, on_scales=block_scales, stack_shares=(LATER_SHARE,))
             r_local, cols = np.nonzero(later[rows] & mix.ok[:, None])
             if not r_local.size:
                 continue

@@ -8,7 +8,7 @@ whose truth wears, two rows of mean weights over the rising paths:
 - "mixture": the weights the forecast uses (``forecast_batch(...).mixture.weights``), per true
   path and pump model;
 - "own later": what the series' own readings say, its later-readings scores
-  (``paths.later_scores``: each path's line on the first half, scored on the later half)
+  (``paths.later_scores``: each path's line on the readings before each origin, scored on the later ones)
   turned into weights under an even prior (Bayes' rule over the paths: the softmax of the
   summed log predictive densities; Yao, Vehtari, Simpson and Gelman, Bayesian Analysis 13,
   2018, call these pseudo-BMA weights).

@@ -261,7 +261,7 @@ def test_cutting_rows_back_never_cuts_a_forecasts_quantile_or_path_columns():
 @pytest.mark.slow
 def test_path_weights_at_an_origin_depend_only_on_readings_on_or_before_it(demo):
     """The path weights are fitted on the fleet's own history (``paths.later_scores``: each series'
-    later half predicted from its first, stacked per model fleet). In the backtest they are fitted as
+    later readings predicted from its earlier ones, stacked per model fleet). In the backtest they are fitted as
     of each origin, several origins in one engine call: changing every reading taken after an origin
     leaves that origin's weights exactly as they were, and moves the weights of a later origin that
     sees the changed readings (so the check can fail). Leave-future-out as in Buerkner, Gabry and

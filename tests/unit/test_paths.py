@@ -76,6 +76,36 @@ def test_one_step_scores_match_a_direct_loop():
         assert score[0] == pytest.approx(expected, rel=1e-9)
 
 
+def test_later_scores_sum_each_origins_forecast_of_the_later_readings():
+    # reference: per forecast origin (the first floor(share n) readings, at least 3), statsmodels OLS on the
+    # readings before it and each later reading's Student t predictive log density (mean_se^2 + scale,
+    # n - 2 degrees of freedom) with the Box-Cox Jacobian; summed over the origins 0.4, 0.55, 0.7 and 0.85
+    # of the series' readings, an origin that cuts the series where an earlier one did counted once, and
+    # none with fewer than 2 readings after it (leave-future-out from several origins: Buerkner, Gabry
+    # and Vehtari, J. Stat. Comput. Simul. 90, 2020)
+    rng = np.random.default_rng(8)
+    for n in (6, 11):
+        xs = np.sort(rng.uniform(0, 9000, n))
+        ys = 1.2 * (1 + xs / 7000) ** 3 * np.exp(rng.normal(0, 0.04, n))
+        x, y, w, group = _one_series(xs, ys)
+        for lam in (1.0, 0.0, -1.0):
+            score, counted = (a[0, 0] for a in P.later_scores(x, y, w, group, 0, (lam,)))
+            z = stats.boxcox(ys, lmbda=lam)
+            cuts = sorted({max(int(math.floor(share * n)), 3) for share in P.ORIGINS} - {c for c in range(n - 1, n + 1)})
+            expected, scored = 0.0, 0
+            for cut in cuts:
+                fit = sm.OLS(z[:cut], sm.add_constant(xs[:cut])).fit()
+                pred = fit.get_prediction(sm.add_constant(xs[cut:], has_constant="add")).summary_frame(alpha=0.1)
+                se = np.sqrt(pred["mean_se"].to_numpy() ** 2 + fit.scale)
+                expected += float(np.sum(stats.t.logpdf(z[cut:], cut - 2, loc=pred["mean"].to_numpy(), scale=se)
+                                         + (lam - 1) * np.log(ys[cut:])))  # fmt: skip
+                scored += n - cut
+            assert counted == scored
+            assert score == pytest.approx(expected, rel=1e-9)
+    # n = 6: the origins 0.4 and 0.55 both cut after 3 readings (counted once), 0.85 leaves one: two origins
+    assert sorted({max(int(math.floor(sh * 6)), 3) for sh in P.ORIGINS}) == [3, 4, 5]
+
+
 def test_stacking_weights_maximize_the_summed_log_score():
     # reference: the same objective maximized over the simplex by scipy.optimize.minimize (SLSQP)
     rng = np.random.default_rng(2)
