@@ -75,9 +75,9 @@ def forecast_fleet(
     pumps = _forecasts(packed.serials, packed.models, packed.pack, today, sites, horizon_hours, options, thresholds,
                        with_noise, calibration) if packed.serials else []  # fmt: skip
     notes: tuple[str, ...] = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
-             "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
-             "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
-             "last reading moves every date later)")
+             "dates assume each machine keeps the hours a day its hour meter showed over the last year (days it "
+             "stood still left out); the P10 and P90 dates widen by how unevenly it ran between meter readings "
+             "(a machine parked since its last reading, with no parked event, moves every date later)")
     notes += _machine_notes(pumps)
     return FleetForecast(today=today, pumps=tuple(pumps), source=fleet.source, notes=notes)
 

@@ -396,7 +396,8 @@ def _use_words(parked: int | None, per_day: float | None, months, still: list[tu
         restart = f"at {per_day:.1f} h a day" if per_day else "(no hours a day known)"
         words.append(f"parked since {iso(parked)}: no hours counted since; dates assume it restarts tomorrow {restart}")
     if by_years:
-        spells = ", ".join(f"{iso(a)} to {iso(b)}" for a, b, _ in still)
+        spells = ", ".join(f"{iso(a)} to {iso(b)}" for a, b, _ in still[-2:])
+        spells = f"{len(still)} spells, the last {spells}" if len(still) > 2 else spells
         words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
                      f"{per_day:.1f} h a day is its average over whole years")
     for a, b, lost in still if not pattern and months is None else ():

@@ -114,7 +114,9 @@ def machine_use(points, spans, today: date) -> Use:
         words.append(f"parked since {parked.isoformat()}: no hours counted since; dates assume it restarts tomorrow "
                      f"{restart}")
     if by_years:
-        spells = ", ".join(f"{a.isoformat()} to {b.isoformat()}" for a, b, _ in found)
+        spells = ", ".join(f"{a.isoformat()} to {b.isoformat()}" for a, b, _ in found[-2:])
+        if len(found) > 2:
+            spells = f"{len(found)} spells, the last {spells}"
         words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
                      f"{per_day:.1f} h a day is its average over whole years")
     if not pattern and months is None:
@@ -385,9 +387,9 @@ def reference_forecast_fleet(
         for p in pumps
     ]
     notes = (f"horizon {horizon_hours:,.0f} operating hours; quantiles beyond it are left blank",
-             "dates assume each machine keeps the hours a day its hour meter showed over the last year; the P10 "
-             "and P90 dates widen by how unevenly it ran between meter readings (a machine parked since its "
-             "last reading moves every date later)")
+             "dates assume each machine keeps the hours a day its hour meter showed over the last year (days it "
+             "stood still left out); the P10 and P90 dates widen by how unevenly it ran between meter readings "
+             "(a machine parked since its last reading, with no parked event, moves every date later)")
     said = {p.machine: p.utilisation_basis for p in pumps if p.machine is not None and p.utilisation_basis}
     notes += tuple(f"{m} {words}" for m, words in sorted(said.items()))
     notes += tuple(f"{p.serial} {k.kind.label} reading of {r} - not used in the trend"
