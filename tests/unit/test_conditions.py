@@ -198,6 +198,18 @@ def test_a_standstill_the_meter_shows_is_counted_by_hand():
     assert utilisation.meter_standstills(machine, day, hours, today, parked) == {}
 
 
+def test_a_standstill_read_midway_and_twice_on_a_day_is_one_spell():
+    # Hand computation: 10 h a day, read every 30 days, then 100 days with 50 h and 40 h in two intervals
+    # (a meter point 40 days in, and a second point on that same day): one run of two slow intervals,
+    # 100 - 90 / 10 = 91 days not run, from the first point of the run to the last.
+    base = date(2025, 1, 6).toordinal()
+    day = np.array([0, 30, 60, 90, 130, 130, 190, 220, 250]) + base
+    gain = np.array([300.0, 300.0, 300.0, 50.0, 0.0, 40.0, 300.0, 300.0])
+    hours = 500.0 + np.r_[0.0, np.cumsum(gain)]
+    found = utilisation.meter_standstills(np.zeros(len(day), dtype=np.int64), day, hours, date.fromordinal(base + 260))
+    assert found == {0: [(base + 90, base + 190, 91)]}
+
+
 def test_steady_machines_read_at_random_show_no_standstill():
     # 300 machines running 4-16 h a day, +/- 25 % a day, weekends at 30 %, read every 20 to 120 days for
     # three years: no run of slow intervals (a false stand-still would move their dates later).
