@@ -23,8 +23,9 @@ The paths are mixed per pump model's fleet (a pooling group): weights that maxim
 summed log predictive density of its series' later readings, each path's line fitted on
 the readings before an origin, from the origins ORIGINS (40 to 85 % of each series; the
 calibration's too; leave-future-out over a long horizon, the one a crossing forecast
-extrapolates over; Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020), found by stacking (Yao, Vehtari, Simpson and Gelman, "Using stacking to average
-Bayesian predictive distributions", Bayesian Analysis 13, 2018), with a floor so that no
+extrapolates over; Buerkner, Gabry and Vehtari, J. Stat. Comput. Simul. 90, 2020), found
+by stacking (Yao, Vehtari, Simpson and Gelman, "Using stacking to average Bayesian
+predictive distributions", Bayesian Analysis 13, 2018), with a floor so that no
 path is ever ruled out. Every series of the group takes its group's weights: one series'
 own record of a few readings cannot tell the shapes apart (the near-term predictions of
 a cube law, an exponential and a runaway path differ by less than the noise), and
@@ -321,7 +322,8 @@ def later_scores(x: np.ndarray, y: np.ndarray, w: np.ndarray, group: np.ndarray,
                  shares: tuple[float, ...] = ORIGINS, on_scales: dict[float, np.ndarray] | None = None,
                  ) -> tuple[np.ndarray, np.ndarray]:
     """(S, K) per series and path: summed log predictive density (reading scale) of the later readings
-    of the series from each path's line fitted on its first ``share`` of used readings (at least 3),
+    of the series from each path's line fitted on its first ``share`` of used readings (at least 3)
+    for each origin ``share``,
     as the forecast would have extrapolated it then: Student t, location the line, variance its path
     variance plus the reading noise; summed over the origins ``shares`` (leave-future-out from several
     origins over a long horizon, the one a crossing forecast needs: Buerkner, Gabry and Vehtari,

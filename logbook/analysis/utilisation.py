@@ -170,10 +170,10 @@ def meter_standstills(machine: np.ndarray, day: np.ndarray, hours: np.ndarray, t
         rate = (np.bincount(key, weights=np.where(inside, 0.0, dh), minlength=n)
                 / np.bincount(key, weights=np.where(inside, 0.0, dd), minlength=n))  # fmt: skip
         lost = np.where(long_run & (rate[key[runs]] > 0), run_days - run_hours / rate[key[runs]], 0.0)
-    ends = np.r_[runs[1:], len(slow)]
+    tail = np.zeros(len(runs), dtype=np.int64)  # each run's last interval
+    np.maximum.at(tail, label[slow], np.flatnonzero(slow))
     for r in np.flatnonzero(lost >= STILL_LEAST_DAYS).tolist():
-        tail = runs[r] + int(np.flatnonzero(slow[runs[r]:ends[r]] & (label[runs[r]:ends[r]] == r)).max())
-        code, a, b = int(mi[runs[r]]), int(first[runs[r]]), int(last[tail])
+        code, a, b = int(mi[runs[r]]), int(first[runs[r]]), int(last[tail[r]])
         if any(start < b and a < end for start, end in (recorded or {}).get(code, ())):
             continue
         out.setdefault(code, []).append((a, b, int(round(lost[r]))))
@@ -367,9 +367,8 @@ def machine_states(timeline: Timeline, machines: Sequence[str], today: date) -> 
     wanted = sorted({timeline.machine_index.setdefault(m, len(timeline.machine_index)) for m in machines})
     names = {c: m for m, c in timeline.machine_index.items()}
     spans = timeline_spans(timeline)
-    found = timeline_standstills(timeline, points, today)
-    pattern = recurring(found)
-    rates = utilisation(*points, wanted, today, spans=with_standstills(spans, found))
+    found, pattern, rate_spans = timeline_standstills(timeline, points, today)
+    rates = utilisation(*points, wanted, today, spans=rate_spans)
     seasons = month_rates(*points, wanted, today)
     t = today.toordinal()
     out: dict[str, MachineUse] = {}
@@ -420,13 +419,18 @@ def timeline_spans(timeline: Timeline) -> Spans:
     return got
 
 
-def timeline_standstills(timeline: Timeline, points: tuple[np.ndarray, np.ndarray, np.ndarray], today: date) -> Standstills:
-    """``meter_standstills`` of a timeline's machines as of ``today``, found once per timeline and day."""
+def timeline_standstills(timeline: Timeline, points: tuple[np.ndarray, np.ndarray, np.ndarray],
+                         today: date) -> tuple[Standstills, set[int], Spans]:  # fmt: skip
+    """``meter_standstills`` of a timeline's machines as of ``today``, the machines with a pattern of them
+    (``recurring``) and the spans their rates leave out (``with_standstills``): found once per timeline
+    and day, for the rates and for their spread."""
     got = getattr(timeline, "_standstills", None)
     if got is None or got[0] != today:
-        got = (today, meter_standstills(points[0], points[1], points[2], today, timeline_spans(timeline)))
+        recorded = timeline_spans(timeline)
+        found = meter_standstills(points[0], points[1], points[2], today, recorded)
+        got = (today, found, recurring(found), with_standstills(recorded, found))
         timeline._standstills = got  # type: ignore[attr-defined]
-    return got[1]
+    return got[1], got[2], got[3]
 
 
 _MONTHS = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
@@ -658,8 +662,7 @@ def pump_rate_spread(timeline: Timeline, machines: Sequence[str | None], per_day
         return v, length, span, last
     points = machine_points(timeline.fits, timeline.meters, timeline.events, index, timeline.fit, timeline.day,
                             timeline.meter, timeline.cont)  # fmt: skip
-    spans = with_standstills(timeline_spans(timeline), timeline_standstills(timeline, points, today))
-    got = rate_spread(*points, rates, today, spans=spans, months=months)
+    got = rate_spread(*points, rates, today, spans=timeline_standstills(timeline, points, today)[2], months=months)
     for i, m in enumerate(machines):
         if m is not None and m in index and index[m] in got:
             v[i], length[i], span[i], last[i] = got[index[m]]
