@@ -28,7 +28,8 @@ over them, and a machine parked now is assumed to restart tomorrow at its rate (
 earliest it could: a plan must not come late), which its forecast says. Spells the hour
 meter shows without a "parked" event (``meter_standstills``) are left out the same way;
 spells in two different years are a pattern: the rate is then the average over whole
-years (``whole_year_rate``) instead. Seasons: when
+years (``whole_year_rate``) instead, spread over the months by the spells' shares of
+each day of the year (``pattern_months``), counted ahead as a season's. Seasons: when
 the last three years of hour-meter evidence show months of near-zero use (month-of-year
 rate under ``LOW_SHARE`` of the year's average in one run of ``MIN_LOW_MONTHS`` to
 ``MAX_LOW_MONTHS`` months, each of them low in two different years, and a positive rate
@@ -216,6 +217,38 @@ def whole_year_rate(day: np.ndarray, hours: np.ndarray) -> float | None:
     return float(np.clip((h[-1] - h[i]) / span[i], 0.0, MAX_HOURS_PER_DAY))
 
 
+def pattern_months(still: list[tuple[int, int, int]], per_day: float) -> tuple[float, ...] | None:
+    """Month-of-year rates (h a day, January first) of a machine whose meter shows a pattern of stand-stills
+    (``recurring``): each spell's days not run spread evenly over the days of its run (the meter cannot say
+    where in the run they lay), the spells' shares of a day of the year not run averaged over the spells,
+    every other day run at one rate, and the months scaled so that their year average is ``per_day`` (the
+    whole-year rate). None when no day of the year is left running."""
+    idle = np.zeros(365)
+    for a, b, lost in still:
+        doy = day_of_year(np.arange(a, b))
+        share = np.minimum(np.bincount(doy, minlength=365) * (lost / max(b - a, 1)), 1.0)
+        idle += share
+    running = 1.0 - idle / max(len(still), 1)
+    if not running.sum() > 0:
+        return None
+    month = year_months(date(2025, 1, 1).toordinal(), date(2025, 12, 31).toordinal()) % 12  # a year without 29 Feb
+    months = np.bincount(month, weights=running, minlength=12) / np.bincount(month, minlength=12)
+    return tuple(float(v) for v in months * (per_day / year_average(months)))
+
+
+def day_of_year(days: np.ndarray) -> np.ndarray:
+    """0-364 of each ordinal day: its day of the year, 29 February counted as 28 February."""
+    day = (np.asarray(days, dtype=np.int64) - _EPOCH).astype("datetime64[D]")
+    month_start = day.astype("datetime64[M]")
+    month = month_start.astype(np.int64) % 12
+    in_month = (day - month_start.astype("datetime64[D]")).astype(np.int64)
+    return _MONTH_STARTS[month] + np.where(month == 1, np.minimum(in_month, 27), in_month)
+
+
+_EPOCH = date(1970, 1, 1).toordinal()  # datetime64 counts days from here
+_MONTH_STARTS = np.cumsum([0, 31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30])  # days of a year without 29 Feb before each month
+
+
 def with_standstills(recorded: Spans | None, found: Standstills) -> Spans:
     """The recorded parked spans and the meter's stand-stills of machines without a pattern of them
     (``recurring``) together, each stand-still as a span of its days not run in the middle of its run
@@ -379,6 +412,8 @@ def machine_states(timeline: Timeline, machines: Sequence[str], today: date) -> 
             mine = (points[0] == c) & (points[1] <= t) & np.isfinite(points[2])
             whole = whole_year_rate(points[1][mine], points[2][mine])
         rate = rate if whole is None else whole
+        if whole is not None and whole > 0:
+            months = pattern_months(found[c], whole)
         parked = parked_since(c, t, spans)
         per_day = year_average(months) if months is not None else rate
         words = _use_words(parked, per_day, months, found.get(c, []), c in pattern, whole is not None, t)
@@ -398,12 +433,12 @@ def _use_words(parked: int | None, per_day: float | None, months, still: list[tu
         spells = ", ".join(f"{iso(a)} to {iso(b)}" for a, b, _ in still[-2:])
         spells = f"{len(still)} spells, the last {spells}" if len(still) > 2 else spells
         words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
-                     f"{per_day:.1f} h a day is its average over whole years")
+                     f"dates count each month at its share of those spells, {per_day:.1f} h a day over whole years")
     for a, b, lost in still if not pattern and months is None else ():
         if b > today - 365:  # inside the year the rate is taken over
             words.append(f"stood still about {lost} of the {b - a} days from {iso(a)} to {iso(b)} by its hour "
                          f"meter: not counted in its hours a day")
-    if months is not None:
+    if months is not None and not by_years:
         low = [_MONTHS[i] for i, r in enumerate(months) if r < LOW_SHARE * (per_day or 0.0)]
         words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at "
                      f"its own rate, {per_day:.1f} h a day over the year")

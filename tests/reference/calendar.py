@@ -362,3 +362,32 @@ def whole_year_rate(points: Iterable[tuple[date, float]], today: date) -> float 
     if best is None:
         return None
     return float(np.clip((pts[-1][1] - best[2]) / best[1], 0.0, MAX_HOURS_PER_DAY))
+
+
+def pattern_months(found: list[tuple[date, date, int]], per_day: float) -> tuple[float, ...] | None:
+    """Month rates (h a day, January first) of a machine with a pattern of stand-stills: every day of a
+    spell's run is not run with the share ``lost / days`` of that run, a (month, day) of the year takes
+    the mean over the spells of its share (at most 1 within one spell), the other share runs at one
+    rate; the months are means over their days (29 February as 28 February), scaled so their
+    year_average is ``per_day``."""
+    idle: dict[tuple[int, int], float] = defaultdict(float)
+    for first, last, lost in found:
+        days = (last - first).days
+        mine: dict[tuple[int, int], float] = defaultdict(float)
+        for i in range(days):
+            d = first + timedelta(i)
+            key = (d.month, 28 if (d.month, d.day) == (2, 29) else d.day)
+            mine[key] = min(mine[key] + lost / days, 1.0)
+        for key, share in mine.items():
+            idle[key] += share / len(found)
+    by_month: dict[int, list[float]] = defaultdict(list)
+    d = date(2025, 1, 1)
+    while d.year == 2025:
+        by_month[d.month - 1].append(1.0 - idle[(d.month, d.day)])
+        d += timedelta(1)
+    if not sum(sum(v) for v in by_month.values()) > 0:
+        return None
+    months = tuple(float(np.mean(by_month[m])) for m in range(12))
+    scale = per_day / year_average(months)
+    return tuple(r * scale for r in months)
+

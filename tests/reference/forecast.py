@@ -43,6 +43,7 @@ from tests.reference.calendar import (
     meter_standstills,
     month_rates,
     parked_spans,
+    pattern_months,
     rate_spread,
     running_day,
     seasonal_date,
@@ -106,6 +107,8 @@ def machine_use(points, spans, today: date) -> Use:
         whole = whole_year_rate(points, today)
         if whole is not None:
             rate, by_years = whole, True
+            if whole > 0:
+                months = pattern_months(found, whole)
     per_day = year_average(months) if months is not None else rate
     parked = next((start for start, end in spans if start <= today and (end is None or today < end)), None)
     words = []
@@ -118,13 +121,13 @@ def machine_use(points, spans, today: date) -> Use:
         if len(found) > 2:
             spells = f"{len(found)} spells, the last {spells}"
         words.append(f"its hour meter stood nearly still in more than one year ({spells}): taken as its pattern, "
-                     f"{per_day:.1f} h a day is its average over whole years")
+                     f"dates count each month at its share of those spells, {per_day:.1f} h a day over whole years")
     if not pattern and months is None:
         for a, b, lost in found:
             if b.toordinal() > today.toordinal() - 365:
                 words.append(f"stood still about {lost} of the {(b - a).days} days from {a.isoformat()} to "
                              f"{b.isoformat()} by its hour meter: not counted in its hours a day")
-    if months is not None:
+    if months is not None and not by_years:
         low = [_MONTHS[i] for i, r in enumerate(months) if r < 0.2 * (per_day or 0.0)]
         words.append(f"runs by season (near-zero use in {', '.join(low)} each year): dates count each month at its "
                      f"own rate, {per_day:.1f} h a day over the year")

@@ -246,6 +246,41 @@ def test_a_machine_that_stands_every_winter_runs_at_its_average_over_whole_years
     assert old > 1.5 * want
 
 
+def test_a_pattern_of_whole_winters_runs_only_in_the_other_months():
+    # Hand computation: two spells whose every day went unrun (1 Nov to 1 Apr, twice) leave November to
+    # March at zero; April to October (214 days) run at one rate r with r * 214 / 365.25 = the whole-year
+    # rate. The reference (written one day at a time, tests/reference/calendar.py) agrees.
+    from tests.reference.calendar import pattern_months as reference
+
+    spells = [(date(2023, 11, 1), date(2024, 4, 1)), (date(2024, 11, 1), date(2025, 4, 1))]
+    found = [(a.toordinal(), b.toordinal(), (b - a).days) for a, b in spells]
+    got = utilisation.pattern_months(found, 6.0)
+    r = 6.0 * 365.25 / 214
+    assert got == pytest.approx([0, 0, 0, r, r, r, r, r, r, r, 0, 0], abs=1e-12)
+    assert utilisation.year_average(got) == pytest.approx(6.0, rel=1e-12)
+    assert reference([(a, b, (b - a).days) for a, b in spells], 6.0) == pytest.approx(got, abs=1e-12)
+    # a spell of 100 days not run among 200 spreads half a day over each of them: their months at half
+    half = utilisation.pattern_months([(date(2025, 1, 1).toordinal(), date(2025, 7, 20).toordinal(), 100)], 5.0)
+    jan_to_jun = np.array(half[:6]) / half[8]
+    assert jan_to_jun == pytest.approx(0.5, abs=1e-12)
+
+
+def test_a_pattern_machine_read_in_season_is_credited_no_winter_hours():
+    # Runs 15 h a day May to September, read on 1 June, 15 July and 1 September: a pattern (as in the
+    # test of its average over whole years). From its newest reading (1 September 2026) to 1 December it truly ran the
+    # 30 days of September: 450 h. The whole-year rate alone would credit 91 days of it (about 572 h);
+    # counted month by month at the pattern's shares the credit must be at least twice as near the truth.
+    start = date(2023, 1, 2)
+    on = [date(y, m, d) for y in (2023, 2024, 2025, 2026) for m, d in ((6, 1), (7, 15), (9, 1))]
+    fleet = _fleet(_seasonal, (TODAY - start).days, readings_on=on)
+    pf = forecast_fleet(fleet, TODAY).pumps[0]
+    newest = max(fleet.readings, key=lambda r: r.taken_on)
+    credited = pf.hours_since_overhaul - newest.machine_hours  # fitted new at the meter's zero
+    flat = pf.hours_per_day * (TODAY - newest.taken_on).days
+    assert "dates count each month at its share of those spells" in pf.utilisation_basis
+    assert abs(credited - 450.0) < 0.5 * abs(flat - 450.0)
+
+
 def test_a_machine_parked_now_counts_no_hours_and_says_so():
     # Issue 12: a machine parked 8 months was credited 10 h a day (2,500 h it never ran).
     parked_on = TODAY - timedelta(240)
