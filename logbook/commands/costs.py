@@ -78,10 +78,12 @@ def _print(ctx, book, fleet) -> None:
         ctx.console.print("no costs yet: logbook costs --model CODE --planned AMOUNT --failure AMOUNT", markup=False)
         return
     if book.models:
+        from logbook.analysis.fleet import forecast_fleet
         from logbook.analysis.life import fleet_life
         from logbook.costing import model_economies
 
-        economies = model_economies(book, fleet_life(fleet))
+        # the running pumps' ages as the forecast counts them (hours today): the same fleet life as `forecast`
+        economies = model_economies(book, fleet_life(fleet, forecast_fleet(fleet, today=ctx.today)))
         table = Table(box=None, header_style="bold", title="per pump model (downtime not included)", title_justify="left")
         for col in ("model", "planned", "failure", "shape", "scale h", "best age h", "per h", "run-out per h"):
             table.add_column(col, justify="left" if col == "model" else "right")

@@ -95,3 +95,23 @@ def test_costs_command_sets_and_shows(tmp_path, capsys):
     s = Store(db, user="t")
     assert s.costs().sites == {}
     s.close()
+
+
+def test_costs_and_forecast_give_one_fleet_life(tmp_path, capsys):
+    # The costs table once fitted the fleet-life Weibull with running pumps censored at their last
+    # reading, the forecast at their hours today: shape 5.02 against 4.895 for one model. Both now read
+    # the forecast's ages, so both print the same shape, scale and cost-optimal age for every model.
+    import json
+
+    db = tmp_path / "d.db"
+    assert main(["demo", "--no-ui", "--db", str(db), "--today", "2026-12-01"]) == 0
+    capsys.readouterr()
+    assert main(["--db", str(db), "--today", "2026-12-01", "costs"]) == 0
+    table = capsys.readouterr().out
+    assert main(["--db", str(db), "--today", "2026-12-01", "forecast", "--format", "json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    fitted = [m for m in doc["life"] if m.get("shape")]
+    assert fitted
+    for m in fitted:
+        row = next(line.split() for line in table.splitlines() if line.split()[:1] == [m["model"]])
+        assert row[3] == f"{m['shape']:.2f}" and row[4] == f"{m['scale_hours']:,.0f}"
