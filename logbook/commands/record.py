@@ -150,9 +150,14 @@ def run(args, ctx) -> int:
         if raw is None:
             continue
         limit = f"limit {fmt.value(kf.kind, kf.limit.value, ctx.units)}" if kf.limit else "no limit set"
+        normalized = f"normalized {fmt.value(kf.kind, kf.latest_value, ctx.units)}"
+        if kf.latest_on != saved.taken_on:  # left out of the trend: the trend's newest value is another reading's
+            why = next((w.split(": ", 1)[1] for w in kf.not_used if w.startswith(f"{saved.taken_on.isoformat()}: ")),
+                       "not part of the trend")  # fmt: skip
+            normalized = f"not used in the trend ({why})"
         ctx.console.print(
             f"  {kf.kind.label}: {fmt.value(kf.kind, raw, ctx.units)} (previous {fmt.value(kf.kind, before[kf.kind], ctx.units)}); "
-            f"normalized {fmt.value(kf.kind, kf.latest_value, ctx.units)}, {limit}; P50 {fmt.day(kf.p50_date)}",
+            f"{normalized}, {limit}; P50 {fmt.day(kf.p50_date)}",
             markup=False,
         )
     ctx.console.print(f"  status: {forecast.status}", markup=False)
