@@ -177,8 +177,7 @@ def _statuses(pk: FleetPack, fit: BatchFit, rows: RowFigures, n_pumps: int, toda
     outcome = np.array([OUTCOMES[c].value for c in rows.code.tolist()], dtype=object).reshape(shape)
     return pump_statuses(outcome, (fit.flags & B_STEP).astype(bool).reshape(shape),
                          (fit.flags & B_JUMP).astype(bool).reshape(shape), day[:, 0].reshape(shape),
-                         day[:, 1].reshape(shape), rows.remaining[:, 0].reshape(shape),
-                         rows.remaining[:, 1].reshape(shape), floats(pk.per_day), today, thresholds)  # fmt: skip
+                         rows.remaining[:, 0].reshape(shape), floats(pk.per_day), today, thresholds)  # fmt: skip
 
 
 def _worst(pk: FleetPack, rows: RowFigures, n_pumps: int) -> list[int]:
@@ -195,7 +194,7 @@ def _worst(pk: FleetPack, rows: RowFigures, n_pumps: int) -> list[int]:
     candidate = has_limit & (rows.code != O_NO_DATA) & (rows.code != O_NO_LIMIT)
     shape = (n_pumps, KINDS)
     return worst_kinds(rows.code.reshape(shape), candidate.reshape(shape), progress.reshape(shape),
-                       rows.days[:, 1].reshape(shape), rows.remaining[:, 1].reshape(shape), O_PAST_LIMIT,
+                       rows.days[:, 0].reshape(shape), rows.remaining[:, 0].reshape(shape), O_PAST_LIMIT,
                        O_CROSSING)  # fmt: skip
 
 

@@ -5,8 +5,9 @@ Status of one kind: past its limit -> over limit; its newest reading set aside a
 its trend (a unit mix-up looks like this) -> test again, until a second reading confirms or
 clears it; a step flagged -> step change;
 a crossing whose P10 date (or P10 hours at the machine's utilisation) is within
-``due_days`` -> overhaul due, whose P50 within ``plan_days`` -> plan overhaul, else
-steady; no crossing within the horizon -> steady, unless its P10 date is near; too few
+``due_days`` -> overhaul due, within ``plan_days`` -> plan overhaul (the plan schedules
+every pump by its P10), else steady; no crossing within the horizon -> the same by its
+P10 date when it has one, else steady; too few
 readings; no limit -> steady; no readings. A pump takes its most urgent kind's status,
 but "too few" only when no kind has a usable forecast.
 """
@@ -41,15 +42,15 @@ class StatusThresholds:
     """When a forecast becomes urgent (defaults: common practice, no published source)."""
 
     due_days: int = 90  # P10 date within this: overhaul due
-    plan_days: int = 365  # P50 date within this: plan the overhaul
+    plan_days: int = 365  # P10 date within this: plan the overhaul
 
 
 def pump_statuses(
-    outcome, step, jump, p10_day, p50_day, p10_hours, p50_hours, per_day, today: date,
+    outcome, step, jump, p10_day, p10_hours, per_day, today: date,
     thresholds: StatusThresholds | None = None,
 ) -> list[str]:  # fmt: skip
     """The status of many pumps at once (module docstring) from (P, K) numpy arrays: outcome (Outcome
-    values as strings), step flag, newest-reading-set-aside flag, P10/P50 day ordinals and hours (NaN for none) and (P,) hours per day."""
+    values as strings), step flag, newest-reading-set-aside flag, P10 day ordinals and hours (NaN for none) and (P,) hours per day."""
     import numpy as np  # here, so that the views can import this module without numpy
 
     th = thresholds or StatusThresholds()
@@ -57,14 +58,15 @@ def pump_statuses(
     rate = np.asarray(per_day, dtype=float)[:, None]
     with np.errstate(invalid="ignore"):
         due = (p10_day <= t + th.due_days) | (p10_hours <= rate * th.due_days)
-        plan = (p50_day <= t + th.plan_days) | (p50_hours <= rate * th.plan_days)
+        plan = (p10_day <= t + th.plan_days) | (p10_hours <= rate * th.plan_days)
         word = np.select(
             [outcome == Outcome.PAST_LIMIT.value, jump & (outcome != Outcome.NO_LIMIT.value), step,
              (outcome == Outcome.CROSSING.value) & due, (outcome == Outcome.CROSSING.value) & plan,
              outcome == Outcome.CROSSING.value, (outcome == Outcome.NO_CROSSING.value) & (p10_day <= t + th.due_days),
+             (outcome == Outcome.NO_CROSSING.value) & (p10_day <= t + th.plan_days),
              outcome == Outcome.NO_CROSSING.value, outcome == Outcome.TOO_FEW.value, outcome == Outcome.NO_LIMIT.value],
             [_RANK[OVER_LIMIT], _RANK[RETEST], _RANK[STEP_CHANGE], _RANK[OVERHAUL_DUE], _RANK[PLAN_OVERHAUL], _RANK[STEADY],
-             _RANK[OVERHAUL_DUE], _RANK[STEADY], _RANK[TOO_FEW], _RANK[STEADY]],
+             _RANK[OVERHAUL_DUE], _RANK[PLAN_OVERHAUL], _RANK[STEADY], _RANK[TOO_FEW], _RANK[STEADY]],
             _RANK[NO_READINGS],
         )  # fmt: skip
     usable = np.isin(word, [_RANK[STEADY], _RANK[PLAN_OVERHAUL], _RANK[OVERHAUL_DUE]]).any(axis=1, keepdims=True)
@@ -112,10 +114,11 @@ def most_urgent_first(pumps) -> list[PumpForecast]:
     return sorted(pumps, key=urgency_key)
 
 
-def worst_kinds(code: np.ndarray, candidate: np.ndarray, progress: np.ndarray, p50_days: np.ndarray,
-                p50_hours: np.ndarray, past: int, crossing: int) -> list[int]:  # fmt: skip
+def worst_kinds(code: np.ndarray, candidate: np.ndarray, progress: np.ndarray, p10_days: np.ndarray,
+                p10_hours: np.ndarray, past: int, crossing: int) -> list[int]:  # fmt: skip
     """Per pump, the kind closest to its limit (-1 for none) among the (P, K) ``candidate`` kinds (those
-    with a limit and readings): past limit first, then the earliest P50 (days ahead, -1 for none, else hours),
+    with a limit and readings): past limit first, then the earliest P10 (days ahead, -1 for none, else
+    hours: the plan schedules by it),
     then the furthest along toward its limit (``progress``: latest value over limit, inverted for a lower
     limit); the first such kind on a tie. ``code``: forecast outcome codes, ``past``/``crossing`` two of them."""
     import numpy as np
@@ -123,8 +126,8 @@ def worst_kinds(code: np.ndarray, candidate: np.ndarray, progress: np.ndarray, p
     n_pumps, kinds = candidate.shape
     is_past, is_crossing = code == past, code == crossing
     rank = np.where(is_past, 0, np.where(is_crossing, 1, 2)).astype(float)
-    when = np.where(is_past, 0.0, np.where(is_crossing, np.where(p50_days >= 0, p50_days, np.inf), -progress))
-    hours = np.where(is_crossing, np.nan_to_num(p50_hours, nan=0.0), 0.0)
+    when = np.where(is_past, 0.0, np.where(is_crossing, np.where(p10_days >= 0, p10_days, np.inf), -progress))
+    hours = np.where(is_crossing, np.nan_to_num(p10_hours, nan=0.0), 0.0)
     best = np.where(candidate[:, 0], 0, -1)
     rows = np.arange(n_pumps)
     for j in range(1, kinds):

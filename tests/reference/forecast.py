@@ -346,14 +346,15 @@ def fit_detail(fit: BatchFit, row: int, x_hours, y_value) -> FitDetail | None:
 
 
 def _worst(kinds: tuple[KindForecast, ...]) -> KindForecast | None:
-    """Past limit first, then the earliest P50 (date, else hours), then the nearest to its limit."""
+    """Past limit first, then the earliest P10 (date, else hours: the plan schedules by it), then the
+    nearest to its limit."""
 
     def key(k: KindForecast):
         if k.outcome is Outcome.PAST_LIMIT:
             return (0, 0.0, 0.0)
         if k.outcome is Outcome.CROSSING:
-            d = k.p50_date.toordinal() if k.p50_date else float("inf")
-            return (1, d, k.p50_hours or 0.0)
+            d = k.p10_date.toordinal() if k.p10_date else float("inf")
+            return (1, d, k.p10_hours or 0.0)
         progress = 0.0
         if k.limit is not None and k.latest_value:
             ratio = k.latest_value / k.limit.value if k.limit.value else 0.0

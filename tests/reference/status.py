@@ -39,12 +39,14 @@ def kind_status(kf: KindForecast, today: date, per_day: float | None, th: Status
     if kf.outcome is Outcome.CROSSING:
         if _within(kf.p10_date, today, th.due_days) or _hours_within(kf.p10_hours, per_day, th.due_days):
             return OVERHAUL_DUE
-        if _within(kf.p50_date, today, th.plan_days) or _hours_within(kf.p50_hours, per_day, th.plan_days):
+        if _within(kf.p10_date, today, th.plan_days) or _hours_within(kf.p10_hours, per_day, th.plan_days):
             return PLAN_OVERHAUL
         return STEADY
     if kf.outcome is Outcome.NO_CROSSING:
         if _within(kf.p10_date, today, th.due_days):
             return OVERHAUL_DUE
+        if _within(kf.p10_date, today, th.plan_days):
+            return PLAN_OVERHAUL
         return STEADY
     if kf.outcome is Outcome.TOO_FEW:
         return TOO_FEW

@@ -18,7 +18,8 @@ from rich.console import Console
 
 import demo_fleet
 from logbook.analysis.fleet import forecast_fleet
-from logbook.analysis.status import STATUS_ORDER, STEP_CHANGE, urgency_key
+from logbook.analysis.results import Outcome
+from logbook.analysis.status import STATUS_ORDER, STEADY, STEP_CHANGE, urgency_key
 from logbook.cli import Context
 from logbook.commands.pumps import fleet_table
 from logbook.plan import PlanSettings, make_plan
@@ -95,3 +96,27 @@ def test_the_plan_takes_pumps_in_the_same_order(forecast):
 @pytest.mark.slow
 def test_the_key_is_the_engines(forecast):
     assert [p.serial for p in sorted(forecast.pumps, key=urgency_key)] == _by_hand(forecast.pumps)
+
+
+@pytest.mark.slow
+def test_a_planned_pump_shows_the_kind_and_status_the_plan_acts_on(forecast):
+    # The plan schedules each pump by its P10. A pump it placed in its months read "steady" in `pumps`
+    # and the fleet view, with the P10 of another kind than the plan's (P50 chose the kind shown, and
+    # "plan overhaul" needed the P50 within a year). Every planned pump is now at least "plan
+    # overhaul" where its P10 falls within a year, and shows the kind whose date the plan acts on.
+    plan = make_plan(forecast, PlanSettings(start_month=date(2026, 12, 1), horizon_months=12))
+    by_serial = {p.serial: p for p in forecast.pumps}
+    lines = [line for line in plan.lines if line.month is not None]
+    assert len(lines) > 5
+    year_end = date(2027, 12, 1)
+    for line in lines:
+        kf = by_serial[line.serial].worst
+        assert kf is not None, line.serial
+        # the kind shown is the plan's, or one the plan leaves to the machine (an on-machine adjustment)
+        # that comes due first; either way the date shown is never later than the one the plan acts on
+        assert kf.kind == line.kind or kf.kind in plan.settings.on_machine_kinds, line.serial
+        if kf.outcome is Outcome.PAST_LIMIT:
+            continue
+        assert kf.p10_date is not None and (line.p10_date is None or kf.p10_date <= line.p10_date), line.serial
+        if kf.p10_date <= year_end:
+            assert by_serial[line.serial].status != STEADY, line.serial
