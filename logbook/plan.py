@@ -364,7 +364,15 @@ class _Shop:
                 self.take(month, pf)
                 return month, ""
             blocked.append(why)
-        return None, "no room up to " + month_label(target) + ": " + ", ".join(sorted(set(blocked)))
+        return None, self.no_room(target, blocked)
+
+    def no_room(self, target: date, blocked: list[str]) -> str:
+        return "no room up to " + month_label(target) + (": " + ", ".join(sorted(set(blocked))) if blocked else "")
+
+    def why_not(self, pf: PumpForecast, target: date) -> str:
+        """Why no month up to ``target`` can take the pump with the loads as they stand."""
+        months = (add_months(target, -back) for back in range(months_between(self.settings.start_month, target) + 1))
+        return self.no_room(target, [why for why in (self.full(m, pf) for m in months) if why])
 
 
 def _target(kf: KindForecast, settings: PlanSettings) -> date:
@@ -478,17 +486,21 @@ def make_plan(forecast: FleetForecast, settings: PlanSettings, costs: PlanCosts 
     costed, placement_note = (None, "") if costs is None else _least_cost(candidates, settings, today, costs, months)
     if costed is not None:
         shop = _Shop(settings)
+        no_room = []
         for _, serial, pf, kf, _due, in_the_shop in candidates:
             if serial in costed.months:
                 index = costed.months[serial]
                 unplaced.pop(serial, None)
                 months.pop(serial, None)
                 if index is None:
-                    unplaced[serial] = ("no room up to " + month_label(_target(kf, settings)) if serial in costed.left_over
-                                        else "least cost after the horizon")
+                    unplaced[serial] = "least cost after the horizon"
+                    if serial in costed.left_over:
+                        no_room.append((serial, pf, _target(kf, settings)))
                 else:
                     months[serial] = settings.months[index]
                     shop.take(months[serial], pf)
+        for serial, pf, target in no_room:  # what is full, with every placed job in
+            unplaced[serial] = shop.why_not(pf, target)
 
     placed, left = [], []
     for _, serial, pf, kf, due, in_the_shop in candidates:

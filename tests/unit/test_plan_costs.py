@@ -113,3 +113,15 @@ def test_sensitivity_lists_pumps_whose_month_moves_with_the_cost_ratio():
         assert moved is not None and (base is None or moved <= base)
     assert all(f in (0.5, 2.0) for f in moves)
     assert TODAY < START
+
+
+def test_a_pump_the_least_cost_plan_cannot_place_says_what_is_full():
+    # No exchange pump of its model on hand: the greedy pass said "no room up to ...: no exchange AX90
+    # pump", the least-cost pass only "no room up to ...". Both now name what is full.
+    fc = _fleet([(40.0, 1.5, False, "AX90", "North"), (45.0, 1.5, False, "BX45", "North")])
+    s = PlanSettings(START, horizon_months=4, exchange_on_hand={"AX90": 0})
+    for plan in (make_plan(fc, s), make_plan(fc, s, _costs(fc))):
+        left = {line.serial: line.note for line in plan.unplaced}
+        assert list(left) == ["P0"], plan.placement
+        assert left["P0"].startswith("no room up to ") and left["P0"].endswith(": no exchange AX90 pump"), plan.placement
+        assert [line.serial for line in plan.lines] == ["P1"]
