@@ -37,8 +37,9 @@ def register(sub) -> None:
                    help="months before a removed pump is back as an exchange pump (default: stored, else 1)")
     p.add_argument("--save-settings", action="store_true",
                    help="store these plan settings (audited) for later runs and the plan screen of the TUI")
-    p.add_argument("--format", choices=("csv", "md", "html", "json"), default=None,
-                   help="output format (default: from the --out suffix, else md)")
+    p.add_argument("--format", choices=("text", "csv", "md", "html", "json"), default=None,
+                   help="output format (default: from the --out suffix; to a terminal text, the plan's months as "
+                   "tables that fit it; else md)")
     p.add_argument("--out", default="-", metavar="FILE", help="file to write, or - for stdout (default -)")
     p.add_argument("--no-costs", action="store_true",
                    help="place pumps by the greedy pass even when costs are set (logbook costs), for comparison")
@@ -64,15 +65,19 @@ def _pairs(values: list[str], option: str, known: set[str] | None, what: str) ->
             problems.append(Problem(option, text, f"NAME=N with N a whole number of 0 or more, e.g. {option} X=2"))
         elif known is not None and name not in known:
             allowed = ", ".join(sorted(known)) or "none recorded"
-            problems.append(Problem(option, text, f"{what} must be one of: {allowed}"))
+            from logbook.validate import did_you_mean
+
+            problems.append(Problem(option, text, f"{what} must be one of: {allowed}{did_you_mean(name, known)}"))
         else:
             out[name] = count
     return out, problems
 
 
-def _format(args) -> str:
+def _format(args, ctx=None) -> str:
     if args.format:
         return args.format
+    if args.out in (None, "-") and ctx is not None and ctx.console.is_terminal:
+        return "text"
     if args.out != "-":
         return SUFFIX_FORMATS.get(Path(args.out).suffix.lower(), "md")
     return "md"
@@ -121,8 +126,10 @@ def _month_in_range(start, this_month, text: str) -> list[Problem]:
 def run(args, ctx) -> int:
     from logbook.plan import add_months, month_start, parse_month
 
-    fmt = _format(args)
+    fmt = _format(args, ctx)
     problems = _check_args(args) + _check_out(args, ctx)
+    if fmt == "text" and args.out not in (None, "-"):
+        problems.append(Problem("--format", "text", "is for the terminal: write a file as csv, md, html or json"))
     start = month_start(ctx.today)
     if args.month is not None and not args.month.isascii():  # parse_month's isdigit() takes Unicode digits
         problems.append(Problem("--month", args.month, "a month written YYYY-MM with the digits 0-9, e.g. 2026-04"))
@@ -183,20 +190,66 @@ def run(args, ctx) -> int:
             notes = (f"as of {ctx.as_of.isoformat()}: only what the logbook knew that day (logbook --as-of)", *notes)
         report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts,
                         economies=economies, notes=notes, units=ctx.units)
-        data = render(report, fmt)
-        steps.step("saving")
-        from logbook.outfile import OutputError, OutputRefused, write_bytes
+        if fmt != "text":
+            data = render(report, fmt)
+            steps.step("saving")
+            from logbook.outfile import OutputError, OutputRefused, write_bytes
 
-        try:  # stdout, a device or pipe written through, or a file replaced atomically
-            write_bytes(args.out, data, protect=[ctx.db_path, fleet.source], label="--out")
-        except OutputError as exc:
-            ctx.err.print(f"logbook forecast: {exc}", markup=False, soft_wrap=True)
-            return 2 if isinstance(exc, OutputRefused) else 1
+            try:  # stdout, a device or pipe written through, or a file replaced atomically
+                write_bytes(args.out, data, protect=[ctx.db_path, fleet.source], label="--out")
+            except OutputError as exc:
+                ctx.err.print(f"logbook forecast: {exc}", markup=False, soft_wrap=True)
+                return 2 if isinstance(exc, OutputRefused) else 1
+    if fmt == "text":  # after the progress line is cleared
+        _print_text(ctx, plan, notes)
+        return 0
     if args.out != "-" and ctx.err.is_terminal:
         ctx.err.print(
             f"wrote {args.out}: {len(plan.lines)} planned, {len(plan.unplaced)} do not fit", markup=False, soft_wrap=True
         )
     return 0
+
+
+def _print_text(ctx, plan, notes) -> None:
+    """The plan for a terminal: its months, the pumps that do not fit and those to test again, as tables that
+    fit the console (``commands.tables.fit``); the reasons, fleet life and costs are in the other formats."""
+    from logbook import fmt as show
+    from logbook.commands.tables import Col, fit
+    from logbook.plan import month_label
+
+    s = plan.settings
+    c = ctx.console
+    last = s.months[-1] if s.months else s.start_month
+    c.print(f"Overhaul plan {month_label(s.start_month)} to {month_label(last)} ({s.horizon_months} months), placed by "
+            f"{plan.placement}; forecast of {plan.today.isoformat()}", markup=False)
+    for note in (*notes, *((plan.placement_note,) if plan.placement_note else ())):
+        c.print(f"  {note}", markup=False)
+    cols = [Col("month", 0), Col("serial", 0, keep=True), Col("model", 4), Col("site", 5, wrap=True),
+            Col("reading", 2, wrap=True), Col("P10", 1), Col("where", 3), Col("note", 6, wrap=True)]
+    for line in plan.lines:
+        for col, v in zip(cols, (month_label(line.month), line.serial, line.model, line.site or "-", line.kind.label,
+                                 show.day(line.p10_date), "shop" if line.shop else "on machine", line.note or "")):
+            col.cells.append(v)
+    more = "logbook forecast --format md, html, csv or json has them, with each reason"
+    c.print(fit(c, cols, title=f"planned ({len(plan.lines)})", more=more)[0])
+    if plan.unplaced:
+        cols = [Col("latest month", 0), Col("serial", 0, keep=True), Col("model", 3), Col("reading", 2, wrap=True),
+                Col("P10", 1), Col("why", 0, keep=True, wrap=True)]
+        for line in plan.unplaced:
+            for col, v in zip(cols, (month_label(line.target_month), line.serial, line.model, line.kind.label,
+                                     show.day(line.p10_date), line.note or "")):
+                col.cells.append(v)
+        c.print(fit(c, cols, title=f"do not fit ({len(plan.unplaced)})", more=more)[0])
+    if plan.retests:
+        cols = [Col("serial", 0, keep=True), Col("model", 2), Col("reading", 1, wrap=True), Col("why", 0, keep=True, wrap=True)]
+        for r in plan.retests:
+            for col, v in zip(cols, (r.serial, r.model, r.kind.label, r.reason)):
+                col.cells.append(v)
+        c.print(fit(c, cols, title=f"test again first ({len(plan.retests)})", more=more)[0])
+    loads = ", ".join(f"{month_label(m)} {n}" for m, n in plan.shop_load.items())
+    c.print(f"shop jobs per month: {loads}", markup=False)
+    c.print("the whole report (reasons, fleet life, costs, charts): logbook forecast --format md|html|csv|json "
+            "--out FILE", markup=False)
 
 
 def _bad(ctx, problems: list[Problem]) -> int:
