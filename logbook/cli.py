@@ -38,6 +38,7 @@ COMMAND_MODULES = (
     "remove",
     "costs",
     "backtest",
+    "export",
 )
 
 
@@ -96,6 +97,26 @@ class Context:
         """The fleet the read commands work on: everything now, or with --as-of what stood on that day."""
         return store.fleet() if self.as_of is None else store.fleet_as_of(self.as_of)
 
+    def as_of_note(self, store, fleet) -> str | None:
+        """With --as-of, when the fleet of that day (``fleet``) holds no reading: that nothing (or
+        no reading) was recorded by then, and the first day that has one; else None."""
+        if self.as_of is None or len(fleet.readings):
+            return None
+        whole = store.fleet()
+        day = self.as_of.isoformat()
+        readings = [r.taken_on for r in whole.readings]
+        first_reading = f"the first reading is dated {min(readings).isoformat()}" if readings else "no reading is recorded"
+        if fleet.fitments or fleet.events:
+            return f"--as-of {day}: no reading was recorded by then; {first_reading}"
+        dated = sorted([*((f.fitted_on, "a pump fitted") for f in whole.fitments),
+                        *((e.happened_on, f"an event ({e.kind.value})") for e in whole.events)])
+        if not dated and not readings:
+            return f"--as-of {day}: nothing is recorded in this logbook yet"
+        if not dated or (readings and min(readings) <= dated[0][0]):
+            return f"--as-of {day}: nothing was recorded by then; {first_reading}"
+        on, what = dated[0]
+        return f"--as-of {day}: nothing was recorded by then; the first record is {what} on {on.isoformat()}, {first_reading}"
+
 
 def whole_number(text: str) -> int:
     """argparse type of every integer option: ASCII digits 0-9 and an optional minus, as
@@ -123,6 +144,9 @@ def iso_day(text: str) -> date:
 
 
 _LONG_RUN = re.compile(r"\S{70,}")
+#: A minus, an optional decimal point or comma, then a digit: a negative number as typed (units.py,
+#: validate.parse_quantity read the rest), not an option.
+NEGATIVE_VALUE = re.compile(r"^-[.,]?[0-9]")
 
 
 class Parser(argparse.ArgumentParser):
@@ -132,11 +156,15 @@ class Parser(argparse.ArgumentParser):
     - no abbreviated options: ``--servo-pressur`` is an error, not ``--servo-pressure``
       (a typo would otherwise land in whichever option it happens to begin);
     - ``type=int`` means ``whole_number`` (int() reads "4_2" as 42, and Unicode digits);
+    - a word that starts with a minus and a digit is a value, never an option: ``-2,5``,
+      ``-1,234.5``, ``-2.5bar`` and ``-.5`` as well as ``-2.5`` (argparse alone takes only
+      ``-2`` and ``-2.5``; no option of the program starts with a digit);
     - a long value quoted in an error message is cut as ``model.echo`` cuts it."""
 
     def __init__(self, *args, **kwargs):
         kwargs["allow_abbrev"] = False
         super().__init__(*args, **kwargs)
+        self._negative_number_matcher = NEGATIVE_VALUE  # read by argparse's _parse_optional
         self.register("type", int, whole_number)  # argparse looks each type up here (groups share it)
 
     def error(self, message: str):

@@ -171,7 +171,7 @@ def parse_cell(name: str, col: Column, raw: str, unit: str | None, today: date):
     if col.kind != "text" and _FORMULA_RE.match(raw) and not _float_like(raw):
         return None, Problem(name, raw, "is a spreadsheet formula, not a value: save the sheet as CSV with values")
     if col.kind == "number":
-        return validate.parse_number(col.spec, raw, unit)
+        return validate.parse_number(col.spec, raw, unit, in_file=True)
     if col.kind == "date":
         return validate.parse_date(name, raw, today, required=False)
     if col.kind == "name":

@@ -119,15 +119,45 @@ _WHOLE_RE = re.compile(r"[0-9]+")
 MAX_TEXT = 500
 
 
-def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = None) -> tuple[float | None, Problem | None]:
-    """Parse and range-check a number given in ``unit``; returns (canonical value, problem)."""
+def number_form(spec: FieldSpec, *, in_file: bool = False) -> str:
+    """How a number of ``spec`` is written, with examples that fit the field: an hour meter
+    '22950 or 22950.5', a signed field '2.4 or -1.5', a count of days '30'. Typed (``in_file``
+    False: the command line, the forms) a decimal comma and thousands separators are read
+    (``parse_quantity``); a CSV file takes a decimal point only, and says so."""
+    if spec.integer:
+        return "the digits 0-9, e.g. 30"
+    if spec.name in THOUSANDS_FIRST or spec.quantity is units.HOURS:
+        if in_file:
+            return ("the digits 0-9 and a decimal point, e.g. 22950 or 22950.5 "
+                    "(a thousands separator is not allowed in a CSV file)")
+        return "the digits 0-9 and a decimal point or comma, e.g. 22950, 22,950 or 22950.5"
+    examples = "2.4 or -1.5" if spec.minimum < 0 else "4.2"
+    if in_file:
+        sign = "an optional minus sign, " if spec.minimum < 0 else ""
+        return f"the digits 0-9, {sign}a decimal point (a decimal comma is not allowed in a CSV file), e.g. {examples}"
+    typed = "-1.5, -1,5 or 2.4" if spec.minimum < 0 else "4.2 or 4,2"
+    return f"the digits 0-9{', a minus sign' if spec.minimum < 0 else ''} and a decimal point or comma, e.g. {typed}"
+
+
+def parse_number(spec: FieldSpec, text: str | float | None, unit: str | None = None, *,
+                 in_file: bool = False) -> tuple[float | None, Problem | None]:
+    """Parse and range-check a number given in ``unit`` (digits and a decimal point: a CSV
+    cell, ``in_file``, or what ``parse_quantity`` made of a typed number); returns
+    (canonical value, problem)."""
     if text is None or (isinstance(text, str) and text.strip() == ""):
         return None, None
     unit_id = unit if unit is not None else spec.quantity.canonical
     shown_unit = unit_id
     if isinstance(text, str) and not units.is_number(text.strip()):
-        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}, written with {units.NUMBER_FORM}",
-                             shown_unit)
+        raw = text.strip()
+        readings, _ = number_readings(raw, spec, unit_id) if in_file and "," in raw else ([], "")
+        if readings:  # 22,950 or 28,9: a number, though not as a CSV file holds one (suggested, not taken)
+            what = ("a thousands separator" if readings[0] == raw.replace(",", "") else
+                    "a decimal comma" if readings[0] == raw.replace(",", ".") else "a decimal comma or thousands separators")
+            return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)} written without {what} "
+                                 f"(not allowed in a CSV file); did you mean {readings[0]}?", shown_unit)
+        return None, Problem(spec.name, text, f"must be {spec.describe_range(unit_id)}, written with "
+                             f"{number_form(spec, in_file=in_file)}", shown_unit)
     try:
         value = float(text.strip() if isinstance(text, str) else text)
     except (TypeError, ValueError):
@@ -189,7 +219,12 @@ def parse_quantity(spec: FieldSpec, text: str | None, default_unit: str) -> tupl
     raw = text.strip()
     allowed_units = units.allowed_units(spec.quantity)
     example = {"pressure": ", 250psi", "flow": ", 1.1gpm", "temperature": ", 122F"}.get(spec.quantity.name, "")
-    form = f"e.g. 4.2, 4,2{example}" if spec.name not in THOUSANDS_FIRST else "e.g. 22950, 22,950 or 22950.5"
+    if spec.name in THOUSANDS_FIRST or spec.quantity is units.HOURS:
+        form = "e.g. 22950, 22,950 or 22950.5"
+    elif spec.minimum < 0:
+        form = f"e.g. 2.4, -1.5 or -1,5{example}"
+    else:
+        form = f"e.g. 4.2, 4,2{example}"
     m = _NUMBER_TEXT.fullmatch(raw)
     if m is None:
         return None, Problem(spec.name, text, f"must be {spec.describe_range(default_unit)} ({form})", default_unit)
@@ -280,6 +315,23 @@ def parse_name(field_name: str, text: str | None, required: bool = True) -> tupl
     return value, None
 
 
+def case_match(value: object, known) -> str | None:
+    """The one name of ``known`` that ``value`` is but for letter case and spacing ('b-25530'
+    for B-25530, 'saltbrook  cut' for Saltbrook Cut), else None (also when ``value`` is known as
+    given, or two names match). A message suggests it; nothing is changed to it."""
+    if not isinstance(value, str) or not value.strip():
+        return None
+    key = " ".join(value.split()).casefold()
+    hits = [name for name in known if name != value and " ".join(name.split()).casefold() == key]
+    return hits[0] if len(hits) == 1 and value not in known else None
+
+
+def did_you_mean(value: object, known) -> str:
+    """'; did you mean B-25530?' when ``case_match`` finds one name, else ''."""
+    match = case_match(value, known)
+    return f"; did you mean {match}?" if match is not None else ""
+
+
 def parse_oil_grade(text: str | int | None) -> tuple[int | None, Problem | None]:
     if text is None or str(text).strip() == "":
         return None, None
@@ -361,17 +413,31 @@ def check_reading_against_model(reading: Reading, model: PumpModel) -> list[Prob
     return problems
 
 
+#: Stands for the machine's unit in ``meter_change_hint`` when the caller does not name it.
+SOME_MACHINE = "UNIT"
+
+
+def meter_change_hint(machine: str | None = None) -> str:
+    """What to do when a meter runs backwards because it was changed: the command to type
+    (and the fleet view's event), naming the machine when it is known."""
+    return (f"if the hour meter was replaced, record that first: `logbook event meter_replaced --machine "
+            f"{machine or SOME_MACHINE} --date YYYY-MM-DD --hours OLD_LAST --to-hours NEW_FIRST` with the old meter's "
+            "last and the new meter's first reading (in the fleet view: the event 'Hour meter replaced')")
+
+
 def check_hour_meter(
-    field_name: str, when: date, hours: float, earlier: tuple[date, float] | None, later: tuple[date, float] | None
+    field_name: str, when: date, hours: float, earlier: tuple[date, float] | None, later: tuple[date, float] | None,
+    machine: str | None = None,
 ) -> Problem | None:
     """The hour meter may not run backwards between the nearest earlier and later
     records of the same machine (since the last meter replacement)."""
     if earlier is not None and hours < earlier[1] - 1e-9:
+        which = f"machine {machine}" if machine else "machine"
         return Problem(
             field_name,
             hours,
-            f"runs backwards: the machine read {earlier[1]:g} h on {earlier[0].isoformat()}; allowed {earlier[1]:g} h or more "
-            "(if the hour meter was changed, record the event 'Hour meter replaced' first)",
+            f"runs backwards: the {which} read {earlier[1]:g} h on {earlier[0].isoformat()}; allowed {earlier[1]:g} h or more; "
+            f"{meter_change_hint(machine)}",
             "h",
         )
     if later is not None and hours > later[1] + 1e-9:

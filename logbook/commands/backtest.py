@@ -101,8 +101,7 @@ def run(args, ctx) -> int:
     start, end = first or span[0], last or span[1]
     origins = origin_dates(start, end, *every)
     if not origins:
-        return _bad(ctx, [Problem("--from", start.isoformat(), f"origins before --to ({end.isoformat()}); "
-                                  "the record is too short for the default, give --from and --to")])
+        return _bad(ctx, [no_origins(now, first, last, start, end)])
     from logbook.commands.progress import Steps
 
     fmt = _format(args)
@@ -134,6 +133,31 @@ def run(args, ctx) -> int:
     if args.out != "-" and ctx.err.is_terminal:
         ctx.err.print(f"wrote {args.out}: {len(result.origins)} origins", markup=False, soft_wrap=True)
     return 0
+
+
+def no_origins(fleet, first: date | None, last: date | None, start: date, end: date) -> Problem:
+    """Why no origin lies from ``start`` to ``end`` (--from and --to as given, None for a default),
+    with the record's first and last reading dates: a --from after the newest reading, after the
+    default --to, or a record too short for the defaults."""
+    from logbook.analysis.backtest import FIRST_AFTER_DAYS, LAST_BEFORE_DAYS
+
+    days = [r.taken_on for r in fleet.readings]
+    oldest, newest = min(days).isoformat(), max(days).isoformat()
+    span = f"the readings run from {oldest} to {newest}"
+    if first is not None and first.isoformat() > newest:
+        upto = "" if last is not None else f", the default --to, {LAST_BEFORE_DAYS} days before today"
+        return Problem("--from", first.isoformat(), f"is after the newest reading on record ({span}); "
+                       f"give a --from from {oldest} to {end.isoformat()}{upto}")
+    if first is not None and last is None:
+        return Problem("--from", first.isoformat(), f"is after the default --to, {end.isoformat()} "
+                       f"({LAST_BEFORE_DAYS} days before today, to leave later readings to score on; {span}); "
+                       "give an earlier --from, or --to")
+    if first is None and last is not None:
+        return Problem("--to", last.isoformat(), f"is before the default --from, {start.isoformat()} "
+                       f"({FIRST_AFTER_DAYS} days after the first reading; {span}); give a later --to, or --from")
+    return Problem("--from", start.isoformat(), f"the record is too short for the default origins ({span}: the "
+                   f"default --from is {FIRST_AFTER_DAYS} days after the first, --to {LAST_BEFORE_DAYS} days before "
+                   f"today, {end.isoformat()}); give --from and --to")
 
 
 def print_text(result, console) -> None:

@@ -107,7 +107,14 @@ def run(args, ctx) -> int:
             if stopped_at_doubts(ctx, store.reading_doubts(corrected, ctx.units, without=[original.id]),
                                  args.confirm, "corrected"):
                 return 2
-        saved = store.correct_reading(args.reading_id, reason=args.reason, today=ctx.today, **changes)
+        try:
+            saved = store.correct_reading(args.reading_id, reason=args.reason, today=ctx.today, **changes)
+        except InputRejected as exc:
+            if original is None:
+                raise
+            from logbook.commands.record import rejected
+
+            raise rejected(exc.problems, store, dataclasses.replace(original, **changes)) from None
     ctx.console.print(
         f"reading {args.reading_id} corrected: reading {saved.id} replaces it for {saved.serial} on {saved.taken_on} "
         f"(the original is kept; see `logbook history {saved.serial}`)",

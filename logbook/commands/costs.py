@@ -7,7 +7,7 @@ from rich.table import Table
 
 from logbook import fmt
 from logbook.model import InputRejected, Problem
-from logbook.validate import COST_FIELDS, parse_number
+from logbook.validate import COST_FIELDS, parse_quantity
 
 
 def register(sub) -> None:
@@ -27,7 +27,8 @@ def register(sub) -> None:
 
 
 def _number(field: str, text: str | None) -> float | None:
-    value, problem = parse_number(COST_FIELDS[field], text)
+    spec = COST_FIELDS[field]  # as typed: a decimal comma and thousands separators where they mean one thing
+    value, problem = parse_quantity(spec, text, spec.quantity.canonical)
     if problem is not None:
         raise InputRejected([problem])
     return value
@@ -53,16 +54,21 @@ def run(args, ctx) -> int:
     _check_options(args)
     notes: list[str] = []
     with ctx.open_store() as store:
-        if args.currency is not None:
-            store.set_currency(args.currency)
-        if args.model is not None:
-            _, notes = store.set_model_costs(args.model, planned=_number("planned", args.planned),
-                                             failure=_number("failure", args.failure))
-        for scope, name in (("site", args.site), ("machine", args.machine)):
-            if name is not None:
-                store.set_downtime(scope, name, cost_per_hour=_number("per_hour", args.per_hour),
-                                   planned_hours=_number("planned_hours", args.planned_hours),
-                                   failure_hours=_number("failure_hours", args.failure_hours))
+        try:
+            if args.currency is not None:
+                store.set_currency(args.currency)
+            if args.model is not None:
+                _, notes = store.set_model_costs(args.model, planned=_number("planned", args.planned),
+                                                 failure=_number("failure", args.failure))
+            for scope, name in (("site", args.site), ("machine", args.machine)):
+                if name is not None:
+                    store.set_downtime(scope, name, cost_per_hour=_number("per_hour", args.per_hour),
+                                       planned_hours=_number("planned_hours", args.planned_hours),
+                                       failure_hours=_number("failure_hours", args.failure_hours))
+        except InputRejected as exc:  # 'did you mean Saltbrook Cut?' where only the letter case differs
+            from logbook.commands.names import Known, hinted
+
+            raise InputRejected(hinted(exc.problems, Known(store))) from None
         book = store.costs()
         fleet = store.fleet() if book.models else None
     for note in notes:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from logbook import validate
 from logbook.cautions import SAFETY
 from logbook.commands.record import add_confirm, stopped_at_doubts
-from logbook.model import Event, EventKind, InputRejected
+from logbook.model import MACHINE_EVENTS, Event, EventKind, InputRejected, Problem
 
 
 def register(sub) -> None:
@@ -36,6 +36,29 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
+def machine_needed(kind: EventKind, serial: str | None, known, day) -> Problem:
+    """What to say when a machine's event (meter_replaced, parked, back_in_service) has no
+    --machine: that it takes one, and what the word given in its place is."""
+    from logbook.commands.names import fitted_words
+
+    takes = f"{kind.value} is an event of a machine: give its unit with --machine"
+    if serial is None:
+        return Problem("--machine", "", f"is required: {takes} (a machine unit: --machine UNIT)")
+    pumps, machines = known.names("pumps"), known.names("machines")
+    if serial in pumps:
+        where = known.machine_of(serial, day)
+        told = fitted_words(known, serial, day)
+        if where is None:
+            return Problem("serial", serial, f"is a pump serial, not a machine unit: {takes}; {told}")
+        return Problem("serial", serial, f"is a pump serial, not a machine unit: {takes}; {told}: "
+                       f"`logbook event {kind.value} --machine {where[0]} ...`")
+    if serial in machines:
+        return Problem("serial", serial, f"is a machine unit given in the place of a pump serial: {takes} "
+                       f"(`logbook event {kind.value} --machine {serial} ...`)")
+    hint = validate.did_you_mean(serial, machines) or validate.did_you_mean(serial, pumps)
+    return Problem("serial", serial, f"is not a known pump serial or machine unit: {takes}{hint}")
+
+
 def run(args, ctx) -> int:
     # first, to stderr as `logbook record` does: stdout keeps only the result
     ctx.err.print(SAFETY.text(), markup=False, highlight=False, soft_wrap=True)
@@ -64,9 +87,15 @@ def run(args, ctx) -> int:
         serial_in=serial_in,
     )
     with ctx.open_store() as store:
+        from logbook.commands.names import Known, hinted
+
+        known = Known(store)
         report = store.add_events([event], today=ctx.today, dry_run=True)
-        if report.problems:
-            raise InputRejected(report.problems)  # refusals first: a doubt is only a question
+        problems = hinted(report.problems, known, serial=serial, day=happened_on, machine=machine)
+        if kind in MACHINE_EVENTS and machine is None:  # `event meter_replaced B-25530`: a machine's event
+            problems = [machine_needed(kind, serial, known, happened_on), *(p for p in problems if p.field != "machine")]
+        if problems:  # refusals first: a doubt is only a question
+            raise InputRejected(problems)
         if stopped_at_doubts(ctx, store.event_doubts(event), args.confirm):
             return 2
         saved = store.add_event(event, today=ctx.today)

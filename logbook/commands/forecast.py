@@ -147,6 +147,7 @@ def run(args, ctx) -> int:
         steps.step("reading the database")
         with ctx.open_store() as store:
             fleet = ctx.read_fleet(store)
+            empty = ctx.as_of_note(store, fleet)  # --as-of before the first record: said in the report's notes
             book = store.costs()
             stored = store.plan_setup()  # the plan settings stored (audited); flags override them for this run
             sites = {m.site for m in fleet.machines.values()}
@@ -187,7 +188,8 @@ def run(args, ctx) -> int:
 
         notes = calibration_notes(forecast, calibrated=not args.no_calibration)
         if ctx.as_of is not None:
-            notes = (f"as of {ctx.as_of.isoformat()}: only what the logbook knew that day (logbook --as-of)", *notes)
+            notes = (f"as of {ctx.as_of.isoformat()}: only what the logbook knew that day (logbook --as-of)",
+                     *([empty.removeprefix(f"--as-of {ctx.as_of.isoformat()}: ")] if empty else []), *notes)
         report = Report(forecast, plan, life, provenance, charts=not args.no_charts, max_charts=args.max_charts,
                         economies=economies, notes=notes, units=ctx.units)
         if fmt != "text":

@@ -62,8 +62,10 @@ def run(args, ctx) -> int:
         ctx.err.print(f"logbook history: --last = {args.last}: allowed 0 or more entries", markup=False)
         return 2
     with ctx.open_store() as store:
-        if args.serial not in store.pumps():
-            ctx.err.print(f"logbook history: serial {args.serial!r} is not a known pump", markup=False)
+        if args.serial not in (pumps := store.pumps()):
+            from logbook.commands.names import unknown_pump
+
+            ctx.err.print(f"logbook history: {unknown_pump(args.serial, pumps)}", markup=False)
             return 2
         trail = store.pump_trail(args.serial)
     if args.last is not None:
@@ -82,8 +84,11 @@ def run(args, ctx) -> int:
         return 0
     from logbook.commands.tables import Col, fit
 
-    cols = [Col("when (UTC)", 0, keep=True), Col("who", 3, wrap=True, keep=True), Col("what", 1, wrap=True, keep=True),
-            Col("before -> after", 2, wrap=True, keep=True), Col("reason", 4, wrap=True, keep=True)]
+    # every column kept: at 80 columns "what" and "reason" fold narrower than the change, so that the
+    # reason of a correction or removal stays on screen; where even that is too wide "who" goes first
+    cols = [Col("when (UTC)", 0, keep=True), Col("who", 4, wrap=True, keep=True),
+            Col("what", 2, wrap=True, keep=True, room=12), Col("before -> after", 3, wrap=True, keep=True),
+            Col("reason", 1, wrap=True, keep=True, room=12)]
     for entry, (what, change) in zip(trail, described):
         for col, v in zip(cols, (entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or "")):
             col.cells.append(v)

@@ -59,6 +59,12 @@ def run(args, ctx) -> int:
             report = replace(report, flagged=[*report.flagged, *looks,
                                               *fleet_doubts(after, added, ctx.units, looks,
                                                             lambda: _file_lines(data, ctx.today))])
+        if report.problems:  # 'did you mean B-25530?' where a name differs from a known one only in letter case
+            from dataclasses import replace
+
+            from logbook.commands.names import Known, hinted
+
+            report = replace(report, problems=hinted(report.problems, Known(store)))
     return print_report(ctx, report, str(args.file), lists_beside=args.file)
 
 

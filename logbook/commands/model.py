@@ -6,7 +6,7 @@ from __future__ import annotations
 from logbook import fmt
 from logbook.commands.record import parse_with_unit
 from logbook.model import ALL_KINDS, InputRejected, Kind, Problem
-from logbook.validate import COST_FIELDS, parse_number
+from logbook.validate import COST_FIELDS, parse_quantity
 
 _SHORT = {Kind.CASE_DRAIN: "drain", Kind.SERVO_PRESSURE: "servo", Kind.NEUTRAL_DRIFT: "drift"}
 _LIMIT_FIELD = {Kind.CASE_DRAIN: "case_drain", Kind.SERVO_PRESSURE: "servo_pressure", Kind.NEUTRAL_DRIFT: "neutral_drift"}
@@ -40,7 +40,8 @@ def _costs_given(args) -> tuple[float, float] | None:
     values = {}
     for option, key in (("--planned", "planned"), ("--failure", "failure")):
         if given[option] is not None:
-            value, problem = parse_number(COST_FIELDS[key], given[option])
+            spec = COST_FIELDS[key]  # as typed: a decimal comma and thousands separators where they mean one thing
+            value, problem = parse_quantity(spec, given[option], spec.quantity.canonical)
             if problem is not None:
                 problems.append(problem)
             values[key] = value
@@ -54,8 +55,10 @@ def run(args, ctx) -> int:
     notes: list[str] = []
     with ctx.open_store() as store:
         if args.code is not None and args.code not in (known := store.models()):
-            ctx.err.print(f"logbook model: {Problem('model', args.code, 'no such model; models: ' + ', '.join(sorted(known)))}",
-                          markup=False, soft_wrap=True)
+            from logbook.validate import did_you_mean
+
+            words = "no such model; models: " + ", ".join(sorted(known)) + did_you_mean(args.code, known)
+            ctx.err.print(f"logbook model: {Problem('model', args.code, words)}", markup=False, soft_wrap=True)
             return 2
         if args.limit:
             if args.code is None:

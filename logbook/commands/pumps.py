@@ -64,13 +64,16 @@ def filter_problems(fleet, *, site=None, model=None, status=None) -> list[Proble
     """A filter that can match no pump in any fleet state is a typo: name it and list what
     there is (sites of the recorded machines, the recorded models, the status words)."""
     from logbook.analysis.status import STATUS_ORDER
+    from logbook.validate import did_you_mean
 
     problems = []
     sites = sorted({m.site for m in fleet.machines.values()})
     if site is not None and site not in sites:
-        problems.append(Problem("--site", site, "no such site; sites: " + (", ".join(sites) or "none recorded")))
+        problems.append(Problem("--site", site, "no such site; sites: " + (", ".join(sites) or "none recorded")
+                                + did_you_mean(site, sites)))
     if model is not None and model not in fleet.models:
-        problems.append(Problem("--model", model, "no such model; models: " + (", ".join(sorted(fleet.models)) or "none recorded")))
+        problems.append(Problem("--model", model, "no such model; models: " + (", ".join(sorted(fleet.models)) or "none recorded")
+                                + did_you_mean(model, fleet.models)))
     if status is not None and not any(status.lower() in word.lower() for word in STATUS_ORDER):
         problems.append(Problem("--status", status, "no status contains this text; statuses: " + ", ".join(STATUS_ORDER)))
     return problems
@@ -85,13 +88,18 @@ def run(args, ctx) -> int:
 
     with ctx.open_store() as store:
         fleet = ctx.read_fleet(store)
-    problems = filter_problems(fleet, site=args.site, model=args.model, status=args.status)
-    if problems:
-        for problem in problems:
-            ctx.err.print(f"logbook pumps: {problem}", markup=False, soft_wrap=True)
-        return 2
+        problems = filter_problems(fleet, site=args.site, model=args.model, status=args.status)
+        if problems:
+            for problem in problems:
+                ctx.err.print(f"logbook pumps: {problem}", markup=False, soft_wrap=True)
+            return 2
+        note = ctx.as_of_note(store, fleet)
+    if note:  # --as-of before anything was recorded: said, not an empty table
+        ctx.err.print(f"logbook pumps: {note}", markup=False, soft_wrap=True)
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = next_tests(fleet, forecast, ctx.today)
+    if args.format == "text" and note and not forecast.pumps:
+        return 0
     if args.format == "text":
         ctx.console.print(fleet_table(forecast, ctx, site=args.site, model=args.model, status=args.status,
                                       limit=args.rows, tests=tests, due_only=args.due))

@@ -119,6 +119,14 @@ def build_reading(args, ctx) -> Reading:
     )
 
 
+def rejected(problems, store, reading: Reading) -> InputRejected:
+    """The store's refusal, with what the names given tell (``commands.names``): 'did you mean
+    B-25530?', and the machine to name when its meter runs backwards."""
+    from logbook.commands.names import Known, hinted
+
+    return InputRejected(hinted(problems, Known(store), serial=reading.serial, day=reading.taken_on))
+
+
 def run(args, ctx) -> int:
     # first, to stderr (as `logbook event`): stdout keeps only the result
     ctx.err.print(SAFETY.text(), markup=False, highlight=False, soft_wrap=True)
@@ -127,14 +135,14 @@ def run(args, ctx) -> int:
         if args.dry_run:
             report = store.add_readings([reading], today=ctx.today, dry_run=True)
             if report.problems:
-                raise InputRejected(report.problems)
+                raise rejected(report.problems, store, reading)
             if stopped_at_doubts(ctx, store.reading_doubts(reading, ctx.units), args.confirm, "checked"):
                 return 2
             ctx.console.print("reading is valid; nothing written (--dry-run)")
             return 0
         report = store.add_readings([reading], today=ctx.today, dry_run=True)
         if report.problems:
-            raise InputRejected(report.problems)  # refusals first: a doubt is only a question
+            raise rejected(report.problems, store, reading)  # refusals first: a doubt is only a question
         if stopped_at_doubts(ctx, store.reading_doubts(reading, ctx.units), args.confirm):
             return 2
         previous = store.readings(reading.serial)

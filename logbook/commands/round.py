@@ -41,7 +41,10 @@ def _check_args(args) -> str | None:
 
 def _check(args, sites: set[str]) -> str | None:
     if args.site is not None and args.site not in sites:
-        return f"--site = {args.site!r}: not a known site; known: {', '.join(sorted(sites)) or 'none'}"
+        from logbook.validate import did_you_mean
+
+        return (f"--site = {args.site!r}: not a known site; known: {', '.join(sorted(sites)) or 'none'}"
+                f"{did_you_mean(args.site, sites)}")
     return None
 
 
@@ -49,8 +52,10 @@ def due_table(tests, today, console) -> Table:
     """The terminal list: one row per pump, in walking order, fitting the console."""
     from logbook.commands.tables import Col, fit
 
-    cols = [Col("serial", 0), Col("site", 4), Col("machine/pos", 1), Col("model", 6), Col("last reading", 5),
-            Col("since", 7), Col("next test", 2, keep=True), Col("why", 3, wrap=True, keep=True)]
+    # the site is kept (a walk is by site): at 80 columns it and the next test fold
+    cols = [Col("serial", 0), Col("site", 1, wrap=True, keep=True, room=9), Col("machine/pos", 2), Col("model", 6),
+            Col("last reading", 5), Col("since", 7), Col("next test", 3, wrap=True, keep=True, room=16),
+            Col("why", 4, wrap=True, keep=True, room=16)]
     for t in tests:
         since = "-"
         if t.days_since_reading is not None:
@@ -74,6 +79,7 @@ def run(args, ctx) -> int:
         return 2
     with ctx.open_store() as store:
         fleet = ctx.read_fleet(store)
+        note = ctx.as_of_note(store, fleet)
     problem = _check(args, {m.site for m in fleet.machines.values()})
     if problem:
         ctx.err.print(f"logbook round: {problem}", markup=False)
@@ -87,6 +93,8 @@ def run(args, ctx) -> int:
         except OutputRefused as exc:
             ctx.err.print(f"logbook round: {exc}", markup=False, soft_wrap=True)
             return 2
+    if note:  # --as-of before the first record: nothing to walk to
+        ctx.err.print(f"logbook round: {note}", markup=False, soft_wrap=True)
     forecast = forecast_fleet(fleet, today=ctx.today)
     tests = plan_round(fleet, forecast, ctx.today, site=args.site, within_days=args.within, everyone=args.everyone)
     if args.format == "text":

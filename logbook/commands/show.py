@@ -24,15 +24,20 @@ def run(args, ctx) -> int:
     with ctx.open_store() as store:
         pumps = store.pumps()
         if args.serial not in pumps:
-            ctx.err.print(f"logbook show: serial {args.serial!r} is not a known pump", markup=False)
+            from logbook.commands.names import unknown_pump
+
+            ctx.err.print(f"logbook show: {unknown_pump(args.serial, pumps)}", markup=False)
             return 2
         fleet = ctx.read_fleet(store)
+        note = ctx.as_of_note(store, fleet)
         history = fleet.history(args.serial)
         all_readings = store.readings(args.serial, include_superseded=True) if args.all_readings else history.readings
         if ctx.as_of is not None and args.all_readings:  # as listed on the day: later corrections not yet made
             from logbook.asof import readings_known_on
 
             all_readings = readings_known_on(all_readings, store.fleet_history()[1], ctx.as_of)
+    if note:  # --as-of before the first record: said before the (empty) tables
+        ctx.err.print(f"logbook show: {note}", markup=False, soft_wrap=True)
     forecast = forecast_in_fleet(fleet, args.serial, ctx.today)
     if args.format != "text":
         from logbook.exports import listings
@@ -82,21 +87,36 @@ def run(args, ctx) -> int:
             Col("flags", 7, wrap=True)]
     for kf in forecast.kinds:
         _add(cols, kf.kind.label, fmt.value(kf.kind, kf.latest_value, u), fmt.value(kf.kind, kf.limit.value, u) if kf.limit else "-",
-             kf.path, fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), OUTCOME_WORDS[kf.outcome],
+             kf.path, fmt.day(kf.p10_date), fmt.day(kf.p50_date), fmt.day(kf.p90_date), outcome_words(kf),
              ", ".join(sorted(kf.flags)).replace("_", " "))
     c.print(fit(c, cols, title="forecast (normalized to reference conditions)", more="--format json has them all")[0])
     from logbook.analysis.backtest import kind_calibration_words
+    from logbook.analysis.fleet import DEFAULT_HORIZON_HOURS
 
     checked = max((kf.calibrated_on for kf in forecast.kinds), default=0)
     c.print("P10 / P50 / P90: dates by which the pump's true condition (not one noisy reading) is past the limit "
             "with 10 / 50 / 90 % chance, weighing several wear paths (path: the heaviest); bands "
-            + kind_calibration_words(checked, m.code) + ".", markup=False, highlight=False)
+            + kind_calibration_words(checked, m.code) + f"; the horizon: {DEFAULT_HORIZON_HOURS:,.0f} operating hours "
+            "ahead (a date beyond it is '-').", markup=False, highlight=False)
     if forecast.utilisation_basis:  # parked or run by season: which hours the dates assume
         c.print(f"{forecast.machine} {forecast.utilisation_basis}.", markup=False, highlight=False)
     for kf in forecast.kinds:
         for why in kf.not_used:
             c.print(f"{kf.kind.label} reading of {why} - not used in the trend", markup=False, highlight=False)
     return 0
+
+
+def outcome_words(kf) -> str:
+    """The outcome as the quantiles shown beside it have it: a P10 date inside the horizon with the
+    P50 beyond it is 'P50 beyond the horizon', not 'no crossing' (the engine's NO_CROSSING means
+    no P50 crossing within the horizon); a crossing whose P90 lies beyond it says so too."""
+    from logbook.analysis.results import Outcome
+
+    if kf.outcome is Outcome.NO_CROSSING and kf.p10_date is not None:
+        return "P50 beyond the horizon"
+    if kf.outcome is Outcome.CROSSING and kf.p90_date is None:
+        return "P90 beyond the horizon"
+    return OUTCOME_WORDS[kf.outcome]
 
 
 def _add(cols, *values) -> None:

@@ -36,6 +36,7 @@ class Col:
     keep: bool = False  # never left out (it folds instead, when it may)
     justify: str = "left"
     cells: list[str] = field(default_factory=list)
+    room: int = 0  # when it folds, the characters a line keeps at least (0: FOLD_ROOM; never below its longest word)
 
 
 class PlainTable(Table):
@@ -173,7 +174,7 @@ def fit(console: Console, cols: list[Col], *, title=None, more: str = "--format 
 
     def folded(c) -> int:  # a folded column keeps room for a few words a line (FOLD_ROOM), never less than its longest word
         low, high = sizes[id(c)]
-        return max(low, min(high, FOLD_ROOM))
+        return max(low, min(high, c.room or FOLD_ROOM))
 
     def need(cs, fold) -> int:
         return sum(folded(c) if c.wrap and fold(c) else sizes[id(c)][1] for c in cs) + 2 * (len(cs) - 1)
@@ -192,4 +193,18 @@ def fit(console: Console, cols: list[Col], *, title=None, more: str = "--format 
             shown.remove(col)
     left_out = [c.header for c in cols if c not in shown]
     caption = f"(left out at {width} columns: {', '.join(left_out)}; {more})" if left_out else None
-    return _table(shown, title, caption), left_out
+    table = _table(shown, title, caption)
+    if need(shown, lambda c: False) > width >= need(shown, lambda c: True):
+        # the folding columns narrowed here, never below their longest word (rich's own collapse would cut
+        # one: a date inside a change, a serial inside a reason), the widest first
+        widths = [sizes[id(c)][1] for c in shown]
+        floors = [folded(c) if c.wrap else widths[i] for i, c in enumerate(shown)]
+        excess = need(shown, lambda c: False) - width
+        while excess > 0:
+            i = max((j for j in range(len(shown)) if widths[j] > floors[j]), key=lambda j: widths[j])
+            widths[i] -= 1
+            excess -= 1
+        for column, c, w in zip(table.columns, shown, widths):
+            if c.wrap:
+                column.width = w
+    return table, left_out
