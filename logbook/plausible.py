@@ -208,9 +208,12 @@ def reading_doubts(reading: Reading, ctx: Context, prefs: UnitPrefs | None = Non
             value = abs(value) if kind is Kind.NEUTRAL_DRIFT else value  # the trend is of its magnitude
         if band is not None and value is not None and not band[0] <= value <= band[1]:
             at_ref = f" ({fmt.value(kind, value, prefs)} at reference conditions)" if kind is Kind.CASE_DRAIN else ""
+            # neutral drift is signed, its trend and band of its size: say the size that was compared
+            size = f"its size {fmt.value(kind, value, prefs)} is " if kind is Kind.NEUTRAL_DRIFT else ""
+            of = " (the drift's size, either sign)" if kind is Kind.NEUTRAL_DRIFT else ""
             doubts.append(Doubt(kind.value, shown,
-                                f"outside where the pump's trend expects a reading now{at_ref}: "
-                                f"{fmt.value(kind, band[0], prefs)} to {fmt.value(kind, band[1], prefs)}"))
+                                f"{size}outside where the pump's trend expects a reading now{at_ref}: "
+                                f"{fmt.value(kind, band[0], prefs)} to {fmt.value(kind, band[1], prefs)}{of}"))
     return doubts
 
 

@@ -195,3 +195,13 @@ def test_the_import_screen_reads_the_stores_columns_as_it_reads_records():
         assert fleet_doubts(as_cols, new_cols) == fleet_doubts(fleet, new)
         passed += len(expected)
     assert passed  # the screen let something through to compare
+
+
+def test_a_signed_drift_is_compared_by_its_size_and_the_message_says_so():
+    # neutral drift is signed (A-B pressure); its trend and band are of the size: -1.20 bar is 1.20 bar
+    ctx = Context(MODEL, bands={Kind.NEUTRAL_DRIFT: (1.98, 5.43)})
+    (doubt,) = reading_doubts(reading(neutral_drift_bar=-1.2), ctx)
+    assert doubt.shown == "-1.20 bar"  # the value as typed, sign kept
+    assert doubt.reason.startswith("its size 1.20 bar is outside where the pump's trend expects a reading now")
+    assert "1.98 bar to 5.43 bar (the drift's size, either sign)" in doubt.reason
+    assert reading_doubts(reading(neutral_drift_bar=-2.5), ctx) == []  # size 2.5 inside the band
