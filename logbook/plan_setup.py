@@ -77,8 +77,10 @@ class PlanSetup:
             turnaround_months=self.turnaround_months if turnaround is None else turnaround,
         )
 
-    def words(self) -> str:
-        """The assumptions in one line, as the plan screen and reports state them."""
+    def words(self, models=()) -> str:
+        """The assumptions in one line, as the plan screen and reports state them. A value left blank sets
+        no limit and is said so; 'none on hand' is said only of a model with 0 exchange pumps (``models``:
+        the recorded ones, to say that the others are left blank)."""
         def plural(n, word):
             return f"{n} {word}" + ("" if n == 1 else "s")
 
@@ -86,8 +88,14 @@ class PlanSetup:
         parts = [f"shop capacity {shop}"]
         if self.site_capacity:
             parts.append("per site " + ", ".join(f"{s} {n}" for s, n in sorted(self.site_capacity.items())))
-        parts.append("exchange pumps " + (", ".join(f"{m} {n}" for m, n in sorted(self.exchange_on_hand.items()))
-                                          or "none on hand"))
+        given = sorted(self.exchange_on_hand.items())
+        if not given:
+            parts.append("exchange pumps no limit set")
+        else:
+            words = [f"{m} {'none on hand' if n == 0 else n}" for m, n in given]
+            if set(models) - set(self.exchange_on_hand):
+                words.append("other models no limit set")
+            parts.append("exchange pumps " + ", ".join(words))
         parts.append(f"turnaround {plural(self.turnaround_months, 'month')}")
         parts.append(f"horizon {plural(self.horizon_months, 'month')}")
         return "; ".join(parts)

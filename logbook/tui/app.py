@@ -83,12 +83,23 @@ class LogbookApp(App):
         self.seen_changes: int | None = None
         self.trouble: str = ""
         self.refreshing = False  # a saved pump's forecast is shown; the rest of the fleet's is coming
-        self.user = getattr(store, "user", None) or ""
         sixteen = self.console.color_system in (None, "standard")
         dark, light_theme = ("ansi-dark", "ansi-light") if sixteen else ("textual-dark", "textual-light")
         self.theme = light_theme if light else dark
         self.export_dir = export_dir  # where the plan export goes (default: the working directory)
         self.blink = blink  # text cursor blinking (off in tests and snapshots)
+
+    @property
+    def user(self) -> str:
+        """Who is signed in: ``--as NAME``, else the login name, found as every command's
+        store finds it (``store.core.default_user``: what `logbook record` records as)."""
+        source = self.gate.store if self.gate.store is not None else self.gate.opener
+        named = getattr(source, "user", None)
+        if named:
+            return named
+        from logbook.store.core import default_user
+
+        return default_user()
 
     @property
     def store(self):
@@ -294,10 +305,26 @@ class LogbookApp(App):
             from logbook.tui.screens.round import RoundScreen
 
             if isinstance(screen, (EntryScreen, RoundScreen)):
-                self.notify(f"The logbook as of {self.as_of.isoformat()} (--as-of) is read-only: nothing is recorded "
-                            "here. Start logbook without --as-of to record.", timeout=6, markup=False)
+                self.say_read_only()
                 return None
         return super().push_screen(screen, *args, **kwargs)
+
+    def read_only_key(self, screen, event) -> bool:
+        """A key of ``screen`` that records something (its ``WRITING_ACTIONS``), pressed in the
+        view of a past day: its binding is off there (not on the key bar), so say why
+        nothing happens and take the key. True when it was one."""
+        if self.as_of is None:
+            return False
+        writing = getattr(screen, "WRITING_ACTIONS", ())
+        if event.key not in {b.key for b in screen.BINDINGS if b.action in writing}:
+            return False
+        self.say_read_only()
+        event.stop()
+        return True
+
+    def say_read_only(self) -> None:
+        self.notify(f"The logbook as of {self.as_of.isoformat()} (--as-of) is read-only: nothing is recorded "
+                    "here. Start logbook without --as-of to record.", timeout=6, markup=False)
 
     def action_help(self) -> None:
         from logbook.tui.screens.help import HelpScreen

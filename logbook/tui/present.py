@@ -136,6 +136,18 @@ def short_money(value: float | None) -> str:
     return f"{sign}{v / 1e6:.0f}M"
 
 
+def whole_money(value: float | None) -> str:
+    """An amount in full with thousands separators: 12,500, or 12,500.50 with cents ('' for none)."""
+    if value is None or value != value:
+        return ""
+    return f"{value:,.0f}" if value == round(value) else f"{value:,.2f}"
+
+
+def setup_words(setup, models=()) -> str:
+    """The plan settings (plan_setup.PlanSetup) in one line, as the plan screen states them."""
+    return setup.words(models)
+
+
 def either_way(line) -> str:
     """What moving a plan line's job one month earlier / later adds to its expected cost ('' without costs)."""
     if line.expected_cost is None:

@@ -58,7 +58,9 @@ def test_words_state_every_assumption():
                       exchange_on_hand={"TX-90": 2}, turnaround_months=1).words()
     assert words == ("shop capacity 1 job a month; per site North Yard 1; exchange pumps TX-90 2; "
                      "turnaround 1 month; horizon 12 months")
-    assert PlanSetup().words().startswith("shop capacity no limit; exchange pumps none on hand")
+    assert PlanSetup().words().startswith("shop capacity no limit; exchange pumps no limit set")
+    assert PlanSetup(exchange_on_hand={"TX-90": 0}).words(("TX-90", "TX-45")).startswith(
+        "shop capacity no limit; exchange pumps TX-90 none on hand, other models no limit set")
 
 
 def _plan(capsys, db, *args) -> dict:

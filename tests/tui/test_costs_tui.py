@@ -109,7 +109,7 @@ async def test_models_screen_shows_costs_and_the_cost_optimal_age(demo_app, demo
             assert eco is not None  # the demo operator priced every model
             opt = eco.optimum
             age = "no fit" if eco.shape is None else f"{opt.age_hours:,.0f} h" if opt.age_hours is not None else "none"
-            assert row[4:7] == [present.short_money(eco.planned), present.short_money(eco.failure), age]
+            assert row[4:7] == [present.whole_money(eco.planned), present.whole_money(eco.failure), age]
         assert "Costs in EUR" in str(demo_app.screen.query_one("#model-money").render())
 
 

@@ -80,6 +80,36 @@ async def test_prefills_are_the_models_test_conditions_and_the_signed_in_user(de
         assert not form.fields["technician"].has_class("-prefilled")  # touched
 
 
+async def test_without_a_name_given_the_technician_is_the_login_the_commands_record_as(demo_db, monkeypatch):
+    # `logbook` without --as: the opener has no user; the form offers the login name, found as
+    # every command's store finds it (store.core.default_user), and the saved reading keeps it
+    from logbook.store import Store, core
+    from logbook.tui.app import make_app
+    from logbook.tui.gate import StoreOpener
+
+    monkeypatch.setattr(core, "default_user", lambda: "login-name")
+    app = make_app(StoreOpener(demo_db), today=TODAY, poll_seconds=0, blink=False)
+    try:
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(app, pilot)
+            order = list(app.screen.serials)
+            await pilot.press("r")
+            await settle(app, pilot)
+            form = app.screen
+            assert isinstance(form, ReadingScreen) and form.serial == order[0]
+            assert form.fields["technician"].text == "login-name" == app.store.user
+            assert form.fields["technician"].has_class("-prefilled")
+            fill(form, machine_hours=f"{meter_now(app, app.pump_forecast(order[0]).machine):.0f}",
+                 servo_pressure="24.5", case_drain="", oil_temp="")
+            await pilot.press("f2")
+            await settle(app, pilot)
+    finally:
+        app.gate.close()
+    with Store(demo_db, create=False, user="checker") as store:
+        saved = [r for r in store.readings(order[0]) if r.taken_on == TODAY]
+    assert [(r.technician, r.entered_by) for r in saved] == [("login-name", "login-name")]
+
+
 async def test_the_date_is_not_carried_to_the_next_pump(demo_app, demo_store):
     app = demo_app
     async with app.run_test(size=(120, 40)) as pilot:

@@ -11,6 +11,7 @@ from logbook.plan_setup import PlanSetup
 from logbook.tui.screens.plan import PlanScreen
 from logbook.tui.screens.plan_settings import PlanSettingsScreen
 from tests.tui.conftest import settle
+from tests.tui.screen_text import screen_text
 from tests.tui.test_entry import text
 
 
@@ -64,24 +65,74 @@ async def test_settings_edited_on_the_plan_screen_are_stored_audited_and_planned
         assert f"per site {first_site} 1" in _said(screen, "#assumptions")
 
 
+async def _settings_form(app, pilot) -> PlanSettingsScreen:
+    await _plan(app, pilot)
+    await pilot.press("s")
+    await settle(app, pilot)
+    assert isinstance(app.screen, PlanSettingsScreen)
+    return app.screen
+
+
 async def test_a_bad_setting_is_refused_naming_the_field_and_nothing_is_stored(demo_store, demo_app):
     async with demo_app.run_test(size=(80, 24)) as pilot:
-        await _plan(demo_app, pilot)
-        await pilot.press("s")
-        await settle(demo_app, pilot)
-        form = demo_app.screen
+        form = await _settings_form(demo_app, pilot)
         form.fields["horizon"].input.value = "0"
         form.fields["capacity"].input.value = "two"
         await pilot.press("f2")
         await settle(demo_app, pilot)
-        assert "not saved" in _said(form, "#check")
+        check = _said(form, "#check")
+        assert "not saved" in check and "2 field(s) to fix" in check
         assert "Shop capacity 'two'" in _said(form, "#field-capacity .field-message")  # the label on screen
+        assert "Horizon '0': a whole number of months from 1 to 60" in check  # on the same F2
+        assert form.fields["horizon"].has_class("-bad") and form.fields["capacity"].has_class("-bad")
         assert demo_store.plan_setup() == PlanSetup()
-        form.fields["capacity"].input.value = ""
+
+
+async def test_every_bad_setting_is_named_on_one_f2_and_nothing_is_written(demo_store, demo_app):
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        form = await _settings_form(demo_app, pilot)
+        audit = len(demo_store.audit_trail())
+        form.fields["capacity"].input.value = "-2"  # refused by the field itself
+        form.fields["horizon"].input.value = "0"  # by the plan's limits, on the same press
+        form.fields["turnaround"].input.value = "30"
+        form.fields["site_0"].input.value = "-1"
         await pilot.press("f2")
         await settle(demo_app, pilot)
-        assert "horizon" in _said(form, "#check") and "1 to 60" in _said(form, "#check")
-        assert demo_store.plan_setup() == PlanSetup()
+        check = _said(form, "#check")
+        assert "not saved" in check and "4 field(s) to fix" in check
+        for said in ("Shop capacity '-2': zero or more jobs a month", "Horizon '0': a whole number of months from 1 to 60",
+                     "Turnaround '30': 0 to 24 months", "'-1': zero or more jobs a month"):
+            assert said in check, said
+        assert form.sites[0] in check  # the site is named
+        assert all(form.fields[n].has_class("-bad") for n in ("capacity", "horizon", "turnaround", "site_0"))
+        assert demo_store.plan_setup() == PlanSetup() and len(demo_store.audit_trail()) == audit
+        form.fields["horizon"].input.value = "12"  # mended ones leave the list; the rest stay
+        await settle(demo_app, pilot)
+        check = _said(form, "#check")
+        assert "3 field(s) to fix" in check and "Horizon" not in check and "Turnaround '30'" in check
+
+
+async def test_blank_settings_read_as_no_limit_and_0_exchange_pumps_as_none_on_hand(demo_store, demo_app):
+    async with demo_app.run_test(size=(80, 24)) as pilot:
+        screen = await _plan(demo_app, pilot)
+        said = _said(screen, "#assumptions")
+        assert "exchange pumps no limit set" in said and "none on hand" not in said  # blank: the plan sets no limit
+        await pilot.press("s")
+        await settle(demo_app, pilot)
+        form = demo_app.screen
+        blanks = [n for n in form.fields if n.startswith(("site_", "model_"))]
+        assert blanks and {form.fields[n].input.placeholder for n in blanks} == {"blank: no limit"}
+        shown = screen_text(demo_app)
+        assert "jobs a month" in shown and "pumps on hand" in shown  # the units whole at 80 columns
+        zero, other = form.models[0], form.models[1]
+        form.fields["model_0"].input.value = "0"
+        await pilot.press("f2")
+        await settle(demo_app, pilot)
+        assert demo_store.plan_setup().exchange_on_hand == {zero: 0}
+        await pilot.press("escape")
+        await settle(demo_app, pilot)
+        said = _said(screen, "#assumptions")
+        assert f"exchange pumps {zero} none on hand, other models no limit set" in said and other not in said
 
 
 async def test_export_goes_to_the_path_typed_in_the_format_of_its_suffix(demo_app, tmp_path):

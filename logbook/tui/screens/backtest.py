@@ -15,9 +15,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 TABLE = (("readings", "Later readings"), ("below_p10", "<P10"), ("above_p90", ">P90"), ("p50_error", "P50 err"),
          ("crossings", "Crossed"), ("km_before_p10", "KM<P10"), ("km_after_p90", "KM>P90"))
@@ -82,7 +83,7 @@ class BacktestScreen(Screen):
         yield Plain("Forecasting the fleet as of past dates…", id="backtest-status")
         yield DataTable(id="backtest-table", cursor_type="row", zebra_stripes=True)
         yield Plain("", id="backtest-notes")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         table = self.query_one("#backtest-table", DataTable)

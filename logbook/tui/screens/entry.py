@@ -130,7 +130,7 @@ class EntryScreen(Screen):
         values, problems = self.parse_all()
         self._token += 1
         if problems:
-            self.show_check([], self._to_fix(problems))
+            self.show_check(problems, self._to_fix(problems))
             return
         try:
             record = self.build_record(values)
@@ -208,9 +208,10 @@ class EntryScreen(Screen):
             self._timer.stop()  # the save's own verdict must not be overwritten by a late check
         values, problems = self.parse_all()
         if problems:
-            self.show_check([], "not saved: " + self._to_fix(problems))
-            first = next(f for f in self.active_fields().values() if f.has_class("-bad"))
-            first.input.focus()
+            self.show_check(problems, "not saved: " + self._to_fix(problems))
+            first = next((f for f in self.active_fields().values() if f.has_class("-bad")), None)
+            if first is not None:
+                first.input.focus()
             return
         try:
             record = self.build_record(values)

@@ -8,7 +8,7 @@ from __future__ import annotations
 from textual import on
 from textual.app import ComposeResult
 from textual.containers import Container, Horizontal, VerticalScroll
-from textual.widgets import Footer, Label, Select, Static
+from textual.widgets import Label, Select, Static
 
 from logbook import fmt
 from logbook.cautions import RUNNING_MACHINE
@@ -17,6 +17,7 @@ from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
 from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
+from logbook.tui.widgets.keybar import KeyBar
 
 
 #: Events whose work is done with the engine running: the short safety box adds that point.
@@ -50,7 +51,7 @@ class EventScreen(SafetyKey, EntryScreen):
             yield Plain("Fill in the event; the logbook checks it as you type.", id="check")
             yield Plain("", id="result")
             yield SafetyBox(self._safety_extra())
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def focus_order(self):
         return [self.query_one("#kind", Select), *super().focus_order()]

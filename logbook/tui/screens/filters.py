@@ -7,10 +7,11 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
-from textual.widgets import Footer, Label, Select, Static
+from textual.widgets import Label, Select, Static
 
 from logbook import fmt
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 FILTERS = (("site", "Site", "All sites"), ("model", "Model", "All models"), ("status", "Status", "All statuses"),
            ("due", "Next reading", "Any date"))
@@ -44,7 +45,7 @@ class FilterScreen(ModalScreen[dict]):
                     yield Select([(fmt.text(v), v) for v in values], prompt=prompt, compact=True, id=name,
                                  value=current if current in values else Select.NULL)
             yield Plain("", id="filter-count")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.query_one("#site", Select).focus()

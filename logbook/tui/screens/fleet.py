@@ -17,11 +17,12 @@ from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.coordinate import Coordinate
 from textual.screen import ModalScreen, Screen
-from textual.widgets import DataTable, Footer, Input, Static
+from textual.widgets import DataTable, Input, Static
 
 from logbook.tui.layout import ColumnSpec, fleet_columns
 from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import Cell, OpenTable
+from logbook.tui.widgets.keybar import KeyBar
 
 
 #: The filter value (and status line words) for pumps whose next reading is due.
@@ -44,6 +45,8 @@ class FleetScreen(Screen):
                 id="fleet.reading"),
         Binding("e", "record_event", "Event", tooltip="record an overhaul, exchange, re-set, repair, oil change, move...",
                 id="fleet.event"),
+        Binding("o", "round", "Round", tooltip="a reading round: a site's pumps due for a reading, one after another",
+                id="fleet.round"),
         Binding("s", "sort_next", "Sort", tooltip="sort by the next column (most urgent, P10, P50, hours, serial...)",
                 id="fleet.sort"),
         Binding("S", "sort_reverse", "Reverse", show=False, tooltip="reverse the sort order", id="fleet.sort_reverse"),
@@ -54,13 +57,16 @@ class FleetScreen(Screen):
         Binding("x", "clear_filters", "Clear filters", show=False, tooltip="show every pump again", id="fleet.clear"),
         Binding("m", "models", "Models", tooltip="pump models: limits and reference conditions", id="fleet.models"),
         Binding("p", "plan", "Plan", tooltip="the month-by-month overhaul plan and its export", id="fleet.plan"),
-        Binding("b", "backtest", "Backtest", show=False, tooltip="how past forecasts did, per pump model",
+        Binding("b", "backtest", "Backtest", tooltip="how past forecasts did, per pump model",
                 id="fleet.backtest"),
-        Binding("o", "round", "Round", show=False, tooltip="a reading round: a site's pumps due for a reading, one after another",
-                id="fleet.round"),
         Binding("escape", "back_to_table", "Table", show=False, tooltip="back to the table from the serial box",
                 id="fleet.table"),
     ]
+
+    #: Left out of the key bar, in this order, when it is too narrow for every key (F1 lists them all).
+    KEY_BAR_DROPS = ("fleet.sort", "fleet.models")
+    #: What records something: not offered in the view of a past day (--as-of, read-only).
+    WRITING_ACTIONS = frozenset({"record_reading", "record_event", "round"})
 
     def __init__(self) -> None:
         super().__init__()
@@ -86,7 +92,7 @@ class FleetScreen(Screen):
         table = OpenTable(id="fleet-table", cursor_type="row", zebra_stripes=True, cell_padding=0)
         yield table
         yield Plain("Reading the logbook…", id="status-line")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.query_one("#find", Input).cursor_blink = getattr(self.app, "blink", True)
@@ -255,9 +261,11 @@ class FleetScreen(Screen):
         cost = [f"cost in {money.currency or 'no currency'}"] \
             if money is not None and money.costs is not None else []
         line = " · ".join([f"{len(pumps)} of {len(everything)} shown", f"{due} {READING_DUE}", f"sorted: {order}"]
-                          + cost + (["; ".join(parts)] if parts else []))
+                          + cost)
         if self.app.refreshing:
             line += " · re-forecasting the other pumps…"
+        if parts:  # a line of their own (wrapped when narrow: the status line grows, never cuts them off)
+            line += "\n" + "; ".join(parts)
         if self.app.trouble:
             line = f"Last refresh failed: {self.app.trouble}"
         self.query_one("#status-line", Static).update(line)
@@ -318,8 +326,14 @@ class FleetScreen(Screen):
         self._layout = ()
         self.refill()
 
+    def check_action(self, action: str, parameters) -> bool | None:
+        """As of a past day (--as-of) the keys that record are off the key bar (the keys say why)."""
+        return not (action in self.WRITING_ACTIONS and self.app.as_of is not None)
+
     def on_key(self, event: events.Key) -> None:
         """Typing a serial on the table (digits, capitals, '-') jumps to it."""
+        if self.app.read_only_key(self, event):
+            return
         table = self.query_one("#fleet-table", DataTable)
         if self.focused is not table or event.character is None:
             return

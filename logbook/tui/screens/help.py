@@ -7,9 +7,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import ModalScreen, Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from logbook.analysis.status import STATUS_ORDER
+from logbook.tui.widgets.keybar import KeyBar
 
 KEY_NAMES = {
     "escape": "Esc", "enter": "Enter", "slash": "/", "question_mark": "?", "tab": "Tab", "shift+tab": "Shift+Tab",
@@ -63,6 +64,9 @@ def binding_lines(screen: Screen) -> list[tuple[str, str]]:
         node = node.parent
     sources += [_own_bindings(type(screen)), _own_bindings(type(screen.app))]
     keys_of: dict[str, list[str]] = {}  # one line per action: "F1 ?" both open help
+    past_day = getattr(screen.app, "as_of", None) is not None  # --as-of: the keys that record are off
+    off = {b.action for b in _own_bindings(type(screen))
+           if past_day and screen.check_action(b.action, ()) is False}
     for bindings in sources:
         for b in bindings:
             if b.key in seen or not b.description:
@@ -72,6 +76,8 @@ def binding_lines(screen: Screen) -> list[tuple[str, str]]:
                 continue  # letters go into the form's fields there
             seen.add(b.key)
             words = b.description + (f": {b.tooltip}" if b.tooltip else "")
+            if b.action in off:
+                words += " (off: this view of a past day, --as-of, is read-only)"
             if words not in keys_of:
                 keys_of[words] = []
                 lines.append(("", words))
@@ -114,7 +120,7 @@ class HelpScreen(ModalScreen):
                 "The trend arrow shows whether the value rises (↑) or falls (↓); → steady.",
                 id="help-notes",
             )
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def action_close(self) -> None:
         self.dismiss()

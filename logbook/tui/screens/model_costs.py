@@ -10,13 +10,14 @@ from dataclasses import replace
 
 from textual.app import ComposeResult
 from textual.containers import Container, VerticalScroll
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from logbook import fmt, units, validate
 from logbook.model import InputRejected, Problem
 from logbook.tui.forms import FieldDef
 from logbook.tui.screens.entry import EntryScreen
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 #: The fields by their on-screen label (a problem names the field as the form shows it).
 PLANNED, FAILURE = "Planned cost", "Failure cost"
@@ -68,7 +69,7 @@ class ModelCostsScreen(EntryScreen):
                     yield self.make_field(d, self.prefill.get(d.name, ""))
             yield Plain("Change what you need; F2 saves, Esc goes back without saving.", id="check")
             yield Plain("", id="result")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.fields["planned_cost"].input.focus()

@@ -4,13 +4,14 @@ from __future__ import annotations
 
 from textual.app import ComposeResult
 from textual.containers import Container, VerticalScroll
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from logbook import fmt, units, validate
 from logbook.model import ALL_KINDS, Kind, Limit, Problem, PumpModel
 from logbook.tui.forms import FieldDef, _free, _number, _oil_grade
 from logbook.tui.screens.entry import EntryScreen
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 LIMIT_FIELDS = {Kind.CASE_DRAIN: "case_drain_limit", Kind.SERVO_PRESSURE: "servo_pressure_limit",
                 Kind.NEUTRAL_DRIFT: "neutral_drift_limit"}
@@ -83,7 +84,7 @@ class ModelEditScreen(EntryScreen):
                     yield self.make_field(d, prefill.get(d.name, ""))
             yield Plain("Change what you need; F2 saves, Esc goes back without saving.", id="check")
             yield Plain("", id="result")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.fields["case_drain_limit"].input.focus()

@@ -6,12 +6,13 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from logbook import fmt
 from logbook.model import ALL_KINDS
 from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import EditTable
+from logbook.tui.widgets.keybar import KeyBar
 
 
 class ModelsScreen(Screen):
@@ -32,7 +33,7 @@ class ModelsScreen(Screen):
         yield EditTable(id="models-table", cursor_type="row", zebra_stripes=True)
         yield Plain("", id="model-money")
         yield Plain("", id="status-line")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.watch(self.app, "data_generation", self._data_changed, init=True)
@@ -99,15 +100,16 @@ class ModelsScreen(Screen):
 
 
 def _money_cells(eco) -> tuple[str, str, str]:
-    """Planned and failure cost and the cost-optimal overhaul age of a model ('' without costs)."""
-    from logbook.tui.present import short_money
+    """Planned and failure cost (whole figures, as typed in: 12,500) and the cost-optimal
+    overhaul age of a model ('' without costs)."""
+    from logbook.tui.present import whole_money
 
     if eco is None:
         return "", "", ""
     opt = eco.optimum
     age = "no fit" if eco.shape is None else f"{opt.age_hours:,.0f} h" if opt is not None and opt.age_hours is not None \
         else "none"
-    return short_money(eco.planned), short_money(eco.failure), age
+    return whole_money(eco.planned), whole_money(eco.failure), age
 
 
 def _money_lines(money) -> list[str]:

@@ -4,20 +4,44 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from rich.cells import cell_len
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from logbook import fmt
 from logbook.tui import present
 from logbook.tui.gate import trouble_text
 from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.tables import OpenTable
+from logbook.tui.widgets.keybar import KeyBar
 
 HORIZONS = (6, 12, 24)
+COLUMNS = ("Month", "Serial", "Reading", "Chance", "Cost", "Note", "P10 date", "Site", "Earlier/later", "Machine",
+           "P50 date")
+NOTE = COLUMNS.index("Note")
+#: The Note column is never narrower than this (a narrower terminal scrolls the table sideways).
+NOTE_LEAST = 20
+
+
+def plan_widths(rows: list[list[str]], width: int) -> list[int | None]:
+    """Column widths for ``width`` cells: the columns before Note as wide as their widest
+    cell, Note the room left on screen (its widest cell when that is less and the next
+    column fits whole beside it), the columns after it as wide as their cells (None: the
+    table measures them). Every column is padded by one cell either side, and one cell is
+    left for the scrollbar."""
+    def widest(i: int) -> int:
+        return max([cell_len(COLUMNS[i])] + [cell_len(r[i]) for r in rows])
+
+    before = [widest(i) for i in range(NOTE)]
+    room = width - sum(w + 2 for w in before) - 2 - 1
+    note = min(widest(NOTE), max(room, NOTE_LEAST))
+    if room - note < widest(NOTE + 1) + 2:  # the next column would show cut at the edge: Note takes the room
+        note = max(note, room)
+    return [*before, note, *([None] * (len(COLUMNS) - NOTE - 1))]
 
 
 class PlanScreen(Screen):
@@ -57,6 +81,8 @@ class PlanScreen(Screen):
         self.models: list[str] = []
         self.plan = None
         self.serials: list[str | None] = []
+        self._widths: list[int | None] = []  # the column widths laid out
+        self._rows: list[list[str]] = []  # the cells shown, laid out again on a resize
 
     def compose(self) -> ComposeResult:
         yield Static("Overhaul plan", id="title")
@@ -64,7 +90,7 @@ class PlanScreen(Screen):
         yield OpenTable(id="plan-table", cursor_type="row", zebra_stripes=True)
         yield Plain("", id="plan-money")
         yield Plain("", id="status-line")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.watch(self.app, "data_generation", self._read_setup, init=True)
@@ -110,32 +136,30 @@ class PlanScreen(Screen):
 
         money = self.app.money  # costing.FleetMoney once weighed; the least-cost plan when costs are set
         self.plan = plan = make_plan(forecast, self.settings(), money.costs if money is not None else None)
-        table = self.query_one("#plan-table", DataTable)
-        if not table.columns:
-            for label in ("Month", "Serial", "Reading", "Chance", "Cost", "P10 date", "Site", "Note", "Earlier/later",
-                          "Machine", "P50 date"):
-                table.add_column(label, key=label)
-        table.clear()
+        rows: list[list[str]] = []
         self.serials = []
         for month in plan.settings.months:
             lines = plan.month_lines(month)
             shop = sum(1 for line in lines if line.shop)
             label = month_label(month)
             if not lines:
-                table.add_row(*fmt.cells(label, "-", "", "", "", "", "", "nothing due", "", "", ""))
+                rows.append([label, "-", "", "", "", "nothing due", "", "", "", "", ""])
                 self.serials.append(None)
                 continue
             for i, line in enumerate(lines):
-                self._add_line(table, f"{label} ({shop})" if i == 0 else "", line)
+                rows.append(self._line_cells(f"{label} ({shop})" if i == 0 else "", line))
+                self.serials.append(line.serial)
         for i, line in enumerate(plan.unplaced):
-            self._add_line(table, "not placed" if i == 0 else "", line)
+            rows.append(self._line_cells("not placed" if i == 0 else "", line))
+            self.serials.append(line.serial)
+        self._fill(rows)
         setup = self.current_setup()
         self.query_one("#title", Static).update(
             f"Overhaul plan from {month_label(plan.settings.start_month)}, {setup.horizon_months} months · "
             f"forecast of {fmt.day(forecast.today)}"
         )
         this_view = " (h: this view only)" if self.horizon is not None and self.horizon != self.setup.horizon_months else ""
-        self.query_one("#assumptions", Static).update(fmt.text(f"Assumed: {setup.words()}{this_view} · s changes these"))
+        self.query_one("#assumptions", Static).update(fmt.text(f"Assumed: {present.setup_words(setup, self.models)}{this_view} · s changes these"))
         shop = sum(1 for x in plan.lines if x.shop)
         self.query_one("#status-line", Static).update(
             f"{len(plan.lines)} planned ({shop} in the shop, {len(plan.lines) - shop} on the machine), "
@@ -143,16 +167,34 @@ class PlanScreen(Screen):
         )
         self.query_one("#plan-money", Static).update(fmt.text(*present.plan_money_lines(plan)))
 
-    def _add_line(self, table: DataTable, month_text: str, line) -> None:
+    def _line_cells(self, month_text: str, line) -> list[str]:
         chance = f"{100 * line.chance_by_month_end:.0f} %" if line.chance_by_month_end is not None else "-"
         where = f"{line.machine or 'not fitted'}"
         note = line.note or line.action
         if line.month is None:
             note = line.note
-        table.add_row(*fmt.cells(month_text, line.serial, present.KIND_SHORT[line.kind], chance,
-                                 present.short_money(line.expected_cost), fmt.day(line.p10_date), line.site or "-", note,
-                                 present.either_way(line), where, fmt.day(line.p50_date)))
-        self.serials.append(line.serial)
+        return [month_text, line.serial, present.KIND_SHORT[line.kind], chance, present.short_money(line.expected_cost),
+                note, fmt.day(line.p10_date), line.site or "-", present.either_way(line), where, fmt.day(line.p50_date)]
+
+    def _fill(self, rows: list[list[str]]) -> None:
+        """The rows under columns laid out for the width: the Note column (the sixth) gets
+        the room the five before it leave on screen, and a longer note wraps in it."""
+        self._rows = rows
+        table = self.query_one("#plan-table", DataTable)
+        widths = plan_widths(rows, table.size.width or self.app.size.width)
+        if widths != self._widths:
+            self._widths = widths
+            table.clear(columns=True)
+            for label, width in zip(COLUMNS, widths):
+                table.add_column(label, key=label, width=width)
+        else:
+            table.clear()
+        note_width = widths[NOTE]
+        for cells in rows:
+            table.add_row(*fmt.cells(*cells), height=None if cell_len(cells[NOTE]) > note_width else 1)
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(lambda: self._rows and self._fill(self._rows))
 
     @on(DataTable.RowSelected)
     def _open(self, event: DataTable.RowSelected) -> None:

@@ -4,16 +4,20 @@ and per site, exchange pumps per model, turnaround and horizon. Saved with
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from textual.app import ComposeResult
 from textual.containers import Container, VerticalScroll
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from logbook import fmt
 from logbook.model import Problem
 from logbook.plan_setup import PlanSetup
+from logbook.tui import present
 from logbook.tui.forms import FieldDef
 from logbook.tui.screens.entry import EntryScreen
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 
 def _count(name: str, allowed: str, *, blank_ok: bool):
@@ -41,9 +45,9 @@ def setup_fields(sites, models) -> tuple[FieldDef, ...]:
     ]
     # one field per site and per model, named by position (a field name is a screen identifier)
     fields += [FieldDef(f"site_{i}", _label(s), _count(f"site capacity {s}", "zero or more jobs a month", blank_ok=True),
-                        "jobs a month", "blank: none") for i, s in enumerate(sites)]
+                        "jobs a month", "blank: no limit") for i, s in enumerate(sites)]
     fields += [FieldDef(f"model_{i}", f"Exchange {m}", _count(f"exchange {m}", "zero or more pumps", blank_ok=True),
-                        "pumps on hand", "blank: none") for i, m in enumerate(models)]
+                        "pumps on hand", "blank: no limit") for i, m in enumerate(models)]
     return tuple(fields)
 
 
@@ -89,10 +93,35 @@ class PlanSettingsScreen(EntryScreen):
                         "model on hand to swap in. Change what you need; F2 saves, Esc goes back without saving.",
                         id="check")
             yield Plain("", id="result")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.fields["horizon"].input.focus()
+
+    def parse_all(self) -> tuple[dict[str, object], list[Problem]]:
+        """Each field's own check, then the plan's limits (plan.PlanSettings) on every
+        value that is a number, so that one check (and one F2) names every bad field,
+        its value as typed and what is allowed. A field that is not a number stands in
+        as the default value (always allowed) for the check of the others."""
+        values, found, failed = {}, [], set()
+        order = {name: i for i, name in enumerate(self.active_fields())}
+        for name, field in self.active_fields().items():
+            value, problem = field.check()
+            values[name] = value
+            if problem:
+                found.append((order[name], problem))
+                failed.add(name)
+        default = PlanSetup()
+        stand_ins = {"horizon": default.horizon_months, "turnaround": default.turnaround_months}
+        trial = {name: stand_ins.get(name) if name in failed else value for name, value in values.items()}
+        form_name = {"horizon": "horizon", "capacity": "capacity", "turnaround": "turnaround"}
+        form_name.update({f"site capacity {s}": f"site_{i}" for i, s in enumerate(self.sites)})
+        form_name.update({f"exchange {m}": f"model_{i}" for i, m in enumerate(self.models)})
+        for p in setup_from(trial, self.sites, self.models).problems():
+            name = form_name.get(p.field)
+            if name in order and name not in failed:
+                found.append((order[name], replace(p, field=name, value=self.fields[name].text)))
+        return values, [p for _, p in sorted(found, key=lambda item: item[0])]  # in the form's order
 
     def build_record(self, values) -> PlanSetup:
         return setup_from(values, self.sites, self.models)
@@ -106,6 +135,6 @@ class PlanSettingsScreen(EntryScreen):
     def saved(self, setup: PlanSetup) -> None:
         box = self.query_one("#result", Static)
         box.border_title = fmt.text("Saved plan settings")
-        box.update(fmt.text(setup.words() + ". Esc goes back to the plan."))
+        box.update(fmt.text(present.setup_words(setup, self.models) + ". Esc goes back to the plan."))
         box.add_class("-shown")
         self.query_one("#check", Static).update("✓ Saved the plan settings.")

@@ -3,11 +3,12 @@ per reading kind, a chart of the engine's fitted trend with the projected dates.
 
 from __future__ import annotations
 
+from rich.cells import cell_len
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
+from textual.widgets import DataTable, Static, TabbedContent, TabPane
 
 from logbook import fmt
 from logbook.analysis.results import OUTCOME_WORDS
@@ -16,8 +17,29 @@ from logbook.tui import present
 from logbook.tui.widgets.chart import TrendChart
 from logbook.tui.screens.backtest import PastForecasts
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 TABS = ("trends", "readings", "events", "fitted", "history")
+HISTORY_COLUMNS = ("When (UTC)", "Who", "What", "Before -> after", "Reason")
+#: Widest Who and What before they wrap; Before -> after is never narrower than CHANGE_LEAST.
+WHO_MOST, WHAT_MOST, CHANGE_LEAST = 14, 24, 24
+
+
+def history_widths(rows: list[list[str]], width: int) -> list[int | None]:
+    """Column widths of the History tab for ``width`` cells: When as wide as a time, Who and
+    What as their widest cell up to a limit (longer ones wrap), Before -> after the room
+    left on screen (it wraps; all of it unless Reason fits whole beside it), Reason measured
+    by the table (the line under the table has it in full).
+    Every column is padded by one cell either side; one cell is left for the scrollbar."""
+    def widest(i: int) -> int:
+        return max([cell_len(HISTORY_COLUMNS[i])] + [cell_len(r[i]) for r in rows])
+
+    when, who, what = widest(0), min(widest(1), WHO_MOST), min(widest(2), WHAT_MOST)
+    room = width - (when + 2) - (who + 2) - (what + 2) - 2 - 1
+    change = min(widest(3), max(room, CHANGE_LEAST))
+    if room - change < widest(4) + 2:  # Reason would show cut at the edge: the change takes the room
+        change = max(change, room)
+    return [when, who, what, change, None]
 EVENT_WORDS = {
     "overhaul": "overhaul", "exchange": "exchange", "neutral_reset": "neutral re-set", "control_repair": "control repair",
     "oil_change": "oil change", "move": "move", "meter_replaced": "hour meter replaced",
@@ -51,6 +73,11 @@ class PumpScreen(Screen):
                 id="pump.remove"),
     ]
 
+    #: Left out of the key bar, in this order, when it is too narrow for every key (F1 lists them all).
+    KEY_BAR_DROPS = ("pump.view", "pump.kind", "app.quit")
+    #: What records, corrects or removes something: not offered in the view of a past day (--as-of).
+    WRITING_ACTIONS = frozenset({"record_reading", "record_event", "correct", "remove"})
+
     def __init__(self, serial: str, following: list[str] | None = None) -> None:
         super().__init__()
         self.serial = serial
@@ -78,7 +105,8 @@ class PumpScreen(Screen):
                 yield DataTable(id="fitted-table", cursor_type="row", zebra_stripes=True)
             with TabPane("History", id="history"):
                 yield DataTable(id="history-table", cursor_type="row", zebra_stripes=True)
-        yield Footer(compact=True)
+                yield Plain("", id="history-detail", classes="form-hint")
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.watch(self.app, "data_generation", self._data_changed, init=True)
@@ -227,6 +255,13 @@ class PumpScreen(Screen):
                                      fmt.hours(f.pump_hours_at_fit)))
 
     # -- events ----------------------------------------------------------------------------
+    def check_action(self, action: str, parameters) -> bool | None:
+        """As of a past day (--as-of) the keys that write are off the key bar (the keys say why)."""
+        return not (action in self.WRITING_ACTIONS and self.app.as_of is not None)
+
+    def on_key(self, event) -> None:
+        self.app.read_only_key(self, event)
+
     @on(DataTable.RowHighlighted, "#readings-table")
     def _reading_highlighted(self, event: DataTable.RowHighlighted) -> None:
         """Everything about the reading under the cursor, for narrow terminals."""
@@ -271,16 +306,32 @@ class PumpScreen(Screen):
     def _show_history(self, trail) -> None:
         from logbook.commands.history import describe
 
+        rows = [[entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, *describe(entry), entry.reason or ""]
+                for entry in reversed(trail)] or [["-", "", "no recorded changes", "", ""]]
         table = self.query_one("#history-table", DataTable)
-        if not table.columns:
-            for label in ("When (UTC)", "Who", "What", "Before -> after", "Reason"):
-                table.add_column(label, key=label)
-        table.clear()
-        for entry in reversed(trail):
-            what, change = describe(entry)
-            table.add_row(*fmt.cells(entry.at.strftime("%Y-%m-%d %H:%M"), entry.who, what, change, entry.reason or ""))
-        if not trail:
-            table.add_row(*fmt.cells("-", "", "no recorded changes", "", ""))
+        widths = history_widths(rows, table.size.width or self.app.size.width)
+        table.clear(columns=True)
+        for label, width in zip(HISTORY_COLUMNS, widths):
+            table.add_column(label, key=label, width=width)
+        self._history = {}
+        for i, cells in enumerate(rows):
+            wraps = any(w is not None and cell_len(c) > w for c, w in zip(cells, widths))
+            table.add_row(*fmt.cells(*cells), height=None if wraps else 1, key=str(i))
+            self._history[str(i)] = cells
+        self._show_history_detail(rows[0])
+
+    @on(DataTable.RowHighlighted, "#history-table")
+    def _history_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        cells = getattr(self, "_history", {}).get(event.row_key.value) if event.row_key is not None else None
+        if cells is not None:
+            self._show_history_detail(cells)
+
+    def _show_history_detail(self, cells: list[str]) -> None:
+        """The entry under the cursor in full (its reason is past the screen's edge at 80 columns)."""
+        when, who, what, change, reason = cells
+        self.query_one("#history-detail", Static).update(
+            f"{when} UTC by {who or '-'}: {what}" + (f" · {change}" if change else "") + f" · reason: {reason or '-'}"
+            if when != "-" else "No recorded changes for this pump.")
 
     def _under_cursor(self, table_id: str, records: dict):
         table = self.query_one(table_id, DataTable)

@@ -7,7 +7,7 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Container, VerticalScroll
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from logbook import fmt
 from logbook.model import ALL_KINDS, Problem, Reading
@@ -15,6 +15,7 @@ from logbook.tui import forms, present
 from logbook.tui.screens.entry import EntryScreen
 from logbook.tui.widgets.plain import Plain
 from logbook.tui.widgets.safety import SAFETY_BINDING, SafetyBox, SafetyKey
+from logbook.tui.widgets.keybar import KeyBar
 
 
 class ReadingScreen(SafetyKey, EntryScreen):
@@ -38,8 +39,8 @@ class ReadingScreen(SafetyKey, EntryScreen):
 
     def compose(self) -> ComposeResult:
         yield Plain("", id="title")
+        yield Plain("", id="saved-line")  # outside the form: never scrolled out of sight, even in part
         with VerticalScroll(classes="form", id="form"):
-            yield Plain("", id="saved-line")
             yield Plain("", id="pump-line", classes="form-hint")
             with Container(classes="fields"):
                 for d in self.field_defs():
@@ -47,7 +48,7 @@ class ReadingScreen(SafetyKey, EntryScreen):
             yield Plain("Fill in what you measured; the logbook checks it as you type.", id="check")
             yield Plain("", id="result")
             yield SafetyBox()
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def field_defs(self):
         return forms.reading_fields(self.app.units, self.app.today)
@@ -112,10 +113,10 @@ class ReadingScreen(SafetyKey, EntryScreen):
         before = self.app.pump_forecast(reading.serial)
         previous = [r for r in history.readings if (r.taken_on, r.machine_hours) < (reading.taken_on, reading.machine_hours)]
         self._pending = {"reading": reading, "before": before, "forecast": self.app.forecast}
-        self._show_result(reading, previous[-1] if previous else None, history.model, before, None)
-        if self._go_next_after_save:
+        if self._go_next_after_save:  # first: the next pump's form stays at its top (no scroll to the result)
             self._go_next_after_save = False
             self.action_next_pump()
+        self._show_result(reading, previous[-1] if previous else None, history.model, before, None)
 
     def _forecast_arrived(self, generation: int) -> None:
         pending = self._pending

@@ -11,11 +11,12 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Select, Static
+from textual.widgets import DataTable, Select, Static
 
 from logbook import fmt
 from logbook.rounds import NextTest, plan_round
 from logbook.tui.widgets.plain import Plain
+from logbook.tui.widgets.keybar import KeyBar
 
 WITHIN_STEP_DAYS = 7
 DONE, TODO = "✓", "·"
@@ -55,7 +56,7 @@ class RoundScreen(Screen):
         yield DataTable(id="round-table", cursor_type="row", zebra_stripes=True)
         yield Plain("", id="round-why")
         yield Plain("Reading the logbook…", id="status-line")
-        yield Footer(compact=True)
+        yield KeyBar()
 
     def on_mount(self) -> None:
         table = self.query_one("#round-table", DataTable)
