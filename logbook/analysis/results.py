@@ -34,6 +34,17 @@ OUTCOME_WORDS = {
     Outcome.NO_DATA: "no readings",
 }
 
+def outcome_words(kf) -> str:
+    """The outcome as the quantiles shown beside it have it: a P10 date inside the horizon with the
+    P50 beyond it is 'P50 beyond the horizon', not 'no crossing' (NO_CROSSING means no P50 crossing
+    within the horizon); a crossing whose P90 lies beyond it says so too."""
+    if kf.outcome is Outcome.NO_CROSSING and kf.p10_date is not None:
+        return "P50 beyond the horizon"
+    if kf.outcome is Outcome.CROSSING and kf.p90_date is None:
+        return "P90 beyond the horizon"
+    return OUTCOME_WORDS[kf.outcome]
+
+
 # Flags the engine may raise on a forecast.
 FLAG_OUTLIER = "outlier_dropped"  # a reading was down-weighted as a wild value
 FLAG_STEP = "step_detected"  # a sudden step (breakage?) rather than wear

@@ -5,7 +5,7 @@ from __future__ import annotations
 from rich.text import Text
 
 from logbook import fmt
-from logbook.analysis.results import OUTCOME_WORDS
+from logbook.analysis.results import outcome_words
 from logbook.model import ALL_KINDS
 
 
@@ -104,19 +104,6 @@ def run(args, ctx) -> int:
         for why in kf.not_used:
             c.print(f"{kf.kind.label} reading of {why} - not used in the trend", markup=False, highlight=False)
     return 0
-
-
-def outcome_words(kf) -> str:
-    """The outcome as the quantiles shown beside it have it: a P10 date inside the horizon with the
-    P50 beyond it is 'P50 beyond the horizon', not 'no crossing' (the engine's NO_CROSSING means
-    no P50 crossing within the horizon); a crossing whose P90 lies beyond it says so too."""
-    from logbook.analysis.results import Outcome
-
-    if kf.outcome is Outcome.NO_CROSSING and kf.p10_date is not None:
-        return "P50 beyond the horizon"
-    if kf.outcome is Outcome.CROSSING and kf.p90_date is None:
-        return "P90 beyond the horizon"
-    return OUTCOME_WORDS[kf.outcome]
 
 
 def _add(cols, *values) -> None:

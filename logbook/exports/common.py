@@ -10,7 +10,7 @@ from datetime import date
 
 from logbook.exports import in_units, unit_of
 from logbook.exports.listings import status_json
-from logbook.analysis.results import OUTCOME_WORDS, KindForecast, Outcome, PumpForecast
+from logbook.analysis.results import KindForecast, Outcome, PumpForecast, outcome_words
 from logbook.plan import PlanLine, month_label
 from logbook.units import UnitPrefs
 
@@ -328,7 +328,7 @@ def pump_rows(report) -> list[list[str]]:
         body.append([
             pf.serial, pf.model, pf.machine or "", pf.site or "", pf.status,
             w.kind.label if w else "", _unit(w.kind, u) if w else "", num(_in(w.latest_value, w.kind, u)) if w else "",
-            num(_in(w.limit.value, w.kind, u)) if w and w.limit else "", OUTCOME_WORDS[w.outcome] if w else "",
+            num(_in(w.limit.value, w.kind, u)) if w and w.limit else "", outcome_words(w) if w else "",
             day(w.p10_date) if w else "", day(w.p50_date) if w else "", flag_words(w.flags) if w else "",
         ])
     return body

@@ -15,10 +15,10 @@ from logbook.analysis.results import (
     FLAG_OUTLIER,
     FLAG_POOLED,
     FLAG_STEP,
-    OUTCOME_WORDS,
     KindForecast,
     Outcome,
     PumpForecast,
+    outcome_words,
 )
 from logbook.analysis.status import status_rank as status_rank  # re-exported: the views rank statuses by it
 from logbook.analysis.status import urgency_key  # the engine's one most-urgent-first order
@@ -298,7 +298,9 @@ def outcome_line(kf: KindForecast, prefs) -> str:
     """One line for a kind: latest against its limit, and what the engine projects."""
     latest = fmt.value(kf.kind, kf.latest_value, prefs)
     versus = fmt.against_limit(kf.kind, kf.latest_value, kf.limit, prefs) or "no limit"
-    words = OUTCOME_WORDS[kf.outcome]
+    words = outcome_words(kf)
+    if kf.outcome is Outcome.NO_CROSSING and kf.p10_date is not None:
+        words = f"P10 {fmt.day(kf.p10_date)} · {words}"
     if kf.outcome is Outcome.CROSSING:
         words = f"P10 {fmt.day(kf.p10_date)} · P50 {fmt.day(kf.p50_date)} · P90 {fmt.day(kf.p90_date)}"
     return f"{kf.kind.label}: {latest}, {versus}; {words}"

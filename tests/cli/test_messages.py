@@ -10,7 +10,7 @@ from types import SimpleNamespace
 
 from logbook import validate
 from logbook.analysis.results import Outcome
-from logbook.commands.show import outcome_words
+from logbook.analysis.results import outcome_words
 from logbook.store import Store
 from tests.store.test_cli import TODAY
 

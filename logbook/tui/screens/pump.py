@@ -11,7 +11,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Static, TabbedContent, TabPane
 
 from logbook import fmt
-from logbook.analysis.results import OUTCOME_WORDS
+from logbook.analysis.results import outcome_words
 from logbook.model import ALL_KINDS, Kind
 from logbook.tui import present
 from logbook.tui.widgets.chart import TrendChart
@@ -185,7 +185,7 @@ class PumpScreen(Screen):
         if kf is None:
             summary.update(f"{self.kind.label}: no forecast")
             return
-        words = OUTCOME_WORDS[kf.outcome]
+        words = outcome_words(kf)
         left = f"; {fmt.hours(kf.p50_hours)} left at P50" if kf.p50_hours is not None else ""
         flags = present.flag_words(kf.flags)
         trend = " ".join(present.trend(kf))
