@@ -71,3 +71,13 @@ async def settle(app, pilot) -> None:
     for _ in range(3):
         await app.workers.wait_for_complete()
         await pilot.pause()
+
+
+async def press_on_fleet(app, pilot, key: str):
+    """From the fleet view once loaded: the fleet's order of serials, then the screen ``key`` opens."""
+    await settle(app, pilot)
+    order = list(app.screen.serials)
+    await pilot.press(key)
+    await settle(app, pilot)
+    return order, app.screen
+

@@ -18,7 +18,7 @@ from logbook.tui.screens.help import HelpScreen, binding_lines
 from logbook.tui.screens.plan import NOTE, plan_widths
 from logbook.tui.screens.pump import PumpScreen, history_widths
 from logbook.tui.widgets.keybar import fit_keys
-from tests.tui.conftest import TODAY, settle
+from tests.tui.conftest import TODAY, press_on_fleet, settle
 from tests.tui.screen_text import screen_text
 from tests.tui.test_entry import crossing_pump, fill, meter_now, open_form, text
 
@@ -100,9 +100,7 @@ async def test_the_pump_key_bar_reads_whole_words(demo_app):
 async def test_the_plan_note_column_has_the_room_at_80_columns(demo_app):
     app = demo_app
     async with app.run_test(size=(WIDTH, HEIGHT)) as pilot:
-        await settle(app, pilot)
-        await pilot.press("p")
-        await settle(app, pilot)
+        await press_on_fleet(app, pilot, "p")
         plan = app.screen.plan
         shown = screen_text(app)
         notes = [line.note or line.action for line in plan.lines]
@@ -152,11 +150,7 @@ def test_history_widths_fill_the_screen_when_the_reason_would_show_cut():
 async def test_after_f3_the_saved_line_stays_whole_above_the_next_pumps_form(demo_app, demo_store):
     app = demo_app
     async with app.run_test(size=(WIDTH, HEIGHT)) as pilot:
-        await settle(app, pilot)
-        order = list(app.screen.serials)
-        await pilot.press("r")
-        await settle(app, pilot)
-        form = app.screen
+        order, form = await press_on_fleet(app, pilot, "r")
         fill(form, machine_hours=f"{meter_now(app, app.pump_forecast(order[0]).machine):.0f}",
              servo_pressure="24.5", case_drain="", oil_temp="")
         await pilot.press("f3")
@@ -175,9 +169,7 @@ async def test_after_f3_the_saved_line_stays_whole_above_the_next_pumps_form(dem
 async def test_the_models_view_shows_costs_in_full(demo_app):
     app = demo_app
     async with app.run_test(size=(WIDTH, HEIGHT)) as pilot:
-        await settle(app, pilot)
-        await pilot.press("m")
-        await settle(app, pilot)
+        await press_on_fleet(app, pilot, "m")
         table = app.screen.query_one("#models-table", DataTable)
         economies = app.money.economies
         for code, eco in economies.items():

@@ -10,7 +10,7 @@ from logbook.model import Kind
 from logbook.tui.screens.event import EventScreen
 from logbook.tui.screens.fleet import FleetScreen
 from logbook.tui.screens.reading import ReadingScreen
-from tests.tui.conftest import TODAY, settle
+from tests.tui.conftest import TODAY, press_on_fleet, settle
 
 
 def crossing_pump(app):
@@ -130,11 +130,7 @@ async def test_the_store_dry_run_catches_a_meter_running_backwards(demo_app, dem
 async def test_save_and_next_moves_along_the_fleet_order(demo_app, demo_store):
     app = demo_app
     async with app.run_test(size=(120, 40)) as pilot:
-        await settle(app, pilot)
-        order = list(app.screen.serials)
-        await pilot.press("r")
-        await settle(app, pilot)
-        form = app.screen
+        order, form = await press_on_fleet(app, pilot, "r")
         assert form.serial == order[0] and form.following[:2] == order[1:3]
         machine = app.pump_forecast(order[0]).machine
         fill(form, machine_hours=f"{meter_now(app, machine):.0f}", servo_pressure="24.5", case_drain="", oil_temp="")

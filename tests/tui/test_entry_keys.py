@@ -9,7 +9,7 @@ from __future__ import annotations
 from logbook.tui.screens.confirm import ConfirmLeave
 from logbook.tui.screens.fleet import FleetScreen
 from logbook.tui.screens.reading import ReadingScreen
-from tests.tui.conftest import TODAY, settle
+from tests.tui.conftest import TODAY, press_on_fleet, settle
 from tests.tui.screen_text import screen_text
 from tests.tui.test_entry import crossing_pump, fill, meter_now, open_form, text
 
@@ -91,11 +91,7 @@ async def test_without_a_name_given_the_technician_is_the_login_the_commands_rec
     app = make_app(StoreOpener(demo_db), today=TODAY, poll_seconds=0, blink=False)
     try:
         async with app.run_test(size=(80, 24)) as pilot:
-            await settle(app, pilot)
-            order = list(app.screen.serials)
-            await pilot.press("r")
-            await settle(app, pilot)
-            form = app.screen
+            order, form = await press_on_fleet(app, pilot, "r")
             assert isinstance(form, ReadingScreen) and form.serial == order[0]
             assert form.fields["technician"].text == "login-name" == app.store.user
             assert form.fields["technician"].has_class("-prefilled")
@@ -113,11 +109,7 @@ async def test_without_a_name_given_the_technician_is_the_login_the_commands_rec
 async def test_the_date_is_not_carried_to_the_next_pump(demo_app, demo_store):
     app = demo_app
     async with app.run_test(size=(120, 40)) as pilot:
-        await settle(app, pilot)
-        order = list(app.screen.serials)
-        await pilot.press("r")
-        await settle(app, pilot)
-        form = app.screen
+        order, form = await press_on_fleet(app, pilot, "r")
         last = app.fleet.history(order[0]).readings[-1]
         fill(form, date="2026-11-30", machine_hours=f"{meter_now(app, app.pump_forecast(order[0]).machine):.0f}",
              servo_pressure=f"{last.servo_pressure_bar or 25:g}", case_drain="", oil_temp="")

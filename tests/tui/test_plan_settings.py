@@ -15,12 +15,17 @@ from tests.tui.screen_text import screen_text
 from tests.tui.test_entry import text
 
 
+async def _opened(app, pilot, key: str, kind):
+    """The screen ``key`` opens, checked to be a ``kind``."""
+    await pilot.press(key)
+    await settle(app, pilot)
+    assert isinstance(app.screen, kind)
+    return app.screen
+
+
 async def _plan(app, pilot) -> PlanScreen:
     await settle(app, pilot)
-    await pilot.press("p")
-    await settle(app, pilot)
-    assert isinstance(app.screen, PlanScreen)
-    return app.screen
+    return await _opened(app, pilot, "p", PlanScreen)
 
 
 def _said(screen, selector) -> str:
@@ -67,10 +72,7 @@ async def test_settings_edited_on_the_plan_screen_are_stored_audited_and_planned
 
 async def _settings_form(app, pilot) -> PlanSettingsScreen:
     await _plan(app, pilot)
-    await pilot.press("s")
-    await settle(app, pilot)
-    assert isinstance(app.screen, PlanSettingsScreen)
-    return app.screen
+    return await _opened(app, pilot, "s", PlanSettingsScreen)
 
 
 async def test_a_bad_setting_is_refused_naming_the_field_and_nothing_is_stored(demo_store, demo_app):
