@@ -89,7 +89,8 @@ def reading_rows(readings: tuple[Reading, ...] | list[Reading]) -> list[dict]:
 
 
 def cost_rows(book: CostBook) -> list[dict]:
-    rows = [{"scope": "model", "name": c.model, "planned_cost": number(c.planned), "failure_cost": number(c.failure)}
+    rows = [{"scope": "currency", "name": book.currency}] if book.currency else []
+    rows += [{"scope": "model", "name": c.model, "planned_cost": number(c.planned), "failure_cost": number(c.failure)}
             for c in book.models.values()]  # fmt: skip
     rows += [{"scope": d.scope, "name": d.name, "downtime_cost_per_hour": number(d.cost_per_hour),
               "planned_downtime_hours": number(d.planned_hours), "failure_downtime_hours": number(d.failure_hours)}

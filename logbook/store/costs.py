@@ -111,9 +111,11 @@ class CostsMixin(StorePart):
     # -- a costs file (logbook import costs FILE): every row or none -------------------------
     def add_costs(self, rows: Sequence[dict], *, lines: Sequence[int] | None = None,
                   dry_run: bool = False) -> ImportReport:
-        """Rows of ``scope`` (model, site or machine), ``name`` and that scope's columns: a model's
+        """Rows of ``scope`` (model, site, machine or currency), ``name`` and that scope's columns: a model's
         ``planned_cost`` and ``failure_cost``, a site's or machine's ``downtime_cost_per_hour``,
-        ``planned_downtime_hours`` and ``failure_downtime_hours``. All checked first, then written
+        ``planned_downtime_hours`` and ``failure_downtime_hours``; a currency row names the currency the
+        amounts are in (set when the logbook has none; another than the logbook's is refused: no
+        exchange rates). All checked first, then written
         in one transaction (audited); a row equal to what is stored counts as already present.
         ``flagged`` says what a model's costs mean when a failure costs no more than its job."""
         from logbook.store.batches import Checked
@@ -125,12 +127,34 @@ class CostsMixin(StorePart):
             book, models = self.costs(), set(self.models())
             machines = self.machines()
             known = {"model": models, "site": {m.site for m in machines.values()}, "machine": set(machines)}
-            problems, items, present, notes, seen = [], [], 0, [], set()
+            problems: list[Problem] = []
+            items: list[tuple] = []  # (scope, new, old); a currency: (scope, code, None)
+            present, notes, seen = 0, [], set[tuple]()
             for i, row in enumerate(rows):
                 line = line_of(i)
                 scope, name = (row.get("scope") or "").strip().lower(), row.get("name")
+                if scope == "currency":
+                    code = (name or "").strip().upper()
+                    extra = [c for c in (*MODEL_COLUMNS, *DOWNTIME_COLUMNS) if row.get(c) is not None]
+                    if not CURRENCY_RE.match(code):
+                        problems.append(Problem("name", name or "", "a currency row names a three-letter currency "
+                                                "code (ISO 4217), e.g. EUR", line=line))
+                    elif extra:
+                        problems.append(Problem(extra[0], row[extra[0]], "must be blank for a currency row", line=line))
+                    elif "currency" in {s for s, _ in seen}:
+                        problems.append(Problem("scope", "currency", "appears twice in this file", line=line))
+                    elif book.currency and book.currency != code:
+                        problems.append(Problem("name", code, f"the logbook's amounts are in {book.currency}: this "
+                                                "file's cannot be taken without exchange rates", line=line))
+                    elif book.currency == code:
+                        present += 1
+                    else:
+                        items.append(("currency", code, None))
+                    seen.add(("currency", code))
+                    continue
                 if scope not in known:
-                    problems.append(Problem("scope", row.get("scope") or "", "must be model, site or machine", line=line))
+                    problems.append(Problem("scope", row.get("scope") or "",
+                                            "must be model, site, machine or currency", line=line))
                     continue
                 if (scope, name) in seen:
                     problems.append(Problem("name", name, f"appears twice in this file for {scope}", line=line))
@@ -168,6 +192,11 @@ class CostsMixin(StorePart):
 
         def write(checked: Checked) -> None:
             for scope, new, old in checked.items:
+                if scope == "currency":
+                    self.conn.execute("INSERT INTO settings (key, value) VALUES ('currency', ?) "
+                                      "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (new,))
+                    self._audit("set", "settings", "currency", None, None, {"currency": new})
+                    continue
                 if scope == "model":
                     self.conn.execute(
                         "INSERT INTO costs (scope, name, planned_cost, failure_cost) VALUES ('model', ?, ?, ?) "

@@ -49,7 +49,7 @@ def test_every_record_comes_back_from_its_export(demo, tmp_path, capsys):
     assert len(want["readings"]) > 1000 and len(want["events"]) > 5 and len(want["fitments"]) > len(want["pumps"]) * 0.9
     for key in want:
         assert got[key] == want[key], key
-    assert (out / "costs.csv").read_text().startswith("# currency EUR")
+    assert (out / "costs.csv").read_text().splitlines()[1] == "currency,EUR,,,,,"
 
 
 def test_an_existing_file_is_kept_and_nothing_is_written(demo, tmp_path, capsys):
@@ -78,3 +78,46 @@ def test_one_pumps_readings_and_text_that_looks_like_a_formula(demo, tmp_path, c
     assert lines[-1].endswith(",'=1+1")
     assert main(["--db", str(db), "export", "pumps", "--serial", "B-25530"]) == 2
     assert "--serial" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("args, says", [
+    (["readings", "--out", "{tmp}/no/such/x.csv"], "does not exist"),
+    (["all", "--out", "{tmp}/a-file"], "is a file"),
+    (["readings", "--out", "{tmp}/a-folder", "--force"], "is a folder"),
+    (["readings", "--serial", "b-25530"], "did you mean B-25530?"),
+])
+def test_a_bad_out_or_serial_is_named_and_nothing_is_written(demo, tmp_path, capsys, args, says):
+    (tmp_path / "a-file").write_text("mine\n")
+    (tmp_path / "a-folder").mkdir()
+    before = sorted(p.name for p in tmp_path.rglob("*"))
+    assert main(["--db", str(demo), "export", *(a.replace("{tmp}", str(tmp_path)) for a in args)]) == 2
+    assert says in capsys.readouterr().err
+    assert sorted(p.name for p in tmp_path.rglob("*")) == before and (tmp_path / "a-file").read_text() == "mine\n"
+
+
+def test_out_dash_is_standard_output(demo, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    assert main(["--db", str(demo), "export", "models", "--out", "-"]) == 0
+    assert capsys.readouterr().out.startswith("model,description,") and not (tmp_path / "-").exists()
+
+
+def test_the_currency_row_sets_an_empty_logbooks_currency_and_refuses_another(demo, tmp_path, capsys):
+    out = tmp_path / "costs.csv"
+    assert main(["--db", str(demo), "export", "costs", "--out", str(out)]) == 0
+    fresh = tmp_path / "fresh.db"
+    for table in ORDER[:-1]:  # the records the costs name
+        assert main(["--db", str(demo), "export", table, "--out", str(tmp_path / f"{table}.csv")]) == 0
+    assert main(["--db", str(fresh), "init"]) == 0
+    for table in ORDER[:-1]:
+        assert main(["--db", str(fresh), "--today", TODAY, "import", table, str(tmp_path / f"{table}.csv")]) == 0
+    assert main(["--db", str(fresh), "import", "costs", str(out)]) == 0
+    with Store(fresh) as store:
+        assert store.costs().currency == "EUR"
+    assert main(["--db", str(fresh), "import", "costs", str(out)]) == 0  # again: already there
+    assert "already present" in capsys.readouterr().out
+    other = tmp_path / "usd.csv"
+    other.write_text(out.read_text().replace("currency,EUR", "currency,USD"))
+    assert main(["--db", str(fresh), "import", "costs", str(other)]) == 2
+    assert "exchange rates" in capsys.readouterr().err
+    with Store(fresh) as store:
+        assert store.costs().currency == "EUR"

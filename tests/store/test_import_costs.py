@@ -43,7 +43,7 @@ def test_bad_rows_name_column_value_and_line_and_nothing_is_written(store):
     seen = {(p.line, p.field) for p in report.problems}
     assert {(3, "name"), (4, "downtime_cost_per_hour"), (5, "planned_cost"), (6, "scope"), (7, "name")} <= seen
     text = " ".join(str(p) for p in report.problems)
-    assert "TX-99" in text and "-5" in text and "model, site or machine" in text
+    assert "TX-99" in text and "-5" in text and "model, site, machine or currency" in text
     assert report.added == 0 and store.change_count() == before and store.costs().models == {}
 
 
