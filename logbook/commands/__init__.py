@@ -34,7 +34,7 @@ def print_report(ctx, report: ImportReport, name: str, *, lists_beside=None) -> 
 
 def _capped(ctx, console, lines: list[str], beside, what: str) -> None:
     for line in lines[:SHOWN]:
-        console.print(line, markup=False)
+        console.print(line, markup=False, soft_wrap=not console.is_terminal)  # a file keeps a line per message
     if len(lines) <= SHOWN:
         return
     rest = len(lines) - SHOWN

@@ -203,7 +203,7 @@ def run(args, ctx) -> int:
                 ctx.err.print(f"logbook forecast: {exc}", markup=False, soft_wrap=True)
                 return 2 if isinstance(exc, OutputRefused) else 1
     if fmt == "text":  # after the progress line is cleared
-        _print_text(ctx, plan, notes)
+        _print_text(ctx, plan, notes, setup.words(tuple(fleet.models)))
         return 0
     if args.out != "-" and ctx.err.is_terminal:
         ctx.err.print(
@@ -212,7 +212,7 @@ def run(args, ctx) -> int:
     return 0
 
 
-def _print_text(ctx, plan, notes) -> None:
+def _print_text(ctx, plan, notes, assumed: str) -> None:
     """The plan for a terminal: its months, the pumps that do not fit and those to test again, as tables that
     fit the console (``commands.tables.fit``); the reasons, fleet life and costs are in the other formats."""
     from logbook import fmt as show
@@ -224,6 +224,7 @@ def _print_text(ctx, plan, notes) -> None:
     last = s.months[-1] if s.months else s.start_month
     c.print(f"Overhaul plan {month_label(s.start_month)} to {month_label(last)} ({s.horizon_months} months), placed by "
             f"{plan.placement}; forecast of {plan.today.isoformat()}", markup=False)
+    c.print(f"  assumed: {assumed}", markup=False)
     for note in (*notes, *((plan.placement_note,) if plan.placement_note else ())):
         c.print(f"  {note}", markup=False)
     cols = [Col("month", 0), Col("serial", 0, keep=True), Col("model", 4), Col("site", 5, wrap=True),

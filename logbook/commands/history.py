@@ -42,7 +42,8 @@ def describe(entry) -> tuple[str, str]:
     if entry.action == "import":
         n = next((v for k, v in after.items() if k.endswith("of this pump")), "?")
         return (f"import of {after.get('file')}",
-                f"{n} {entry.table} (ids {after.get('ids')}, {after.get('dates')}), sha256 {str(after.get('sha256'))[:12]}...")
+                f"{n} {entry.table.removesuffix('s') if n == 1 else entry.table} (ids {after.get('ids')}, "
+                f"{after.get('dates')}), sha256 {str(after.get('sha256'))[:12]}...")
     if entry.action == "insert":
         keys = _KEY_FIELDS.get(entry.table, tuple(k for k in after if k not in _NOISE))
         return what, ", ".join(f"{k} {_value(after.get(k))}" for k in keys if after.get(k) is not None)

@@ -21,6 +21,7 @@ def test_the_text_plan_lists_every_planned_pump_within_80_columns(tmp_path, caps
     assert main(["--db", str(db), "--today", TODAY, "forecast", "--format", "text"]) == 0
     out = capsys.readouterr().out
     assert out.startswith("Overhaul plan 2026-12 to ") and f"planned ({len(planned)})" in out
+    assert "assumed: shop capacity no limit; exchange pumps no limit set" in " ".join(out.split())
     rows = [m.group(1) for m in re.finditer(r"^\d{4}-\d{2}  ([A-Z]-\d+) ", out, re.M)]
     assert rows == planned  # the plan's own order, every line
     assert max(len(line) for line in out.splitlines()) <= 80
