@@ -37,6 +37,10 @@ async def test_b_opens_the_backtest_per_model_at_80_by_24(demo_app, demo_store):
         result = run_backtest(now, history, known, origin_dates(*default_span(now, TODAY), 1, "months"))
         row = table.get_row("all")
         assert row[1] == f"{result.overall.readings:,}" and row[2] == f"{result.overall.below_p10:.2f}"
+        for key in table.rows:  # no crossing: no Kaplan-Meier share before P10, as after P90
+            cells = table.get_row(key)
+            if cells[5] == "0":
+                assert cells[6] == "-" and cells[7] == "-", cells
         await pilot.press("escape")
         assert isinstance(app.screen, FleetScreen)
 

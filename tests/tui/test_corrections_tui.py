@@ -4,6 +4,8 @@ pump's history; all through the store's own correct/remove, audited as on the CL
 
 from __future__ import annotations
 
+from tests.tui.screen_text import screen_text
+
 from logbook.tui.screens.confirm import AskReason
 from logbook.tui.screens.correct import CorrectReadingScreen
 from logbook.tui.screens.pump import PumpScreen
@@ -33,6 +35,8 @@ async def test_a_reading_is_corrected_from_the_pump_view(demo_app, demo_store):
         assert isinstance(form, CorrectReadingScreen) and form.original.id == newest.id
         assert form.fields["machine_hours"].text == f"{newest.machine_hours:g}"
         assert app.focused is form.fields["reason"].input
+        bar = screen_text(app)  # one reading is corrected: no next pump, so no F3 or F4 on its key bar
+        assert "Save+next" not in bar and "Skip pump" not in bar and "F2" in bar
         await pilot.press("f2")  # no reason: refused, nothing written
         await settle(app, pilot)
         assert "Reason (empty): is required" in text(form.query_one("#check"))

@@ -102,8 +102,8 @@ async def test_every_bad_setting_is_named_on_one_f2_and_nothing_is_written(demo_
         await settle(demo_app, pilot)
         check = _said(form, "#check")
         assert "not saved" in check and "4 field(s) to fix" in check
-        for said in ("Shop capacity '-2': zero or more jobs a month", "Horizon '0': a whole number of months from 1 to 60",
-                     "Turnaround '30': 0 to 24 months", "'-1': zero or more jobs a month"):
+        for said in ("Shop capacity '-2': must be a whole number of jobs a month, 0 or more", "Horizon '0': a whole number of months from 1 to 60",
+                     "Turnaround '30': 0 to 24 months", "'-1': must be a whole number of jobs a month, 0 or more"):
             assert said in check, said
         assert form.sites[0] in check  # the site is named
         assert all(form.fields[n].has_class("-bad") for n in ("capacity", "horizon", "turnaround", "site_0"))
@@ -177,3 +177,26 @@ async def test_export_from_the_plan_screen_is_in_the_apps_units(demo_store, tmp_
     doc = json.loads(target.read_text())
     assert doc["units"]["pressure"] == "psi" and doc["units"]["flow"] == "gpm"
     assert {r["unit"] for r in doc["forecasts"]} <= {"psi", "gpm"}
+
+
+async def test_settings_messages_say_why_and_mark_every_bad_field(demo_app):
+    async with demo_app.run_test(size=(120, 40)) as pilot:
+        await _plan(demo_app, pilot)
+        await pilot.press("s")
+        await settle(demo_app, pilot)
+        form = demo_app.screen
+        assert isinstance(form, PlanSettingsScreen)
+        form.fields["turnaround"].input.value = "0.5"
+        form.fields["site_0"].input.value = "1,5"
+        form.fields["model_0"].input.value = "x"
+        await pilot.press("f2")
+        await settle(demo_app, pilot)
+        turnaround = _said(form.fields["turnaround"], ".field-message")
+        assert "whole number" in turnaround and "0 to 24" in turnaround
+        site = _said(form.fields["site_0"], ".field-message")
+        assert "whole number" in site and "decimal comma" in site
+        rows = screen_text(demo_app).splitlines()
+        for name in ("turnaround", "site_0", "model_0"):  # the mark is on screen, not cut off
+            label = form.fields[name].label_text
+            assert any(label in row and "✗" in row for row in rows), name
+        assert "whole number" in _said(form.fields["model_0"], ".field-message")

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from tests.tui.screen_text import screen_text
+
 from logbook.store import Store
 from logbook.tui.app import make_app
 from logbook.tui.screens.reading import ReadingScreen
@@ -82,3 +84,15 @@ async def test_key_o_on_the_fleet_view_opens_the_round(tmp_path):
         await pilot.pause()
         assert not isinstance(app.screen, RoundScreen)
     store.close()
+
+
+async def test_the_round_status_line_fits_80_columns(tmp_path):
+    store = _store(tmp_path)
+    app = make_app(store, today=TODAY, poll_seconds=0, blink=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _loaded(app, pilot)
+        app.push_screen(RoundScreen(site="North Yard", within_days=21))
+        await pilot.pause()
+        line = " ".join(str(app.screen.query_one("#status-line").render()).split())
+        assert line.endswith("Esc back)") and "F4 skip" in line
+        assert "F4 skip, Esc back)" in screen_text(app)  # on screen whole, not cut at the edge

@@ -128,7 +128,8 @@ class BacktestScreen(Screen):
         table = self.query_one("#backtest-table", DataTable)
         table.clear()
         for label, f in [("all", result.overall), *result.groups["model"].items()]:
-            table.add_row(label, *(cell(k, getattr(f, k)) for k, _ in TABLE), key=label)
+            table.add_row(label, *("-" if k == "km_before_p10" and not f.crossings else cell(k, getattr(f, k))
+                                   for k, _ in TABLE), key=label)  # no crossing: no share before P10
         self.query_one("#backtest-status", Static).update(headline(result))
         self.query_one("#backtest-notes", Static).update("\n".join((
             "<P10, >P90: share of later readings below / above the forecast's 10 % / 90 % quantile; "

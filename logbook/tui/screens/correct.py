@@ -22,6 +22,12 @@ class CorrectReadingScreen(ReadingScreen):
         self.original = reading
         self._texts: dict[str, str] = {}
 
+    def check_action(self, action: str, parameters) -> bool | None:
+        """One reading is corrected: no next pump here (F3, F4 are off, and off the key bar)."""
+        if action in ("save_next", "next_pump"):
+            return False
+        return super().check_action(action, parameters)
+
     def field_defs(self):
         return (forms.reason_field(), *super().field_defs())
 

@@ -26,27 +26,38 @@ def _count(name: str, allowed: str, *, blank_ok: bool):
 
     def parse(text: str):
         if text.strip() == "":
-            return None, (None if blank_ok else Problem(name, text, f"is required: {allowed}"))
+            return None, (None if blank_ok else Problem(name, text, f"is required; it {allowed}"))
         value = whole_number(text.strip())
         if value is None or value < 0:
-            return None, Problem(name, text, allowed)
+            return None, Problem(name, text, allowed + _why_not_whole(text.strip()))
         return value, None
 
     return parse
 
 
+def _why_not_whole(text: str) -> str:
+    """Why a value typed is no whole number, when a person could wonder."""
+    if "," in text:
+        return " (no decimal comma or thousands separator: digits only)"
+    if "." in text:
+        return f" ({text} is not a whole number)"
+    if text.startswith("-"):
+        return " (not below 0)"
+    return ""
+
+
 def setup_fields(sites, models) -> tuple[FieldDef, ...]:
     fields = [
-        FieldDef("horizon", "Horizon", _count("horizon", "a whole number of months from 1 to 60", blank_ok=False), "months"),
-        FieldDef("capacity", "Shop capacity", _count("capacity", "zero or more jobs a month", blank_ok=True),
+        FieldDef("horizon", "Horizon", _count("horizon", "must be a whole number of months from 1 to 60", blank_ok=False), "months"),
+        FieldDef("capacity", "Shop capacity", _count("capacity", "must be a whole number of jobs a month, 0 or more", blank_ok=True),
                  "jobs a month", "blank: no limit"),
-        FieldDef("turnaround", "Turnaround", _count("turnaround", "0 to 24 months", blank_ok=False), "months",
+        FieldDef("turnaround", "Turnaround", _count("turnaround", "must be a whole number of months from 0 to 24", blank_ok=False), "months",
                  "until a removed pump is back as an exchange pump"),
     ]
     # one field per site and per model, named by position (a field name is a screen identifier)
-    fields += [FieldDef(f"site_{i}", _label(s), _count(f"site capacity {s}", "zero or more jobs a month", blank_ok=True),
+    fields += [FieldDef(f"site_{i}", _label(s), _count(f"site capacity {s}", "must be a whole number of jobs a month, 0 or more", blank_ok=True),
                         "jobs a month", "blank: no limit") for i, s in enumerate(sites)]
-    fields += [FieldDef(f"model_{i}", f"Exchange {m}", _count(f"exchange {m}", "zero or more pumps", blank_ok=True),
+    fields += [FieldDef(f"model_{i}", f"Exchange {m}", _count(f"exchange {m}", "must be a whole number of pumps, 0 or more", blank_ok=True),
                         "pumps on hand", "blank: no limit") for i, m in enumerate(models)]
     return tuple(fields)
 

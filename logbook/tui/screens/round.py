@@ -126,8 +126,8 @@ class RoundScreen(Screen):
         elif not self.stops:
             line = f"No pump at {self.site} is due for a reading within {self.within_days} days."
         else:
-            line = (f"{len(done)} of {len(self.stops)} read · Enter or g: read from the selected pump on "
-                    "(F3 save and next, F4 skip, Esc back here)")
+            line = (f"{len(done)} of {len(self.stops)} read · Enter/g: read from here on "
+                    "(F3 save+next, F4 skip, Esc back)")  # fits 80 columns
         self.query_one("#status-line", Static).update(line)
         self._show_why()
 
