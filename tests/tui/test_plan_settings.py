@@ -181,11 +181,7 @@ async def test_export_from_the_plan_screen_is_in_the_apps_units(demo_store, tmp_
 
 async def test_settings_messages_say_why_and_mark_every_bad_field(demo_app):
     async with demo_app.run_test(size=(120, 40)) as pilot:
-        await _plan(demo_app, pilot)
-        await pilot.press("s")
-        await settle(demo_app, pilot)
-        form = demo_app.screen
-        assert isinstance(form, PlanSettingsScreen)
+        form = await _settings_form(demo_app, pilot)
         form.fields["turnaround"].input.value = "0.5"
         form.fields["site_0"].input.value = "1,5"
         form.fields["model_0"].input.value = "x"

@@ -29,10 +29,7 @@ async def test_a_round_steps_through_its_pumps_and_ticks_the_ones_read(tmp_path)
     store = _store(tmp_path)
     app = make_app(store, today=TODAY, poll_seconds=0, blink=False)
     async with app.run_test(size=(120, 36)) as pilot:
-        await _loaded(app, pilot)
-        app.push_screen(RoundScreen(site="North Yard", within_days=0))
-        await pilot.pause()
-        screen = app.screen
+        screen = await _round(app, pilot, 0)
         assert [t.serial for t in screen.stops] == ["S-200"]  # only the overdue one today
         await pilot.press("plus", "plus", "plus")  # 21 days ahead, to 2026-12-22: S-100 comes in, first by machine
         assert [(t.machine, t.serial) for t in screen.stops] == [("M-1", "S-100"), ("M-2", "S-200")]
@@ -86,13 +83,18 @@ async def test_key_o_on_the_fleet_view_opens_the_round(tmp_path):
     store.close()
 
 
+async def _round(app, pilot, within_days: int) -> RoundScreen:
+    """The North Yard round once the fleet is loaded."""
+    await _loaded(app, pilot)
+    app.push_screen(RoundScreen(site="North Yard", within_days=within_days))
+    await pilot.pause()
+    return app.screen
+
+
 async def test_the_round_status_line_fits_80_columns(tmp_path):
-    store = _store(tmp_path)
-    app = make_app(store, today=TODAY, poll_seconds=0, blink=False)
+    app = make_app(_store(tmp_path), today=TODAY, poll_seconds=0, blink=False)
     async with app.run_test(size=(80, 24)) as pilot:
-        await _loaded(app, pilot)
-        app.push_screen(RoundScreen(site="North Yard", within_days=21))
-        await pilot.pause()
+        await _round(app, pilot, 21)
         line = " ".join(str(app.screen.query_one("#status-line").render()).split())
         assert line.endswith("Esc back)") and "F4 skip" in line
         assert "F4 skip, Esc back)" in screen_text(app)  # on screen whole, not cut at the edge
