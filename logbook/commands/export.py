@@ -56,7 +56,7 @@ def _targets(args, tables) -> tuple[dict, list[Problem]]:
 
 
 def run(args, ctx) -> int:
-    from logbook.exports.tables_csv import ORDER, table_rows, to_csv
+    from logbook.records_csv import ORDER, table_rows, to_csv
 
     problems = []
     if args.serial is not None and args.table not in ("readings", "events"):

@@ -114,5 +114,6 @@ def test_help_and_a_command_without_forecast_import_no_scipy(tmp_path):
     assert _scipy_after(["--help"]) == "False"
     assert _scipy_after(["--db", db, "init"]) == "False"
     assert _scipy_after(["--db", db, "model", "list"]) == "False"
+    assert _scipy_after(["--db", db, "export", "readings"]) == "False"  # the records out: no forecast
     # the check above can fail: a command that forecasts does import scipy
     assert _scipy_after(["--db", db, "--today", "2026-01-01", "pumps"]) == "True"

@@ -1,4 +1,5 @@
-"""The logbook's own records as the CSV files ``logbook import`` reads (docs/csv-formats.md).
+"""The logbook's own records as the CSV files ``logbook import`` reads (docs/csv-formats.md): the
+writing side of ``imports``.
 
 What is current goes out: readings as they stand after corrections (the corrected
 originals, removed readings and removed events stay in the database and its history),
