@@ -203,7 +203,7 @@ def run(args, ctx) -> int:
                 ctx.err.print(f"logbook forecast: {exc}", markup=False, soft_wrap=True)
                 return 2 if isinstance(exc, OutputRefused) else 1
     if fmt == "text":  # after the progress line is cleared
-        _print_text(ctx, plan, notes, setup.words(tuple(fleet.models)))
+        _print_text(ctx, report, notes, setup.words(tuple(fleet.models)))
         return 0
     if args.out != "-" and ctx.err.is_terminal:
         ctx.err.print(
@@ -212,13 +212,15 @@ def run(args, ctx) -> int:
     return 0
 
 
-def _print_text(ctx, plan, notes, assumed: str) -> None:
+def _print_text(ctx, report, notes, assumed: str) -> None:
     """The plan for a terminal: its months, the pumps that do not fit and those to test again, as tables that
-    fit the console (``commands.tables.fit``); the reasons, fleet life and costs are in the other formats."""
-    from logbook import fmt as show
+    fit the console (``commands.tables.fit``), with the cells the exports print (``exports.common.plan_row``);
+    the reasons, fleet life and costs are in the other formats."""
     from logbook.commands.tables import Col, fit
+    from logbook.exports.common import plan_row, pumps_by_serial
     from logbook.plan import month_label
 
+    plan = report.plan
     s = plan.settings
     c = ctx.console
     last = s.months[-1] if s.months else s.start_month
@@ -227,22 +229,25 @@ def _print_text(ctx, plan, notes, assumed: str) -> None:
     c.print(f"  assumed: {assumed}", markup=False)
     for note in (*notes, *((plan.placement_note,) if plan.placement_note else ())):
         c.print(f"  {note}", markup=False)
-    cols = [Col("month", 0), Col("serial", 0, keep=True), Col("model", 4), Col("site", 5, wrap=True),
-            Col("reading", 2, wrap=True), Col("P10", 1), Col("where", 3), Col("note", 6, wrap=True)]
-    for line in plan.lines:
-        for col, v in zip(cols, (month_label(line.month), line.serial, line.model, line.site or "-", line.kind.label,
-                                 show.day(line.p10_date), "shop" if line.shop else "on machine", line.note or "")):
-            col.cells.append(v)
+    pumps = pumps_by_serial(report)
     more = "logbook forecast --format md, html, csv or json has them, with each reason"
-    c.print(fit(c, cols, title=f"planned ({len(plan.lines)})", more=more)[0])
+
+    def table(title: str, lines, cols: list[tuple[str, Col]]) -> None:
+        for line in lines:
+            row = plan_row(line, pumps.get(line.serial), report.units)
+            for key, col in cols:
+                col.cells.append(row[key] or ("-" if key != "note" else ""))  # a terminal shows "no date" as -
+        c.print(fit(c, [col for _, col in cols], title=f"{title} ({len(lines)})", more=more)[0])
+
+    table("planned", plan.lines, [
+        ("month", Col("month", 0)), ("serial", Col("serial", 0, keep=True)), ("model", Col("model", 4)),
+        ("site", Col("site", 5, wrap=True)), ("reading", Col("reading", 2, wrap=True)),
+        ("p10_date", Col("P10", 1)), ("plan", Col("where", 3)), ("note", Col("note", 6, wrap=True))])
     if plan.unplaced:
-        cols = [Col("latest month", 0), Col("serial", 0, keep=True), Col("model", 3), Col("reading", 2, wrap=True),
-                Col("P10", 1), Col("why", 0, keep=True, wrap=True)]
-        for line in plan.unplaced:
-            for col, v in zip(cols, (month_label(line.target_month), line.serial, line.model, line.kind.label,
-                                     show.day(line.p10_date), line.note or "")):
-                col.cells.append(v)
-        c.print(fit(c, cols, title=f"do not fit ({len(plan.unplaced)})", more=more)[0])
+        table("do not fit", plan.unplaced, [
+            ("target_month", Col("latest month", 0)), ("serial", Col("serial", 0, keep=True)),
+            ("model", Col("model", 3)), ("reading", Col("reading", 2, wrap=True)), ("p10_date", Col("P10", 1)),
+            ("note", Col("why", 0, keep=True, wrap=True))])
     if plan.retests:
         cols = [Col("serial", 0, keep=True), Col("model", 2), Col("reading", 1, wrap=True), Col("why", 0, keep=True, wrap=True)]
         for r in plan.retests:
