@@ -51,11 +51,14 @@ class CostsMixin(StorePart):
         if not CURRENCY_RE.match(value):
             raise InputRejected([Problem("currency", code, "must be a three-letter currency code (ISO 4217), e.g. EUR or USD")])
         with self.transaction():
-            old = self.costs().currency
-            self.conn.execute("INSERT INTO settings (key, value) VALUES ('currency', ?) "
-                              "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (value,))
-            self._audit("set", "settings", "currency", None, {"currency": old} if old else None, {"currency": value})
+            self._write_currency(value, self.costs().currency)
         return value
+
+    def _write_currency(self, value: str, old: str) -> None:
+        """Store the currency (inside the caller's transaction), audited."""
+        self.conn.execute("INSERT INTO settings (key, value) VALUES ('currency', ?) "
+                          "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (value,))
+        self._audit("set", "settings", "currency", None, {"currency": old} if old else None, {"currency": value})
 
     def set_model_costs(self, model: str, *, planned: float | None, failure: float | None) -> tuple[ModelCosts, list[str]]:
         """Planned and failure cost of one model's jobs; returns them and plain-word notes."""
@@ -193,9 +196,7 @@ class CostsMixin(StorePart):
         def write(checked: Checked) -> None:
             for scope, new, old in checked.items:
                 if scope == "currency":
-                    self.conn.execute("INSERT INTO settings (key, value) VALUES ('currency', ?) "
-                                      "ON CONFLICT(key) DO UPDATE SET value = excluded.value", (new,))
-                    self._audit("set", "settings", "currency", None, None, {"currency": new})
+                    self._write_currency(new, "")  # only ever set where none was
                     continue
                 if scope == "model":
                     self.conn.execute(
